@@ -1,0 +1,49 @@
+import { fileURLToPath } from 'node:url'
+
+// The problem-document handler runs before Nuxt's own error page handler, so API routes
+// answer RFC 9457 JSON while pages keep Nuxt's error page.
+const problemErrorHandler = fileURLToPath(new URL('./server/error.ts', import.meta.url))
+
+export default defineNuxtConfig({
+  compatibilityDate: '2026-11-01',
+  devtools: { enabled: false },
+  telemetry: false,
+  modules: ['@nuxtjs/tailwindcss', '@pinia/nuxt', 'nuxt-auth-utils', '@nuxt/eslint'],
+  css: [
+    '@fontsource/inter/400.css',
+    '@fontsource/inter/500.css',
+    '@fontsource/inter/600.css',
+    '@fontsource/jetbrains-mono/400.css',
+    '@fontsource/jetbrains-mono/500.css',
+  ],
+  app: {
+    head: {
+      htmlAttrs: { lang: 'en' },
+      title: 'Arcwise',
+      meta: [{ name: 'viewport', content: 'width=device-width, initial-scale=1' }],
+    },
+  },
+  tailwindcss: { viewer: false, exposeConfig: false, cssPath: '~/assets/css/main.css' },
+  runtimeConfig: {
+    databaseUrl: '',
+    appUrl: 'http://localhost:3000',
+    smtp: { host: '127.0.0.1', port: 2525, from: 'Arcwise <no-reply@arcwise.invalid>' },
+    // URL of the local SMTP fake's message list; empty outside development and tests.
+    mailCaptureUrl: '',
+    signIn: { maxFailures: 5, lockMinutes: 15 },
+    session: { maxAge: 60 * 60 * 12 },
+    public: { mailCapture: false },
+  },
+  nitro: {
+    imports: { dirs: ['./server/services'] },
+    experimental: { tasks: false },
+  },
+  hooks: {
+    'nitro:config'(config) {
+      const existing = [config.errorHandler].flat().filter((h): h is string => typeof h === 'string')
+      config.errorHandler = [problemErrorHandler, ...existing]
+    },
+  },
+  typescript: { strict: true },
+  eslint: { config: { stylistic: false } },
+})

@@ -1,0 +1,3 @@
+import { cli } from './lib/pg'
+
+await cli(process.argv.slice(2))

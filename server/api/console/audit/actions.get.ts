@@ -1,0 +1,4 @@
+export default defineEventHandler(async (event) => {
+  await requirePermission(event, 'audit:read')
+  return { items: await auditActions() }
+})

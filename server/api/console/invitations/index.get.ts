@@ -1,0 +1,4 @@
+export default defineEventHandler(async (event) => {
+  await requirePermission(event, 'users:read')
+  return { items: await listInvitations() }
+})

@@ -1,0 +1,9 @@
+import { idParams } from '#shared/schemas/common'
+import { partnerUpdate } from '#shared/schemas/orgs'
+
+export default defineEventHandler(async (event) => {
+  const actor = await requirePermission(event, 'partners:update')
+  const { id } = getValidParams(event, idParams)
+  const change = await readValidBody(event, partnerUpdate)
+  return updateOrg(event, actor, 'partner', id, change)
+})

@@ -1,0 +1,8 @@
+import { partnerInput } from '#shared/schemas/orgs'
+
+export default defineEventHandler(async (event) => {
+  const actor = await requirePermission(event, 'partners:create')
+  const input = await readValidBody(event, partnerInput)
+  setResponseStatus(event, 201)
+  return createOrg(event, actor, 'partner', input)
+})

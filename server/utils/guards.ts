@@ -1,0 +1,32 @@
+import type { H3Event } from 'h3'
+import { eq } from 'drizzle-orm'
+import { users } from '../database/schema'
+import { permissions, type Permission, type Role, type SessionUser } from '#shared/types/roles'
+
+/** The signed-in user, reloaded from the database so role changes and disabling act at once. 401 otherwise. */
+export async function requireUser(event: H3Event): Promise<SessionUser> {
+  if (event.context.user) return event.context.user as SessionUser
+  const session = await getUserSession(event)
+  const sessionUser = session.user as { id?: string, sessionVersion?: number } | undefined
+  if (!sessionUser?.id) throw problem(401, 'not-signed-in', 'Sign in to continue.')
+  const row = await useDb().query.users.findFirst({ where: eq(users.id, sessionUser.id) })
+  if (!row || row.status !== 'active' || row.sessionVersion !== sessionUser.sessionVersion) {
+    await clearUserSession(event)
+    throw problem(401, 'not-signed-in', 'Your session has ended; sign in again.')
+  }
+  const user: SessionUser = { id: row.id, email: row.email, name: row.name, role: row.role, labId: row.labId, partnerId: row.partnerId }
+  event.context.user = user
+  return user
+}
+
+/** The signed-in user when their role is one of `allowed`; 401 signed out, 403 otherwise. */
+export async function requireRole(event: H3Event, ...allowed: Role[]): Promise<SessionUser> {
+  const user = await requireUser(event)
+  if (!allowed.includes(user.role)) throw problem(403, 'forbidden', 'Your role may not do this.')
+  return user
+}
+
+/** The signed-in user when their role holds `permission` in the shared permission table. */
+export function requirePermission(event: H3Event, permission: Permission): Promise<SessionUser> {
+  return requireRole(event, ...permissions[permission])
+}

@@ -1,0 +1,37 @@
+import { z } from 'zod'
+import { displayName, email, slug } from './common'
+
+export const labInput = z.object({
+  slug,
+  name: displayName,
+  site: z.string({ error: 'is required' }).trim().min(1, 'is required').max(120),
+  contactEmail: email,
+})
+export type LabInput = z.infer<typeof labInput>
+export const labUpdate = labInput.partial().refine(v => Object.keys(v).length > 0, 'change at least one field')
+
+export const partnerKinds = ['client_lab', 'regulator', 'data_team', 'proficiency_test'] as const
+export const partnerKindLabels: Record<(typeof partnerKinds)[number], string> = {
+  client_lab: 'Client lab',
+  regulator: 'Regulator',
+  data_team: 'Data team',
+  proficiency_test: 'Proficiency-test coordinator',
+}
+
+export const partnerInput = z.object({
+  slug,
+  name: displayName,
+  kind: z.enum(partnerKinds, { error: `must be one of ${partnerKinds.join(', ')}` }),
+  contactEmail: email,
+})
+export type PartnerInput = z.infer<typeof partnerInput>
+export const partnerUpdate = partnerInput.partial().refine(v => Object.keys(v).length > 0, 'change at least one field')
+
+export const auditQuery = z.object({
+  action: z.string().max(60).optional(),
+  actor: z.string().max(254).optional(),
+  from: z.coerce.date().optional(),
+  to: z.coerce.date().optional(),
+  limit: z.coerce.number().int().min(1).max(200).default(50),
+  cursor: z.coerce.number().int().positive().optional(),
+})
