@@ -9,17 +9,17 @@ const port = Number(process.env.PORT ?? 3000)
 const appUrl = `http://localhost:${port}`
 const stack = await startStack({ database: 'arcwise', smtpPort: 2525, mailHttpPort: 2580, appUrl, mailFile })
 let stopping = false
+const running: { server?: ReturnType<typeof startServer> } = {}
 async function stop(code: number) {
   if (stopping) return
   stopping = true
-  server?.kill('SIGTERM')
+  running.server?.kill('SIGTERM')
   await stack.stop()
   process.exit(code)
 }
 process.on('SIGINT', () => void stop(0))
 process.on('SIGTERM', () => void stop(0))
 
-let server: ReturnType<typeof startServer> | undefined
 try {
   await seedDemo(stack.databaseUrl)
   buildIfStale()
@@ -28,7 +28,7 @@ catch (error) {
   console.error(error)
   await stop(1)
 }
-server = startServer(stack.serverEnv, port)
-server.on('exit', (code) => { if (!stopping) void stop(code ?? 1) })
+running.server = startServer(stack.serverEnv, port)
+running.server.on('exit', (code) => { if (!stopping) void stop(code ?? 1) })
 printDemoSignIns(appUrl)
 log('press Ctrl-C to stop')

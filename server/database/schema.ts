@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm'
-import { bigserial, check, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
+import { bigserial, check, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uuid } from 'drizzle-orm/pg-core'
 import { roles } from '../../shared/types/roles'
 import { partnerKinds } from '../../shared/schemas/orgs'
 

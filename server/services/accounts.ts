@@ -61,13 +61,13 @@ export async function updateUser(event: H3Event, actor: SessionUser, id: string,
     await assertScopeExists(tx, change)
     const stillAdmin = change.role === 'admin' && (change.status ?? before.status) === 'active'
     if (before.role === 'admin' && before.status === 'active' && !stillAdmin) {
-      const [{ admins }] = await tx.select({ admins: count() }).from(users)
-        .where(and(eq(users.role, 'admin'), eq(users.status, 'active'), ne(users.id, id)))
+      const { admins } = firstRow(await tx.select({ admins: count() }).from(users)
+        .where(and(eq(users.role, 'admin'), eq(users.status, 'active'), ne(users.id, id))))
       if (admins === 0) throw fieldProblem('role', 'the hub needs at least one active admin', 409, 'last-admin')
     }
-    const [after] = await tx.update(users)
+    const after = firstRow(await tx.update(users)
       .set({ role: change.role, labId: change.labId, partnerId: change.partnerId, status: change.status ?? before.status, updatedAt: new Date() })
-      .where(eq(users.id, id)).returning()
+      .where(eq(users.id, id)).returning())
     if (before.role !== after.role || before.labId !== after.labId || before.partnerId !== after.partnerId) {
       await recordAudit(tx, { actor: actorOf(actor), action: 'user.role-changed', targetType: 'user', targetId: id, event,
         detail: { email: after.email, from: { role: before.role, labId: before.labId, partnerId: before.partnerId }, to: { role: after.role, labId: after.labId, partnerId: after.partnerId } } })

@@ -24,10 +24,10 @@ export async function createInvitation(event: H3Event, actor: SessionUser, input
     await tx.update(invitations).set({ revokedAt: new Date() })
       .where(and(eq(invitations.email, input.email), isNull(invitations.acceptedAt), isNull(invitations.revokedAt)))
     const { token, hash } = newLinkToken()
-    const [row] = await tx.insert(invitations).values({
+    const row = firstRow(await tx.insert(invitations).values({
       email: input.email, name: input.name ?? null, role: input.role, labId: input.labId, partnerId: input.partnerId,
       tokenHash: hash, invitedBy: actor.id, expiresAt: new Date(Date.now() + invitationDays * 86_400_000),
-    }).returning()
+    }).returning())
     const scope = await scopeName(tx, input)
     await queueMail(tx, linkMail(input.email, 'You are invited to Arcwise', [
       `${actor.name} invited you to Arcwise as ${roleLabels[input.role].toLowerCase()}${scope ? ` of ${scope}` : ''}.`,
@@ -91,9 +91,9 @@ export async function acceptInvitation(event: H3Event, token: string, input: { n
     if (await tx.query.users.findFirst({ where: eq(users.email, inv.email), columns: { id: true } })) {
       throw problem(409, 'email-taken', 'An account with this e-mail exists already. Sign in instead.')
     }
-    const [created] = await tx.insert(users).values({
+    const created = firstRow(await tx.insert(users).values({
       email: inv.email, name: input.name, passwordHash, role: inv.role, labId: inv.labId, partnerId: inv.partnerId,
-    }).returning()
+    }).returning())
     await tx.update(invitations).set({ acceptedAt: new Date() }).where(and(eq(invitations.id, inv.id), gt(invitations.expiresAt, new Date())))
     await recordAudit(tx, { actor: actorOf(created), action: 'invitation.accepted', targetType: 'user', targetId: created.id, event, detail: { invitationId: inv.id, role: inv.role } })
     return created

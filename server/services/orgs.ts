@@ -40,9 +40,9 @@ async function assertSlugFree(org: Org, slug: string, exceptId?: string) {
 export async function createOrg(event: H3Event, actor: SessionUser, org: Org, input: LabInput | PartnerInput) {
   await assertSlugFree(org, input.slug)
   return useDb().transaction(async (tx) => {
-    const [row] = org === 'lab'
+    const row = firstRow(org === 'lab'
       ? await tx.insert(labs).values(input as LabInput).returning()
-      : await tx.insert(partners).values(input as PartnerInput).returning()
+      : await tx.insert(partners).values(input as PartnerInput).returning())
     await recordAudit(tx, { actor: actorOf(actor), action: `${org}.created`, targetType: org, targetId: row.id, event, detail: { slug: row.slug, name: row.name } })
     return row
   })
@@ -53,7 +53,7 @@ export async function updateOrg(event: H3Event, actor: SessionUser, org: Org, id
   if (change.slug) await assertSlugFree(org, change.slug, id)
   return useDb().transaction(async (tx) => {
     const table = tables[org]
-    const [row] = await tx.update(table).set({ ...change, updatedAt: new Date() }).where(eq(table.id, id)).returning()
+    const row = firstRow(await tx.update(table).set({ ...change, updatedAt: new Date() }).where(eq(table.id, id)).returning())
     const changed = Object.keys(change).filter(k => (before as Record<string, unknown>)[k] !== (row as Record<string, unknown>)[k])
     await recordAudit(tx, { actor: actorOf(actor), action: `${org}.updated`, targetType: org, targetId: id, event, detail: { changed } })
     return row

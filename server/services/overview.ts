@@ -9,18 +9,15 @@ export async function overviewFor(user: SessionUser) {
   const partnerCount = can(user.role, 'partners:read') ? (await listOrgs(user, 'partner')).length : null
   let userCount: number | null = null
   let pendingInvitations: number | null = null
-  let recentAudit: (typeof auditLog.$inferSelect)[] = []
   if (can(user.role, 'users:read')) {
-    userCount = (await db.select({ n: count() }).from(users).where(eq(users.status, 'active')))[0].n
-    pendingInvitations = (await db.select({ n: count() }).from(invitations)
-      .where(and(isNull(invitations.acceptedAt), isNull(invitations.revokedAt), gt(invitations.expiresAt, new Date()))))[0].n
+    userCount = firstRow(await db.select({ n: count() }).from(users).where(eq(users.status, 'active'))).n
+    pendingInvitations = firstRow(await db.select({ n: count() }).from(invitations)
+      .where(and(isNull(invitations.acceptedAt), isNull(invitations.revokedAt), gt(invitations.expiresAt, new Date())))).n
   }
-  if (can(user.role, 'audit:read')) {
-    recentAudit = await db.select().from(auditLog).orderBy(desc(auditLog.id)).limit(8)
-  }
-  else {
-    recentAudit = await db.select().from(auditLog).where(eq(auditLog.actorUserId, user.id)).orderBy(desc(auditLog.id)).limit(8)
-  }
+  // Without audit:read a person sees only their own entries.
+  const recentAudit = await db.select().from(auditLog)
+    .where(can(user.role, 'audit:read') ? undefined : eq(auditLog.actorUserId, user.id))
+    .orderBy(desc(auditLog.id)).limit(8)
   const ownLab = user.labId ? (await db.select().from(labs).where(inArray(labs.id, [user.labId])))[0] ?? null : null
   const ownPartner = user.partnerId ? (await db.select().from(partners).where(eq(partners.id, user.partnerId)))[0] ?? null : null
   return { labCount, partnerCount, userCount, pendingInvitations, recentAudit, ownLab, ownPartner }

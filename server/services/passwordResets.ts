@@ -14,8 +14,8 @@ export async function requestPasswordReset(event: H3Event, email: string) {
     const user = await tx.query.users.findFirst({ where: and(eq(users.email, email), eq(users.status, 'active')) })
     if (!user) return
     // At most three live links per user at a time: enough for a lost mail, not a mail bomb.
-    const [{ live }] = await tx.select({ live: sql<number>`count(*)::int` }).from(passwordResetTokens)
-      .where(and(eq(passwordResetTokens.userId, user.id), isNull(passwordResetTokens.usedAt), gt(passwordResetTokens.expiresAt, new Date())))
+    const { live } = firstRow(await tx.select({ live: sql<number>`count(*)::int` }).from(passwordResetTokens)
+      .where(and(eq(passwordResetTokens.userId, user.id), isNull(passwordResetTokens.usedAt), gt(passwordResetTokens.expiresAt, new Date()))))
     if (live >= 3) return
     const { token, hash } = newLinkToken()
     await tx.insert(passwordResetTokens).values({ userId: user.id, tokenHash: hash, expiresAt: new Date(Date.now() + resetMinutes * 60_000) })
@@ -49,9 +49,9 @@ export async function completePasswordReset(event: H3Event, token: string, passw
   const user = await useDb().transaction(async (tx) => {
     const reset = await usableReset(tx, token, true)
     await tx.update(passwordResetTokens).set({ usedAt: new Date() }).where(eq(passwordResetTokens.userId, reset.userId))
-    const [user] = await tx.update(users)
+    const user = firstRow(await tx.update(users)
       .set({ passwordHash, sessionVersion: sql`${users.sessionVersion} + 1`, updatedAt: new Date() })
-      .where(eq(users.id, reset.userId)).returning()
+      .where(eq(users.id, reset.userId)).returning())
     await recordAudit(tx, { actor: actorOf(user), action: 'password.reset', targetType: 'user', targetId: user.id, event })
     return user
   })

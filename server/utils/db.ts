@@ -26,3 +26,10 @@ export async function closeDb() {
   client = undefined
   database = undefined
 }
+
+/** The one row a statement must return (an INSERT … RETURNING, an aggregate). */
+export function firstRow<R extends readonly unknown[]>(rows: R): R[number] {
+  const row = rows[0]
+  if (row === undefined) throw new Error('expected a row from the database')
+  return row
+}
