@@ -1,0 +1,57 @@
+// `npm test`: the same bootstrap as `npm start` against its own database, then lint,
+// typecheck, the build, and every test project. Exits non-zero on any failure.
+import { spawn, spawnSync } from 'node:child_process'
+import { existsSync } from 'node:fs'
+import { join } from 'node:path'
+import { buildIfStale } from './lib/build'
+import { log, root } from './lib/paths'
+import { seedDemo } from './lib/seed'
+import { startStack } from './lib/services'
+
+export const testPorts = { app: 3100, smtp: 2526, mailHttp: 2581 }
+
+function ensureChromium() {
+  if (existsSync('/usr/bin/chromium')) return
+  if (process.getuid?.() !== 0) throw new Error('Browser tests need Debian\'s Chromium: sudo apt-get install chromium')
+  log('installing Debian\'s chromium for the browser tests')
+  for (const args of [['update', '-qq'], ['install', '-y', '-qq', 'chromium']]) {
+    const r = spawnSync('apt-get', args, { stdio: 'inherit', env: { ...process.env, DEBIAN_FRONTEND: 'noninteractive' } })
+    if (r.status !== 0) throw new Error(`apt-get ${args.join(' ')} failed`)
+  }
+}
+
+const bin = (name: string) => join(root, 'node_modules', '.bin', name)
+const failures: string[] = []
+// Asynchronous, so that the SMTP fake in this process keeps answering while tests run.
+async function step(name: string, cmd: string, args: string[], env: Record<string, string> = {}) {
+  log(`— ${name}`)
+  const code = await new Promise<number | null>((resolve) => {
+    const child = spawn(cmd, args, { cwd: root, stdio: 'inherit', env: { ...process.env, ...env } })
+    child.on('exit', resolve)
+  })
+  if (code !== 0) failures.push(name)
+}
+
+ensureChromium()
+const appUrl = `http://127.0.0.1:${testPorts.app}`
+const stack = await startStack({ database: 'arcwise_test', fresh: true, smtpPort: testPorts.smtp, mailHttpPort: testPorts.mailHttp, appUrl })
+try {
+  await seedDemo(stack.databaseUrl)
+  await step('lint', bin('eslint'), ['.'])
+  await step('typecheck', bin('nuxi'), ['typecheck'])
+  buildIfStale()
+  const testEnv = JSON.stringify({ serverEnv: stack.serverEnv, databaseUrl: stack.databaseUrl, mailUrl: stack.mail.httpUrl, appPort: testPorts.app, appUrl })
+  await step('tests', bin('vitest'), ['run', ...process.argv.slice(2)], { ARCWISE_TEST_ENV: testEnv })
+}
+catch (error) {
+  console.error(error)
+  failures.push('bootstrap')
+}
+finally {
+  await stack.stop()
+}
+if (failures.length) {
+  log(`FAILED: ${failures.join(', ')}`)
+  process.exit(1)
+}
+log('all checks passed')
