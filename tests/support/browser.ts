@@ -1,0 +1,33 @@
+import { mkdirSync } from 'node:fs'
+import { createRequire } from 'node:module'
+import { join } from 'node:path'
+import type { Page } from 'playwright-core'
+import { expect } from 'vitest'
+import { rootDir } from './env'
+
+const shotsDir = join(rootDir, 'test-results', 'browser')
+mkdirSync(shotsDir, { recursive: true })
+
+/** Saves a full-page screenshot as a test artifact under test-results/browser/. */
+export async function shot(page: Page, name: string) {
+  await page.screenshot({ path: join(shotsDir, `${name}.png`), fullPage: true })
+}
+
+const axePath = createRequire(import.meta.url).resolve('axe-core/axe.min.js')
+
+/** Runs axe-core on the page and fails on serious or critical violations. */
+export async function expectAccessible(page: Page) {
+  await page.addScriptTag({ path: axePath })
+  const violations = await page.evaluate(async () => {
+    const result = await (window as unknown as { axe: { run: () => Promise<{ violations: { id: string, impact: string, nodes: { target: string[] }[] }[] }> } }).axe.run()
+    return result.violations.filter(v => v.impact === 'serious' || v.impact === 'critical').map(v => `${v.id}: ${v.nodes.map(n => n.target.join(' ')).join(', ')}`)
+  })
+  expect(violations).toEqual([])
+}
+
+export async function signInThroughForm(page: Page, email: string, password: string) {
+  await page.getByLabel('E-mail').fill(email)
+  await page.getByLabel('Password').fill(password)
+  await page.getByRole('button', { name: 'Sign in' }).click()
+  await page.waitForURL(/\/console/)
+}
