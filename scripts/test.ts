@@ -1,7 +1,7 @@
 // `npm test`: the same bootstrap as `npm start` against its own database, then lint,
 // typecheck, the build, and every test project. Exits non-zero on any failure.
 import { spawn, spawnSync } from 'node:child_process'
-import { existsSync } from 'node:fs'
+import { existsSync, readFileSync, rmSync } from 'node:fs'
 import { join } from 'node:path'
 import { buildIfStale } from './lib/build'
 import { log, root } from './lib/paths'
@@ -22,6 +22,7 @@ function ensureChromium() {
 
 const bin = (name: string) => join(root, 'node_modules', '.bin', name)
 const failures: string[] = []
+let summary = ''
 // Asynchronous, so that the SMTP fake in this process keeps answering while tests run.
 async function step(name: string, cmd: string, args: string[], env: Record<string, string> = {}) {
   log(`— ${name}`)
@@ -41,7 +42,13 @@ try {
   await step('typecheck', bin('nuxi'), ['typecheck'])
   buildIfStale()
   const testEnv = JSON.stringify({ serverEnv: stack.serverEnv, databaseUrl: stack.databaseUrl, mailUrl: stack.mail.httpUrl, appPort: testPorts.app, appUrl })
-  await step('tests', bin('vitest'), ['run', ...process.argv.slice(2)], { ARCWISE_TEST_ENV: testEnv })
+  const report = join(root, 'test-results', 'vitest.json')
+  rmSync(report, { force: true })
+  await step('tests', bin('vitest'), ['run', '--reporter=default', '--reporter=json', `--outputFile.json=${report}`, ...process.argv.slice(2)], { ARCWISE_TEST_ENV: testEnv })
+  if (existsSync(report)) {
+    const r = JSON.parse(readFileSync(report, 'utf8')) as { numPassedTests: number, numFailedTests: number, numPendingTests: number }
+    summary = `tests: ${r.numPassedTests} passed, ${r.numFailedTests} failed, ${r.numPendingTests} skipped`
+  }
 }
 catch (error) {
   console.error(error)
@@ -50,8 +57,8 @@ catch (error) {
 finally {
   await stack.stop()
 }
-if (failures.length) {
-  log(`FAILED: ${failures.join(', ')}`)
-  process.exit(1)
-}
-log('all checks passed')
+if (failures.length) log(`FAILED: ${failures.join(', ')}`)
+else log('all checks passed')
+// The plain closing line CI reads: "N passed, N failed".
+if (summary) console.log(summary)
+process.exit(failures.length ? 1 : 0)
