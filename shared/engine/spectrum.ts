@@ -84,16 +84,18 @@ export function findPeaks(mz: Float64Array, y: Float64Array, options: PeakOption
   let i = 0
   while (i < n) {
     if (y[i]! <= threshold) { i++; continue }
-    let runEnd = i
-    while (runEnd + 1 < n && y[runEnd + 1]! > threshold) runEnd++
-    const apexes = apexesInRun(y, i, runEnd, noise, baseline.level)
+    // The peak region runs out to where the signal is back within 1σ of the baseline, so
+    // noise crossing the threshold on a flank stays part of the same peak.
+    const regionStart = extendDown(y, i, floor, -1)
+    const regionEnd = extendDown(y, i, floor, 1)
+    const apexes = apexesInRegion(y, regionStart, regionEnd, noise, baseline.level, threshold)
     for (let k = 0; k < apexes.length; k++) {
       const apex = apexes[k]!
-      const lo = k === 0 ? extendDown(y, i, floor, -1) : valley(y, apexes[k - 1]!, apex)
-      const hi = k === apexes.length - 1 ? extendDown(y, runEnd, floor, 1) : valley(y, apex, apexes[k + 1]!)
+      const lo = k === 0 ? regionStart : valley(y, apexes[k - 1]!, apex)
+      const hi = k === apexes.length - 1 ? regionEnd : valley(y, apex, apexes[k + 1]!)
       peaks.push(describePeak(mz, y, apex, lo, hi, baseline.level, noise, apexes.length > 1))
     }
-    i = runEnd + 1
+    i = regionEnd + 1
   }
   return { peaks, baseline }
 }
@@ -111,17 +113,21 @@ function valley(y: Float64Array, a: number, b: number): number {
 }
 
 /**
- * Apexes in one run above threshold: local maxima that stand out of the valley to each
- * neighbour by at least 20 % of their height and 5σ (a partly resolved doublet counts twice).
+ * Apexes in one peak region: local maxima above the threshold that stand out of the valley
+ * to each neighbour by at least 20 % of their height and 10σ (a partly resolved doublet
+ * counts twice, a noise wiggle on a flank does not).
  */
-function apexesInRun(y: Float64Array, start: number, end: number, noise: number, level: number): number[] {
+function apexesInRegion(y: Float64Array, start: number, end: number, noise: number, level: number, threshold: number): number[] {
   const candidates: number[] = []
+  let highest = start
   for (let j = start; j <= end; j++) {
+    if (y[j]! > y[highest]!) highest = j
+    if (y[j]! <= threshold) continue
     const left = j > start ? y[j - 1]! : -Infinity
     const right = j < end ? y[j + 1]! : -Infinity
     if (y[j]! >= left && y[j]! > right) candidates.push(j)
   }
-  if (candidates.length <= 1) return candidates.length ? candidates : [start]
+  if (candidates.length <= 1) return candidates.length ? candidates : [highest]
   const kept: number[] = []
   for (const c of candidates) {
     const last = kept[kept.length - 1]
@@ -129,7 +135,7 @@ function apexesInRun(y: Float64Array, start: number, end: number, noise: number,
     const v = y[valley(y, last, c)]!
     const dip = Math.min(y[last]!, y[c]!) - v
     const lower = Math.min(y[last]!, y[c]!) - level
-    if (dip >= Math.max(5 * noise, 0.2 * lower)) kept.push(c)
+    if (dip >= Math.max(10 * noise, 0.2 * lower)) kept.push(c)
     else if (y[c]! > y[last]!) kept[kept.length - 1] = c // same peak: keep the higher point
   }
   return kept

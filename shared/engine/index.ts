@@ -1,0 +1,16 @@
+// The sector engine: pure functions over typed arrays, no I/O; used by server, console and
+// the lab simulator alike.
+export * from './assign'
+export * from './calibrate'
+export * from './constants'
+export * from './errors'
+export * from './fingerprint'
+export * from './geometry'
+export * from './pipeline'
+export * from './random'
+export * from './ratios'
+export * from './simulate'
+export * from './species'
+export * from './spectrum'
+export * from './uncertainty'
+export * from './units'

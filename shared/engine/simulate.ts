@@ -1,0 +1,97 @@
+import { KG_PER_C_TO_U_PER_E } from './constants'
+import { EngineError } from './errors'
+import type { Geometry, RawReadings } from './geometry'
+import { seededNormal } from './random'
+import { ionMz, type Species } from './species'
+import { measuredSI } from './units'
+
+// The forward model: what an instrument would report for given species. A field sweep
+// across an m/z window, Gaussian peaks of FWHM m/R in m/z, a detector current with baseline
+// and normal noise. Used by the demo, the lab simulator and the round-trip tests.
+
+export interface SimulatedSpecies { species: Species, z?: number, /** Peak height in A. */ currentA: number }
+
+export interface SimulationInput {
+  geometry: Geometry
+  /** Fixed readings: acceleratingVoltage (potential sector) or plateVoltage and filterField (Wien). */
+  acceleratingVoltageV?: number
+  plateVoltageV?: number
+  filterFieldT?: number
+  mzFrom: number
+  mzTo: number
+  points: number
+  resolvingPower: number
+  species: SimulatedSpecies[]
+  baselineA?: number
+  noiseA?: number
+  seed?: number
+  /** Unit the field column is written in (default T). */
+  fieldUnit?: 'T' | 'mT' | 'G' | 'kG'
+  /** Unit the detector column is written in (default fA). */
+  currentUnit?: 'A' | 'pA' | 'fA' | 'nA'
+}
+
+const FWHM_TO_SIGMA = 1 / (2 * Math.sqrt(2 * Math.LN2))
+const fieldUnits = { T: 1, mT: 1e-3, G: 1e-4, kG: 1e-1 }
+const currentUnits = { A: 1, nA: 1e-9, pA: 1e-12, fA: 1e-15 }
+
+/** The analyzer field (T) that puts m/z on the axis, for a geometry and its fixed readings. */
+function fieldFor(mz: number, input: SimulationInput): number {
+  const geo = input.geometry
+  if (geo.kind === 'wien-sector') {
+    const r = measuredSI('length', geo.analyzerRadius, 'geometry.analyzerRadius').value
+    const d = measuredSI('length', geo.plateGap, 'geometry.plateGap').value
+    // m/z = r B B_f d / V · K  =>  B = m/z · V / (r B_f d K)
+    return mz * input.plateVoltageV! / (r * input.filterFieldT! * d * KG_PER_C_TO_U_PER_E)
+  }
+  const r = geo.kind === 'potential-sector'
+    ? measuredSI('length', geo.analyzerRadius, 'geometry.analyzerRadius').value
+    : measuredSI('length', geo.collectors[0]!.effectiveRadius, 'geometry.collectors').value
+  return Math.sqrt(2 * input.acceleratingVoltageV! * mz / KG_PER_C_TO_U_PER_E) / r
+}
+
+export function simulateFieldSweep(input: SimulationInput): RawReadings {
+  if (input.points < 2) throw new EngineError('points', 'too-short', 'a sweep needs at least 2 points')
+  if (!(input.mzTo > input.mzFrom && input.mzFrom > 0)) throw new EngineError('mzTo', 'bad-range', 'mzTo must exceed mzFrom > 0')
+  const geo = input.geometry
+  if (geo.kind === 'wien-sector' ? !(input.plateVoltageV! > 0 && input.filterFieldT! > 0) : !(input.acceleratingVoltageV! > 0)) {
+    throw new EngineError('settings', 'missing', 'the fixed readings of this geometry are required')
+  }
+  const n = input.points
+  const fieldUnit = input.fieldUnit ?? 'T'
+  const currentUnit = input.currentUnit ?? 'fA'
+  const b0 = fieldFor(input.mzFrom, input)
+  const b1 = fieldFor(input.mzTo, input)
+  const field = new Float64Array(n)
+  const mz = new Float64Array(n)
+  // The field is stepped evenly, as a sweeping magnet supply would.
+  for (let i = 0; i < n; i++) {
+    const b = b0 + (b1 - b0) * i / (n - 1)
+    field[i] = b / fieldUnits[fieldUnit]
+    mz[i] = geo.kind === 'wien-sector' ? input.mzFrom + (input.mzTo - input.mzFrom) * i / (n - 1) : input.mzFrom * (b / b0) ** 2
+  }
+  const current = new Float64Array(n).fill(input.baselineA ?? 0)
+  for (const s of input.species) {
+    const centre = ionMz(s.species.mass, s.z ?? 1)
+    const sigma = centre / input.resolvingPower * FWHM_TO_SIGMA
+    // Only the points within 8σ of the centre are touched.
+    let lo = lowerBound(mz, centre - 8 * sigma)
+    const hi = lowerBound(mz, centre + 8 * sigma)
+    for (; lo < hi; lo++) current[lo]! += s.currentA * Math.exp(-0.5 * ((mz[lo]! - centre) / sigma) ** 2)
+  }
+  const noise = input.noiseA ?? 0
+  const normal = seededNormal(input.seed ?? 1)
+  const detector = new Float64Array(n)
+  for (let i = 0; i < n; i++) detector[i] = (current[i]! + noise * normal()) / currentUnits[currentUnit]
+  const settings: RawReadings['settings'] = geo.kind === 'wien-sector'
+    ? { plateVoltage: { value: input.plateVoltageV!, unit: 'V' }, filterField: { value: input.filterFieldT!, unit: 'T' } }
+    : { acceleratingVoltage: { value: input.acceleratingVoltageV!, unit: 'V' } }
+  return { settings, sweep: { reading: 'field', values: field, unit: fieldUnit }, detectors: [{ values: detector, unit: currentUnit }] }
+}
+
+function lowerBound(a: Float64Array, x: number): number {
+  let lo = 0
+  let hi = a.length
+  while (lo < hi) { const mid = (lo + hi) >> 1; if (a[mid]! < x) lo = mid + 1; else hi = mid }
+  return lo
+}
