@@ -1,6 +1,6 @@
 import { z } from 'zod'
 import { KG_PER_C_TO_U_PER_E } from './constants'
-import { EngineError, assertFiniteColumn, assertPositive } from './errors'
+import { EngineError, assertPositive } from './errors'
 import { measured, measuredSI, siFactor, type Measured } from './units'
 
 // The instrument geometries Arcwise knows, each with its registered parameters and their
@@ -61,6 +61,12 @@ function setting(readings: RawReadings, name: string, quantity: 'field' | 'volta
 
 const radiusOf = (m: Measured, field: string) => measuredSI('length', m, field)
 
+// The finiteness check sits inside each conversion loop (b − b is 0 only for finite b), so
+// a column is read once.
+function notFinite(i: number, v: unknown): never {
+  throw new EngineError(`sweep.values[${i}]`, 'not-finite', `must be a finite number, got ${v === null ? 'null' : String(v)}`)
+}
+
 /** m/z (u per e) of each point of a sweep, for one collector radius. No per-point objects. */
 export interface MzColumn {
   mz: Float64Array
@@ -77,7 +83,6 @@ export function sweepToMz(geo: Geometry, readings: RawReadings, collectorRadius?
   if (!sweep) throw new EngineError('sweep', 'missing', 'a profile spectrum needs a swept reading')
   const n = sweep.values.length
   if (n < 2) throw new EngineError('sweep.values', 'too-short', `a sweep needs at least 2 points, got ${n}`)
-  assertFiniteColumn('sweep.values', sweep.values)
   const quantity = sweep.reading === 'field' ? 'field' : 'voltage'
   const unitFactor = siFactor(quantity, sweep.unit, 'sweep.unit')
   const uSweep = (sweep.u ?? 0) * unitFactor
@@ -92,7 +97,7 @@ export function sweepToMz(geo: Geometry, readings: RawReadings, collectorRadius?
     const Bf = setting(readings, 'filterField', 'field')
     // m/z = r B B_f d / V · e/m_u
     const c = r.value * Bf.value * d.value / V.value * KG_PER_C_TO_U_PER_E * unitFactor
-    for (let i = 0; i < n; i++) out[i] = c * (values[i] as number)
+    for (let i = 0; i < n; i++) { const b = values[i]; if (typeof b !== 'number' || b - b !== 0) notFinite(i, b); out[i] = c * b }
     const fixed = (r.u / r.value) ** 2 + (Bf.u / Bf.value) ** 2 + (d.u / d.value) ** 2 + (V.u / V.value) ** 2
     return { mz: out, relU: (mz) => Math.sqrt(fixed + (uSweep / (mz / c * unitFactor)) ** 2) }
   }
@@ -100,13 +105,18 @@ export function sweepToMz(geo: Geometry, readings: RawReadings, collectorRadius?
     const U = setting(readings, 'acceleratingVoltage', 'voltage')
     // m/z = (r B)² / (2U) · e/m_u
     const c = r.value * r.value / (2 * U.value) * KG_PER_C_TO_U_PER_E * unitFactor * unitFactor
-    for (let i = 0; i < n; i++) { const b = values[i] as number; out[i] = c * b * b }
+    for (let i = 0; i < n; i++) { const b = values[i]; if (typeof b !== 'number' || b - b !== 0) notFinite(i, b); out[i] = c * b * b }
     const fixed = (2 * r.u / r.value) ** 2 + (U.u / U.value) ** 2
     return { mz: out, relU: (mz) => { const B = Math.sqrt(mz / c) * unitFactor; return Math.sqrt(fixed + (2 * uSweep / B) ** 2) } }
   }
   const B = setting(readings, 'field', 'field')
   const c = (r.value * B.value) ** 2 / 2 * KG_PER_C_TO_U_PER_E / unitFactor
-  for (let i = 0; i < n; i++) out[i] = c / (values[i] as number)
+  for (let i = 0; i < n; i++) {
+    const u = values[i]
+    if (typeof u !== 'number' || u - u !== 0) notFinite(i, u)
+    if (u <= 0) throw new EngineError(`sweep.values[${i}]`, 'not-positive', 'an accelerating voltage must be positive')
+    out[i] = c / u
+  }
   const fixed = (2 * r.u / r.value) ** 2 + (2 * B.u / B.value) ** 2
   return { mz: out, relU: (mz) => { const U = c / mz * unitFactor; return Math.sqrt(fixed + (uSweep / U) ** 2) } }
 }

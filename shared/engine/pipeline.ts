@@ -69,6 +69,19 @@ function candidateSpecies(options: EngineOptions): Species[] {
   return list
 }
 
+// Candidate tables are rebuilt only when the candidate set changes (a few recent sets kept).
+const tableCache = new Map<string, CandidateTable>()
+function candidateTable(options: EngineOptions): CandidateTable {
+  const key = JSON.stringify([options.isotopes !== false, options.formulas ?? [], options.maxCharge ?? 3])
+  let table = tableCache.get(key)
+  if (!table) {
+    table = new CandidateTable(candidateSpecies(options), options.maxCharge ?? 3)
+    if (tableCache.size >= 16) tableCache.delete(tableCache.keys().next().value!)
+    tableCache.set(key, table)
+  }
+  return table
+}
+
 /** One sweep's m/z column, oriented to rise; the matching detector columns follow it. */
 interface Column { collector: string, mz: Float64Array, signal: Float64Array, relU: (mz: number) => number }
 
@@ -84,7 +97,7 @@ function detectorSI(d: RawReadings['detectors'][number], field: string): { value
 /** Raw readings to peaks, assignments, ratios and QC flags: the whole engine in one call. */
 export function processReadings(geo: Geometry, readings: RawReadings, options: EngineOptions = {}): EngineResult {
   if (!readings.detectors?.length) throw new EngineError('detectors', 'missing', 'at least one detector column is required')
-  const table = new CandidateTable(candidateSpecies(options), options.maxCharge ?? 3)
+  const table = candidateTable(options)
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE
   return readings.sweep ? processSweep(geo, readings, options, table, tolerance) : processStatic(geo, readings, options, table, tolerance)
 }

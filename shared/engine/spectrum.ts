@@ -17,11 +17,12 @@ function median(sorted: Float64Array): number {
 }
 
 /**
- * Baseline level and noise σ by iterated 3σ clipping around the median, on at most 2^16
- * evenly strided points so the cost does not grow with long sweeps.
+ * Baseline level and noise σ by iterated 3σ clipping around the median, on every eighth
+ * point (at least 256, at most 2^16), so the cost stays a small, fixed share per point.
  */
 export function estimateBaseline(y: Float64Array): Baseline {
-  const stride = Math.max(1, Math.floor(y.length / 65536))
+  const target = Math.min(y.length, Math.max(256, Math.min(65536, Math.ceil(y.length / 8))))
+  const stride = Math.max(1, Math.floor(y.length / target))
   let sample = new Float64Array(Math.ceil(y.length / stride))
   for (let i = 0, j = 0; i < y.length; i += stride, j++) sample[j] = y[i]!
   let level = 0

@@ -1,0 +1,67 @@
+// `npm run bench:engine`: the engine's speed on this machine, printed as one JSON object.
+//  - m/z conversion of a 10^6-point field sweep beside a bare Float64Array loop doing only
+//    the formula (goal: at most 1.5 times its time);
+//  - the whole pipeline (convert, baseline, peaks, assignment) at 10^3..10^6 points, in ms
+//    and points per second (goal: cost per point within a factor 2 over that range).
+import { cpus } from 'node:os'
+import { ENGINE_VERSION, KG_PER_C_TO_U_PER_E, formulaSpecies, geometry, isotope, processReadings, simulateFieldSweep, sweepToMz } from '../shared/engine'
+
+const geo = geometry.parse({ kind: 'potential-sector', analyzerRadius: { value: 0.27, unit: 'm', u: 0.0001 } })
+const species = [
+  { species: formulaSpecies('N2'), currentA: 2e-10 },
+  { species: formulaSpecies('O2'), currentA: 5e-11 },
+  { species: isotope('40Ar'), currentA: 3e-12 },
+  { species: formulaSpecies('CO2'), currentA: 3e-9 },
+  { species: formulaSpecies('[13C]O2'), currentA: 3.3e-11 },
+]
+const simulate = (points: number) => simulateFieldSweep({ geometry: geo, acceleratingVoltageV: 3000, mzFrom: 26, mzTo: 48, points, resolvingPower: 1200, species, baselineA: 1e-14, noiseA: 2e-15, seed: 11 })
+
+/** Median wall time of `fn` in ms over `runs` runs after `warmup` runs. */
+function time(fn: () => void, runs: number, warmup = 3): number {
+  for (let i = 0; i < warmup; i++) fn()
+  const samples: number[] = []
+  for (let i = 0; i < runs; i++) {
+    const t0 = process.hrtime.bigint()
+    fn()
+    samples.push(Number(process.hrtime.bigint() - t0) / 1e6)
+  }
+  samples.sort((a, b) => a - b)
+  return samples[samples.length >> 1]!
+}
+
+export function benchEngine() {
+  const big = simulate(1_000_000)
+  const field = big.sweep!.values as Float64Array
+  const U = 3000
+  const r = 0.27
+  let sink = 0
+  const bare = time(() => {
+    // The formula alone: m/z = (rB)²/(2U) · e/m_u, over a preallocated typed array.
+    const c = r * r / (2 * U) * KG_PER_C_TO_U_PER_E
+    const out = new Float64Array(field.length)
+    for (let i = 0; i < field.length; i++) { const b = field[i]!; out[i] = c * b * b }
+    sink += out[out.length - 1]!
+  }, 21)
+  const engine = time(() => { sink += sweepToMz(geo, big).mz[0]! }, 21)
+
+  const sizes = [1_000, 10_000, 100_000, 1_000_000]
+  const pipeline = sizes.map((points) => {
+    const raw = simulate(points)
+    const runs = points >= 1_000_000 ? 7 : points >= 100_000 ? 15 : 201
+    const ms = time(() => { sink += processReadings(geo, raw, { formulas: ['N2', 'O2', 'CO2', '[13C]O2', 'CO'] }).peaks.length }, runs, 5)
+    return { points, ms: round(ms, 3), pointsPerSecond: Math.round(points / ms * 1000), nsPerPoint: round(ms * 1e6 / points, 1) }
+  })
+  const perPoint = pipeline.map(p => p.nsPerPoint)
+  if (sink === 42) console.log('') // keeps the work from being optimised away
+  return {
+    conversion: { points: 1_000_000, bareLoopMs: round(bare, 3), engineMs: round(engine, 3), ratio: round(engine / bare, 2), goal: '<= 1.5' },
+    pipeline,
+    costPerPointSpread: { ratio: round(Math.max(...perPoint) / Math.min(...perPoint), 2), goal: '<= 2' },
+  }
+}
+
+const round = (x: number, digits: number) => Number(x.toFixed(digits))
+
+if (import.meta.url === `file://${process.argv[1]}`) {
+  console.log(JSON.stringify({ benchmark: 'engine', engineVersion: ENGINE_VERSION, node: process.version, cores: cpus().length, ...benchEngine() }, null, 2))
+}
