@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm'
-import { bigserial, check, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uuid } from 'drizzle-orm/pg-core'
+import { bigint, bigserial, check, doublePrecision, index, integer, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
 import { roles } from '../../shared/types/roles'
 import { partnerKinds } from '../../shared/schemas/orgs'
 
@@ -16,6 +16,8 @@ export const labs = pgTable('labs', {
   name: text('name').notNull(),
   site: text('site').notNull(),
   contactEmail: text('contact_email').notNull(),
+  // Last event sequence number handed out for this lab (events are numbered per lab).
+  eventSequence: bigint('event_sequence', { mode: 'number' }).notNull().default(0),
   createdAt: createdAt(),
   updatedAt: updatedAt(),
 })
@@ -109,4 +111,116 @@ export const rateLimits = pgTable('rate_limits', {
   expire: timestamp('expire', { withTimezone: true }),
 })
 
-export const schemaTables = { labs, partners, users, invitations, passwordResetTokens, auditLog, mailOutbox, rateLimits }
+
+
+// ── Instruments, keys and acquisitions ──────────────────────────────────────────────────
+
+export const instruments = pgTable('instruments', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  slug: text('slug').notNull(),
+  name: text('name').notNull(),
+  createdAt: createdAt(),
+  updatedAt: updatedAt(),
+}, t => [uniqueIndex('instruments_lab_slug_idx').on(t.labId, t.slug)])
+
+/** Every change of an instrument's geometry is a new version, valid from a given time. */
+export const geometryVersions = pgTable('geometry_versions', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  instrumentId: uuid('instrument_id').notNull().references(() => instruments.id, { onDelete: 'cascade' }),
+  version: integer('version').notNull(),
+  kind: text('kind').notNull(),
+  params: jsonb('params').$type<Record<string, unknown>>().notNull(),
+  validFrom: timestamp('valid_from', { withTimezone: true }).notNull(),
+  note: text('note'),
+  createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
+  createdAt: createdAt(),
+}, t => [uniqueIndex('geometry_versions_instrument_version_idx').on(t.instrumentId, t.version), index('geometry_versions_valid_idx').on(t.instrumentId, t.validFrom)])
+
+/** Calibrations are versioned the same way; `fit` holds the engine's CalibrationFit. */
+export const calibrations = pgTable('calibrations', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  instrumentId: uuid('instrument_id').notNull().references(() => instruments.id, { onDelete: 'cascade' }),
+  version: integer('version').notNull(),
+  fit: jsonb('fit').$type<Record<string, unknown>>().notNull(),
+  points: jsonb('points').$type<Record<string, unknown>[]>().notNull(),
+  validFrom: timestamp('valid_from', { withTimezone: true }).notNull(),
+  createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
+  createdAt: createdAt(),
+}, t => [uniqueIndex('calibrations_instrument_version_idx').on(t.instrumentId, t.version)])
+
+export const apiKeys = pgTable('api_keys', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  name: text('name').notNull(),
+  // The first characters of the secret, shown in lists to tell keys apart.
+  prefix: text('prefix').notNull().unique(),
+  secretHash: text('secret_hash').notNull(),
+  scopes: text('scopes').array().notNull(),
+  expiresAt: timestamp('expires_at', { withTimezone: true }),
+  revokedAt: timestamp('revoked_at', { withTimezone: true }),
+  lastUsedAt: timestamp('last_used_at', { withTimezone: true }),
+  createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
+  createdAt: createdAt(),
+})
+
+export const acquisitionStatusEnum = pgEnum('acquisition_status', ['processed', 'failed'])
+
+export const acquisitions = pgTable('acquisitions', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  instrumentId: uuid('instrument_id').notNull().references(() => instruments.id),
+  externalId: text('external_id').notNull(),
+  acquiredAt: timestamp('acquired_at', { withTimezone: true }).notNull(),
+  sampleRef: text('sample_ref'),
+  status: acquisitionStatusEnum('status').notNull(),
+  // SHA-256 of the canonical body, to tell a replay from a different body under one run id.
+  bodyHash: text('body_hash').notNull(),
+  payload: jsonb('payload').$type<Record<string, unknown>>().notNull(),
+  pointCount: integer('point_count').notNull(),
+  createdAt: createdAt(),
+}, t => [uniqueIndex('acquisitions_lab_external_idx').on(t.labId, t.externalId), index('acquisitions_lab_created_idx').on(t.labId, t.createdAt, t.id)])
+
+export const results = pgTable('results', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  acquisitionId: uuid('acquisition_id').notNull().references(() => acquisitions.id, { onDelete: 'cascade' }),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  geometryVersionId: uuid('geometry_version_id').notNull().references(() => geometryVersions.id),
+  calibrationId: uuid('calibration_id').references(() => calibrations.id),
+  engineVersion: text('engine_version').notNull(),
+  summary: jsonb('summary').$type<Record<string, unknown>>().notNull(),
+  supersededBy: uuid('superseded_by'),
+  createdAt: createdAt(),
+}, t => [index('results_acquisition_idx').on(t.acquisitionId)])
+
+/** Peaks, one row each, indexed by m/z for queries across labs. */
+export const peaks = pgTable('peaks', {
+  id: bigserial('id', { mode: 'number' }).primaryKey(),
+  resultId: uuid('result_id').notNull().references(() => results.id, { onDelete: 'cascade' }),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  mz: doublePrecision('mz').notNull(),
+  area: doublePrecision('area').notNull(),
+  species: text('species'),
+  charge: integer('charge'),
+}, t => [index('peaks_mz_idx').on(t.mz), index('peaks_result_idx').on(t.resultId)])
+
+/** The outbox: one event per accepted result, numbered per lab for ordering. */
+export const events = pgTable('events', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  sequence: bigint('sequence', { mode: 'number' }).notNull(),
+  type: text('type').notNull(),
+  payload: jsonb('payload').$type<Record<string, unknown>>().notNull(),
+  createdAt: createdAt(),
+}, t => [uniqueIndex('events_lab_sequence_idx').on(t.labId, t.sequence), index('events_created_idx').on(t.createdAt, t.id)])
+
+/** Stored answers for Idempotency-Key (IETF draft-ietf-httpapi-idempotency-key-header). */
+export const idempotencyKeys = pgTable('idempotency_keys', {
+  apiKeyId: uuid('api_key_id').notNull().references(() => apiKeys.id, { onDelete: 'cascade' }),
+  key: text('key').notNull(),
+  requestHash: text('request_hash').notNull(),
+  state: text('state').$type<'in-flight' | 'done'>().notNull(),
+  responseStatus: integer('response_status'),
+  responseBody: jsonb('response_body'),
+  createdAt: createdAt(),
+}, t => [primaryKey({ columns: [t.apiKeyId, t.key] })])

@@ -1,6 +1,6 @@
 import type { H3Event } from 'h3'
 import { eq } from 'drizzle-orm'
-import { users } from '../database/schema'
+import { labs, users } from '../database/schema'
 import { permissions, type Permission, type Role, type SessionUser } from '#shared/types/roles'
 
 /** The signed-in user, reloaded from the database so role changes and disabling act at once. 401 otherwise. */
@@ -29,4 +29,19 @@ export async function requireRole(event: H3Event, ...allowed: Role[]): Promise<S
 /** The signed-in user when their role holds `permission` in the shared permission table. */
 export function requirePermission(event: H3Event, permission: Permission): Promise<SessionUser> {
   return requireRole(event, ...permissions[permission])
+}
+
+/**
+ * The signed-in user when they may see (or, with `write`, change) lab `labId`'s instruments
+ * and keys: admins any lab, viewers read any, a lab manager only their own (another lab is
+ * 404, as if it were not there); integrators never.
+ */
+export async function requireLabAccess(event: H3Event, labId: string, access: 'read' | 'write'): Promise<SessionUser> {
+  const user = await requireUser(event)
+  if (user.role === 'lab_manager' && user.labId !== labId) throw problem(404, 'lab-not-found', 'No such lab.')
+  const allowed = access === 'read' ? ['admin', 'viewer', 'lab_manager'] : ['admin', 'lab_manager']
+  if (!allowed.includes(user.role)) throw problem(403, 'forbidden', 'Your role may not do this.')
+  const lab = await useDb().query.labs.findFirst({ where: eq(labs.id, labId), columns: { id: true } })
+  if (!lab) throw problem(404, 'lab-not-found', 'No such lab.')
+  return user
 }

@@ -14,7 +14,11 @@ export interface EngineOptions {
   maxCharge?: number
   /** Registered molecular and fragment ions, as formulas ("CO2", "[13C]O2", "N2"). */
   formulas?: string[]
-  /** Include the natural isotopes of the element table as candidates (default true). */
+  /**
+   * Include the natural isotopes of the element table as candidates. By default they are
+   * included only when no formulas are registered: a lab that names its species does not
+   * want every multiply charged isotope line near them flagged as a rival.
+   */
   isotopes?: boolean
   calibration?: Pick<CalibrationFit, 'center' | 'halfRange' | 'coefficients'> | null
   /** Ratios to report: a reference ratio and the species whose peaks carry it. */
@@ -64,7 +68,7 @@ const DEFAULT_TOLERANCE: Tolerance = { ppm: 50 }
 let isotopeCache: Species[] | undefined
 function candidateSpecies(options: EngineOptions): Species[] {
   const list: Species[] = []
-  if (options.isotopes !== false) list.push(...(isotopeCache ??= naturalIsotopes()))
+  if (options.isotopes ?? !options.formulas?.length) list.push(...(isotopeCache ??= naturalIsotopes()))
   options.formulas?.forEach((f, i) => list.push(formulaSpecies(f, `formulas[${i}]`)))
   return list
 }
@@ -72,7 +76,7 @@ function candidateSpecies(options: EngineOptions): Species[] {
 // Candidate tables are rebuilt only when the candidate set changes (a few recent sets kept).
 const tableCache = new Map<string, CandidateTable>()
 function candidateTable(options: EngineOptions): CandidateTable {
-  const key = JSON.stringify([options.isotopes !== false, options.formulas ?? [], options.maxCharge ?? 3])
+  const key = JSON.stringify([options.isotopes ?? !options.formulas?.length, options.formulas ?? [], options.maxCharge ?? 3])
   let table = tableCache.get(key)
   if (!table) {
     table = new CandidateTable(candidateSpecies(options), options.maxCharge ?? 3)

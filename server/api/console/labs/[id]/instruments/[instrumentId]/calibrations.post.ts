@@ -1,0 +1,9 @@
+import { calibrationInput, labInstrumentParams } from '#shared/schemas/instruments'
+
+export default defineEventHandler(async (event) => {
+  const { id, instrumentId } = getValidParams(event, labInstrumentParams)
+  const actor = await requireLabAccess(event, id, 'write')
+  const input = await readValidBody(event, calibrationInput)
+  setResponseStatus(event, 201)
+  return addCalibration(event, actor, id, instrumentId, input)
+})

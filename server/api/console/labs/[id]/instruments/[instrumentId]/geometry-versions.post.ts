@@ -1,0 +1,9 @@
+import { geometryVersionInput, labInstrumentParams } from '#shared/schemas/instruments'
+
+export default defineEventHandler(async (event) => {
+  const { id, instrumentId } = getValidParams(event, labInstrumentParams)
+  const actor = await requireLabAccess(event, id, 'write')
+  const input = await readValidBody(event, geometryVersionInput)
+  setResponseStatus(event, 201)
+  return addGeometryVersion(event, actor, id, instrumentId, input)
+})

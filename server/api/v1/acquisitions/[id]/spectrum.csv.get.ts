@@ -1,0 +1,10 @@
+import { idParams } from '#shared/schemas/common'
+
+export default defineEventHandler(async (event) => {
+  const key = await requireLabKey(event, 'results:read')
+  const { id } = getValidParams(event, idParams)
+  const spectrum = await spectrumOf(key.labId, id)
+  setResponseHeader(event, 'content-type', 'text/csv; charset=utf-8')
+  setResponseHeader(event, 'content-disposition', `attachment; filename="${spectrum.runId}.csv"`)
+  return spectrumCsv(spectrum)
+})

@@ -1,0 +1,63 @@
+import type { H3Event } from 'h3'
+import { createHash, randomBytes, timingSafeEqual } from 'node:crypto'
+import { and, desc, eq, isNull } from 'drizzle-orm'
+import type { ApiKeyInput, KeyScope } from '#shared/schemas/instruments'
+import type { SessionUser } from '#shared/types/roles'
+import { apiKeys } from '../database/schema'
+
+// Lab keys: "awk_<prefix>_<secret>". The prefix (12 characters) finds the row; only the
+// SHA-256 of the whole key is stored, and the key is shown once, when it is issued.
+
+const sha256 = (s: string) => createHash('sha256').update(s).digest('hex')
+
+const publicColumns = {
+  id: apiKeys.id, labId: apiKeys.labId, name: apiKeys.name, prefix: apiKeys.prefix, scopes: apiKeys.scopes,
+  expiresAt: apiKeys.expiresAt, revokedAt: apiKeys.revokedAt, lastUsedAt: apiKeys.lastUsedAt, createdAt: apiKeys.createdAt,
+}
+
+export async function issueKey(event: H3Event, actor: SessionUser, labId: string, input: ApiKeyInput) {
+  const prefix = randomBytes(9).toString('base64url')
+  const secret = `awk_${prefix}_${randomBytes(32).toString('base64url')}`
+  return useDb().transaction(async (tx) => {
+    const row = firstRow(await tx.insert(apiKeys).values({
+      labId, name: input.name, prefix, secretHash: sha256(secret), scopes: input.scopes, expiresAt: input.expiresAt ?? null, createdBy: actor.id,
+    }).returning(publicColumns))
+    await recordAudit(tx, { actor: actorOf(actor), action: 'key.issued', targetType: 'api-key', targetId: row.id, event, detail: { labId, name: input.name, scopes: input.scopes, prefix } })
+    return { ...row, secret }
+  })
+}
+
+export function listKeys(labId: string) {
+  return useDb().select(publicColumns).from(apiKeys).where(eq(apiKeys.labId, labId)).orderBy(desc(apiKeys.createdAt), desc(apiKeys.id))
+}
+
+export async function revokeKey(event: H3Event, actor: SessionUser, labId: string, keyId: string) {
+  const [row] = await useDb().update(apiKeys).set({ revokedAt: new Date() })
+    .where(and(eq(apiKeys.id, keyId), eq(apiKeys.labId, labId), isNull(apiKeys.revokedAt))).returning(publicColumns)
+  if (!row) throw problem(404, 'key-not-found', 'No active key with this id in this lab.')
+  await recordAudit(useDb(), { actor: actorOf(actor), action: 'key.revoked', targetType: 'api-key', targetId: keyId, event, detail: { labId, prefix: row.prefix } })
+  return row
+}
+
+export interface LabKey { id: string, labId: string, scopes: KeyScope[], name: string }
+
+// One answer for a wrong, revoked or expired key, so a caller learns nothing from it.
+const invalidKey = () => problem(401, 'invalid-key', 'The API key is missing, wrong, revoked or expired.', { headers: { 'www-authenticate': 'Bearer realm="arcwise"' } })
+
+/** The lab key of the request (`Authorization: Bearer awk_…`) holding `scope`: 401, or 403 for a missing scope. */
+export async function requireLabKey(event: H3Event, scope: KeyScope): Promise<LabKey> {
+  const header = getRequestHeader(event, 'authorization') ?? ''
+  const match = /^Bearer (awk_([A-Za-z0-9_-]{12})_[A-Za-z0-9_-]{43})$/.exec(header)
+  if (!match) throw invalidKey()
+  const [, secret, prefix] = match
+  const row = await useDb().query.apiKeys.findFirst({ where: eq(apiKeys.prefix, prefix!) })
+  if (!row) throw invalidKey()
+  const same = timingSafeEqual(Buffer.from(row.secretHash, 'hex'), Buffer.from(sha256(secret!), 'hex'))
+  if (!same || row.revokedAt || (row.expiresAt && row.expiresAt <= new Date())) throw invalidKey()
+  if (!row.scopes.includes(scope)) throw problem(403, 'insufficient-scope', `This key lacks the scope ${scope}.`)
+  // Last use is kept to the minute, so a busy key does not write on every request.
+  if (!row.lastUsedAt || Date.now() - row.lastUsedAt.getTime() > 60_000) {
+    await useDb().update(apiKeys).set({ lastUsedAt: new Date() }).where(eq(apiKeys.id, row.id))
+  }
+  return { id: row.id, labId: row.labId, scopes: row.scopes as KeyScope[], name: row.name }
+}

@@ -1,0 +1,84 @@
+import type { H3Event } from 'h3'
+import { and, asc, desc, eq, lte } from 'drizzle-orm'
+import type { z } from 'zod'
+import { fitCalibration } from '#shared/engine'
+import type { calibrationInput, InstrumentInput } from '#shared/schemas/instruments'
+import type { Geometry } from '#shared/engine'
+import type { SessionUser } from '#shared/types/roles'
+import { calibrations, geometryVersions, instruments } from '../database/schema'
+
+export async function listInstruments(labId: string) {
+  const rows = await useDb().select().from(instruments).where(eq(instruments.labId, labId)).orderBy(asc(instruments.name), asc(instruments.id))
+  const current = await Promise.all(rows.map(r => geometryAt(r.id, new Date())))
+  return rows.map((r, i) => ({ ...r, geometry: current[i] ? { version: current[i]!.version, kind: current[i]!.kind, validFrom: current[i]!.validFrom } : null }))
+}
+
+export async function getInstrument(labId: string, id: string) {
+  const db = useDb()
+  const row = await db.query.instruments.findFirst({ where: and(eq(instruments.id, id), eq(instruments.labId, labId)) })
+  if (!row) throw problem(404, 'instrument-not-found', 'No such instrument in this lab.')
+  const versions = await db.select().from(geometryVersions).where(eq(geometryVersions.instrumentId, id)).orderBy(desc(geometryVersions.version))
+  const cals = await db.select().from(calibrations).where(eq(calibrations.instrumentId, id)).orderBy(desc(calibrations.version))
+  return { ...row, geometryVersions: versions, calibrations: cals }
+}
+
+export async function createInstrument(event: H3Event, actor: SessionUser, labId: string, input: InstrumentInput) {
+  return useDb().transaction(async (tx) => {
+    if (await tx.query.instruments.findFirst({ where: and(eq(instruments.labId, labId), eq(instruments.slug, input.slug)), columns: { id: true } })) {
+      throw fieldProblem('slug', 'another instrument of this lab uses this slug', 409, 'slug-taken')
+    }
+    const instrument = firstRow(await tx.insert(instruments).values({ labId, slug: input.slug, name: input.name }).returning())
+    await tx.insert(geometryVersions).values({
+      instrumentId: instrument.id, version: 1, kind: input.geometry.kind, params: input.geometry as unknown as Record<string, unknown>,
+      validFrom: input.validFrom ?? new Date(), createdBy: actor.id,
+    })
+    await recordAudit(tx, { actor: actorOf(actor), action: 'instrument.created', targetType: 'instrument', targetId: instrument.id, event, detail: { labId, slug: input.slug, kind: input.geometry.kind } })
+    return instrument
+  })
+}
+
+export async function addGeometryVersion(event: H3Event, actor: SessionUser, labId: string, instrumentId: string, input: { geometry: Geometry, validFrom: Date, note?: string }) {
+  await getInstrument(labId, instrumentId)
+  return useDb().transaction(async (tx) => {
+    const [last] = await tx.select({ version: geometryVersions.version }).from(geometryVersions)
+      .where(eq(geometryVersions.instrumentId, instrumentId)).orderBy(desc(geometryVersions.version)).limit(1).for('update')
+    const row = firstRow(await tx.insert(geometryVersions).values({
+      instrumentId, version: (last?.version ?? 0) + 1, kind: input.geometry.kind, params: input.geometry as unknown as Record<string, unknown>,
+      validFrom: input.validFrom, note: input.note, createdBy: actor.id,
+    }).returning())
+    await recordAudit(tx, { actor: actorOf(actor), action: 'instrument.geometry-versioned', targetType: 'instrument', targetId: instrumentId, event, detail: { version: row.version, validFrom: row.validFrom } })
+    return row
+  })
+}
+
+/** Fits a calibration with the engine and stores it as the next version; a refused fit is a 422 naming why. */
+export async function addCalibration(event: H3Event, actor: SessionUser, labId: string, instrumentId: string, input: z.output<typeof calibrationInput>) {
+  await getInstrument(labId, instrumentId)
+  let fit
+  try { fit = fitCalibration(input.points, input.degree) }
+  catch (error) { engineProblem(error) }
+  return useDb().transaction(async (tx) => {
+    const [last] = await tx.select({ version: calibrations.version }).from(calibrations)
+      .where(eq(calibrations.instrumentId, instrumentId)).orderBy(desc(calibrations.version)).limit(1).for('update')
+    const row = firstRow(await tx.insert(calibrations).values({
+      instrumentId, version: (last?.version ?? 0) + 1, fit: fit as unknown as Record<string, unknown>, points: input.points, validFrom: input.validFrom, createdBy: actor.id,
+    }).returning())
+    await recordAudit(tx, { actor: actorOf(actor), action: 'instrument.calibrated', targetType: 'instrument', targetId: instrumentId, event, detail: { version: row.version, rmsPpm: fit.rmsPpm } })
+    return row
+  })
+}
+
+/** The geometry version in force at `at`: the latest one valid from at or before it. */
+export async function geometryAt(instrumentId: string, at: Date, db: Queryable = useDb()) {
+  const [row] = await db.select().from(geometryVersions)
+    .where(and(eq(geometryVersions.instrumentId, instrumentId), lte(geometryVersions.validFrom, at)))
+    .orderBy(desc(geometryVersions.validFrom), desc(geometryVersions.version)).limit(1)
+  return row
+}
+
+export async function calibrationAt(instrumentId: string, at: Date, db: Queryable = useDb()) {
+  const [row] = await db.select().from(calibrations)
+    .where(and(eq(calibrations.instrumentId, instrumentId), lte(calibrations.validFrom, at)))
+    .orderBy(desc(calibrations.validFrom), desc(calibrations.version)).limit(1)
+  return row
+}

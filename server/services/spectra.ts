@@ -1,0 +1,96 @@
+import { and, eq } from 'drizzle-orm'
+import { applyCalibrationColumn, geometry as geometrySchema, staticCollectorMz, sweepToMz, siFactor, detectorQuantity } from '#shared/engine'
+import type { AcquisitionInput } from '#shared/schemas/acquisitions'
+import { acquisitions, calibrations, geometryVersions, instruments, labs, results } from '../database/schema'
+
+export interface Spectrum { runId: string, lab: string, instrument: string, acquiredAt: Date, mz: Float64Array, signal: Float64Array, unit: 'A' | 'cps' }
+
+/** The profile (or the collector readings) of an acquisition, recomputed from its raw payload with the versions its result used. */
+export async function spectrumOf(labId: string, id: string): Promise<Spectrum> {
+  const [row] = await useDb().select({ acq: acquisitions, geo: geometryVersions, cal: calibrations, slug: instruments.slug, lab: labs.name })
+    .from(acquisitions)
+    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+    .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
+    .leftJoin(calibrations, eq(calibrations.id, results.calibrationId))
+    .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
+    .innerJoin(labs, eq(labs.id, acquisitions.labId))
+    .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
+  if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
+  const input = row.acq.payload as unknown as AcquisitionInput
+  const geo = geometrySchema.parse(row.geo.params)
+  const detector = input.detectors[0]!
+  const unit = detectorQuantity(detector.unit, 'detectors.0.unit') === 'current' ? 'A' : 'cps'
+  const factor = siFactor(unit === 'A' ? 'current' : 'countRate', detector.unit, 'detectors.0.unit')
+  let mz: Float64Array
+  let signal: Float64Array
+  if (input.sweep) {
+    mz = sweepToMz(geo, { settings: input.settings, sweep: input.sweep, detectors: input.detectors }).mz
+    signal = Float64Array.from(detector.values, v => v * factor)
+  }
+  else {
+    const positions = staticCollectorMz(geo, { settings: input.settings, detectors: input.detectors })
+    mz = Float64Array.from(input.detectors, (d, k) => (positions.find(p => p.collector === d.collector) ?? positions[k])!.mz)
+    signal = Float64Array.from(input.detectors, d => d.values.reduce((a, b) => a + b, 0) / d.values.length * factor)
+  }
+  if (row.cal) applyCalibrationColumn(row.cal.fit as { center: number, halfRange: number, coefficients: number[] }, mz)
+  if (mz.length > 1 && mz[1]! < mz[0]!) { mz.reverse(); signal.reverse() }
+  return { runId: row.acq.externalId, lab: row.lab, instrument: row.slug, acquiredAt: row.acq.acquiredAt, mz, signal, unit }
+}
+
+export function spectrumCsv(s: Spectrum): string {
+  const lines = [`mz,signal_${s.unit === 'A' ? 'A' : 'cps'}`]
+  for (let i = 0; i < s.mz.length; i++) lines.push(`${s.mz[i]!.toPrecision(10)},${s.signal[i]!.toPrecision(8)}`)
+  return `${lines.join('\n')}\n`
+}
+
+/**
+ * JCAMP-DX 5.01 (McDonald & Wilks, Appl. Spectrosc. 42 (1988) 151): the profile resampled by
+ * linear interpolation onto evenly spaced m/z, written as ##XYDATA=(X++(Y..Y)), the form
+ * readers take for continuous spectra (m/z of a field sweep is not evenly spaced).
+ */
+export function spectrumJcamp(s: Spectrum): string {
+  const n = s.mz.length
+  const first = s.mz[0]!
+  const last = s.mz[n - 1]!
+  const delta = n > 1 ? (last - first) / (n - 1) : 0
+  const y = new Float64Array(n)
+  for (let i = 0, j = 0; i < n; i++) {
+    const x = first + i * delta
+    while (j < n - 2 && s.mz[j + 1]! < x) j++
+    const x0 = s.mz[j]!
+    const x1 = s.mz[Math.min(j + 1, n - 1)]!
+    const t = x1 === x0 ? 0 : Math.min(1, Math.max(0, (x - x0) / (x1 - x0)))
+    y[i] = s.signal[j]! + t * (s.signal[Math.min(j + 1, n - 1)]! - s.signal[j]!)
+  }
+  // Y as integers times YFACTOR (readers handle these best): 7 significant digits at the top.
+  let top = 0
+  for (let i = 0; i < n; i++) top = Math.max(top, Math.abs(y[i]!))
+  const yFactor = top > 0 ? top / 1e7 : 1
+  const head = [
+    `##TITLE=${s.runId}`,
+    '##JCAMP-DX=5.01',
+    '##DATA TYPE=MASS SPECTRUM',
+    '##DATA CLASS=XYDATA',
+    `##ORIGIN=${s.lab} (Arcwise)`,
+    `##OWNER=${s.lab}`,
+    `##SPECTROMETER/DATA SYSTEM=${s.instrument}`,
+    `##LONGDATE=${s.acquiredAt.toISOString()}`,
+    '##XUNITS=M/Z',
+    `##YUNITS=${s.unit === 'A' ? 'AMPERES' : 'COUNTS/S'}`,
+    '##XFACTOR=1',
+    `##YFACTOR=${yFactor.toExponential(6)}`,
+    `##FIRSTX=${first}`,
+    `##LASTX=${last}`,
+    `##DELTAX=${delta}`,
+    `##NPOINTS=${n}`,
+    `##FIRSTY=${Math.round(y[0]! / yFactor) * yFactor}`,
+    '##XYDATA=(X++(Y..Y))',
+  ]
+  const body: string[] = []
+  for (let i = 0; i < n; i += 8) {
+    const ys: string[] = []
+    for (let k = i; k < Math.min(n, i + 8); k++) ys.push(String(Math.round(y[k]! / yFactor)))
+    body.push(`${(first + i * delta).toPrecision(10)} ${ys.join(' ')}`)
+  }
+  return `${[...head, ...body, '##END='].join('\n')}\n`
+}

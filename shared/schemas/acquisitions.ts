@@ -1,0 +1,64 @@
+import { z } from 'zod'
+import { referenceRatios } from '../engine/ratios'
+import { slug } from './common'
+
+// Acquisition schema v1: what a lab system posts. The shape of the raw readings follows
+// the engine's RawReadings; everything Arcwise decides (lab, status, versions) is absent
+// on purpose, and `.strict()` refuses a body that tries to set it.
+
+const MAX_POINTS = 2_000_000
+
+const finiteNumber = z.number({ error: 'must be a finite number' }).finite('must be a finite number')
+
+const setting = z.object({
+  value: finiteNumber,
+  unit: z.string({ error: 'is required' }).min(1, 'is required').max(16),
+  u: finiteNumber.min(0, 'cannot be negative').optional(),
+}).strict()
+
+export const acquisitionInput = z.object({
+  instrument: slug,
+  runId: z.string({ error: 'is required' }).trim().min(1, 'is required').max(128),
+  acquiredAt: z.iso.datetime({ offset: true, error: 'must be an ISO 8601 date and time with an offset, e.g. 2026-11-30T14:05:00Z' }),
+  sampleRef: z.string().trim().max(200).optional(),
+  settings: z.partialRecord(z.enum(['acceleratingVoltage', 'field', 'plateVoltage', 'filterField'], { error: 'must be acceleratingVoltage, field, plateVoltage or filterField' }), setting).default({}),
+  sweep: z.object({
+    reading: z.enum(['field', 'acceleratingVoltage']),
+    unit: z.string().min(1).max(16),
+    u: finiteNumber.min(0).optional(),
+    values: z.array(finiteNumber).min(2, 'a sweep needs at least 2 points').max(MAX_POINTS),
+  }).strict().optional(),
+  detectors: z.array(z.object({
+    collector: z.string().max(32).optional(),
+    unit: z.string({ error: 'is required' }).min(1).max(16),
+    values: z.array(finiteNumber).min(1).max(MAX_POINTS),
+  }).strict()).min(1, 'at least one detector column is required').max(32),
+  processing: z.object({
+    tolerancePpm: z.number().positive().max(10_000).optional(),
+    isotopes: z.boolean().optional(),
+    maxCharge: z.number().int().min(1).max(3).optional(),
+    formulas: z.array(z.string().min(1).max(64)).max(100).optional(),
+    ratios: z.array(z.object({
+      id: z.enum(Object.keys(referenceRatios) as [keyof typeof referenceRatios, ...(keyof typeof referenceRatios)[]]),
+      heavy: z.string().max(64).optional(),
+      light: z.string().max(64).optional(),
+    }).strict()).max(20).optional(),
+  }).strict().optional(),
+}).strict().superRefine((v, ctx) => {
+  const n = v.sweep?.values.length
+  v.detectors.forEach((d, i) => {
+    if (n !== undefined && d.values.length !== n) {
+      ctx.addIssue({ code: 'custom', path: ['detectors', i, 'values'], message: `has ${d.values.length} points, the sweep has ${n}` })
+    }
+  })
+})
+export type AcquisitionInput = z.infer<typeof acquisitionInput>
+
+export const acquisitionListQuery = z.object({
+  instrument: slug.optional(),
+  status: z.enum(['processed', 'failed']).optional(),
+  from: z.iso.datetime({ offset: true }).optional(),
+  to: z.iso.datetime({ offset: true }).optional(),
+  limit: z.coerce.number().int().min(1).max(200).default(50),
+  cursor: z.string().max(200).optional(),
+})

@@ -1,0 +1,47 @@
+import { z } from 'zod'
+import { geometry } from '../engine/geometry'
+import { displayName, slug } from './common'
+
+/** A new instrument: its first geometry version is valid from `validFrom` (default now). */
+export const instrumentInput = z.object({
+  slug,
+  name: displayName,
+  geometry,
+  validFrom: z.coerce.date({ error: 'must be a date and time' }).optional(),
+}).strict()
+export type InstrumentInput = z.infer<typeof instrumentInput>
+
+export const instrumentUpdate = z.object({ name: displayName }).strict()
+
+/** A change of geometry: a new version, valid from a given time. */
+export const geometryVersionInput = z.object({
+  geometry,
+  validFrom: z.coerce.date({ error: 'must be a date and time' }),
+  note: z.string().trim().max(500).optional(),
+}).strict()
+
+export const calibrationInput = z.object({
+  degree: z.number().int().min(1).max(3),
+  points: z.array(z.object({
+    measuredMz: z.number().positive(),
+    referenceMz: z.number().positive(),
+    label: z.string().max(40).optional(),
+  }).strict()).min(1).max(200),
+  validFrom: z.coerce.date({ error: 'must be a date and time' }),
+}).strict()
+
+export const keyScopes = ['acquisitions:write', 'results:read'] as const
+export type KeyScope = (typeof keyScopes)[number]
+
+export const apiKeyInput = z.object({
+  name: displayName,
+  scopes: z.array(z.enum(keyScopes, { error: `must be one of ${keyScopes.join(', ')}` })).min(1, 'choose at least one scope')
+    .transform(s => [...new Set(s)]),
+  expiresAt: z.coerce.date({ error: 'must be a date and time' })
+    .refine(d => d.getTime() > Date.now(), 'must be in the future').nullish(),
+}).strict()
+export type ApiKeyInput = z.infer<typeof apiKeyInput>
+
+export const labParams = z.object({ id: z.uuid() })
+export const labInstrumentParams = z.object({ id: z.uuid(), instrumentId: z.uuid() })
+export const labKeyParams = z.object({ id: z.uuid(), keyId: z.uuid() })

@@ -1,0 +1,185 @@
+import { describe, expect, it } from 'vitest'
+import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
+import { ConsoleClient, unique, useArcwise } from '../support/server'
+
+await useArcwise()
+
+const post = (secret: string, body: unknown, headers: Record<string, string> = {}) =>
+  new ConsoleClient().request('POST', '/api/v1/acquisitions', body, { ...bearer(secret), ...headers })
+const get = (secret: string, path: string) => new ConsoleClient().request('GET', path, undefined, bearer(secret))
+const countRows = async (sql: any, labId: string) => (await sql`select (select count(*) from acquisitions where lab_id = ${labId})::int as a, (select count(*) from events where lab_id = ${labId})::int as e`)[0]
+
+describe('POST /api/v1/acquisitions', () => {
+  it('normalises a sweep to m/z, assigns CO2 and 13CO2, and reports δ13C with its uncertainty and the versions used', async () => {
+    const { key, lab, sql } = await labWithInstrument()
+    const res = await post(key.secret, co2Acquisition())
+    expect(res.status, JSON.stringify(res.body)).toBe(201)
+    const r = res.body.result
+    expect(r.points).toBe(4000)
+    expect(r.mzRange[0]).toBeCloseTo(43, 1)
+    const species = r.peaks.map((p: any) => p.assignment?.species)
+    expect(species).toEqual(expect.arrayContaining(['CO2', '[13C]O2']))
+    const co2 = r.peaks.find((p: any) => p.assignment?.species === 'CO2')
+    // CO2⁺ at (43.98982924 − m_e) u/e: AME2020 masses, CODATA 2018 m_e (from memory).
+    expect(Math.abs(co2.centroid - (43.98982924 - 0.00054858))).toBeLessThan(43.99 * 20e-6)
+    expect(co2.assignment.errorPpm).toBeLessThan(20)
+    expect(r.ratios[0]).toMatchObject({ deltaName: 'δ13C', standard: 'VPDB' })
+    expect(r.ratios[0].deltaPermil).toBeCloseTo(-10, 0)
+    expect(r.ratios[0].deltaU).toBeGreaterThan(0)
+    expect(r.versions).toEqual({ engine: '1.0.0', constants: 'CODATA 2018', geometry: 1, calibration: null })
+    expect(r.qc.map((q: any) => q.code)).toContain('uncalibrated')
+    expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
+    const [peakRows] = await sql`select count(*)::int as n from peaks where lab_id = ${lab.id}`
+    expect(peakRows.n).toBe(r.peaks.length)
+    const [event] = await sql`select sequence::int as sequence, type from events where lab_id = ${lab.id}`
+    expect(event).toEqual({ sequence: 1, type: 'result.created' })
+  })
+
+  it('uses the geometry version valid at acquiredAt', async () => {
+    const { admin, lab, instrument, key } = await labWithInstrument()
+    await admin.post(`/api/console/labs/${lab.id}/instruments/${instrument.id}/geometry-versions`, {
+      geometry: { kind: 'potential-sector', analyzerRadius: { value: 27.5, unit: 'cm' } }, validFrom: '2026-11-15T00:00:00Z',
+    })
+    const before = await post(key.secret, { ...co2Acquisition(), acquiredAt: '2026-11-01T00:00:00Z' })
+    const after = await post(key.secret, { ...co2Acquisition(), acquiredAt: '2026-11-30T00:00:00Z' })
+    expect(before.body.result.versions.geometry).toBe(1)
+    expect(after.body.result.versions.geometry).toBe(2)
+    // m/z ∝ r²: the larger radius reads (27.5/27)² higher.
+    expect(after.body.result.mzRange[0] / before.body.result.mzRange[0]).toBeCloseTo((27.5 / 27) ** 2, 9)
+    const early = await post(key.secret, { ...co2Acquisition(), acquiredAt: '2025-06-01T00:00:00Z' })
+    expect(early.status).toBe(422)
+    expect(early.body.errors[0].path).toBe('acquiredAt')
+  })
+
+  it('the same run id with the same body replays; with another body, 409', async () => {
+    const { key, lab, sql } = await labWithInstrument()
+    const body = co2Acquisition()
+    const first = await post(key.secret, body)
+    const again = await post(key.secret, body)
+    expect(again.status).toBe(200)
+    expect(again.body.id).toBe(first.body.id)
+    const changed = await post(key.secret, { ...body, sampleRef: 'OTHER' })
+    expect(changed.status).toBe(409)
+    expect(changed.body.errors[0].path).toBe('runId')
+    expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
+  })
+
+  it('Idempotency-Key: same key and body replays the answer, another body is 422 (IETF draft)', async () => {
+    const { key, lab, sql } = await labWithInstrument()
+    const body = co2Acquisition()
+    const idem = unique('idem')
+    const first = await post(key.secret, body, { 'idempotency-key': idem })
+    const replay = await post(key.secret, body, { 'idempotency-key': idem })
+    expect(first.status).toBe(201)
+    expect(replay.status).toBe(201)
+    expect(replay.headers.get('idempotent-replayed')).toBe('true')
+    expect(replay.body).toEqual(first.body)
+    const other = await post(key.secret, co2Acquisition(), { 'idempotency-key': idem })
+    expect(other.status).toBe(422)
+    expect(other.body.type).toBe('urn:arcwise:problem:idempotency-key-reused')
+    expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
+  })
+
+  it.each([
+    ['wrong types', (b: any) => ({ ...b, acquiredAt: 12 }), 'acquiredAt'],
+    ['a date that cannot be', (b: any) => ({ ...b, acquiredAt: '2026-02-30T10:00:00Z' }), 'acquiredAt'],
+    ['columns of different lengths', (b: any) => ({ ...b, detectors: [{ unit: 'fA', values: b.detectors[0].values.slice(1) }] }), 'detectors.0.values'],
+    ['null in a column', (b: any) => ({ ...b, sweep: { ...b.sweep, values: [null, ...b.sweep.values.slice(1)] } }), 'sweep.values.0'],
+    ['an unknown unit', (b: any) => ({ ...b, sweep: { ...b.sweep, unit: 'tesla-ish' } }), 'sweep.unit'],
+    ['a negative voltage', (b: any) => ({ ...b, settings: { acceleratingVoltage: { value: -3, unit: 'kV' } } }), 'settings.acceleratingVoltage.value'],
+    ['a sweep that goes back', (b: any) => ({ ...b, sweep: { ...b.sweep, values: [...b.sweep.values.slice(0, -1), b.sweep.values[0]] } }), 'sweep.values.3999'],
+    ['an attempt to set labId', (b: any) => ({ ...b, labId: '7f1c9a52-0c1e-4b8e-9a4e-2f0d3c1b5a61' }), ''],
+    ['an attempt to set status', (b: any) => ({ ...b, status: 'processed' }), ''],
+    ['an unknown instrument', (b: any) => ({ ...b, instrument: 'not-ours' }), 'instrument'],
+  ])('refuses %s naming the field, and stores nothing', async (_what, spoil, path) => {
+    const { key, lab, sql } = await labWithInstrument()
+    const res = await post(key.secret, spoil(co2Acquisition()))
+    expect(res.status, JSON.stringify(res.body).slice(0, 300)).toBeGreaterThanOrEqual(400)
+    expect(res.status).toBeLessThan(500)
+    expect(res.headers.get('content-type')).toContain('application/problem+json')
+    if (path) expect(res.body.errors.map((e: any) => e.path)).toContain(path)
+    else expect(res.body.errors[0].message).toMatch(/[Uu]nrecognized key/)
+    expect(await countRows(sql, lab.id)).toEqual({ a: 0, e: 0 })
+  })
+
+  it('malformed JSON is a 400 problem document', async () => {
+    const { key } = await labWithInstrument()
+    const res = await new ConsoleClient().request('POST', '/api/v1/acquisitions', '{"instrument":', { ...bearer(key.secret), 'content-type': 'application/json' })
+    expect(res.status).toBe(400)
+  })
+})
+
+describe('lab keys', () => {
+  it('a wrong, revoked or expired key gets the same 401; a missing scope is 403', async () => {
+    const { admin, lab, key, sql } = await labWithInstrument()
+    const wrong = await post(`${key.secret.slice(0, -4)}AAAA`, co2Acquisition())
+    await admin.delete(`/api/console/labs/${lab.id}/keys/${key.id}`)
+    const revoked = await post(key.secret, co2Acquisition())
+    const expiring = (await admin.post(`/api/console/labs/${lab.id}/keys`, { name: 'soon', scopes: ['acquisitions:write'], expiresAt: new Date(Date.now() + 60_000).toISOString() })).body
+    await sql`update api_keys set expires_at = now() - interval '1 second' where id = ${expiring.id}`
+    const expired = await post(expiring.secret, co2Acquisition())
+    const strip = ({ instance: _i, ...rest }: any) => rest
+    for (const r of [wrong, revoked, expired]) expect(r.status).toBe(401)
+    expect(strip(revoked.body)).toEqual(strip(wrong.body))
+    expect(strip(expired.body)).toEqual(strip(wrong.body))
+
+    const readOnly = (await admin.post(`/api/console/labs/${lab.id}/keys`, { name: 'reader', scopes: ['results:read'] })).body
+    expect((await post(readOnly.secret, co2Acquisition())).status).toBe(403)
+  })
+
+  it('lists keys with prefix and last use, never a hash or the secret', async () => {
+    const { admin, lab, key } = await labWithInstrument()
+    await post(key.secret, co2Acquisition())
+    const list = await admin.get(`/api/console/labs/${lab.id}/keys`)
+    expect(list.body.items).toHaveLength(1)
+    const [item] = list.body.items
+    expect(item.prefix).toBe(key.secret.slice(4, 16))
+    expect(item.lastUsedAt).not.toBeNull()
+    expect(JSON.stringify(list.body)).not.toContain(key.secret)
+    expect(Object.keys(item)).not.toContain('secretHash')
+  })
+})
+
+describe('reads are scoped to the key\'s lab (OWASP API1:2023)', () => {
+  it('lists, reads and exports its own acquisitions; another lab\'s key gets 404', async () => {
+    const mine = await labWithInstrument()
+    const theirs = await labWithInstrument()
+    const ids: string[] = []
+    for (let i = 0; i < 3; i++) ids.push((await post(mine.key.secret, co2Acquisition())).body.id)
+    const page1 = await get(mine.key.secret, '/api/v1/acquisitions?limit=2')
+    expect(page1.body.items.map((a: any) => a.id)).toEqual([ids[2], ids[1]])
+    const page2 = await get(mine.key.secret, `/api/v1/acquisitions?limit=2&cursor=${page1.body.nextCursor}`)
+    expect(page2.body.items.map((a: any) => a.id)).toEqual([ids[0]])
+    expect(page2.body.nextCursor).toBeNull()
+
+    expect((await get(mine.key.secret, `/api/v1/acquisitions/${ids[0]}`)).status).toBe(200)
+    expect((await get(mine.key.secret, `/api/v1/acquisitions/${ids[0]}/result`)).body.peaks.length).toBeGreaterThan(0)
+    for (const path of [`/api/v1/acquisitions/${ids[0]}`, `/api/v1/acquisitions/${ids[0]}/result`, `/api/v1/acquisitions/${ids[0]}/spectrum.csv`]) {
+      const res = await get(theirs.key.secret, path)
+      expect(res.status).toBe(404)
+      expect(JSON.stringify(res.body)).not.toContain(mine.lab.id)
+    }
+    expect((await get(theirs.key.secret, '/api/v1/acquisitions')).body.items).toEqual([])
+  })
+
+  it('exports the spectrum as CSV and as JCAMP-DX that jcampconverter (npm) reads back', async () => {
+    const { key } = await labWithInstrument()
+    const id = (await post(key.secret, co2Acquisition())).body.id
+    const csv = await get(key.secret, `/api/v1/acquisitions/${id}/spectrum.csv`)
+    expect(csv.headers.get('content-type')).toContain('text/csv')
+    const lines = String(csv.body).trim().split('\n')
+    expect(lines[0]).toBe('mz,signal_A')
+    expect(lines).toHaveLength(4001)
+    const jdx = await get(key.secret, `/api/v1/acquisitions/${id}/spectrum.jdx`)
+    const { convert } = await import('jcampconverter')
+    const parsed = convert(String(jdx.body)).flatten[0]!
+    expect(parsed.dataType).toBe('MASS SPECTRUM')
+    const data = parsed.spectra[0]!.data
+    expect(data.x).toHaveLength(4000)
+    expect(data.x[0]).toBeCloseTo(Number(lines[1]!.split(',')[0]), 6)
+    expect(data.x.at(-1)).toBeCloseTo(Number(lines.at(-1)!.split(',')[0]), 6)
+    // The tallest point of the resampled profile is the CO2⁺ peak near m/z 43.989.
+    const top = data.y.indexOf(Math.max(...data.y))
+    expect(data.x[top]).toBeCloseTo(43.989, 1)
+  })
+})

@@ -1,0 +1,35 @@
+import { geometry, isotope, formulaSpecies, simulateFieldSweep } from '../../shared/engine'
+import { demoUser } from './demo'
+import { ConsoleClient, testDb, unique } from './server'
+
+export const sectorGeometry = { kind: 'potential-sector', analyzerRadius: { value: 27, unit: 'cm', u: 0.01 } } as const
+
+/** A lab of its own with an instrument and a key of both scopes, set up through the console API. */
+export async function labWithInstrument(opts: { validFrom?: string } = {}) {
+  const admin = await new ConsoleClient().signIn(demoUser('admin').email, demoUser('admin').password)
+  const lab = (await admin.post('/api/console/labs', { slug: unique('lab'), name: 'Test Lab', site: 'Bench 1', contactEmail: 'bench@example.org' })).body
+  const instrument = (await admin.post(`/api/console/labs/${lab.id}/instruments`, { slug: 'ms-1', name: 'Sector one', geometry: sectorGeometry, validFrom: opts.validFrom ?? '2026-01-01T00:00:00Z' })).body
+  const key = (await admin.post(`/api/console/labs/${lab.id}/keys`, { name: 'lab PC', scopes: ['acquisitions:write', 'results:read'] })).body
+  return { admin, lab, instrument, key, sql: testDb() }
+}
+
+/** An acquisition body as a lab PC would post it: a simulated CO2 sweep (engine forward model). */
+export function co2Acquisition(runId = unique('run'), points = 4000) {
+  const geo = geometry.parse(sectorGeometry)
+  const raw = simulateFieldSweep({
+    geometry: geo, acceleratingVoltageV: 3000, mzFrom: 43, mzTo: 46.5, points, resolvingPower: 900, seed: 3,
+    species: [{ species: formulaSpecies('CO2'), currentA: 4e-9 }, { species: formulaSpecies('[13C]O2'), currentA: 4e-9 * 0.0111802 * 0.99 }, { species: isotope('40Ar'), currentA: 1e-12 }],
+    noiseA: 1e-15, baselineA: 5e-15, currentUnit: 'fA',
+  })
+  return {
+    instrument: 'ms-1', runId, acquiredAt: '2026-11-30T10:00:00Z', sampleRef: 'CARB-7',
+    settings: { acceleratingVoltage: { value: 3, unit: 'kV', u: 0.0006 } },
+    sweep: { reading: 'field' as const, unit: 'T', values: Array.from(raw.sweep!.values) },
+    detectors: [{ unit: 'fA', values: Array.from(raw.detectors[0]!.values) }],
+    processing: { formulas: ['CO2', '[13C]O2'], ratios: [{ id: 'VPDB:13C/12C' as const, heavy: '[13C]O2', light: 'CO2' }] },
+  }
+}
+
+export function bearer(secret: string) {
+  return { authorization: `Bearer ${secret}` }
+}
