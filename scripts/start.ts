@@ -2,7 +2,8 @@
 // when the sources changed, and the server on http://localhost:3000. Ctrl-C stops it all.
 import { buildIfStale } from './lib/build'
 import { log } from './lib/paths'
-import { printDemoSignIns, seedDemo } from './lib/seed'
+import { postDemoHistory } from './lib/lab-system'
+import { demoKeysFile, printDemoSignIns, readDemoKeys, seedDemo } from './lib/seed'
 import { mailFile, startServer, startStack } from './lib/services'
 
 const port = Number(process.env.PORT ?? 3000)
@@ -20,8 +21,9 @@ async function stop(code: number) {
 process.on('SIGINT', () => void stop(0))
 process.on('SIGTERM', () => void stop(0))
 
+let seeded = false
 try {
-  await seedDemo(stack.databaseUrl)
+  seeded = await seedDemo(stack.databaseUrl, { keysFile: demoKeysFile })
   buildIfStale()
 }
 catch (error) {
@@ -30,5 +32,20 @@ catch (error) {
 }
 running.server = startServer(stack.serverEnv, port)
 running.server.on('exit', (code) => { if (!stopping) void stop(code ?? 1) })
+await waitForServer(`http://127.0.0.1:${port}/api/health`)
+if (seeded) {
+  // The demo's acquisitions go in through the API, as a lab system would post them.
+  log(`posted ${await postDemoHistory(`http://127.0.0.1:${port}`, readDemoKeys())} demo acquisitions`)
+}
 printDemoSignIns(appUrl)
+log('simulate a lab system: npm run lab:simulate -- --lab saltmarsh-isotopes --rate 1 --count 10')
 log('press Ctrl-C to stop')
+
+async function waitForServer(url: string) {
+  for (let i = 0; i < 120; i++) {
+    try { if ((await fetch(url)).ok) return }
+    catch { /* not up yet */ }
+    await new Promise(r => setTimeout(r, 500))
+  }
+  throw new Error(`the server did not answer at ${url}`)
+}

@@ -1,10 +1,20 @@
+import { createHash, randomBytes } from 'node:crypto'
+import { existsSync, readFileSync, writeFileSync } from 'node:fs'
+import { join } from 'node:path'
 import postgres from 'postgres'
 import { demoLabs, demoPartners, demoUsers } from './demo'
+import { demoInstruments } from './demo-instruments'
 import { hashPassword } from './password'
-import { log } from './paths'
+import { dataDir, log } from './paths'
+
+/** Lab keys the demo seed issued, by lab slug, for the lab simulator (kept under .data/). */
+export const demoKeysFile = join(dataDir, 'demo-keys.json')
+export function readDemoKeys(): Record<string, string> {
+  return existsSync(demoKeysFile) ? JSON.parse(readFileSync(demoKeysFile, 'utf8')) as Record<string, string> : {}
+}
 
 /** Seeds the demo consortium once: a database that has labs already is left alone. */
-export async function seedDemo(url: string): Promise<boolean> {
+export async function seedDemo(url: string, opts: { keysFile?: string } = {}): Promise<boolean> {
   const sql = postgres(url, { max: 1, onnotice: () => {} })
   try {
     const [{ count }] = await sql<{ count: number }[]>`select count(*)::int as count from labs`
@@ -26,7 +36,21 @@ export async function seedDemo(url: string): Promise<boolean> {
         await tx`insert into users (email, name, password_hash, role, lab_id, partner_id)
                  values (${u.email}, ${u.name}, ${await hashPassword(u.password)}, ${u.role}, ${labId}, ${partnerId})`
       }
-      await tx`insert into audit_log (actor_label, action, detail) values ('seed', 'demo.seeded', ${tx.json({ labs: demoLabs.length, partners: demoPartners.length, users: demoUsers.length })})`
+      const keys: Record<string, string> = {}
+      for (const inst of demoInstruments) {
+        const labId = labIds.get(inst.lab)!
+        const [row] = await tx`insert into instruments (lab_id, slug, name) values (${labId}, ${inst.slug}, ${inst.name}) returning id`
+        await tx`insert into geometry_versions (instrument_id, version, kind, params, valid_from, note)
+                 values (${row!.id}, 1, ${inst.geometry.kind}, ${tx.json(inst.geometry as never)}, '2026-01-01T00:00:00Z', 'as installed')`
+        // Same key format as the API issues: awk_<12-character prefix>_<43-character secret>.
+        const prefix = randomBytes(9).toString('base64url')
+        const secret = `awk_${prefix}_${randomBytes(32).toString('base64url')}`
+        await tx`insert into api_keys (lab_id, name, prefix, secret_hash, scopes)
+                 values (${labId}, 'Lab simulator (demo)', ${prefix}, ${createHash('sha256').update(secret).digest('hex')}, ${['acquisitions:write', 'results:read']})`
+        keys[inst.lab] = secret
+      }
+      if (opts.keysFile) writeFileSync(opts.keysFile, JSON.stringify(keys, null, 2), { mode: 0o600 })
+      await tx`insert into audit_log (actor_label, action, detail) values ('seed', 'demo.seeded', ${tx.json({ labs: demoLabs.length, partners: demoPartners.length, users: demoUsers.length, instruments: demoInstruments.length })})`
     })
     log('demo consortium seeded')
     return true

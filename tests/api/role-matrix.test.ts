@@ -9,7 +9,7 @@ await useArcwise()
 
 type Who = Role | 'anonymous'
 const everyone: Who[] = ['admin', 'lab_manager', 'integrator', 'viewer', 'anonymous']
-const ids = { ownLab: '', otherLab: '', ownPartner: '', otherPartner: '', targetUser: '' }
+const ids = { ownLab: '', otherLab: '', ownPartner: '', otherPartner: '', targetUser: '', ownInstrument: '', ownKey: '' }
 const clients = {} as Record<Who, ConsoleClient>
 
 beforeAll(async () => {
@@ -22,6 +22,9 @@ beforeAll(async () => {
   ids.otherPartner = partners.find(p => p.slug === 'tidewater-clinical')!.id
   const [target] = await sql<{ id: string }[]>`insert into users (email, name, password_hash, role) values (${`${unique('target')}@example.org`}, 'Matrix Target', 'x', 'viewer') returning id`
   ids.targetUser = target!.id
+  const [instrument] = await sql<{ id: string }[]>`insert into instruments (lab_id, slug, name) values (${ids.ownLab}, ${unique('ms')}, 'Matrix MS') returning id`
+  ids.ownInstrument = instrument!.id
+  await sql`insert into geometry_versions (instrument_id, version, kind, params, valid_from) values (${ids.ownInstrument}, 1, 'potential-sector', ${sql.json({ kind: 'potential-sector', analyzerRadius: { value: 0.27, unit: 'm', u: 0 } })}, now())`
   for (const who of everyone) {
     const client = new ConsoleClient()
     if (who !== 'anonymous') await client.signIn(demoUser(who).email, demoUser(who).password)
@@ -33,6 +36,11 @@ interface Row { method: string, path: () => string | Promise<string>, body?: () 
 const S = (n: number, overrides: Partial<Record<Who, number>> = {}) => ({ else: n, anonymous: 401, ...overrides })
 const pendingInvitation = async () => {
   const [row] = await testDb()<{ id: string }[]>`insert into invitations (email, role, token_hash, expires_at) values (${`${unique('inv')}@example.org`}, 'viewer', ${unique('hash')}, now() + interval '1 day') returning id`
+  return row!.id
+}
+
+const labKey = async (labId: string) => {
+  const [row] = await testDb()<{ id: string }[]>`insert into api_keys (lab_id, name, prefix, secret_hash, scopes) values (${labId}, 'to revoke', ${unique('p').slice(-12)}, 'x', ${['results:read']}) returning id`
   return row!.id
 }
 
@@ -51,6 +59,17 @@ const matrix: Row[] = [
   { method: 'GET', path: () => `/api/console/labs/${ids.otherLab}`, expect: S(200, { integrator: 403, lab_manager: 404 }) },
   { method: 'PATCH', path: () => `/api/console/labs/${ids.ownLab}`, body: () => ({ site: 'Estuary Field Station, Site A' }), expect: S(403, { admin: 200, lab_manager: 200 }) },
   { method: 'PATCH', path: () => `/api/console/labs/${ids.otherLab}`, body: () => ({ site: 'Ridge Campus, Site B' }), expect: S(403, { admin: 200, lab_manager: 404 }) },
+  { method: 'GET', path: () => `/api/console/labs/${ids.ownLab}/instruments`, expect: S(200, { integrator: 403 }) },
+  { method: 'GET', path: () => `/api/console/labs/${ids.otherLab}/instruments`, expect: S(200, { integrator: 403, lab_manager: 404 }) },
+  { method: 'POST', path: () => `/api/console/labs/${ids.ownLab}/instruments`, body: () => ({ slug: unique('ms'), name: 'New MS', geometry: { kind: 'potential-sector', analyzerRadius: { value: 0.27, unit: 'm' } } }), expect: S(403, { admin: 201, lab_manager: 201 }) },
+  { method: 'POST', path: () => `/api/console/labs/${ids.otherLab}/instruments`, body: () => ({ slug: unique('ms'), name: 'New MS', geometry: { kind: 'potential-sector', analyzerRadius: { value: 0.27, unit: 'm' } } }), expect: S(403, { admin: 201, lab_manager: 404 }) },
+  { method: 'GET', path: () => `/api/console/labs/${ids.ownLab}/instruments/${ids.ownInstrument}`, expect: S(200, { integrator: 403 }) },
+  { method: 'POST', path: () => `/api/console/labs/${ids.ownLab}/instruments/${ids.ownInstrument}/geometry-versions`, body: () => ({ geometry: { kind: 'potential-sector', analyzerRadius: { value: 0.27, unit: 'm' } }, validFrom: '2026-12-01T00:00:00Z' }), expect: S(403, { admin: 201, lab_manager: 201 }) },
+  { method: 'POST', path: () => `/api/console/labs/${ids.ownLab}/instruments/${ids.ownInstrument}/calibrations`, body: () => ({ degree: 1, points: [{ measuredMz: 28, referenceMz: 28.0061 }, { measuredMz: 40, referenceMz: 39.9618 }, { measuredMz: 44, referenceMz: 43.9893 }], validFrom: '2026-12-01T00:00:00Z' }), expect: S(403, { admin: 201, lab_manager: 201 }) },
+  { method: 'GET', path: () => `/api/console/labs/${ids.ownLab}/keys`, expect: S(200, { integrator: 403 }) },
+  { method: 'POST', path: () => `/api/console/labs/${ids.ownLab}/keys`, body: () => ({ name: 'matrix key', scopes: ['results:read'] }), expect: S(403, { admin: 201, lab_manager: 201 }) },
+  { method: 'POST', path: () => `/api/console/labs/${ids.otherLab}/keys`, body: () => ({ name: 'matrix key', scopes: ['results:read'] }), expect: S(403, { admin: 201, lab_manager: 404 }) },
+  { method: 'DELETE', path: async () => `/api/console/labs/${ids.ownLab}/keys/${await labKey(ids.ownLab)}`, expect: S(403, { admin: 200, lab_manager: 200 }) },
   { method: 'GET', path: () => '/api/console/partners', expect: S(200, { lab_manager: 403 }) },
   { method: 'POST', path: () => '/api/console/partners', body: () => ({ slug: unique('p'), name: 'Matrix Partner', kind: 'data_team', contactEmail: 'p@example.org' }), expect: S(403, { admin: 201 }) },
   { method: 'GET', path: () => `/api/console/partners/${ids.ownPartner}`, expect: S(200, { lab_manager: 403 }) },
