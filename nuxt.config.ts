@@ -31,6 +31,7 @@ export default defineNuxtConfig({
     // URL of the local SMTP fake's message list; empty outside development and tests.
     mailCaptureUrl: '',
     signIn: { maxFailures: 5, lockMinutes: 15 },
+    rateLimit: { perMinute: 1200 },
     session: { maxAge: 60 * 60 * 12 },
     public: { mailCapture: false },
   },

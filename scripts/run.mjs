@@ -24,6 +24,7 @@ if (!existsSync(installed) || statSync(installed).mtimeMs < statSync(lock).mtime
 
 const tsx = join(root, 'node_modules', '.bin', 'tsx')
 const child = spawn(tsx, [join(root, 'scripts', `${command}.ts`), ...process.argv.slice(3)], { cwd: root, stdio: 'inherit' })
-// The TypeScript script handles Ctrl-C itself and stops what it started; wait for it.
-for (const signal of ['SIGINT', 'SIGTERM']) process.on(signal, () => {})
+// The TypeScript script stops what it started; a signal sent to this process alone is
+// passed on to it (Ctrl-C in a terminal reaches both).
+for (const signal of ['SIGINT', 'SIGTERM']) process.on(signal, () => { child.kill(signal) })
 child.on('exit', (code, signal) => process.exit(code ?? (signal ? 1 : 0)))

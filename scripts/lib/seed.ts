@@ -49,6 +49,18 @@ export async function seedDemo(url: string, opts: { keysFile?: string } = {}): P
                  values (${labId}, 'Lab simulator (demo)', ${prefix}, ${createHash('sha256').update(secret).digest('hex')}, ${['acquisitions:write', 'results:read']})`
         keys[inst.lab] = secret
       }
+      // Grants: each partner receives one lab's results; each partner has one client.
+      const demoGrants: [string, string][] = [['saltmarsh-isotopes', 'northgate-water'], ['kestrel-leaktest', 'northgate-water'], ['halvard-ridge', 'tidewater-clinical']]
+      for (const [lab, partner] of demoGrants) {
+        await tx`insert into grants (lab_id, partner_id, event_types) values (${labIds.get(lab)!}, ${partnerIds.get(partner)!}, ${['result.created']})`
+      }
+      for (const p of demoPartners) {
+        const clientId = `awc_${randomBytes(9).toString('base64url')}`
+        const clientSecret = `awcs_${randomBytes(32).toString('base64url')}`
+        await tx`insert into partner_clients (partner_id, name, client_id, secret_hash, scopes)
+                 values (${partnerIds.get(p.slug)!}, 'Demo client', ${clientId}, ${createHash('sha256').update(clientSecret).digest('hex')}, ${['results:read', 'events:read', 'peaks:read']})`
+        keys[`partner:${p.slug}`] = `${clientId}:${clientSecret}`
+      }
       if (opts.keysFile) writeFileSync(opts.keysFile, JSON.stringify(keys, null, 2), { mode: 0o600 })
       await tx`insert into audit_log (actor_label, action, detail) values ('seed', 'demo.seeded', ${tx.json({ labs: demoLabs.length, partners: demoPartners.length, users: demoUsers.length, instruments: demoInstruments.length })})`
     })

@@ -55,6 +55,7 @@ export async function requireLabKey(event: H3Event, scope: KeyScope): Promise<La
   const same = timingSafeEqual(Buffer.from(row.secretHash, 'hex'), Buffer.from(sha256(secret!), 'hex'))
   if (!same || row.revokedAt || (row.expiresAt && row.expiresAt <= new Date())) throw invalidKey()
   if (!row.scopes.includes(scope)) throw problem(403, 'insufficient-scope', `This key lacks the scope ${scope}.`)
+  await consumeRateLimit('lab-key', row.id)
   // Last use is kept to the minute, so a busy key does not write on every request.
   if (!row.lastUsedAt || Date.now() - row.lastUsedAt.getTime() > 60_000) {
     await useDb().update(apiKeys).set({ lastUsedAt: new Date() }).where(eq(apiKeys.id, row.id))

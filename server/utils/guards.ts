@@ -1,6 +1,6 @@
 import type { H3Event } from 'h3'
 import { eq } from 'drizzle-orm'
-import { labs, users } from '../database/schema'
+import { labs, partners, users } from '../database/schema'
 import { permissions, type Permission, type Role, type SessionUser } from '#shared/types/roles'
 
 /** The signed-in user, reloaded from the database so role changes and disabling act at once. 401 otherwise. */
@@ -43,5 +43,20 @@ export async function requireLabAccess(event: H3Event, labId: string, access: 'r
   if (!allowed.includes(user.role)) throw problem(403, 'forbidden', 'Your role may not do this.')
   const lab = await useDb().query.labs.findFirst({ where: eq(labs.id, labId), columns: { id: true } })
   if (!lab) throw problem(404, 'lab-not-found', 'No such lab.')
+  return user
+}
+
+/**
+ * The signed-in user when they may see (or, with `write`, change) partner `partnerId`'s
+ * clients: admins any partner, viewers read any, an integrator only their own (another is
+ * 404); lab managers never.
+ */
+export async function requirePartnerAccess(event: H3Event, partnerId: string, access: 'read' | 'write'): Promise<SessionUser> {
+  const user = await requireUser(event)
+  if (user.role === 'integrator' && user.partnerId !== partnerId) throw problem(404, 'partner-not-found', 'No such partner.')
+  const allowed = access === 'read' ? ['admin', 'viewer', 'integrator'] : ['admin', 'integrator']
+  if (!allowed.includes(user.role)) throw problem(403, 'forbidden', 'Your role may not do this.')
+  const partner = await useDb().query.partners.findFirst({ where: eq(partners.id, partnerId), columns: { id: true } })
+  if (!partner) throw problem(404, 'partner-not-found', 'No such partner.')
   return user
 }

@@ -7,14 +7,14 @@ import { rootDir, testEnv } from './env'
 const chromiumArgs = ['--no-sandbox', '--headless', '--disable-gpu', '--disable-quic', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run']
 
 /** Starts the built server (built once by scripts/test.ts) for this test file. */
-export async function useArcwise(opts: { browser?: boolean } = {}) {
+export async function useArcwise(opts: { browser?: boolean, env?: Record<string, string> } = {}) {
   const env = testEnv()
   await setup({
     rootDir,
     build: false,
     server: true,
     port: env.appPort,
-    env: env.serverEnv,
+    env: { ...env.serverEnv, ...opts.env },
     nuxtConfig: { nitro: { output: { dir: join(rootDir, '.output') } } },
     browser: opts.browser ?? false,
     browserOptions: { type: 'chromium', launch: { executablePath: '/usr/bin/chromium', args: chromiumArgs } },

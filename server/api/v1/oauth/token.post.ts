@@ -1,0 +1,22 @@
+import { tokenRequest } from '#shared/schemas/partners'
+
+// OAuth 2.0 token endpoint (RFC 6749 §4.4): form-encoded body, client credentials in the
+// body or in HTTP Basic (§2.3.1).
+export default defineEventHandler(async (event) => {
+  const form = tokenRequest.safeParse(await readFormOrJson(event))
+  if (!form.success) throw problem(400, 'oauth-invalid_request', 'grant_type is required.', { errors: fieldErrors(form.error) })
+  const basic = /^Basic (.+)$/.exec(getRequestHeader(event, 'authorization') ?? '')
+  const [basicId, basicSecret] = basic ? Buffer.from(basic[1]!, 'base64').toString().split(':').map(decodeURIComponent) : []
+  setResponseHeader(event, 'cache-control', 'no-store')
+  return issueAccessToken({ grantType: form.data.grant_type, clientId: basicId ?? form.data.client_id, clientSecret: basicSecret ?? form.data.client_secret, scope: form.data.scope })
+})
+
+async function readFormOrJson(event: Parameters<typeof readRawBody>[0]): Promise<Record<string, string>> {
+  const type = getRequestHeader(event, 'content-type') ?? ''
+  const raw = (await readRawBody(event, 'utf8')) ?? ''
+  if (type.includes('application/json')) {
+    try { return JSON.parse(raw) }
+    catch { throw problem(400, 'malformed-json', 'The request body is not valid JSON.') }
+  }
+  return Object.fromEntries(new URLSearchParams(raw))
+}

@@ -1,0 +1,36 @@
+import type { H3Event } from 'h3'
+import { and, eq, sql } from 'drizzle-orm'
+import type { SessionUser } from '#shared/types/roles'
+import { grants, partners } from '../database/schema'
+
+export function listGrants(labId: string) {
+  return useDb().select({ id: grants.id, labId: grants.labId, partnerId: grants.partnerId, partnerName: partners.name, eventTypes: grants.eventTypes, createdAt: grants.createdAt })
+    .from(grants).innerJoin(partners, eq(partners.id, grants.partnerId)).where(eq(grants.labId, labId)).orderBy(partners.name)
+}
+
+/** Lets a partner receive the lab's results; granting again updates the event types. */
+export async function grantPartner(event: H3Event, actor: SessionUser, labId: string, input: { partnerId: string, eventTypes: string[] }) {
+  if (!await useDb().query.partners.findFirst({ where: eq(partners.id, input.partnerId), columns: { id: true } })) {
+    throw fieldProblem('partnerId', 'no such partner')
+  }
+  return useDb().transaction(async (tx) => {
+    const row = firstRow(await tx.insert(grants).values({ labId, partnerId: input.partnerId, eventTypes: input.eventTypes, createdBy: actor.id })
+      .onConflictDoUpdate({ target: [grants.labId, grants.partnerId], set: { eventTypes: input.eventTypes } }).returning())
+    await recordAudit(tx, { actor: actorOf(actor), action: 'grant.set', targetType: 'grant', targetId: row.id, event, detail: { labId, partnerId: input.partnerId, eventTypes: input.eventTypes } })
+    return row
+  })
+}
+
+export async function revokeGrant(event: H3Event, actor: SessionUser, labId: string, grantId: string) {
+  const [row] = await useDb().delete(grants).where(and(eq(grants.id, grantId), eq(grants.labId, labId))).returning()
+  if (!row) throw problem(404, 'grant-not-found', 'No such grant for this lab.')
+  await recordAudit(useDb(), { actor: actorOf(actor), action: 'grant.revoked', targetType: 'grant', targetId: grantId, event, detail: { labId, partnerId: row.partnerId } })
+  return row
+}
+
+/** Labs whose events of `eventType` a partner may see. */
+export async function grantedLabIds(partnerId: string, eventType = 'result.created'): Promise<string[]> {
+  const rows = await useDb().select({ labId: grants.labId }).from(grants)
+    .where(and(eq(grants.partnerId, partnerId), sql`${eventType} = any(${grants.eventTypes})`))
+  return rows.map(r => r.labId)
+}

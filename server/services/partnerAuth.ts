@@ -1,0 +1,126 @@
+import type { H3Event } from 'h3'
+import { createHash, randomBytes, randomUUID, timingSafeEqual } from 'node:crypto'
+import { and, desc, eq, isNull } from 'drizzle-orm'
+import { SignJWT, exportJWK, generateKeyPair, importJWK, jwtVerify, type JWK } from 'jose'
+import type { PartnerClientInput, PartnerScope } from '#shared/schemas/partners'
+import type { SessionUser } from '#shared/types/roles'
+import { partnerClients, signingKeys } from '../database/schema'
+
+// Partners authenticate with OAuth 2.0 client credentials (RFC 6749 §4.4) and get a
+// short-lived JWT access token in the RFC 9068 profile, signed by the hub (ES256, jose).
+// The public keys are at /.well-known/jwks.json.
+
+export const TOKEN_TTL_SECONDS = 300
+const ALG = 'ES256'
+const sha256 = (s: string) => createHash('sha256').update(s).digest('hex')
+const issuer = () => useRuntimeConfig().appUrl
+export const AUDIENCE = 'arcwise-api-v1'
+
+interface ActiveKey { kid: string, privateKey: CryptoKey, publicJwk: JWK }
+let active: Promise<ActiveKey> | undefined
+
+/** The current signing key, made on first use and shared by every app process through the database. */
+function signingKey(): Promise<ActiveKey> {
+  active ??= (async () => {
+    const db = useDb()
+    let [row] = await db.select().from(signingKeys).where(isNull(signingKeys.retiredAt)).orderBy(desc(signingKeys.createdAt)).limit(1)
+    if (!row) {
+      const { publicKey, privateKey } = await generateKeyPair(ALG, { extractable: true })
+      const kid = randomUUID()
+      const publicJwk = { ...await exportJWK(publicKey), kid, alg: ALG, use: 'sig' }
+      await db.insert(signingKeys).values({ kid, alg: ALG, publicJwk, sealedPrivateJwk: seal(JSON.stringify(await exportJWK(privateKey))) }).onConflictDoNothing()
+      ;[row] = await db.select().from(signingKeys).where(isNull(signingKeys.retiredAt)).orderBy(desc(signingKeys.createdAt)).limit(1)
+    }
+    const privateKey = await importJWK(JSON.parse(unseal(row!.sealedPrivateJwk)) as JWK, ALG) as CryptoKey
+    return { kid: row!.kid, privateKey, publicJwk: row!.publicJwk as JWK }
+  })().catch((error) => { active = undefined; throw error })
+  return active
+}
+
+export async function jwks() {
+  const rows = await useDb().select({ jwk: signingKeys.publicJwk }).from(signingKeys).orderBy(desc(signingKeys.createdAt))
+  if (!rows.length) await signingKey()
+  const all = rows.length ? rows : await useDb().select({ jwk: signingKeys.publicJwk }).from(signingKeys)
+  return { keys: all.map(r => r.jwk) }
+}
+
+const publicColumns = {
+  id: partnerClients.id, partnerId: partnerClients.partnerId, name: partnerClients.name, clientId: partnerClients.clientId,
+  scopes: partnerClients.scopes, revokedAt: partnerClients.revokedAt, lastUsedAt: partnerClients.lastUsedAt, createdAt: partnerClients.createdAt,
+}
+
+export async function createPartnerClient(event: H3Event, actor: SessionUser, partnerId: string, input: PartnerClientInput) {
+  const clientId = `awc_${randomBytes(9).toString('base64url')}`
+  const secret = `awcs_${randomBytes(32).toString('base64url')}`
+  return useDb().transaction(async (tx) => {
+    const row = firstRow(await tx.insert(partnerClients).values({ partnerId, name: input.name, clientId, secretHash: sha256(secret), scopes: input.scopes, createdBy: actor.id }).returning(publicColumns))
+    await recordAudit(tx, { actor: actorOf(actor), action: 'partner-client.created', targetType: 'partner-client', targetId: row.id, event, detail: { partnerId, clientId } })
+    return { ...row, clientSecret: secret }
+  })
+}
+
+export function listPartnerClients(partnerId: string) {
+  return useDb().select(publicColumns).from(partnerClients).where(eq(partnerClients.partnerId, partnerId)).orderBy(desc(partnerClients.createdAt))
+}
+
+export async function revokePartnerClient(event: H3Event, actor: SessionUser, partnerId: string, id: string) {
+  const [row] = await useDb().update(partnerClients).set({ revokedAt: new Date() })
+    .where(and(eq(partnerClients.id, id), eq(partnerClients.partnerId, partnerId), isNull(partnerClients.revokedAt))).returning(publicColumns)
+  if (!row) throw problem(404, 'client-not-found', 'No active client with this id for this partner.')
+  await recordAudit(useDb(), { actor: actorOf(actor), action: 'partner-client.revoked', targetType: 'partner-client', targetId: id, event, detail: { partnerId } })
+  return row
+}
+
+/** RFC 6749 §5.2 error members, carried inside an RFC 9457 problem document. */
+function oauthProblem(status: number, error: string, description: string) {
+  const p = problem(status, `oauth-${error}`, description, status === 401 ? { headers: { 'www-authenticate': 'Basic realm="arcwise"' } } : {})
+  Object.assign((p.data as { problem: Record<string, unknown> }).problem, { error, error_description: description })
+  return p
+}
+
+/** The token endpoint: client credentials in, an RFC 9068 access token out. */
+export async function issueAccessToken(credentials: { clientId?: string, clientSecret?: string, grantType?: string, scope?: string }) {
+  if (credentials.grantType !== 'client_credentials') throw oauthProblem(400, 'unsupported_grant_type', 'Only grant_type=client_credentials is supported.')
+  const row = credentials.clientId ? await useDb().query.partnerClients.findFirst({ where: eq(partnerClients.clientId, credentials.clientId) }) : undefined
+  const ok = row && !row.revokedAt && credentials.clientSecret
+    && timingSafeEqual(Buffer.from(row.secretHash, 'hex'), Buffer.from(sha256(credentials.clientSecret), 'hex'))
+  if (!ok) throw oauthProblem(401, 'invalid_client', 'The client id or secret is wrong, or the client was revoked.')
+  const asked = credentials.scope ? credentials.scope.split(' ').filter(Boolean) : row.scopes
+  const denied = asked.filter(s => !row.scopes.includes(s))
+  if (denied.length) throw oauthProblem(400, 'invalid_scope', `This client may not ask for ${denied.join(', ')}.`)
+  const key = await signingKey()
+  const now = Math.floor(Date.now() / 1000)
+  const token = await new SignJWT({ client_id: row.clientId, scope: asked.join(' '), partner_id: row.partnerId })
+    .setProtectedHeader({ alg: ALG, typ: 'at+jwt', kid: key.kid })
+    .setIssuer(issuer()).setAudience(AUDIENCE).setSubject(row.clientId)
+    .setIssuedAt(now).setExpirationTime(now + TOKEN_TTL_SECONDS).setJti(randomUUID())
+    .sign(key.privateKey)
+  await useDb().update(partnerClients).set({ lastUsedAt: new Date() }).where(eq(partnerClients.id, row.id))
+  return { access_token: token, token_type: 'Bearer', expires_in: TOKEN_TTL_SECONDS, scope: asked.join(' ') }
+}
+
+export interface PartnerToken { partnerId: string, clientId: string, scopes: PartnerScope[] }
+
+const invalidToken = () => problem(401, 'invalid-token', 'The access token is missing, malformed, expired or not for this API.', { headers: { 'www-authenticate': 'Bearer realm="arcwise", error="invalid_token"' } })
+
+/** The partner of the request's access token holding `scope`: 401, or 403 for a missing scope. */
+export async function requirePartnerToken(event: H3Event, scope: PartnerScope): Promise<PartnerToken> {
+  const match = /^Bearer (\S+)$/.exec(getRequestHeader(event, 'authorization') ?? '')
+  if (!match || match[1]!.startsWith('awk_')) throw invalidToken()
+  const key = await signingKey()
+  let claims
+  try {
+    const { payload } = await jwtVerify(match[1]!, async (header) => {
+      const [row] = await useDb().select().from(signingKeys).where(eq(signingKeys.kid, header.kid ?? ''))
+      return importJWK((row?.publicJwk ?? key.publicJwk) as JWK, ALG)
+    }, { issuer: issuer(), audience: AUDIENCE, typ: 'at+jwt', algorithms: [ALG] })
+    claims = payload
+  }
+  catch { throw invalidToken() }
+  const scopes = String(claims.scope ?? '').split(' ') as PartnerScope[]
+  if (!scopes.includes(scope)) throw problem(403, 'insufficient-scope', `This token lacks the scope ${scope}.`)
+  const client = await useDb().query.partnerClients.findFirst({ where: eq(partnerClients.clientId, String(claims.client_id)) })
+  if (!client || client.revokedAt) throw invalidToken()
+  await consumeRateLimit('partner', client.id)
+  return { partnerId: client.partnerId, clientId: client.clientId, scopes }
+}

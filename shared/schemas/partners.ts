@@ -1,0 +1,45 @@
+import { z } from 'zod'
+import { displayName } from './common'
+
+export const partnerScopes = ['results:read', 'events:read', 'peaks:read'] as const
+export type PartnerScope = (typeof partnerScopes)[number]
+
+export const partnerClientInput = z.object({
+  name: displayName,
+  scopes: z.array(z.enum(partnerScopes, { error: `must be one of ${partnerScopes.join(', ')}` })).min(1, 'choose at least one scope')
+    .default([...partnerScopes]).transform(s => [...new Set(s)]),
+}).strict()
+export type PartnerClientInput = z.infer<typeof partnerClientInput>
+
+export const eventTypes = ['result.created'] as const
+
+export const grantInput = z.object({
+  partnerId: z.uuid({ error: 'must be a partner id' }),
+  eventTypes: z.array(z.enum(eventTypes)).min(1).default(['result.created']),
+}).strict()
+
+/** The token endpoint's form body (RFC 6749 §4.4.2). */
+export const tokenRequest = z.object({
+  grant_type: z.string({ error: 'is required' }),
+  client_id: z.string().max(100).optional(),
+  client_secret: z.string().max(200).optional(),
+  scope: z.string().max(200).optional(),
+})
+
+export const eventFeedQuery = z.object({
+  cursor: z.string().max(200).optional(),
+  limit: z.coerce.number().int().min(1).max(200).default(50),
+  lab: z.string().max(60).optional(),
+})
+
+export const peakQuery = z.object({
+  mzMin: z.coerce.number().positive(),
+  mzMax: z.coerce.number().positive(),
+  species: z.string().max(64).optional(),
+  limit: z.coerce.number().int().min(1).max(500).default(100),
+  cursor: z.coerce.number().int().positive().optional(),
+}).refine(q => q.mzMax > q.mzMin, { path: ['mzMax'], message: 'must be greater than mzMin' })
+  .refine(q => q.mzMax - q.mzMin <= 50, { path: ['mzMax'], message: 'the m/z window may be at most 50 wide' })
+
+export const partnerClientParams = z.object({ id: z.uuid(), clientId: z.uuid() })
+export const grantParams = z.object({ id: z.uuid(), grantId: z.uuid() })
