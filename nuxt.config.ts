@@ -8,7 +8,7 @@ export default defineNuxtConfig({
   compatibilityDate: '2026-11-01',
   devtools: { enabled: false },
   telemetry: false,
-  modules: ['@nuxtjs/tailwindcss', '@pinia/nuxt', 'nuxt-auth-utils', '@nuxt/eslint'],
+  modules: ['@nuxtjs/tailwindcss', '@pinia/nuxt', 'nuxt-auth-utils', '@nuxt/eslint', '@scalar/nuxt'],
   css: [
     '@fontsource/inter/400.css',
     '@fontsource/inter/500.css',
@@ -45,6 +45,22 @@ export default defineNuxtConfig({
       config.errorHandler = [problemErrorHandler, ...existing]
     },
   },
+  // API reference at /docs, rendered in the browser (recipe in ../shared/STACK.md: the
+  // server build of @scalar/nuxt 0.5 fails without the transpile and client-only rules).
+  scalar: {
+    url: '/api/v1/openapi.json',
+    pathRouting: { basePath: '/docs' },
+    metaData: { title: 'Arcwise API' },
+    withDefaultFonts: false,
+    hideClientButton: true,
+    devtools: false,
+    // Nothing leaves for another host: no hosted assistant, no developer-tools bar, no telemetry.
+    agent: { disabled: true },
+    showDeveloperTools: 'never',
+    telemetry: false,
+  },
+  build: { transpile: [/@scalar/] },
+  routeRules: { '/docs': { ssr: false }, '/docs/**': { ssr: false } },
   typescript: { strict: true },
   eslint: { config: { stylistic: false } },
 })

@@ -1,4 +1,5 @@
 import { describe, expect, it } from 'vitest'
+import { acquisitionListView, acquisitionView, engineResultView, problemDocument } from '../../shared/schemas/responses'
 import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
 import { ConsoleClient, unique, useArcwise } from '../support/server'
 
@@ -14,6 +15,8 @@ describe('POST /api/v1/acquisitions', () => {
     const { key, lab, sql } = await labWithInstrument()
     const res = await post(key.secret, co2Acquisition())
     expect(res.status, JSON.stringify(res.body)).toBe(201)
+    // The answer matches its documented schema (the OpenAPI document is generated from it).
+    acquisitionView.parse(res.body)
     const r = res.body.result
     expect(r.points).toBe(4000)
     expect(r.mzRange[0]).toBeCloseTo(43, 1)
@@ -97,6 +100,7 @@ describe('POST /api/v1/acquisitions', () => {
     expect(res.status, JSON.stringify(res.body).slice(0, 300)).toBeGreaterThanOrEqual(400)
     expect(res.status).toBeLessThan(500)
     expect(res.headers.get('content-type')).toContain('application/problem+json')
+    problemDocument.parse(res.body)
     if (path) expect(res.body.errors.map((e: any) => e.path)).toContain(path)
     else expect(res.body.errors[0].message).toMatch(/[Uu]nrecognized key/)
     expect(await countRows(sql, lab.id)).toEqual({ a: 0, e: 0 })
@@ -147,13 +151,16 @@ describe('reads are scoped to the key\'s lab (OWASP API1:2023)', () => {
     const ids: string[] = []
     for (let i = 0; i < 3; i++) ids.push((await post(mine.key.secret, co2Acquisition())).body.id)
     const page1 = await get(mine.key.secret, '/api/v1/acquisitions?limit=2')
+    acquisitionListView.parse(page1.body)
     expect(page1.body.items.map((a: any) => a.id)).toEqual([ids[2], ids[1]])
     const page2 = await get(mine.key.secret, `/api/v1/acquisitions?limit=2&cursor=${page1.body.nextCursor}`)
     expect(page2.body.items.map((a: any) => a.id)).toEqual([ids[0]])
     expect(page2.body.nextCursor).toBeNull()
 
     expect((await get(mine.key.secret, `/api/v1/acquisitions/${ids[0]}`)).status).toBe(200)
-    expect((await get(mine.key.secret, `/api/v1/acquisitions/${ids[0]}/result`)).body.peaks.length).toBeGreaterThan(0)
+    const result = (await get(mine.key.secret, `/api/v1/acquisitions/${ids[0]}/result`)).body
+    engineResultView.parse(result)
+    expect(result.peaks.length).toBeGreaterThan(0)
     for (const path of [`/api/v1/acquisitions/${ids[0]}`, `/api/v1/acquisitions/${ids[0]}/result`, `/api/v1/acquisitions/${ids[0]}/spectrum.csv`]) {
       const res = await get(theirs.key.secret, path)
       expect(res.status).toBe(404)

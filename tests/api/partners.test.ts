@@ -1,6 +1,7 @@
 import { createRemoteJWKSet, decodeProtectedHeader, jwtVerify } from 'jose'
 import { url } from '@nuxt/test-utils/e2e'
 import { describe, expect, it } from 'vitest'
+import { acquisitionView, eventFeedView, peakListView, tokenView } from '../../shared/schemas/responses'
 import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
 import { ConsoleClient, unique, useArcwise } from '../support/server'
 
@@ -30,6 +31,7 @@ describe('OAuth 2.0 client credentials and RFC 9068 access tokens', () => {
     expect(client.clientSecret).toMatch(/^awcs_/)
     const res = await token(client.clientId, client.clientSecret)
     expect(res.status).toBe(200)
+    tokenView.parse(res.body)
     expect(res.body).toMatchObject({ token_type: 'Bearer', expires_in: 300 })
     expect(decodeProtectedHeader(res.body.access_token)).toMatchObject({ typ: 'at+jwt', alg: 'ES256' })
     const keys = createRemoteJWKSet(new URL(url('/.well-known/jwks.json')))
@@ -78,16 +80,20 @@ describe('partners see only what labs granted them (OWASP API1:2023)', () => {
 
     const feed = await asPartner(t, '/api/v1/events')
     expect(feed.status).toBe(200)
+    eventFeedView.parse(feed.body)
     expect(feed.body.items.map((e: any) => e.data.id)).toEqual([mine.body.id])
     expect(feed.body.items[0]).toMatchObject({ type: 'result.created', lab: granted.lab.slug, sequence: 1 })
     const again = await asPartner(t, `/api/v1/events?cursor=${feed.body.nextCursor}`)
     expect(again.body.items).toEqual([])
     expect(again.body.nextCursor).toBe(feed.body.nextCursor)
 
-    expect((await asPartner(t, `/api/v1/results/${mine.body.id}`)).body.result.peaks.length).toBeGreaterThan(0)
+    const granted1 = await asPartner(t, `/api/v1/results/${mine.body.id}`)
+    acquisitionView.parse(granted1.body)
+    expect(granted1.body.result.peaks.length).toBeGreaterThan(0)
     expect((await asPartner(t, `/api/v1/results/${theirs.body.id}`)).status).toBe(404)
 
     const peaks = await asPartner(t, '/api/v1/peaks?mzMin=43.9&mzMax=44.1')
+    peakListView.parse(peaks.body)
     expect(peaks.body.items.length).toBeGreaterThan(0)
     for (const p of peaks.body.items) {
       expect(p.lab).toBe(granted.lab.slug)

@@ -1,0 +1,101 @@
+import './zodOpenapi'
+import { OpenAPIRegistry, OpenApiGeneratorV31 } from '@asteasolutions/zod-to-openapi'
+import { z } from 'zod'
+import { acquisitionInput, acquisitionListQuery } from './schemas/acquisitions'
+import { idParams, problemDocument } from './schemas/common'
+import { eventFeedQuery, peakQuery, tokenRequest } from './schemas/partners'
+import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, jwksView, peakListView, tokenView } from './schemas/responses'
+
+
+// The OpenAPI 3.1 document of API v1, generated from the zod schemas that the routes
+// validate with; `npm run openapi` writes it to openapi/openapi.json.
+
+export const CAUTION = 'Arcwise computes results from the geometry and calibration each lab registers. Results that feed regulatory, clinical, forensic or safety decisions must be reviewed under the lab\'s own quality system and accreditation.'
+
+const example = {
+  instrument: 'irms-north', runId: 'carb-2026-11-30-017', acquiredAt: '2026-11-30T14:05:00Z', sampleRef: 'CARB-1017',
+  settings: { acceleratingVoltage: { value: 3, unit: 'kV', u: 0.0006 } },
+  sweep: { reading: 'field', unit: 'T', values: [0.4771, 0.4772, 0.4773] },
+  detectors: [{ unit: 'fA', values: [8.1, 9.0, 8.4] }],
+  processing: { formulas: ['CO2', '[13C]O2'], ratios: [{ id: 'VPDB:13C/12C', heavy: '[13C]O2', light: 'CO2' }] },
+}
+
+export function buildOpenApiDocument() {
+  const registry = new OpenAPIRegistry()
+  const labKey = registry.registerComponent('securitySchemes', 'labKey', { type: 'http', scheme: 'bearer', description: 'A lab key (`awk_…`), issued in the console by a lab manager or admin.' })
+  const partnerToken = registry.registerComponent('securitySchemes', 'partnerToken', { type: 'oauth2', flows: { clientCredentials: { tokenUrl: '/api/v1/oauth/token', scopes: { 'results:read': 'read granted results', 'events:read': 'pull the event feed', 'peaks:read': 'query peaks by m/z' } } } })
+  const Problem = registry.register('Problem', problemDocument.openapi({ description: 'RFC 9457 problem document; `errors` names each bad field by its path.' }))
+  const Acquisition = registry.register('Acquisition', acquisitionView)
+  const Result = registry.register('Result', engineResultView)
+  const problems = (...codes: number[]) => Object.fromEntries(codes.map(c => [String(c), { description: { 400: 'Malformed request', 401: 'Missing, wrong, revoked or expired credentials', 403: 'Missing scope', 404: 'Not found (or not yours)', 409: 'Conflict', 413: 'Body too large', 422: 'Validation failed', 429: 'Rate limited; see Retry-After' }[c] ?? 'Error', content: { 'application/problem+json': { schema: Problem } } }]))
+  const idPath = z.object({ id: idParams.shape.id })
+
+  registry.registerPath({
+    method: 'post', path: '/api/v1/acquisitions', tags: ['Lab systems'], summary: 'Post an acquisition',
+    description: 'Validates the raw readings, converts them to m/z with the instrument\'s geometry and calibration in force at `acquiredAt`, finds and assigns peaks, computes the requested ratios, and stores everything (with the outbox event) in one transaction. The same `runId` with the same body answers the stored result (200); with another body, 409. `Idempotency-Key` (IETF draft) replays a stored answer.',
+    security: [{ [labKey.name]: [] }],
+    request: { headers: z.object({ 'Idempotency-Key': z.string().max(255).optional() }), body: { content: { 'application/json': { schema: acquisitionInput.openapi({ example }) } } } },
+    responses: { 201: { description: 'Accepted and processed', content: { 'application/json': { schema: Acquisition } } }, 200: { description: 'A replay of an acquisition accepted before', content: { 'application/json': { schema: Acquisition } } }, ...problems(400, 401, 403, 409, 413, 422, 429) },
+  })
+  registry.registerPath({
+    method: 'get', path: '/api/v1/acquisitions', tags: ['Lab systems'], summary: 'List the lab\'s acquisitions', security: [{ [labKey.name]: [] }],
+    request: { query: acquisitionListQuery },
+    responses: { 200: { description: 'Newest first, in cursor pages', content: { 'application/json': { schema: acquisitionListView } } }, ...problems(400, 401, 403, 429) },
+  })
+  registry.registerPath({
+    method: 'get', path: '/api/v1/acquisitions/{id}', tags: ['Lab systems'], summary: 'One acquisition with its result', security: [{ [labKey.name]: [] }],
+    request: { params: idPath }, responses: { 200: { description: 'The acquisition', content: { 'application/json': { schema: Acquisition } } }, ...problems(401, 403, 404, 429) },
+  })
+  registry.registerPath({
+    method: 'get', path: '/api/v1/acquisitions/{id}/result', tags: ['Lab systems'], summary: 'The result alone', security: [{ [labKey.name]: [] }],
+    request: { params: idPath }, responses: { 200: { description: 'The result', content: { 'application/json': { schema: Result } } }, ...problems(401, 403, 404, 429) },
+  })
+  for (const [ext, type, what] of [['csv', 'text/csv', 'CSV: m/z and signal per point'], ['jdx', 'chemical/x-jcamp-dx', 'JCAMP-DX 5.01, resampled onto even m/z']] as const) {
+    registry.registerPath({
+      method: 'get', path: `/api/v1/acquisitions/{id}/spectrum.${ext}`, tags: ['Lab systems'], summary: `Spectrum as ${ext.toUpperCase()}`, security: [{ [labKey.name]: [] }],
+      request: { params: idPath }, responses: { 200: { description: what, content: { [type]: { schema: z.string() } } }, ...problems(401, 403, 404, 429) },
+    })
+  }
+  registry.registerPath({
+    method: 'post', path: '/api/v1/oauth/token', tags: ['Partners'], summary: 'Get an access token (client credentials)',
+    description: 'OAuth 2.0 client credentials (RFC 6749 §4.4). The token is a JWT in the RFC 9068 profile, valid for 5 minutes, verifiable with the keys at `/.well-known/jwks.json`.',
+    request: { body: { content: { 'application/x-www-form-urlencoded': { schema: tokenRequest } } } },
+    responses: { 200: { description: 'An access token', content: { 'application/json': { schema: tokenView } } }, ...problems(400, 401) },
+  })
+  registry.registerPath({
+    method: 'get', path: '/api/v1/events', tags: ['Partners'], summary: 'Pull the event feed', security: [{ [partnerToken.name]: ['events:read'] }],
+    description: 'Result events of the labs that granted you access, oldest first. Keep `nextCursor` and pass it back; delivery by pull is at least once, so deduplicate on the event `id`.',
+    request: { query: eventFeedQuery }, responses: { 200: { description: 'Events after the cursor', content: { 'application/json': { schema: eventFeedView } } }, ...problems(400, 401, 403, 429) },
+  })
+  registry.registerPath({
+    method: 'get', path: '/api/v1/results/{id}', tags: ['Partners'], summary: 'A granted result', security: [{ [partnerToken.name]: ['results:read'] }],
+    request: { params: idPath }, responses: { 200: { description: 'The acquisition and its result', content: { 'application/json': { schema: Acquisition } } }, ...problems(401, 403, 404, 429) },
+  })
+  registry.registerPath({
+    method: 'get', path: '/api/v1/peaks', tags: ['Partners'], summary: 'Peaks by m/z window across granted labs', security: [{ [partnerToken.name]: ['peaks:read'] }],
+    request: { query: peakQuery }, responses: { 200: { description: 'Peaks in the window', content: { 'application/json': { schema: peakListView } } }, ...problems(400, 401, 403, 429) },
+  })
+  registry.registerPath({
+    method: 'get', path: '/api/v1/openapi.json', tags: ['Documentation'], summary: 'This document',
+    responses: { 200: { description: 'OpenAPI 3.1', content: { 'application/json': { schema: z.record(z.string(), z.unknown()) } } } },
+  })
+  registry.registerPath({
+    method: 'get', path: '/.well-known/jwks.json', tags: ['Partners'], summary: 'Token-signing public keys',
+    responses: { 200: { description: 'RFC 7517 key set', content: { 'application/json': { schema: jwksView } } } },
+  })
+
+  return new OpenApiGeneratorV31(registry.definitions).generateDocument({
+    openapi: '3.1.0',
+    info: {
+      title: 'Arcwise API', version: '1.0.0',
+      description: [
+        'Lab systems post raw acquisitions from magnetic-sector mass spectrometers with a lab key; Arcwise converts them to m/z with the instrument\'s registered geometry, assigns peaks, computes isotope ratios with uncertainties, and makes results available to granted partners by pull feed.',
+        '',
+        `**Caution.** ${CAUTION}`,
+        '',
+        'Errors are RFC 9457 problem documents (`application/problem+json`) naming each bad field in `errors[].path`.',
+      ].join('\n'),
+    },
+    servers: [{ url: '/' }],
+  })
+}

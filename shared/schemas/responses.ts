@@ -1,0 +1,87 @@
+import { z } from 'zod'
+import { problemDocument } from './common'
+
+// The shapes of API answers: the OpenAPI document is generated from these, and the API
+// tests check real responses against them.
+
+const candidate = z.object({
+  species: z.string(), kind: z.enum(['isotope', 'formula']), z: z.number().int(),
+  mz: z.number(), neutralMass: z.number(), errorMz: z.number(), errorPpm: z.number(),
+}).strict()
+
+export const resultPeak = z.object({
+  collector: z.string(),
+  centroid: z.number().describe('m/z (u per elementary charge), intensity-weighted over the points above half maximum'),
+  centroidU: z.number().describe('standard uncertainty of the centroid from the registered geometry (GUM first order)'),
+  height: z.number(), area: z.number(), areaU: z.number(),
+  fwhm: z.number(), snr: z.number(), resolvingPower: z.number().describe('m/Δm with Δm the FWHM'),
+  overlapping: z.boolean(),
+  assignment: candidate.extend({ impliedNeutralMass: z.number() }).nullable(),
+  ambiguous: z.boolean().describe('two or more candidates closer than the instrument resolves: left unassigned'),
+  candidates: z.array(candidate),
+  linkedPeak: z.number().int().nullable().describe('index of the peak with the other charge state (z=1 ↔ z=2) of the same species'),
+}).strict()
+
+export const ratioResult = z.object({
+  id: z.string(), numerator: z.string(), denominator: z.string(), ratio: z.number(), ratioU: z.number(),
+  standard: z.string(), deltaName: z.string(), deltaPermil: z.number(), deltaU: z.number(),
+}).strict()
+
+export const qcFlag = z.object({ code: z.string(), message: z.string(), peak: z.number().int().optional() }).strict()
+
+export const engineResultView = z.object({
+  id: z.uuid(),
+  mode: z.enum(['sweep', 'static']),
+  points: z.number().int(),
+  mzRange: z.tuple([z.number(), z.number()]),
+  detectorUnit: z.enum(['A', 'cps']),
+  baseline: z.object({ level: z.number(), noise: z.number() }).strict().nullable(),
+  calibrated: z.boolean(),
+  peaks: z.array(resultPeak),
+  ratios: z.array(ratioResult),
+  qc: z.array(qcFlag),
+  versions: z.object({ engine: z.string(), constants: z.string(), geometry: z.number().int(), calibration: z.number().int().nullable() }).strict(),
+}).strict()
+
+export const acquisitionView = z.object({
+  id: z.uuid(),
+  runId: z.string(),
+  instrument: z.string(),
+  acquiredAt: z.iso.datetime({ offset: true }),
+  sampleRef: z.string().nullable(),
+  status: z.enum(['processed', 'failed']),
+  receivedAt: z.iso.datetime({ offset: true }),
+  result: engineResultView,
+}).strict()
+
+export const acquisitionListView = z.object({
+  items: z.array(z.object({
+    id: z.uuid(), runId: z.string(), instrument: z.string(), acquiredAt: z.iso.datetime({ offset: true }), sampleRef: z.string().nullable(),
+    status: z.enum(['processed', 'failed']), points: z.number().int(), receivedAt: z.iso.datetime({ offset: true }),
+  }).strict()),
+  nextCursor: z.string().nullable(),
+}).strict()
+
+export const eventFeedView = z.object({
+  items: z.array(z.object({
+    id: z.uuid(), type: z.string(), lab: z.string(), sequence: z.number().int().describe('per-lab sequence number, for ordering'),
+    createdAt: z.iso.datetime({ offset: true }), data: acquisitionView,
+  }).strict()),
+  nextCursor: z.string().describe('pass back as `cursor` to get what came after; unchanged when nothing new arrived'),
+}).strict()
+
+export const peakListView = z.object({
+  items: z.array(z.object({
+    id: z.number().int(), mz: z.number(), area: z.number(), species: z.string().nullable(), charge: z.number().int().nullable(),
+    lab: z.string(), acquisitionId: z.uuid(), acquiredAt: z.iso.datetime({ offset: true }),
+  }).strict()),
+  nextCursor: z.string().nullable(),
+}).strict()
+
+export const tokenView = z.object({
+  access_token: z.string(), token_type: z.literal('Bearer'), expires_in: z.number().int(), scope: z.string(),
+}).strict()
+
+export const jwksView = z.object({ keys: z.array(z.record(z.string(), z.unknown())) })
+
+export { problemDocument }
