@@ -3,8 +3,9 @@ import { OpenAPIRegistry, OpenApiGeneratorV31 } from '@asteasolutions/zod-to-ope
 import { z } from 'zod'
 import { acquisitionInput, acquisitionListQuery } from './schemas/acquisitions'
 import { idParams, problemDocument } from './schemas/common'
+import { schemaParams } from './schemas/exchange'
 import { eventFeedQuery, peakQuery, tokenRequest } from './schemas/partners'
-import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, jwksView, peakListView, tokenView } from './schemas/responses'
+import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, exchangeSchemaList, jwksView, peakListView, tokenView } from './schemas/responses'
 
 
 // The OpenAPI 3.1 document of API v1, generated from the zod schemas that the routes
@@ -34,7 +35,7 @@ export function buildOpenApiDocument() {
     method: 'post', path: '/api/v1/acquisitions', tags: ['Lab systems'], summary: 'Post an acquisition',
     description: 'Validates the raw readings, converts them to m/z with the instrument\'s geometry and calibration in force at `acquiredAt`, finds and assigns peaks, computes the requested ratios, and stores everything (with the outbox event) in one transaction. The same `runId` with the same body answers the stored result (200); with another body, 409. `Idempotency-Key` (IETF draft) replays a stored answer.',
     security: [{ [labKey.name]: [] }],
-    request: { headers: z.object({ 'Idempotency-Key': z.string().max(255).optional() }), body: { content: { 'application/json': { schema: acquisitionInput.openapi({ example }) } } } },
+    request: { headers: z.object({ 'Idempotency-Key': z.string().max(255).optional(), 'Arcwise-Schema-Version': z.string().optional().describe('acquisition schema version (default 1); a deprecated version answers with Deprecation and Sunset headers') }), body: { content: { 'application/json': { schema: acquisitionInput.openapi({ example }) } } } },
     responses: { 201: { description: 'Accepted and processed', content: { 'application/json': { schema: Acquisition } } }, 200: { description: 'A replay of an acquisition accepted before', content: { 'application/json': { schema: Acquisition } } }, ...problems(400, 401, 403, 409, 413, 422, 429) },
   })
   registry.registerPath({
@@ -74,6 +75,15 @@ export function buildOpenApiDocument() {
   registry.registerPath({
     method: 'get', path: '/api/v1/peaks', tags: ['Partners'], summary: 'Peaks by m/z window across granted labs', security: [{ [partnerToken.name]: ['peaks:read'] }],
     request: { query: peakQuery }, responses: { 200: { description: 'Peaks in the window', content: { 'application/json': { schema: peakListView } } }, ...problems(400, 401, 403, 429) },
+  })
+  registry.registerPath({
+    method: 'get', path: '/api/v1/schemas', tags: ['Exchange schemas'], summary: 'The exchange schemas and their status',
+    responses: { 200: { description: 'Every version, with status and sunset date', content: { 'application/json': { schema: exchangeSchemaList } } } },
+  })
+  registry.registerPath({
+    method: 'get', path: '/api/v1/schemas/{name}/{version}', tags: ['Exchange schemas'], summary: 'One exchange schema as JSON Schema (2020-12)',
+    request: { params: schemaParams },
+    responses: { 200: { description: 'The JSON Schema; a deprecated version carries Deprecation and Sunset headers', content: { 'application/schema+json': { schema: z.record(z.string(), z.unknown()) } } }, ...problems(400, 404) },
   })
   registry.registerPath({
     method: 'get', path: '/api/v1/openapi.json', tags: ['Documentation'], summary: 'This document',

@@ -49,7 +49,7 @@ function readingsOf(input: AcquisitionInput): RawReadings {
  * event in one transaction. The same run id with the same body answers the stored result;
  * with another body, 409.
  */
-export async function acceptAcquisition(key: LabKey, input: AcquisitionInput): Promise<{ status: 200 | 201, body: AcquisitionResultView }> {
+export async function acceptAcquisition(key: LabKey, input: AcquisitionInput, schemaId?: string): Promise<{ status: 200 | 201, body: AcquisitionResultView }> {
   const db = useDb()
   const hash = bodyHash(input)
   const instrument = await db.query.instruments.findFirst({ where: and(eq(instruments.labId, key.labId), eq(instruments.slug, input.instrument)) })
@@ -92,6 +92,7 @@ export async function acceptAcquisition(key: LabKey, input: AcquisitionInput): P
       // Events are numbered per lab; the row lock on the lab serialises the numbering.
       const [{ sequence }] = await tx.update(labs).set({ eventSequence: sql`${labs.eventSequence} + 1` }).where(eq(labs.id, key.labId)).returning({ sequence: labs.eventSequence }) as [{ sequence: number }]
       await tx.insert(events).values({ labId: key.labId, sequence, type: RESULT_EVENT, payload: view as unknown as Record<string, unknown> })
+      if (schemaId) await recordSchemaUse(tx, schemaId, key.labId)
       return { status: 201 as const, body: view }
     })
   }

@@ -82,6 +82,13 @@ export const tokenView = z.object({
   access_token: z.string(), token_type: z.literal('Bearer'), expires_in: z.number().int(), scope: z.string(),
 }).strict()
 
+export const exchangeSchemaList = z.object({
+  items: z.array(z.object({
+    id: z.uuid(), name: z.string(), version: z.number().int(), status: z.enum(['current', 'deprecated', 'retired']),
+    deprecatedAt: z.iso.datetime({ offset: true }).nullable(), sunsetAt: z.iso.datetime({ offset: true }).nullable(),
+  }).strict()),
+}).strict()
+
 export const jwksView = z.object({ keys: z.array(z.record(z.string(), z.unknown())) })
 
 export { problemDocument }

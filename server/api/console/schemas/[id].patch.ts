@@ -1,0 +1,9 @@
+import { idParams } from '#shared/schemas/common'
+import { schemaDeprecation } from '#shared/schemas/exchange'
+
+export default defineEventHandler(async (event) => {
+  const actor = await requireRole(event, 'admin')
+  const { id } = getValidParams(event, idParams)
+  const change = await readValidBody(event, schemaDeprecation)
+  return setSchemaStatus(event, actor, id, change)
+})

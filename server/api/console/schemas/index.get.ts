@@ -1,0 +1,5 @@
+export default defineEventHandler(async (event) => {
+  await requireUser(event)
+  const rows = await listExchangeSchemas()
+  return { items: await Promise.all(rows.map(async r => ({ ...r, usedBy: await schemaUsers(r.id) }))) }
+})

@@ -1,0 +1,1 @@
+export default defineEventHandler(async () => ({ items: await listExchangeSchemas() }))

@@ -1,0 +1,76 @@
+import type { H3Event } from 'h3'
+import { and, asc, desc, eq, sql } from 'drizzle-orm'
+import { z } from 'zod'
+import { exchangeSchemaSources, type ExchangeSchemaName } from '#shared/schemas/exchange'
+import type { SessionUser } from '#shared/types/roles'
+import { exchangeSchemas, labs, schemaUsage } from '../database/schema'
+
+/** Makes sure every schema version Arcwise speaks is in the registry (JSON Schema from zod). */
+export async function registerExchangeSchemas() {
+  for (const [name, versions] of Object.entries(exchangeSchemaSources)) {
+    for (const [version, schema] of Object.entries(versions)) {
+      const jsonSchema = z.toJSONSchema(schema as z.ZodType, { io: 'input', unrepresentable: 'any' }) as Record<string, unknown>
+      await useDb().insert(exchangeSchemas).values({ name, version: Number(version), jsonSchema: { ...jsonSchema, title: `${name} v${version}` } })
+        .onConflictDoUpdate({ target: [exchangeSchemas.name, exchangeSchemas.version], set: { jsonSchema: { ...jsonSchema, title: `${name} v${version}` } } })
+    }
+  }
+}
+
+export async function listExchangeSchemas() {
+  const rows = await useDb().select({
+    id: exchangeSchemas.id, name: exchangeSchemas.name, version: exchangeSchemas.version, status: exchangeSchemas.status,
+    deprecatedAt: exchangeSchemas.deprecatedAt, sunsetAt: exchangeSchemas.sunsetAt,
+  }).from(exchangeSchemas).orderBy(asc(exchangeSchemas.name), desc(exchangeSchemas.version))
+  return rows
+}
+
+export async function getExchangeSchema(name: string, version: number) {
+  const row = await useDb().query.exchangeSchemas.findFirst({ where: and(eq(exchangeSchemas.name, name), eq(exchangeSchemas.version, version)) })
+  if (!row) throw problem(404, 'schema-not-found', `No exchange schema ${name} v${version}.`)
+  return row
+}
+
+export async function schemaUsers(schemaId: string) {
+  return useDb().select({ lab: labs.slug, labName: labs.name, uses: schemaUsage.uses, lastUsedAt: schemaUsage.lastUsedAt })
+    .from(schemaUsage).innerJoin(labs, eq(labs.id, schemaUsage.labId)).where(eq(schemaUsage.schemaId, schemaId)).orderBy(desc(schemaUsage.lastUsedAt))
+}
+
+export async function setSchemaStatus(event: H3Event, actor: SessionUser, id: string, change: { status: 'current' | 'deprecated' | 'retired', sunsetAt?: Date | null }) {
+  const [row] = await useDb().update(exchangeSchemas).set({
+    status: change.status, sunsetAt: change.sunsetAt ?? null, deprecatedAt: change.status === 'current' ? null : sql`coalesce(${exchangeSchemas.deprecatedAt}, now())`,
+  }).where(eq(exchangeSchemas.id, id)).returning()
+  if (!row) throw problem(404, 'schema-not-found', 'No such exchange schema.')
+  await recordAudit(useDb(), { actor: actorOf(actor), action: 'schema.status-changed', targetType: 'exchange-schema', targetId: id, event, detail: { name: row.name, version: row.version, status: row.status, sunsetAt: row.sunsetAt } })
+  return row
+}
+
+/**
+ * The schema version a request uses; for a deprecated version, adds the Deprecation
+ * (RFC 9745) and Sunset (RFC 8594) headers to the answer. A retired version is refused.
+ * Writes nothing: the use is recorded with the accepted request (`recordSchemaUse`).
+ */
+export async function checkExchangeSchema(event: H3Event, name: ExchangeSchemaName, version: number) {
+  const row = await getExchangeSchema(name, version).catch(() => { throw fieldProblem('Arcwise-Schema-Version', `no ${name} schema v${version}`, 400, 'schema-unknown') })
+  if (row.status === 'retired') throw fieldProblem('Arcwise-Schema-Version', `${name} v${version} is retired; use a current version`, 400, 'schema-retired')
+  if (row.status === 'deprecated') {
+    setResponseHeader(event, 'deprecation', `@${Math.floor((row.deprecatedAt ?? new Date()).getTime() / 1000)}`)
+    if (row.sunsetAt) setResponseHeader(event, 'sunset', row.sunsetAt.toUTCString())
+    setResponseHeader(event, 'link', `</api/v1/schemas/${name}/${version}>; rel="deprecation"`)
+  }
+  return row
+}
+
+/** Counts a use of a schema version by a lab, in the caller's transaction. */
+export async function recordSchemaUse(db: Queryable, schemaId: string, labId: string) {
+  await db.insert(schemaUsage).values({ schemaId, labId, uses: 1 })
+    .onConflictDoUpdate({ target: [schemaUsage.schemaId, schemaUsage.labId], set: { uses: sql`${schemaUsage.uses} + 1`, lastUsedAt: new Date() } })
+}
+
+/** The schema version a request names in `Arcwise-Schema-Version` (default 1). */
+export function requestedSchemaVersion(event: H3Event): number {
+  const raw = getRequestHeader(event, 'arcwise-schema-version')
+  if (raw === undefined) return 1
+  const version = Number(raw)
+  if (!Number.isInteger(version) || version < 1) throw fieldProblem('Arcwise-Schema-Version', 'must be a positive whole number', 400, 'schema-unknown')
+  return version
+}
