@@ -5,7 +5,7 @@ import { acquisitionInput, acquisitionListQuery } from './schemas/acquisitions'
 import { idParams, problemDocument } from './schemas/common'
 import { schemaParams } from './schemas/exchange'
 import { eventFeedQuery, peakQuery, tokenRequest } from './schemas/partners'
-import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, exchangeSchemaList, jwksView, peakListView, tokenView } from './schemas/responses'
+import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, exchangeSchemaList, jwksView, peakListView, tokenView, uploadAccepted, uploadStatusView } from './schemas/responses'
 
 
 // The OpenAPI 3.1 document of API v1, generated from the zod schemas that the routes
@@ -28,15 +28,29 @@ export function buildOpenApiDocument() {
   const Problem = registry.register('Problem', problemDocument.openapi({ description: 'RFC 9457 problem document; `errors` names each bad field by its path.' }))
   const Acquisition = registry.register('Acquisition', acquisitionView)
   const Result = registry.register('Result', engineResultView)
-  const problems = (...codes: number[]) => Object.fromEntries(codes.map(c => [String(c), { description: { 400: 'Malformed request', 401: 'Missing, wrong, revoked or expired credentials', 403: 'Missing scope', 404: 'Not found (or not yours)', 409: 'Conflict', 413: 'Body too large', 422: 'Validation failed', 429: 'Rate limited; see Retry-After' }[c] ?? 'Error', content: { 'application/problem+json': { schema: Problem } } }]))
+  const problems = (...codes: number[]) => Object.fromEntries(codes.map(c => [String(c), { description: { 400: 'Malformed request', 401: 'Missing, wrong, revoked or expired credentials', 403: 'Missing scope', 404: 'Not found (or not yours)', 409: 'Conflict', 413: 'Body too large', 415: 'Unsupported media type', 422: 'Validation failed', 429: 'Rate limited; see Retry-After' }[c] ?? 'Error', content: { 'application/problem+json': { schema: Problem } } }]))
   const idPath = z.object({ id: idParams.shape.id })
 
   registry.registerPath({
     method: 'post', path: '/api/v1/acquisitions', tags: ['Lab systems'], summary: 'Post an acquisition',
     description: 'Validates the raw readings, converts them to m/z with the instrument\'s geometry and calibration in force at `acquiredAt`, finds and assigns peaks, computes the requested ratios, and stores everything (with the outbox event) in one transaction. The same `runId` with the same body answers the stored result (200); with another body, 409. `Idempotency-Key` (IETF draft) replays a stored answer.',
     security: [{ [labKey.name]: [] }],
-    request: { headers: z.object({ 'Idempotency-Key': z.string().max(255).optional(), 'Arcwise-Schema-Version': z.string().optional().describe('acquisition schema version (default 1); a deprecated version answers with Deprecation and Sunset headers') }), body: { content: { 'application/json': { schema: acquisitionInput.openapi({ example }) } } } },
-    responses: { 201: { description: 'Accepted and processed', content: { 'application/json': { schema: Acquisition } } }, 200: { description: 'A replay of an acquisition accepted before', content: { 'application/json': { schema: Acquisition } } }, ...problems(400, 401, 403, 409, 413, 422, 429) },
+    request: {
+      headers: z.object({ 'Idempotency-Key': z.string().max(255).optional(), 'Arcwise-Schema-Version': z.string().optional().describe('acquisition schema version (default 1); a deprecated version answers with Deprecation and Sunset headers') }),
+      body: { content: {
+        'application/json': { schema: acquisitionInput.openapi({ example }) },
+        'text/csv': { schema: z.string().describe('`# key: value` lines for instrument, runId, acquiredAt, sampleRef, settings ("# acceleratingVoltage: 3 kV ± 0.0006"), formulas and ratio; then a header row with units in brackets ("field [T],detector [fA]"); then one row per point. A byte-order mark and CRLF are fine.'), example: '# instrument: irms-north\n# runId: carb-17\n# acquiredAt: 2026-11-30T14:05:00Z\n# acceleratingVoltage: 3 kV\nfield [T],detector [fA]\n0.4771,8.1\n0.4772,9.0\n' },
+        'chemical/x-jcamp-dx': { schema: z.string().describe('JCAMP-DX 5.01 with the swept reading as X (XUNITS T, MT, G, KG, V or KV) and the detector as Y; settings and metadata as ##$ACCELERATING VOLTAGE=, ##$INSTRUMENT=, ##$RUN ID=, ##LONGDATE=.') },
+        'application/mzml+xml': { schema: z.string().describe('mzML 1.1: the first spectrum\'s m/z (MS:1000514) and intensity (MS:1000515) arrays; metadata as userParam (instrument, runId, acquiredAt). Entity declarations are refused.') },
+        'multipart/form-data': { schema: z.object({ file: z.string().describe('one of the formats above, by its part type or file extension') }) },
+      } },
+    },
+    responses: {
+      201: { description: 'Accepted and processed', content: { 'application/json': { schema: Acquisition } } },
+      200: { description: 'A replay of an acquisition accepted before', content: { 'application/json': { schema: Acquisition } } },
+      202: { description: `More than ${250_000} points: stored and processed in the background; follow statusUrl`, content: { 'application/json': { schema: uploadAccepted } } },
+      ...problems(400, 401, 403, 409, 413, 415, 422, 429),
+    },
   })
   registry.registerPath({
     method: 'get', path: '/api/v1/acquisitions', tags: ['Lab systems'], summary: 'List the lab\'s acquisitions', security: [{ [labKey.name]: [] }],
@@ -75,6 +89,10 @@ export function buildOpenApiDocument() {
   registry.registerPath({
     method: 'get', path: '/api/v1/peaks', tags: ['Partners'], summary: 'Peaks by m/z window across granted labs', security: [{ [partnerToken.name]: ['peaks:read'] }],
     request: { query: peakQuery }, responses: { 200: { description: 'Peaks in the window', content: { 'application/json': { schema: peakListView } } }, ...problems(400, 401, 403, 429) },
+  })
+  registry.registerPath({
+    method: 'get', path: '/api/v1/uploads/{id}', tags: ['Lab systems'], summary: 'Status of an upload processed in the background', security: [{ [labKey.name]: [] }],
+    request: { params: idPath }, responses: { 200: { description: 'pending, processing, processed (with acquisitionUrl) or failed (with the problem)', content: { 'application/json': { schema: uploadStatusView } } }, ...problems(401, 403, 404, 429) },
   })
   registry.registerPath({
     method: 'get', path: '/api/v1/schemas', tags: ['Exchange schemas'], summary: 'The exchange schemas and their status',

@@ -284,3 +284,21 @@ export const schemaUsage = pgTable('schema_usage', {
   uses: bigint('uses', { mode: 'number' }).notNull().default(0),
   lastUsedAt: timestamp('last_used_at', { withTimezone: true }).notNull().defaultNow(),
 }, t => [primaryKey({ columns: [t.schemaId, t.labId] })])
+
+/**
+ * Uploads too large to process inline: stored as accepted (the 202 promise), then
+ * processed in the background; `acquisitionId` or `problem` tells how it ended.
+ */
+export const uploads = pgTable('uploads', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  apiKeyId: uuid('api_key_id').notNull().references(() => apiKeys.id),
+  schemaId: uuid('schema_id').references(() => exchangeSchemas.id),
+  status: text('status').$type<'pending' | 'processing' | 'processed' | 'failed'>().notNull().default('pending'),
+  body: jsonb('body').$type<Record<string, unknown>>().notNull(),
+  acquisitionId: uuid('acquisition_id').references(() => acquisitions.id),
+  problem: jsonb('problem').$type<Record<string, unknown>>(),
+  leaseUntil: timestamp('lease_until', { withTimezone: true }),
+  createdAt: createdAt(),
+  finishedAt: timestamp('finished_at', { withTimezone: true }),
+}, t => [index('uploads_status_idx').on(t.status, t.createdAt)])

@@ -3,7 +3,8 @@
 export default defineNitroPlugin((nitro) => {
   // The exchange schemas this build speaks are registered (idempotently) at start.
   registerExchangeSchemas().catch(error => console.error('[schemas] registration failed', error))
-  const timer = setInterval(() => kickMailOutbox(), 5000)
+  // Mail and deferred uploads are picked up every few seconds (and right after they are queued).
+  const timer = setInterval(() => { kickMailOutbox(); kickUploads() }, 5000)
   timer.unref()
   nitro.hooks.hook('close', async () => {
     clearInterval(timer)

@@ -1,6 +1,6 @@
 import { createHash } from 'node:crypto'
 import { and, eq, sql } from 'drizzle-orm'
-import { geometry as geometrySchema, processReadings, type EngineResult, type RawReadings } from '#shared/engine'
+import { geometry as geometrySchema, processMzSpectrum, processReadings, type EngineResult, type RawReadings } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import { acquisitions, events, instruments, labs, peaks, results } from '../database/schema'
 import type { LabKey } from './apiKeys'
@@ -63,14 +63,17 @@ export async function acceptAcquisition(key: LabKey, input: AcquisitionInput, sc
   const calibration = await calibrationAt(instrument.id, acquiredAt)
   let engine: EngineResult
   try {
-    engine = processReadings(geometrySchema.parse(geo.params), readingsOf(input), {
+    const options = {
       tolerance: { ppm: input.processing?.tolerancePpm ?? 50 },
       formulas: input.processing?.formulas,
       isotopes: input.processing?.isotopes,
       maxCharge: input.processing?.maxCharge,
       ratios: input.processing?.ratios,
       calibration: calibration ? calibration.fit as { center: number, halfRange: number, coefficients: number[] } : null,
-    })
+    }
+    engine = input.mzSpectrum
+      ? processMzSpectrum(input.mzSpectrum.mz, input.mzSpectrum.values, input.mzSpectrum.unit, options)
+      : processReadings(geometrySchema.parse(geo.params), readingsOf(input), options)
   }
   catch (error) { engineProblem(error) }
 

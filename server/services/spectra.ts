@@ -18,11 +18,18 @@ export async function spectrumOf(labId: string, id: string): Promise<Spectrum> {
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
   const input = row.acq.payload as unknown as AcquisitionInput
   const geo = geometrySchema.parse(row.geo.params)
-  const detector = input.detectors[0]!
+  const detector = input.detectors[0] ?? { unit: input.mzSpectrum?.unit ?? 'A', values: [] }
   const unit = detectorQuantity(detector.unit, 'detectors.0.unit') === 'current' ? 'A' : 'cps'
   const factor = siFactor(unit === 'A' ? 'current' : 'countRate', detector.unit, 'detectors.0.unit')
   let mz: Float64Array
   let signal: Float64Array
+  if (input.mzSpectrum) {
+    const f = siFactor(detectorQuantity(input.mzSpectrum.unit, 'mzSpectrum.unit'), input.mzSpectrum.unit, 'mzSpectrum.unit')
+    mz = Float64Array.from(input.mzSpectrum.mz)
+    signal = Float64Array.from(input.mzSpectrum.values, v => v * f)
+    if (mz.length > 1 && mz[1]! < mz[0]!) { mz.reverse(); signal.reverse() }
+    return { runId: row.acq.externalId, lab: row.lab, instrument: row.slug, acquiredAt: row.acq.acquiredAt, mz, signal, unit: detectorQuantity(input.mzSpectrum.unit, 'u') === 'current' ? 'A' : 'cps' }
+  }
   if (input.sweep) {
     mz = sweepToMz(geo, { settings: input.settings, sweep: input.sweep, detectors: input.detectors }).mz
     signal = Float64Array.from(detector.values, v => v * factor)

@@ -152,6 +152,37 @@ function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptio
   return finish(peaks, options, { mode: 'sweep', points: n, mzMin, mzMax, detectorUnit, baseline })
 }
 
+/**
+ * A spectrum that arrives in m/z already (computed by the instrument's software, as mzML
+ * carries it): peaks, assignment and ratios only; the registered geometry is not applied.
+ */
+export function processMzSpectrum(mzValues: ArrayLike<number>, signalValues: ArrayLike<number>, unit: string, options: EngineOptions = {}): EngineResult {
+  const quantity = detectorQuantity(unit, 'mzSpectrum.unit')
+  const factor = siFactor(quantity, unit, 'mzSpectrum.unit')
+  assertFiniteColumn('mzSpectrum.mz', mzValues)
+  assertFiniteColumn('mzSpectrum.values', signalValues)
+  if (mzValues.length !== signalValues.length) throw new EngineError('mzSpectrum.values', 'length-mismatch', `has ${signalValues.length} points, mz has ${mzValues.length}`)
+  const mz = Float64Array.from(mzValues)
+  const signal = Float64Array.from(signalValues, v => v * factor)
+  if (sweepDirection(mz, 'mzSpectrum.mz') < 0) { mz.reverse(); signal.reverse() }
+  const table = candidateTable(options)
+  const tolerance = options.tolerance ?? DEFAULT_TOLERANCE
+  const found = findPeaks(mz, signal, { minSnr: options.minSnr })
+  const peaks: ResultPeak[] = found.peaks.map((p) => {
+    const a = assignPeak(table, p.centroid, p.fwhm, tolerance)
+    return {
+      collector: 'main', centroid: p.centroid, centroidU: 0, height: p.height, area: p.area, areaU: p.areaU, fwhm: p.fwhm, snr: p.snr,
+      resolvingPower: p.resolvingPower, overlapping: p.overlapping,
+      assignment: a.best ? { ...a.best, impliedNeutralMass: neutralMassFromMz(p.centroid, a.best.z) } : null,
+      ambiguous: a.ambiguous, candidates: a.candidates.slice(0, 5), linkedPeak: null,
+    }
+  })
+  const result = finish(peaks, { ...options, calibration: null }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit: quantity === 'current' ? 'A' : 'cps', baseline: found.baseline })
+  result.qc = result.qc.filter(q => q.code !== 'uncalibrated')
+  result.qc.push({ code: 'external-mz', message: 'm/z was computed by the instrument\'s own software; the registered geometry and calibration were not applied.' })
+  return result
+}
+
 function processStatic(geo: Geometry, readings: RawReadings, options: EngineOptions, table: CandidateTable, tolerance: Tolerance): EngineResult {
   const positions = staticCollectorMz(geo, readings)
   let detectorUnit: 'A' | 'cps' = 'A'

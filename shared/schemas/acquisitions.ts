@@ -32,7 +32,13 @@ export const acquisitionInput = z.object({
     collector: z.string().max(32).optional(),
     unit: z.string({ error: 'is required' }).min(1).max(16),
     values: z.array(finiteNumber).min(1).max(MAX_POINTS),
-  }).strict()).min(1, 'at least one detector column is required').max(32),
+  }).strict()).max(32).default([]),
+  /** A spectrum already in m/z from the instrument's own software (as mzML carries it). */
+  mzSpectrum: z.object({
+    unit: z.string().min(1).max(16),
+    mz: z.array(finiteNumber).min(2, 'a spectrum needs at least 2 points').max(MAX_POINTS),
+    values: z.array(finiteNumber).min(2).max(MAX_POINTS),
+  }).strict().optional(),
   processing: z.object({
     tolerancePpm: z.number().positive().max(10_000).optional(),
     isotopes: z.boolean().optional(),
@@ -45,6 +51,11 @@ export const acquisitionInput = z.object({
     }).strict()).max(20).optional(),
   }).strict().optional(),
 }).strict().superRefine((v, ctx) => {
+  if (v.mzSpectrum) {
+    if (v.sweep) ctx.addIssue({ code: 'custom', path: ['sweep'], message: 'give either a sweep or an m/z spectrum, not both' })
+    if (v.mzSpectrum.values.length !== v.mzSpectrum.mz.length) ctx.addIssue({ code: 'custom', path: ['mzSpectrum', 'values'], message: `has ${v.mzSpectrum.values.length} points, mz has ${v.mzSpectrum.mz.length}` })
+  }
+  else if (!v.detectors.length) ctx.addIssue({ code: 'custom', path: ['detectors'], message: 'at least one detector column is required' })
   const n = v.sweep?.values.length
   v.detectors.forEach((d, i) => {
     if (n !== undefined && d.values.length !== n) {

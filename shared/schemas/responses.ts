@@ -89,6 +89,15 @@ export const exchangeSchemaList = z.object({
   }).strict()),
 }).strict()
 
+export const uploadAccepted = z.object({
+  id: z.uuid(), status: z.enum(['pending', 'processing', 'processed', 'failed']), statusUrl: z.string(), receivedAt: z.iso.datetime({ offset: true }),
+}).strict()
+
+export const uploadStatusView = z.object({
+  id: z.uuid(), status: z.enum(['pending', 'processing', 'processed', 'failed']), receivedAt: z.iso.datetime({ offset: true }),
+  finishedAt: z.iso.datetime({ offset: true }).nullable(), acquisitionUrl: z.string().nullable(), problem: problemDocument.nullable(),
+}).strict()
+
 export const jwksView = z.object({ keys: z.array(z.record(z.string(), z.unknown())) })
 
 export { problemDocument }
