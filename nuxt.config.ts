@@ -32,6 +32,8 @@ export default defineNuxtConfig({
     mailCaptureUrl: '',
     signIn: { maxFailures: 5, lockMinutes: 15 },
     rateLimit: { perMinute: 1200 },
+    // The benchmark's baseline route (server/routes/_bench), off unless NUXT_BENCH_ROUTES=true.
+    benchRoutes: false,
     session: { maxAge: 60 * 60 * 12 },
     public: { mailCapture: false },
   },

@@ -7,7 +7,7 @@ import { problemType } from './utils/problem'
 // Nuxt's own error page (the next handler in the chain).
 export default defineNitroErrorHandler(async (error, event) => {
   const path = event.path || ''
-  if (!path.startsWith('/api/') && !path.startsWith('/.well-known/')) return
+  if (!path.startsWith('/api/') && !path.startsWith('/.well-known/') && !path.startsWith('/_bench/')) return
 
   const h3 = isError(error) ? (error as H3Error) : undefined
   const data = h3?.data as { problem?: ProblemDocument, headers?: Record<string, string> } | undefined

@@ -60,10 +60,26 @@ export async function checkExchangeSchema(event: H3Event, name: ExchangeSchemaNa
   return row
 }
 
-/** Counts a use of a schema version by a lab, in the caller's transaction. */
-export async function recordSchemaUse(db: Queryable, schemaId: string, labId: string) {
-  await db.insert(schemaUsage).values({ schemaId, labId, uses: 1 })
-    .onConflictDoUpdate({ target: [schemaUsage.schemaId, schemaUsage.labId], set: { uses: sql`${schemaUsage.uses} + 1`, lastUsedAt: new Date() } })
+// Uses are counted in memory and written every few seconds: one row per schema and lab
+// would otherwise be a hot row that every accepted acquisition waits on.
+const pendingUses = new Map<string, { schemaId: string, labId: string, uses: number, at: Date }>()
+
+/** Counts a use of a schema version by a lab (after the request was accepted). */
+export function countSchemaUse(schemaId: string, labId: string) {
+  const key = `${schemaId}|${labId}`
+  const entry = pendingUses.get(key) ?? { schemaId, labId, uses: 0, at: new Date() }
+  entry.uses++
+  entry.at = new Date()
+  pendingUses.set(key, entry)
+}
+
+export async function flushSchemaUses() {
+  const batch = [...pendingUses.values()]
+  pendingUses.clear()
+  for (const u of batch) {
+    await useDb().insert(schemaUsage).values({ schemaId: u.schemaId, labId: u.labId, uses: u.uses, lastUsedAt: u.at })
+      .onConflictDoUpdate({ target: [schemaUsage.schemaId, schemaUsage.labId], set: { uses: sql`${schemaUsage.uses} + ${u.uses}`, lastUsedAt: u.at } })
+  }
 }
 
 /** The schema version a request names in `Arcwise-Schema-Version` (default 1). */

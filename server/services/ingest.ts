@@ -92,11 +92,14 @@ export async function acceptAcquisition(key: LabKey, input: AcquisitionInput, sc
         await tx.insert(peaks).values(engine.peaks.map(p => ({ resultId: res.id, labId: key.labId, mz: p.centroid, area: p.area, species: p.assignment?.species ?? null, charge: p.assignment?.z ?? null })))
       }
       const view = resultView(acq, res, instrument.slug)
-      // Events are numbered per lab; the row lock on the lab serialises the numbering.
+      // Events are numbered per lab; the row lock on the lab serialises the numbering. It is
+      // taken last, so it is held only for the event's insert and the commit.
       const [{ sequence }] = await tx.update(labs).set({ eventSequence: sql`${labs.eventSequence} + 1` }).where(eq(labs.id, key.labId)).returning({ sequence: labs.eventSequence }) as [{ sequence: number }]
       await tx.insert(events).values({ labId: key.labId, sequence, type: RESULT_EVENT, payload: view as unknown as Record<string, unknown> })
-      if (schemaId) await recordSchemaUse(tx, schemaId, key.labId)
       return { status: 201 as const, body: view }
+    }).then((accepted) => {
+      if (schemaId) countSchemaUse(schemaId, key.labId)
+      return accepted
     })
   }
   catch (error) {

@@ -1,0 +1,123 @@
+// `npm run bench:ingest`: acquisitions per second for 1,000-point JSON sweeps at 32
+// connections, beside a baseline route in the same server that inserts the same body as
+// one row (goal: at least half its rate); and the server's memory growth while it takes a
+// 1,000,000-point CSV upload (goal: under 250 MB). Prints one JSON object.
+import { readFileSync } from 'node:fs'
+import { cpus, tmpdir } from 'node:os'
+import { join } from 'node:path'
+import autocannon from 'autocannon'
+import postgres from 'postgres'
+import { buildIfStale } from './lib/build'
+import { demoInstruments } from './lib/demo-instruments'
+import { log } from './lib/paths'
+import { seedDemo } from './lib/seed'
+import { startServer, startStack } from './lib/services'
+
+const PORT = 3300
+const base = `http://127.0.0.1:${PORT}`
+
+export async function benchIngest(opts: { seconds?: number } = {}) {
+  const seconds = opts.seconds ?? Number(process.env.BENCH_SECONDS ?? 10)
+  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, appUrl: base })
+  const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
+  await seedDemo(stack.databaseUrl, { keysFile })
+  const sql = postgres(stack.databaseUrl, { max: 1, onnotice: () => {} })
+  await sql`create table if not exists bench_baseline (id bigserial primary key, body jsonb not null)`
+  buildIfStale()
+  const server = startServer({ ...stack.serverEnv, NUXT_BENCH_ROUTES: 'true', NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
+  try {
+    await waitFor(`${base}/api/health`)
+    const keys = JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>
+    const inst = demoInstruments.find(i => i.slug === 'irms-north')!
+    // 1,000 points, as the issue asks; each request gets its own run id.
+    const template = JSON.stringify({ ...inst.acquisition('RUNID', new Date(), 5), sweep: undefined, detectors: undefined, ...thousandPoints(inst) })
+    let n = 0
+    const run = (path: string, auth: boolean) => autocannon({
+      url: `${base}${path}`, connections: 32, duration: seconds, method: 'POST',
+      headers: { 'content-type': 'application/json', ...(auth ? { authorization: `Bearer ${keys['saltmarsh-isotopes']}` } : {}) },
+      requests: [{ setupRequest: (req: Record<string, unknown>) => ({ ...req, body: template.replace('RUNID', `bench-${process.pid}-${n++}`) }) }],
+    })
+    await run('/_bench/baseline', false) // warm-up of both routes and the JIT
+    const baseline = await run('/_bench/baseline', false)
+    await run('/api/v1/acquisitions', true)
+    const ingest = await run('/api/v1/acquisitions', true)
+    const memory = await uploadMemory(server.pid!, keys['saltmarsh-isotopes']!)
+    return {
+      connections: 32, seconds, points: 1000,
+      baseline: { requestsPerSecond: Math.round(baseline.requests.average), non2xx: baseline.non2xx, latencyP99Ms: baseline.latency.p99 },
+      ingest: { requestsPerSecond: Math.round(ingest.requests.average), non2xx: ingest.non2xx, latencyP99Ms: ingest.latency.p99 },
+      ratio: { value: Number((ingest.requests.average / baseline.requests.average).toFixed(2)), goal: '>= 0.5' },
+      upload1M: memory,
+    }
+  }
+  finally {
+    server.kill('SIGTERM')
+    await sql.end()
+    await stack.stop()
+  }
+}
+
+function thousandPoints(inst: (typeof demoInstruments)[number]) {
+  // The demo instrument's sweep, cut to 1,000 points around the CO2 peaks.
+  const body = inst.acquisition('x', new Date(), 5)
+  const from = body.sweep!.values.findIndex(v => v > 0.4749) // m/z ≈ 43.5 on the demo geometry at 3 kV
+  const start = Math.max(0, from)
+  return {
+    sweep: { ...body.sweep!, values: body.sweep!.values.slice(start, start + 1000) },
+    detectors: [{ ...body.detectors[0]!, values: body.detectors[0]!.values.slice(start, start + 1000) }],
+  }
+}
+
+function rssMb(pid: number): number {
+  const status = readFileSync(`/proc/${pid}/status`, 'utf8')
+  return Number(/VmRSS:\s+(\d+)/.exec(status)![1]) / 1024
+}
+
+/** Peak RSS growth of the server while it takes (and processes) a 1,000,000-point CSV upload. */
+async function uploadMemory(pid: number, key: string) {
+  const inst = demoInstruments.find(i => i.slug === 'irms-north')!
+  const lines = ['# instrument: irms-north', `# runId: bench-1m-${process.pid}`, `# acquiredAt: ${new Date().toISOString()}`, '# acceleratingVoltage: 3 kV', '# formulas: CO2, [13C]O2', 'field [T],detector [fA]']
+  const body = inst.acquisition('x', new Date(), 9)
+  const b = body.sweep!.values
+  const d = body.detectors[0]!.values
+  // Interpolate the demo sweep up to 10^6 points.
+  const n = 1_000_000
+  for (let i = 0; i < n; i++) {
+    const t = i / (n - 1) * (b.length - 1)
+    const k = Math.min(b.length - 2, Math.floor(t))
+    const f = t - k
+    lines.push(`${(b[k]! + f * (b[k + 1]! - b[k]!)).toPrecision(10)},${(d[k]! + f * (d[k + 1]! - d[k]!)).toPrecision(6)}`)
+  }
+  const csv = `${lines.join('\n')}\n`
+  global.gc?.()
+  const before = rssMb(pid)
+  let peak = before
+  const sampler = setInterval(() => { peak = Math.max(peak, rssMb(pid)) }, 20)
+  const started = Date.now()
+  const res = await fetch(`${base}/api/v1/acquisitions`, { method: 'POST', headers: { 'content-type': 'text/csv', 'authorization': `Bearer ${key}` }, body: csv })
+  const accepted = await res.json() as { statusUrl?: string }
+  let status = 'unknown'
+  for (let i = 0; i < 600 && accepted.statusUrl; i++) {
+    const s = await (await fetch(`${base}${accepted.statusUrl}`, { headers: { authorization: `Bearer ${key}` } })).json() as { status: string }
+    status = s.status
+    if (status === 'processed' || status === 'failed') break
+    await new Promise(r => setTimeout(r, 100))
+  }
+  clearInterval(sampler)
+  return { csvMb: Number((csv.length / 1e6).toFixed(1)), httpStatus: res.status, finalStatus: status, seconds: Number(((Date.now() - started) / 1000).toFixed(1)), rssBeforeMb: Math.round(before), rssPeakMb: Math.round(peak), growthMb: Math.round(peak - before), goalMb: '< 250' }
+}
+
+async function waitFor(url: string) {
+  for (let i = 0; i < 120; i++) {
+    try { if ((await fetch(url)).ok) return }
+    catch { /* not up yet */ }
+    await new Promise(r => setTimeout(r, 500))
+  }
+  throw new Error(`no answer from ${url}`)
+}
+
+if (import.meta.url === `file://${process.argv[1]}`) {
+  log('ingest benchmark: this takes about a minute')
+  const result = await benchIngest()
+  console.log(JSON.stringify({ benchmark: 'ingest', node: process.version, cores: cpus().length, ...result }, null, 2))
+}
