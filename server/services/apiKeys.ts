@@ -1,5 +1,5 @@
 import type { H3Event } from 'h3'
-import { createHash, randomBytes, timingSafeEqual } from 'node:crypto'
+import { randomBytes, timingSafeEqual } from 'node:crypto'
 import { and, desc, eq, isNull } from 'drizzle-orm'
 import type { ApiKeyInput, KeyScope } from '#shared/schemas/instruments'
 import type { SessionUser } from '#shared/types/roles'
@@ -8,7 +8,6 @@ import { apiKeys } from '../database/schema'
 // Lab keys: "awk_<prefix>_<secret>". The prefix (12 characters) finds the row; only the
 // SHA-256 of the whole key is stored, and the key is shown once, when it is issued.
 
-const sha256 = (s: string) => createHash('sha256').update(s).digest('hex')
 
 const publicColumns = {
   id: apiKeys.id, labId: apiKeys.labId, name: apiKeys.name, prefix: apiKeys.prefix, scopes: apiKeys.scopes,
@@ -20,7 +19,7 @@ export async function issueKey(event: H3Event, actor: SessionUser, labId: string
   const secret = `awk_${prefix}_${randomBytes(32).toString('base64url')}`
   return useDb().transaction(async (tx) => {
     const row = firstRow(await tx.insert(apiKeys).values({
-      labId, name: input.name, prefix, secretHash: sha256(secret), scopes: input.scopes, expiresAt: input.expiresAt ?? null, createdBy: actor.id,
+      labId, name: input.name, prefix, secretHash: hashToken(secret), scopes: input.scopes, expiresAt: input.expiresAt ?? null, createdBy: actor.id,
     }).returning(publicColumns))
     await recordAudit(tx, { actor: actorOf(actor), action: 'key.issued', targetType: 'api-key', targetId: row.id, event, detail: { labId, name: input.name, scopes: input.scopes, prefix } })
     return { ...row, secret }
@@ -52,7 +51,7 @@ export async function requireLabKey(event: H3Event, scope: KeyScope): Promise<La
   const [, secret, prefix] = match
   const row = await useDb().query.apiKeys.findFirst({ where: eq(apiKeys.prefix, prefix!) })
   if (!row) throw invalidKey()
-  const same = timingSafeEqual(Buffer.from(row.secretHash, 'hex'), Buffer.from(sha256(secret!), 'hex'))
+  const same = timingSafeEqual(Buffer.from(row.secretHash, 'hex'), Buffer.from(hashToken(secret!), 'hex'))
   if (!same || row.revokedAt || (row.expiresAt && row.expiresAt <= new Date())) throw invalidKey()
   if (!row.scopes.includes(scope)) throw problem(403, 'insufficient-scope', `This key lacks the scope ${scope}.`)
   await consumeRateLimit('lab-key', row.id)

@@ -52,12 +52,16 @@ export async function setSchemaStatus(event: H3Event, actor: SessionUser, id: st
 export async function checkExchangeSchema(event: H3Event, name: ExchangeSchemaName, version: number) {
   const row = await getExchangeSchema(name, version).catch(() => { throw fieldProblem('Arcwise-Schema-Version', `no ${name} schema v${version}`, 400, 'schema-unknown') })
   if (row.status === 'retired') throw fieldProblem('Arcwise-Schema-Version', `${name} v${version} is retired; use a current version`, 400, 'schema-retired')
-  if (row.status === 'deprecated') {
-    setResponseHeader(event, 'deprecation', `@${Math.floor((row.deprecatedAt ?? new Date()).getTime() / 1000)}`)
-    if (row.sunsetAt) setResponseHeader(event, 'sunset', row.sunsetAt.toUTCString())
-    setResponseHeader(event, 'link', `</api/v1/schemas/${name}/${version}>; rel="deprecation"`)
-  }
+  announceDeprecation(event, row)
   return row
+}
+
+/** Deprecation (RFC 9745), Sunset (RFC 8594) and a link to the schema, for a deprecated version. */
+export function announceDeprecation(event: H3Event, row: typeof exchangeSchemas.$inferSelect) {
+  if (row.status !== 'deprecated') return
+  setResponseHeader(event, 'deprecation', `@${Math.floor((row.deprecatedAt ?? new Date()).getTime() / 1000)}`)
+  if (row.sunsetAt) setResponseHeader(event, 'sunset', row.sunsetAt.toUTCString())
+  setResponseHeader(event, 'link', `</api/v1/schemas/${row.name}/${row.version}>; rel="deprecation"`)
 }
 
 // Uses are counted in memory and written every few seconds: one row per schema and lab

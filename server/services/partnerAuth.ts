@@ -1,5 +1,5 @@
 import type { H3Event } from 'h3'
-import { createHash, randomBytes, randomUUID, timingSafeEqual } from 'node:crypto'
+import { randomBytes, randomUUID, timingSafeEqual } from 'node:crypto'
 import { and, desc, eq, isNull } from 'drizzle-orm'
 import { SignJWT, exportJWK, generateKeyPair, importJWK, jwtVerify, type JWK } from 'jose'
 import type { PartnerClientInput, PartnerScope } from '#shared/schemas/partners'
@@ -12,7 +12,6 @@ import { partnerClients, signingKeys } from '../database/schema'
 
 export const TOKEN_TTL_SECONDS = 300
 const ALG = 'ES256'
-const sha256 = (s: string) => createHash('sha256').update(s).digest('hex')
 const issuer = () => useRuntimeConfig().appUrl
 export const AUDIENCE = 'arcwise-api-v1'
 
@@ -53,7 +52,7 @@ export async function createPartnerClient(event: H3Event, actor: SessionUser, pa
   const clientId = `awc_${randomBytes(9).toString('base64url')}`
   const secret = `awcs_${randomBytes(32).toString('base64url')}`
   return useDb().transaction(async (tx) => {
-    const row = firstRow(await tx.insert(partnerClients).values({ partnerId, name: input.name, clientId, secretHash: sha256(secret), scopes: input.scopes, createdBy: actor.id }).returning(publicColumns))
+    const row = firstRow(await tx.insert(partnerClients).values({ partnerId, name: input.name, clientId, secretHash: hashToken(secret), scopes: input.scopes, createdBy: actor.id }).returning(publicColumns))
     await recordAudit(tx, { actor: actorOf(actor), action: 'partner-client.created', targetType: 'partner-client', targetId: row.id, event, detail: { partnerId, clientId } })
     return { ...row, clientSecret: secret }
   })
@@ -83,7 +82,7 @@ export async function issueAccessToken(credentials: { clientId?: string, clientS
   if (credentials.grantType !== 'client_credentials') throw oauthProblem(400, 'unsupported_grant_type', 'Only grant_type=client_credentials is supported.')
   const row = credentials.clientId ? await useDb().query.partnerClients.findFirst({ where: eq(partnerClients.clientId, credentials.clientId) }) : undefined
   const ok = row && !row.revokedAt && credentials.clientSecret
-    && timingSafeEqual(Buffer.from(row.secretHash, 'hex'), Buffer.from(sha256(credentials.clientSecret), 'hex'))
+    && timingSafeEqual(Buffer.from(row.secretHash, 'hex'), Buffer.from(hashToken(credentials.clientSecret), 'hex'))
   if (!ok) throw oauthProblem(401, 'invalid_client', 'The client id or secret is wrong, or the client was revoked.')
   const asked = credentials.scope ? credentials.scope.split(' ').filter(Boolean) : row.scopes
   const denied = asked.filter(s => !row.scopes.includes(s))

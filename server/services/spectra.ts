@@ -18,30 +18,29 @@ export async function spectrumOf(labId: string, id: string): Promise<Spectrum> {
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
   const input = row.acq.payload as unknown as AcquisitionInput
   const geo = geometrySchema.parse(row.geo.params)
-  const detector = input.detectors[0] ?? { unit: input.mzSpectrum?.unit ?? 'A', values: [] }
-  const unit = detectorQuantity(detector.unit, 'detectors.0.unit') === 'current' ? 'A' : 'cps'
-  const factor = siFactor(unit === 'A' ? 'current' : 'countRate', detector.unit, 'detectors.0.unit')
+  // The signal's unit is the m/z spectrum's, or the first detector's.
+  const signalUnit = input.mzSpectrum?.unit ?? input.detectors[0]!.unit
+  const quantity = detectorQuantity(signalUnit, 'unit')
+  const factor = siFactor(quantity, signalUnit, 'unit')
   let mz: Float64Array
   let signal: Float64Array
   if (input.mzSpectrum) {
-    const f = siFactor(detectorQuantity(input.mzSpectrum.unit, 'mzSpectrum.unit'), input.mzSpectrum.unit, 'mzSpectrum.unit')
+    // m/z as the instrument's software gave it: neither geometry nor calibration applies.
     mz = Float64Array.from(input.mzSpectrum.mz)
-    signal = Float64Array.from(input.mzSpectrum.values, v => v * f)
-    if (mz.length > 1 && mz[1]! < mz[0]!) { mz.reverse(); signal.reverse() }
-    return { runId: row.acq.externalId, lab: row.lab, instrument: row.slug, acquiredAt: row.acq.acquiredAt, mz, signal, unit: detectorQuantity(input.mzSpectrum.unit, 'u') === 'current' ? 'A' : 'cps' }
+    signal = Float64Array.from(input.mzSpectrum.values, v => v * factor)
   }
-  if (input.sweep) {
+  else if (input.sweep) {
     mz = sweepToMz(geo, { settings: input.settings, sweep: input.sweep, detectors: input.detectors }).mz
-    signal = Float64Array.from(detector.values, v => v * factor)
+    signal = Float64Array.from(input.detectors[0]!.values, v => v * factor)
   }
   else {
     const positions = staticCollectorMz(geo, { settings: input.settings, detectors: input.detectors })
     mz = Float64Array.from(input.detectors, (d, k) => (positions.find(p => p.collector === d.collector) ?? positions[k])!.mz)
     signal = Float64Array.from(input.detectors, d => d.values.reduce((a, b) => a + b, 0) / d.values.length * factor)
   }
-  if (row.cal) applyCalibrationColumn(row.cal.fit as { center: number, halfRange: number, coefficients: number[] }, mz)
+  if (row.cal && !input.mzSpectrum) applyCalibrationColumn(row.cal.fit as { center: number, halfRange: number, coefficients: number[] }, mz)
   if (mz.length > 1 && mz[1]! < mz[0]!) { mz.reverse(); signal.reverse() }
-  return { runId: row.acq.externalId, lab: row.lab, instrument: row.slug, acquiredAt: row.acq.acquiredAt, mz, signal, unit }
+  return { runId: row.acq.externalId, lab: row.lab, instrument: row.slug, acquiredAt: row.acq.acquiredAt, mz, signal, unit: quantity === 'current' ? 'A' : 'cps' }
 }
 
 export function spectrumCsv(s: Spectrum): string {

@@ -6,6 +6,7 @@ export function newLinkToken(): { token: string, hash: string } {
   return { token, hash: hashToken(token) }
 }
 
+/** SHA-256 (hex) of a secret: link tokens, lab keys and partner client secrets are stored only so. */
 export function hashToken(token: string): string {
   return createHash('sha256').update(token).digest('hex')
 }

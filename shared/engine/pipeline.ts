@@ -5,7 +5,7 @@ import { EngineError, assertFiniteColumn } from './errors'
 import { rankMatches, type ReferenceSpectrum } from './fingerprint'
 import { staticCollectorMz, sweepToMz, type Geometry, type RawReadings } from './geometry'
 import { ratioAndDelta, referenceRatios, type RatioResult, type ReferenceRatioId } from './ratios'
-import { findPeaks, sweepDirection, type Baseline } from './spectrum'
+import { findPeaks, sweepDirection, type Baseline, type Peak } from './spectrum'
 import { formulaSpecies, naturalIsotopes, neutralMassFromMz, type Species } from './species'
 import { detectorQuantity, siFactor } from './units'
 
@@ -89,7 +89,7 @@ function candidateTable(options: EngineOptions): CandidateTable {
 /** One sweep's m/z column, oriented to rise; the matching detector columns follow it. */
 interface Column { collector: string, mz: Float64Array, signal: Float64Array, relU: (mz: number) => number }
 
-function detectorSI(d: RawReadings['detectors'][number], field: string): { values: Float64Array, unit: 'A' | 'cps' } {
+function detectorSI(d: { unit: string, values: ArrayLike<number> }, field: string): { values: Float64Array, unit: 'A' | 'cps' } {
   const quantity = detectorQuantity(d.unit, `${field}.unit`)
   const factor = siFactor(quantity, d.unit, `${field}.unit`)
   assertFiniteColumn(`${field}.values`, d.values)
@@ -138,16 +138,7 @@ function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptio
     mzMax = Math.max(mzMax, col.mz[col.mz.length - 1]!)
     const found = findPeaks(col.mz, col.signal, { minSnr: options.minSnr })
     baseline ??= found.baseline
-    for (const p of found.peaks) {
-      const a = assignPeak(table, p.centroid, p.fwhm, tolerance)
-      peaks.push({
-        collector: col.collector, centroid: p.centroid, centroidU: p.centroid * col.relU(p.centroid),
-        height: p.height, area: p.area, areaU: p.areaU, fwhm: p.fwhm, snr: p.snr, resolvingPower: p.resolvingPower,
-        overlapping: p.overlapping,
-        assignment: a.best ? { ...a.best, impliedNeutralMass: neutralMassFromMz(p.centroid, a.best.z) } : null,
-        ambiguous: a.ambiguous, candidates: a.candidates.slice(0, 5), linkedPeak: null,
-      })
-    }
+    for (const p of found.peaks) peaks.push(profilePeak(p, col.collector, p.centroid * col.relU(p.centroid), table, tolerance))
   }
   return finish(peaks, options, { mode: 'sweep', points: n, mzMin, mzMax, detectorUnit, baseline })
 }
@@ -157,30 +148,33 @@ function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptio
  * carries it): peaks, assignment and ratios only; the registered geometry is not applied.
  */
 export function processMzSpectrum(mzValues: ArrayLike<number>, signalValues: ArrayLike<number>, unit: string, options: EngineOptions = {}): EngineResult {
-  const quantity = detectorQuantity(unit, 'mzSpectrum.unit')
-  const factor = siFactor(quantity, unit, 'mzSpectrum.unit')
   assertFiniteColumn('mzSpectrum.mz', mzValues)
-  assertFiniteColumn('mzSpectrum.values', signalValues)
-  if (mzValues.length !== signalValues.length) throw new EngineError('mzSpectrum.values', 'length-mismatch', `has ${signalValues.length} points, mz has ${mzValues.length}`)
+  const { values: signal, unit: detectorUnit } = detectorSI({ unit, values: signalValues }, 'mzSpectrum')
+  if (mzValues.length !== signal.length) throw new EngineError('mzSpectrum.values', 'length-mismatch', `has ${signal.length} points, mz has ${mzValues.length}`)
   const mz = Float64Array.from(mzValues)
-  const signal = Float64Array.from(signalValues, v => v * factor)
   if (sweepDirection(mz, 'mzSpectrum.mz') < 0) { mz.reverse(); signal.reverse() }
   const table = candidateTable(options)
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE
   const found = findPeaks(mz, signal, { minSnr: options.minSnr })
-  const peaks: ResultPeak[] = found.peaks.map((p) => {
-    const a = assignPeak(table, p.centroid, p.fwhm, tolerance)
-    return {
-      collector: 'main', centroid: p.centroid, centroidU: 0, height: p.height, area: p.area, areaU: p.areaU, fwhm: p.fwhm, snr: p.snr,
-      resolvingPower: p.resolvingPower, overlapping: p.overlapping,
-      assignment: a.best ? { ...a.best, impliedNeutralMass: neutralMassFromMz(p.centroid, a.best.z) } : null,
-      ambiguous: a.ambiguous, candidates: a.candidates.slice(0, 5), linkedPeak: null,
-    }
-  })
-  const result = finish(peaks, { ...options, calibration: null }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit: quantity === 'current' ? 'A' : 'cps', baseline: found.baseline })
-  result.qc = result.qc.filter(q => q.code !== 'uncalibrated')
-  result.qc.push({ code: 'external-mz', message: 'm/z was computed by the instrument\'s own software; the registered geometry and calibration were not applied.' })
-  return result
+  // The geometry is not applied, so there is no geometry uncertainty to give the centroid.
+  const peaks = found.peaks.map(p => profilePeak(p, 'main', 0, table, tolerance))
+  return finish(peaks, { ...options, calibration: null }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit, baseline: found.baseline }, { externalMz: true })
+}
+
+/** A profile peak with its assignment, as the result reports it. */
+function profilePeak(p: Peak, collector: string, centroidU: number, table: CandidateTable, tolerance: Tolerance): ResultPeak {
+  const a = assignPeak(table, p.centroid, p.fwhm, tolerance)
+  return {
+    collector, centroid: p.centroid, centroidU, height: p.height, area: p.area, areaU: p.areaU, fwhm: p.fwhm, snr: p.snr,
+    resolvingPower: p.resolvingPower, overlapping: p.overlapping, ...assignmentFields(a, p.centroid),
+  }
+}
+
+function assignmentFields(a: ReturnType<typeof assignPeak>, mz: number) {
+  return {
+    assignment: a.best ? { ...a.best, impliedNeutralMass: neutralMassFromMz(mz, a.best.z) } : null,
+    ambiguous: a.ambiguous, candidates: a.candidates.slice(0, 5), linkedPeak: null,
+  }
 }
 
 function processStatic(geo: Geometry, readings: RawReadings, options: EngineOptions, table: CandidateTable, tolerance: Tolerance): EngineResult {
@@ -207,16 +201,14 @@ function processStatic(geo: Geometry, readings: RawReadings, options: EngineOpti
     const a = assignPeak(table, mz, window, tolerance)
     return {
       collector: pos.collector, centroid: mz, centroidU: mz * pos.relU, height: mean, area: mean, areaU: u,
-      fwhm: 0, snr: u > 0 ? mean / u : Number.MAX_VALUE, resolvingPower: 0, overlapping: false,
-      assignment: a.best ? { ...a.best, impliedNeutralMass: neutralMassFromMz(mz, a.best.z) } : null,
-      ambiguous: a.ambiguous, candidates: a.candidates.slice(0, 5), linkedPeak: null,
+      fwhm: 0, snr: u > 0 ? mean / u : Number.MAX_VALUE, resolvingPower: 0, overlapping: false, ...assignmentFields(a, mz),
     }
   })
   const mzs = peaks.map(p => p.centroid)
   return finish(peaks, options, { mode: 'static', points: readings.detectors[0]!.values.length, mzMin: Math.min(...mzs), mzMax: Math.max(...mzs), detectorUnit, baseline: null })
 }
 
-function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineResult, 'mode' | 'points' | 'mzMin' | 'mzMax' | 'detectorUnit' | 'baseline'>): EngineResult {
+function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineResult, 'mode' | 'points' | 'mzMin' | 'mzMax' | 'detectorUnit' | 'baseline'>, source: { externalMz?: boolean } = {}): EngineResult {
   for (const [i, j] of linkChargeStates(peaks.map(p => (p.assignment ? { candidates: [], ambiguous: false, best: p.assignment } : null)))) {
     peaks[i]!.linkedPeak = j
     peaks[j]!.linkedPeak = i
@@ -229,7 +221,8 @@ function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineRe
     if (p.overlapping) qc.push({ code: 'overlapping', peak: i, message: `Peak at m/z ${p.centroid.toFixed(4)} overlaps a neighbour; its area is shared.` })
     if (head.mode === 'sweep' && p.snr < 20) qc.push({ code: 'low-signal', peak: i, message: `Peak at m/z ${p.centroid.toFixed(4)} has S/N ${p.snr.toFixed(1)} (< 20).` })
   })
-  if (!options.calibration) qc.push({ code: 'uncalibrated', message: 'No calibration applied: m/z comes from the registered geometry alone.' })
+  if (source.externalMz) qc.push({ code: 'external-mz', message: 'm/z was computed by the instrument\'s own software; the registered geometry and calibration were not applied.' })
+  else if (!options.calibration) qc.push({ code: 'uncalibrated', message: 'No calibration applied: m/z comes from the registered geometry alone.' })
 
   const ratios: RatioResult[] = []
   for (const request of options.ratios ?? []) {
