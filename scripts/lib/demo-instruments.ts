@@ -16,13 +16,12 @@ const co2Lab = geometry.parse({ kind: 'potential-sector', analyzerRadius: { valu
 const argonLab = geometry.parse({ kind: 'potential-sector', analyzerRadius: { value: 12, unit: 'cm', u: 0.002 } })
 const heliumLab = geometry.parse({ kind: 'wien-sector', analyzerRadius: { value: 60, unit: 'mm', u: 0.05 }, plateGap: { value: 4, unit: 'mm', u: 0.002 } })
 
-function sweepBody(geo: Geometry, runId: string, acquiredAt: Date, sample: string, sim: Parameters<typeof simulateFieldSweep>[0], processing: AcquisitionInput['processing']): AcquisitionInput {
+function sweepBody(instrument: string, runId: string, acquiredAt: Date, sample: string, sim: Parameters<typeof simulateFieldSweep>[0], processing: AcquisitionInput['processing']): AcquisitionInput {
   const raw = simulateFieldSweep(sim)
   const settings: AcquisitionInput['settings'] = {}
   for (const [name, s] of Object.entries(raw.settings)) if (s) settings[name as keyof typeof settings] = { value: s.value, unit: s.unit, u: s.value * 2e-4 }
-  void geo
   return {
-    instrument: '', runId, acquiredAt: acquiredAt.toISOString(), sampleRef: sample, settings,
+    instrument, runId, acquiredAt: acquiredAt.toISOString(), sampleRef: sample, settings,
     sweep: { reading: 'field', unit: raw.sweep!.unit, u: 1e-6, values: Array.from(raw.sweep!.values, v => Number(v.toPrecision(9))) },
     detectors: [{ unit: raw.detectors[0]!.unit, values: Array.from(raw.detectors[0]!.values, v => Number(v.toPrecision(6))) }],
     processing,
@@ -43,14 +42,14 @@ function co2Species(seed: number): SimulatedSpecies[] {
 export const demoInstruments: DemoInstrument[] = [
   {
     lab: 'saltmarsh-isotopes', slug: 'irms-north', name: 'North bench IRMS', geometry: co2Lab,
-    acquisition: (runId, at, seed) => ({ ...sweepBody(co2Lab, runId, at, `CARB-${1000 + seed}`, {
+    acquisition: (runId, at, seed) => sweepBody('irms-north', runId, at, `CARB-${1000 + seed}`, {
       geometry: co2Lab, acceleratingVoltageV: 3000, mzFrom: 26, mzTo: 47, points: 12_000, resolvingPower: 950,
       species: co2Species(seed), baselineA: 8e-15, noiseA: 2e-15, seed, currentUnit: 'fA',
-    }, { formulas: ['CO2', '[13C]O2', 'N2', '[40Ar]', 'CO', 'O2'], ratios: [{ id: 'VPDB:13C/12C', heavy: '[13C]O2', light: 'CO2' }] }), instrument: 'irms-north' }),
+    }, { formulas: ['CO2', '[13C]O2', 'N2', '[40Ar]', 'CO', 'O2'], ratios: [{ id: 'VPDB:13C/12C', heavy: '[13C]O2', light: 'CO2' }] }),
   },
   {
     lab: 'halvard-ridge', slug: 'noble-gas-1', name: 'Noble-gas sector', geometry: argonLab,
-    acquisition: (runId, at, seed) => ({ ...sweepBody(argonLab, runId, at, `AIR-STD-${seed}`, {
+    acquisition: (runId, at, seed) => sweepBody('noble-gas-1', runId, at, `AIR-STD-${seed}`, {
       geometry: argonLab, acceleratingVoltageV: 4500, mzFrom: 35, mzTo: 41, points: 9_000, resolvingPower: 600,
       species: [
         { species: isotope('36Ar'), currentA: 1.2e-13 * (1 + (seed % 5) * 0.002) },
@@ -58,11 +57,11 @@ export const demoInstruments: DemoInstrument[] = [
         { species: isotope('40Ar'), currentA: 1.2e-13 * 298.56 * (1 + (seed % 7) * 0.001) },
       ],
       baselineA: 3e-16, noiseA: 1e-16, seed, currentUnit: 'fA',
-    }, { formulas: ['[36Ar]', '[38Ar]', '[40Ar]'], ratios: [{ id: 'AIR:40Ar/36Ar', heavy: '[40Ar]', light: '[36Ar]' }] }), instrument: 'noble-gas-1' }),
+    }, { formulas: ['[36Ar]', '[38Ar]', '[40Ar]'], ratios: [{ id: 'AIR:40Ar/36Ar', heavy: '[40Ar]', light: '[36Ar]' }] }),
   },
   {
     lab: 'kestrel-leaktest', slug: 'he-leak-2', name: 'Helium leak detector', geometry: heliumLab,
-    acquisition: (runId, at, seed) => ({ ...sweepBody(heliumLab, runId, at, `VALVE-${4200 + seed}`, {
+    acquisition: (runId, at, seed) => sweepBody('he-leak-2', runId, at, `VALVE-${4200 + seed}`, {
       geometry: heliumLab, plateVoltageV: 800, filterFieldT: 0.05, mzFrom: 1.5, mzTo: 5, points: 4_000, resolvingPower: 120,
       species: [
         { species: isotope('4He'), currentA: 5e-12 * (1 + (seed % 9)) },
@@ -70,6 +69,6 @@ export const demoInstruments: DemoInstrument[] = [
         { species: formulaSpecies('HD'), currentA: 5e-15 },
       ],
       baselineA: 1e-15, noiseA: 4e-16, seed, currentUnit: 'fA',
-    }, { formulas: ['[4He]', 'H2', 'HD', '[3He]'], maxCharge: 1, tolerancePpm: 500 }), instrument: 'he-leak-2' }),
+    }, { formulas: ['[4He]', 'H2', 'HD', '[3He]'], maxCharge: 1, tolerancePpm: 500 }),
   },
 ]
