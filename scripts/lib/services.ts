@@ -46,8 +46,10 @@ export async function startStack(opts: { database: string, fresh?: boolean, smtp
   }
 }
 
+/** The built server; `ARCWISE_SERVER_NODE_ARGS` (e.g. "--cpu-prof") passes flags to its Node.js. */
 export function startServer(env: Record<string, string>, port: number): ChildProcess {
-  return spawn(process.execPath, [join(root, '.output', 'server', 'index.mjs')], {
+  const nodeArgs = process.env.ARCWISE_SERVER_NODE_ARGS?.split(' ').filter(Boolean) ?? []
+  return spawn(process.execPath, [...nodeArgs, join(root, '.output', 'server', 'index.mjs')], {
     cwd: root,
     stdio: 'inherit',
     env: { ...process.env, ...env, PORT: String(port), HOST: '127.0.0.1', NODE_ENV: 'production' },

@@ -295,6 +295,9 @@ export const uploads = pgTable('uploads', {
   apiKeyId: uuid('api_key_id').notNull().references(() => apiKeys.id),
   schemaId: uuid('schema_id').references(() => exchangeSchemas.id),
   status: text('status').$type<'pending' | 'processing' | 'processed' | 'failed'>().notNull().default('pending'),
+  // SHA-256 of the body as the lab sent it: jsonb reorders keys, so it cannot be recomputed
+  // from `body` (null on uploads stored before this column).
+  bodyHash: text('body_hash'),
   body: jsonb('body').$type<Record<string, unknown>>().notNull(),
   acquisitionId: uuid('acquisition_id').references(() => acquisitions.id),
   problem: jsonb('problem').$type<Record<string, unknown>>(),

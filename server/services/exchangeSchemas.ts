@@ -40,6 +40,7 @@ export async function setSchemaStatus(event: H3Event, actor: SessionUser, id: st
     status: change.status, sunsetAt: change.sunsetAt ?? null, deprecatedAt: change.status === 'current' ? null : sql`coalesce(${exchangeSchemas.deprecatedAt}, now())`,
   }).where(eq(exchangeSchemas.id, id)).returning()
   if (!row) throw problem(404, 'schema-not-found', 'No such exchange schema.')
+  schemaCache.clear()
   await recordAudit(useDb(), { actor: actorOf(actor), action: 'schema.status-changed', targetType: 'exchange-schema', targetId: id, event, detail: { name: row.name, version: row.version, status: row.status, sunsetAt: row.sunsetAt } })
   return row
 }
@@ -50,9 +51,25 @@ export async function setSchemaStatus(event: H3Event, actor: SessionUser, id: st
  * Writes nothing: the use is recorded with the accepted request (`recordSchemaUse`).
  */
 export async function checkExchangeSchema(event: H3Event, name: ExchangeSchemaName, version: number) {
-  const row = await getExchangeSchema(name, version).catch(() => { throw fieldProblem('Arcwise-Schema-Version', `no ${name} schema v${version}`, 400, 'schema-unknown') })
+  const row = await cachedExchangeSchema(name, version).catch(() => { throw fieldProblem('Arcwise-Schema-Version', `no ${name} schema v${version}`, 400, 'schema-unknown') })
   if (row.status === 'retired') throw fieldProblem('Arcwise-Schema-Version', `${name} v${version} is retired; use a current version`, 400, 'schema-retired')
   announceDeprecation(event, row)
+  return row
+}
+
+// Every accepted request names a schema version, and versions change status rarely: each
+// process keeps what it read for a few seconds (and forgets it at once when it changes a
+// status itself), which saves a query on the ingest path. Another process's change to a
+// status shows here within SCHEMA_CACHE_MS.
+const SCHEMA_CACHE_MS = 5000
+const schemaCache = new Map<string, { row: Promise<typeof exchangeSchemas.$inferSelect>, until: number }>()
+function cachedExchangeSchema(name: string, version: number) {
+  const key = `${name}/${version}`
+  const hit = schemaCache.get(key)
+  if (hit && hit.until > Date.now()) return hit.row
+  const row = getExchangeSchema(name, version)
+  schemaCache.set(key, { row, until: Date.now() + SCHEMA_CACHE_MS })
+  row.catch(() => schemaCache.delete(key))
   return row
 }
 

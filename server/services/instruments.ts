@@ -1,11 +1,11 @@
 import type { H3Event } from 'h3'
-import { and, asc, desc, eq, lte } from 'drizzle-orm'
+import { and, asc, desc, eq, lte, sql } from 'drizzle-orm'
 import type { z } from 'zod'
 import { fitCalibration } from '#shared/engine'
 import type { calibrationInput, InstrumentInput } from '#shared/schemas/instruments'
 import type { Geometry } from '#shared/engine'
 import type { SessionUser } from '#shared/types/roles'
-import { calibrations, geometryVersions, instruments } from '../database/schema'
+import { acquisitions, calibrations, geometryVersions, instruments } from '../database/schema'
 
 export async function listInstruments(labId: string) {
   const rows = await useDb().select().from(instruments).where(eq(instruments.labId, labId)).orderBy(asc(instruments.name), asc(instruments.id))
@@ -69,6 +69,30 @@ export async function addCalibration(event: H3Event, actor: SessionUser, labId: 
 }
 
 /** The geometry version in force at `at`: the latest one valid from at or before it. */
+export interface InstrumentContext {
+  id: string
+  slug: string
+  geometry: { id: string, version: number, params: Record<string, unknown> } | null
+  calibration: { id: string, version: number, fit: Record<string, unknown> } | null
+  runSeen: boolean
+}
+
+/**
+ * What ingest needs to know about a lab's instrument, in one round trip: the geometry and
+ * calibration versions in force at `at`, and whether the lab already sent `runId`.
+ */
+export async function instrumentContextAt(labId: string, slug: string, at: Date, runId: string): Promise<InstrumentContext | undefined> {
+  const [row] = await useDb().execute<{ id: string, slug: string, geometry: InstrumentContext['geometry'], calibration: InstrumentContext['calibration'], run_seen: boolean }>(sql`
+    select i.id, i.slug,
+      (select json_build_object('id', g.id, 'version', g.version, 'params', g.params) from ${geometryVersions} g
+        where g.instrument_id = i.id and g.valid_from <= ${at.toISOString()}::timestamptz order by g.valid_from desc, g.version desc limit 1) as geometry,
+      (select json_build_object('id', c.id, 'version', c.version, 'fit', c.fit) from ${calibrations} c
+        where c.instrument_id = i.id and c.valid_from <= ${at.toISOString()}::timestamptz order by c.valid_from desc, c.version desc limit 1) as calibration,
+      exists (select 1 from ${acquisitions} a where a.lab_id = i.lab_id and a.external_id = ${runId}) as run_seen
+    from ${instruments} i where i.lab_id = ${labId}::uuid and i.slug = ${slug}`)
+  return row && { id: row.id, slug: row.slug, geometry: row.geometry, calibration: row.calibration, runSeen: row.run_seen }
+}
+
 export async function geometryAt(instrumentId: string, at: Date, db: Queryable = useDb()) {
   const [row] = await db.select().from(geometryVersions)
     .where(and(eq(geometryVersions.instrumentId, instrumentId), lte(geometryVersions.validFrom, at)))

@@ -56,7 +56,10 @@ export function pointCount(input: AcquisitionInput): number {
 
 /** Stores a large body for background processing; answered with 202. */
 export async function deferAcquisition(key: LabKey, input: AcquisitionInput, schemaId: string) {
-  const row = firstRow(await useDb().insert(uploads).values({ labId: key.labId, apiKeyId: key.id, schemaId, body: input as unknown as Record<string, unknown> }).returning({ id: uploads.id, status: uploads.status, createdAt: uploads.createdAt }))
+  // The body goes in as the text already made for its hash, not serialised a second time.
+  const { json, hash } = canonicalBody(input)
+  const row = firstRow(await useDb().insert(uploads).values({ labId: key.labId, apiKeyId: key.id, schemaId, bodyHash: hash, body: sql`${json}::jsonb` })
+    .returning({ id: uploads.id, status: uploads.status, createdAt: uploads.createdAt }))
   kickUploads()
   return { status: 202 as const, body: { id: row.id, status: row.status, statusUrl: `/api/v1/uploads/${row.id}`, receivedAt: row.createdAt.toISOString() } }
 }
@@ -85,7 +88,8 @@ export async function processPendingUploads(limit = 2) {
     const row = (await useDb().query.uploads.findFirst({ where: eq(uploads.id, claimed.id) }))!
     const key = (await useDb().query.apiKeys.findFirst({ where: eq(apiKeys.id, row.apiKeyId) }))!
     try {
-      const result = await acceptAcquisition({ id: key.id, labId: key.labId, scopes: key.scopes as LabKey['scopes'], name: key.name }, row.body as unknown as AcquisitionInput, row.schemaId ?? undefined)
+      const result = await acceptAcquisition({ id: key.id, labId: key.labId, scopes: key.scopes as LabKey['scopes'], name: key.name }, row.body as unknown as AcquisitionInput,
+        { schemaId: row.schemaId ?? undefined, upload: { id: row.id, bodyHash: row.bodyHash ?? bodyHash(row.body) } })
       await useDb().update(uploads).set({ status: 'processed', acquisitionId: result.body.id, finishedAt: new Date(), leaseUntil: null }).where(eq(uploads.id, row.id))
     }
     catch (error) {

@@ -5,5 +5,5 @@ export default defineEventHandler(async (event) => {
   const idempotencyKey = getIdempotencyKey(event)
   const body = await readAcquisitionBody(event)
   return withIdempotency<unknown>(event, key.id, idempotencyKey, bodyHash(body), () =>
-    pointCount(body) > INLINE_POINTS ? deferAcquisition(key, body, schema.id) : acceptAcquisition(key, body, schema.id))
+    pointCount(body) > INLINE_POINTS ? deferAcquisition(key, body, schema.id) : acceptAcquisition(key, body, { schemaId: schema.id }))
 })
