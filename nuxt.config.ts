@@ -35,6 +35,24 @@ export default defineNuxtConfig({
     // The benchmark's baseline route (server/routes/_bench), off unless NUXT_BENCH_ROUTES=true.
     benchRoutes: false,
     session: { maxAge: 60 * 60 * 12 },
+    // web (HTTP only), worker (deliveries and background work only) or both.
+    processRole: 'both',
+    webhooks: {
+      // Comma-separated hosts ("127.0.0.1:4100", "localhost") let past the SSRF guard:
+      // development and tests only. Nothing else on loopback or private networks is reached.
+      allowHosts: '',
+      allowedPorts: '80,443',
+      timeoutMs: 15_000,
+      // Seconds to wait after each failed attempt; empty means the default of about a day.
+      retrySchedule: '',
+      // An endpoint failing without a success for this long is disabled and its owners told.
+      disableAfterHours: 72,
+      maxPayloadBytes: 256 * 1024,
+      leaseSeconds: 60,
+      concurrency: 16,
+      // How often a worker looks for due deliveries (it is also woken by each new event).
+      pollMs: 1000,
+    },
     public: { mailCapture: false },
   },
   nitro: {

@@ -5,16 +5,21 @@ import { log } from './lib/paths'
 import { postDemoHistory } from './lib/lab-system'
 import { demoKeysFile, printDemoSignIns, readDemoKeys, seedDemo } from './lib/seed'
 import { mailFile, startServer, startStack } from './lib/services'
+import { createDemoEndpoints, demoEndpointSecrets } from './lib/demo-webhooks'
+import { startReceiver } from './lib/receiver'
 
 const port = Number(process.env.PORT ?? 3000)
 const appUrl = `http://localhost:${port}`
 const stack = await startStack({ database: 'arcwise', smtpPort: 2525, mailHttpPort: 2580, appUrl, mailFile })
+// The demo partner receiver, the one loopback address the SSRF guard lets webhooks reach here.
+const receiver = await startReceiver(2590, demoEndpointSecrets)
 let stopping = false
 const running: { server?: ReturnType<typeof startServer> } = {}
 async function stop(code: number) {
   if (stopping) return
   stopping = true
   running.server?.kill('SIGTERM')
+  await receiver.close()
   await stack.stop()
   process.exit(code)
 }
@@ -30,14 +35,16 @@ catch (error) {
   console.error(error)
   await stop(1)
 }
-running.server = startServer(stack.serverEnv, port)
+running.server = startServer({ ...stack.serverEnv, NUXT_WEBHOOKS_ALLOW_HOSTS: '127.0.0.1:2590' }, port)
 running.server.on('exit', (code) => { if (!stopping) void stop(code ?? 1) })
 await waitForServer(`http://127.0.0.1:${port}/api/health`)
 if (seeded) {
+  log(`made ${await createDemoEndpoints(`http://127.0.0.1:${port}`, receiver.url)} demo webhook endpoints`)
   // The demo's acquisitions go in through the API, as a lab system would post them.
   log(`posted ${await postDemoHistory(`http://127.0.0.1:${port}`, readDemoKeys())} demo acquisitions`)
 }
 printDemoSignIns(appUrl)
+log(`demo partner receiver (webhooks arriving): ${receiver.url}/`)
 log('simulate a lab system: npm run lab:simulate -- --lab saltmarsh-isotopes --rate 1 --count 10')
 log('press Ctrl-C to stop')
 

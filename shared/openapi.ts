@@ -5,6 +5,7 @@ import { acquisitionInput, acquisitionListQuery } from './schemas/acquisitions'
 import { idParams, problemDocument } from './schemas/common'
 import { schemaParams } from './schemas/exchange'
 import { eventFeedQuery, peakQuery, tokenRequest } from './schemas/partners'
+import { DEFAULT_RETRY_SCHEDULE_S, resultEventData, thinResultEventData, webhookMessage } from './schemas/webhooks'
 import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, exchangeSchemaList, jwksView, peakListView, tokenView, uploadAccepted, uploadStatusView } from './schemas/responses'
 
 
@@ -20,6 +21,41 @@ const example = {
   detectors: [{ unit: 'fA', values: [8.1, 9.0, 8.4] }],
   processing: { formulas: ['CO2', '[13C]O2'], ratios: [{ id: 'VPDB:13C/12C', heavy: '[13C]O2', light: 'CO2' }] },
 }
+
+const human = (s: number) => s < 60 ? `${s} s` : s < 3600 ? `${s / 60} min` : `${s / 3600} h`
+
+/** For integrators: how webhooks behave and how to check a signature. */
+const WEBHOOK_GUIDE = `## Webhooks
+
+Integrators add endpoints in the console (one partner's endpoints, event types, labs within the partner's grants, payload schema version). Each message is a POST of JSON signed per [Standard Webhooks](https://www.standardwebhooks.com/) with the endpoint's \`whsec_\` secret.
+
+- **At least once.** A message can arrive more than once; every copy has the same \`webhook-id\`: deduplicate on it.
+- **Order.** Messages can arrive out of order. \`data.sequence\` increases by one per event of a lab: order by it, and fetch a gap from \`GET /api/v1/events\`.
+- **Answer fast.** Any 2xx within 15 s counts as received. Anything else is retried after ${DEFAULT_RETRY_SCHEDULE_S.map(human).join(', ')} (each ±10 %, about a day in all), or later when you send \`Retry-After\`. Then the delivery is dead; an integrator can replay it from the delivery log. 3xx is a failure (redirects are not followed); 410 Gone disables the endpoint at once; an endpoint failing for 3 days is disabled and its integrators are e-mailed.
+- **Rotation.** A new secret can overlap the old one: during the overlap \`webhook-signature\` carries two signatures, and either verifies.
+
+Verify a message (Node.js, with the \`standardwebhooks\` package):
+
+\`\`\`js
+import { Webhook } from 'standardwebhooks'
+const payload = new Webhook(process.env.ARCWISE_WHSEC).verify(rawBody, request.headers) // throws when it does not verify
+\`\`\`
+
+Python (\`pip install standardwebhooks\`):
+
+\`\`\`python
+from standardwebhooks.webhooks import Webhook
+payload = Webhook(os.environ["ARCWISE_WHSEC"]).verify(raw_body, headers)
+\`\`\`
+
+Shell (OpenSSL): the signature is base64 HMAC-SHA256 of \`id.timestamp.body\` under the base64-decoded part of the secret after \`whsec_\`:
+
+\`\`\`sh
+key=$(printf %s "\${ARCWISE_WHSEC#whsec_}" | base64 -d | xxd -p -c 256)
+printf '%s.%s.%s' "$WEBHOOK_ID" "$WEBHOOK_TIMESTAMP" "$(cat body.json)" | openssl dgst -sha256 -mac HMAC -macopt "hexkey:$key" -binary | base64
+# compare with the part after "v1," of webhook-signature
+\`\`\`
+`
 
 export function buildOpenApiDocument() {
   const registry = new OpenAPIRegistry()
@@ -112,6 +148,23 @@ export function buildOpenApiDocument() {
     responses: { 200: { description: 'RFC 7517 key set', content: { 'application/json': { schema: jwksView } } } },
   })
 
+  const signedHeaders = z.object({
+    'webhook-id': z.string().describe('the delivery\'s id: the same on every retry of one message; deduplicate on it'),
+    'webhook-timestamp': z.string().describe('Unix seconds of this attempt; refuse messages older than a few minutes'),
+    'webhook-signature': z.string().describe('space-separated `v1,<base64 HMAC-SHA256>` signatures of `id.timestamp.body`; two during a secret rotation'),
+  })
+  registry.registerWebhook({
+    method: 'post', path: 'result.created', tags: ['Webhooks'], summary: 'A result was computed',
+    description: `Sent to each of your endpoints that takes this event type from a lab that granted you access. \`data\` is the acquisition and its result, as \`GET /api/v1/results/{id}\` answers it, with \`eventId\`, \`lab\` and the lab's \`sequence\`. A message over ${256} KiB is sent thin: the summary, \`thin: true\` and \`resultUrl\` to fetch the rest.`,
+    request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage.extend({ data: z.union([resultEventData, thinResultEventData]) }).openapi({ example: { type: 'result.created', timestamp: '2026-11-30T14:05:02.118Z', data: { eventId: '5b0f…', lab: 'saltmarsh-isotopes', sequence: 412, id: '0d6c…', runId: 'carb-2026-11-30-017', instrument: 'irms-north', acquiredAt: '2026-11-30T14:05:00Z', sampleRef: 'CARB-1017', status: 'processed', receivedAt: '2026-11-30T14:05:02.118Z', result: '…' } } }) } } } },
+    responses: { 200: { description: 'Any 2xx: received. 3xx is a failure (redirects are not followed); 410 disables the endpoint; 429 and 503 may carry Retry-After.' } },
+  })
+  registry.registerWebhook({
+    method: 'post', path: 'webhook.test', tags: ['Webhooks'], summary: 'A test message sent from the console',
+    request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage } } } },
+    responses: { 200: { description: 'Any 2xx: received' } },
+  })
+
   return new OpenApiGeneratorV31(registry.definitions).generateDocument({
     openapi: '3.1.0',
     info: {
@@ -122,6 +175,8 @@ export function buildOpenApiDocument() {
         `**Caution.** ${CAUTION}`,
         '',
         'Errors are RFC 9457 problem documents (`application/problem+json`) naming each bad field in `errors[].path`.',
+        '',
+        WEBHOOK_GUIDE,
       ].join('\n'),
     },
     servers: [{ url: '/' }],

@@ -1,17 +1,25 @@
 // Background work of each app process: exchange schemas registered at start, the mail
-// outbox flushed every few seconds, and the database client closed when the server stops.
+// outbox flushed every few seconds, deferred uploads and webhook deliveries picked up, and
+// the database client closed when the server stops. A `web` process (NUXT_PROCESS_ROLE)
+// leaves the background work to `worker` processes.
 export default defineNitroPlugin((nitro) => {
+  const background = useRuntimeConfig().processRole !== 'web'
   // The exchange schemas this build speaks are registered (idempotently) at start.
   registerExchangeSchemas().catch(error => console.error('[schemas] registration failed', error))
   // Mail and deferred uploads are picked up every few seconds (and right after they are queued).
   const timer = setInterval(() => {
-    kickMailOutbox()
-    kickUploads()
+    if (background) {
+      kickMailOutbox()
+      kickUploads()
+    }
     flushSchemaUses().catch(error => console.error('[schemas] usage flush failed', error))
   }, 5000)
   timer.unref()
+  if (background) startDeliveryWorker()
   nitro.hooks.hook('close', async () => {
     clearInterval(timer)
+    // Leases this process holds are handed back, so another worker need not wait them out.
+    if (background) await stopDeliveryWorker().catch(error => console.error('[delivery] stop failed', error))
     await flushSchemaUses().catch(() => {})
     await closeDb()
   })

@@ -116,6 +116,7 @@ export async function acceptAcquisition(key: LabKey, input: AcquisitionInput, op
     const payload = opts.upload ? sql`(select body from ${uploads} where id = ${opts.upload.id}::uuid)` : sql`${canonicalBody(input).json}::jsonb`
     await useDb().execute(recordAcceptedStatement(acq, res, payload, engine.peaks, view))
     if (opts.schemaId) countSchemaUse(opts.schemaId, key.labId)
+    kickDeliveries()
     return { status: 201, body: view }
   }
   catch (error) {
@@ -133,6 +134,7 @@ export async function acceptAcquisition(key: LabKey, input: AcquisitionInput, op
  * implicit transaction. Events are numbered per lab under the lab row's lock; inside a
  * single statement that lock is held only until the statement's own commit, never across
  * a round trip to a busy app process (bench:ingest found that wait to be the bottleneck).
+ * The deliveries the event owes are written by the same statement.
  */
 function recordAcceptedStatement(acq: typeof acquisitions.$inferSelect, res: typeof results.$inferSelect, payload: SQL, enginePeaks: EngineResult['peaks'], view: AcquisitionResultView) {
   const peakRows = enginePeaks.map(p => ({ mz: p.centroid, area: p.area, species: p.assignment?.species ?? null, charge: p.assignment?.z ?? null }))
@@ -151,9 +153,12 @@ function recordAcceptedStatement(acq: typeof acquisitions.$inferSelect, res: typ
       select ${res.id}::uuid, ${acq.labId}::uuid, p.mz, p.area, p.species, p.charge
       from jsonb_to_recordset(${JSON.stringify(peakRows)}::jsonb) as p(mz float8, area float8, species text, charge int)),
     seq as (
-      update ${labs} set event_sequence = event_sequence + 1 where id = ${acq.labId}::uuid returning event_sequence)
-    insert into ${events} (lab_id, sequence, type, payload, created_at)
-    select ${acq.labId}::uuid, seq.event_sequence, ${RESULT_EVENT}, ${JSON.stringify(view)}::jsonb, ${at}::timestamptz from seq`
+      update ${labs} set event_sequence = event_sequence + 1 where id = ${acq.labId}::uuid returning event_sequence),
+    ev as (
+      insert into ${events} (lab_id, sequence, type, payload, created_at)
+      select ${acq.labId}::uuid, seq.event_sequence, ${RESULT_EVENT}, ${JSON.stringify(view)}::jsonb, ${at}::timestamptz from seq
+      returning id)
+    ${fanOut(acq.labId, RESULT_EVENT)}`
 }
 
 async function findByRunId(labId: string, runId: string) {

@@ -1,0 +1,7 @@
+import { deliveryParams } from '#shared/schemas/webhooks'
+
+export default defineEventHandler(async (event) => {
+  const { id, deliveryId } = getValidParams(event, deliveryParams)
+  const actor = await requirePartnerAccess(event, id, 'write')
+  return replayDelivery(event, actor, id, deliveryId)
+})

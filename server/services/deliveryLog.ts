@@ -1,0 +1,91 @@
+import type { H3Event } from 'h3'
+import { and, asc, desc, eq, gte, lte, sql, type SQL } from 'drizzle-orm'
+import type { z } from 'zod'
+import type { deliveryFilter, deliveryListQuery, replayFilter } from '#shared/schemas/webhooks'
+import type { SessionUser } from '#shared/types/roles'
+import { deliveries, deliveryAttempts, events, labs, webhookEndpoints } from '../database/schema'
+
+// The delivery log of a partner: every delivery to its endpoints with its attempts, and
+// replays. "failing" is a delivery still pending after at least one failed attempt.
+
+function filterConditions(partnerId: string, f: z.output<typeof deliveryFilter>): (SQL | undefined)[] {
+  const c: (SQL | undefined)[] = [eq(webhookEndpoints.partnerId, partnerId)]
+  if (f.endpoint) c.push(eq(deliveries.endpointId, f.endpoint))
+  if (f.status === 'failing') c.push(and(eq(deliveries.status, 'pending'), sql`${deliveries.attempts} > 0`))
+  else if (f.status) c.push(eq(deliveries.status, f.status))
+  if (f.eventType) c.push(eq(deliveries.eventType, f.eventType))
+  if (f.from) c.push(gte(deliveries.createdAt, new Date(f.from)))
+  if (f.to) c.push(lte(deliveries.createdAt, new Date(f.to)))
+  return c
+}
+
+function encodeCursor(at: string, id: string) {
+  return Buffer.from(`${at}|${id}`).toString('base64url')
+}
+function decodeCursor(cursor: string) {
+  const [at, id] = Buffer.from(cursor, 'base64url').toString().split('|')
+  if (!at || !id || Number.isNaN(Date.parse(at)) || !/^[0-9a-f-]{36}$/.test(id)) throw fieldProblem('cursor', 'is not a cursor this API gave out', 400)
+  return { at, id }
+}
+
+/** Newest first, in cursor pages. */
+export async function listDeliveries(partnerId: string, query: z.output<typeof deliveryListQuery>) {
+  const conditions = filterConditions(partnerId, query)
+  if (query.cursor) {
+    const c = decodeCursor(query.cursor)
+    conditions.push(sql`(${deliveries.createdAt}, ${deliveries.id}) < (${c.at}::timestamptz, ${c.id}::uuid)`)
+  }
+  const rows = await useDb().select({
+    id: deliveries.id, endpointId: deliveries.endpointId, url: webhookEndpoints.url, eventType: deliveries.eventType, eventId: deliveries.eventId,
+    lab: labs.slug, sequence: events.sequence, status: deliveries.status, attempts: deliveries.attempts, lastClass: deliveries.lastClass,
+    lastStatusCode: deliveries.lastStatusCode, nextAttemptAt: deliveries.nextAttemptAt, createdAt: deliveries.createdAt, finishedAt: deliveries.finishedAt,
+    at: sql<string>`${deliveries.createdAt}::text`,
+  }).from(deliveries).innerJoin(webhookEndpoints, eq(webhookEndpoints.id, deliveries.endpointId))
+    .leftJoin(events, eq(events.id, deliveries.eventId)).leftJoin(labs, eq(labs.id, events.labId))
+    .where(and(...conditions)).orderBy(desc(deliveries.createdAt), desc(deliveries.id)).limit(query.limit + 1)
+  const items = rows.slice(0, query.limit)
+  return {
+    items: items.map(({ at: _at, ...r }) => ({ ...r, sequence: r.sequence === null ? null : Number(r.sequence), nextAttemptAt: r.status === 'pending' ? r.nextAttemptAt : null })),
+    nextCursor: rows.length > query.limit ? encodeCursor(items.at(-1)!.at, items.at(-1)!.id) : null,
+  }
+}
+
+/** One delivery of the partner with every attempt, oldest first. */
+export async function getDelivery(partnerId: string, deliveryId: string) {
+  const [row] = await useDb().select({ d: deliveries, url: webhookEndpoints.url }).from(deliveries)
+    .innerJoin(webhookEndpoints, eq(webhookEndpoints.id, deliveries.endpointId))
+    .where(and(eq(deliveries.id, deliveryId), eq(webhookEndpoints.partnerId, partnerId)))
+  if (!row) throw problem(404, 'delivery-not-found', 'No such delivery for this partner.')
+  const attempts = await useDb().select().from(deliveryAttempts).where(eq(deliveryAttempts.deliveryId, deliveryId)).orderBy(asc(deliveryAttempts.number), asc(deliveryAttempts.id))
+  const { leaseOwner: _o, leaseUntil: _u, testPayload: _t, ...d } = row.d
+  return { ...d, url: row.url, attempts: attempts.map(({ deliveryId: _d, ...a }) => a) }
+}
+
+// A replay is a new attempt of the same message (same webhook-id), due now.
+const replaySet = { status: 'pending' as const, replayRequested: true, nextAttemptAt: sql`now()`, finishedAt: null, leaseOwner: null, leaseUntil: null }
+
+export async function replayDelivery(event: H3Event, actor: SessionUser, partnerId: string, deliveryId: string) {
+  const [row] = await useDb().update(deliveries).set(replaySet)
+    .where(and(eq(deliveries.id, deliveryId), sql`${deliveries.eventId} is not null`,
+      sql`(${deliveries.status} = 'dead' or (${deliveries.status} = 'pending' and ${deliveries.attempts} > 0))`,
+      sql`${deliveries.endpointId} in (select id from ${webhookEndpoints} where partner_id = ${partnerId}::uuid)`))
+    .returning({ id: deliveries.id })
+  if (!row) {
+    await getDelivery(partnerId, deliveryId) // 404 when it is not the partner's
+    throw problem(409, 'not-replayable', 'Only failing or dead deliveries of events can be replayed; this one succeeded or has not been tried yet.')
+  }
+  await recordAudit(useDb(), { actor: actorOf(actor), action: 'delivery.replayed', targetType: 'delivery', targetId: deliveryId, event, detail: { partnerId } })
+  kickDeliveries()
+  return { replayed: 1 }
+}
+
+export async function replayMatching(event: H3Event, actor: SessionUser, partnerId: string, filter: z.output<typeof replayFilter>) {
+  const conditions = filterConditions(partnerId, filter)
+  const rows = await useDb().update(deliveries).set(replaySet)
+    .where(sql`${deliveries.id} in (select ${deliveries.id} from ${deliveries} join ${webhookEndpoints} on ${webhookEndpoints.id} = ${deliveries.endpointId}
+      where ${and(...conditions)} and ${deliveries.eventId} is not null)`)
+    .returning({ id: deliveries.id })
+  await recordAudit(useDb(), { actor: actorOf(actor), action: 'delivery.replayed', targetType: 'partner', targetId: partnerId, event, detail: { ...filter, count: rows.length } })
+  kickDeliveries()
+  return { replayed: rows.length }
+}

@@ -1,0 +1,86 @@
+import { z } from 'zod'
+import { uuid } from './common'
+import { acquisitionView } from './responses'
+import { eventTypes } from './partners'
+
+// Webhook endpoints, their deliveries and replays: the shapes the console API validates and
+// the console's forms check before sending.
+
+/** The delivery retry schedule in seconds after each failed attempt (about a day in all). */
+export const DEFAULT_RETRY_SCHEDULE_S = [5, 300, 1800, 7200, 18000, 36000, 50400, 72000, 86400]
+
+/** How each attempt ended; the class decides whether and when it is tried again. */
+export const attemptClasses = ['success', 'client-error', 'server-error', 'timeout', 'connection-failed', 'redirect-refused', 'guard-refused', 'payload-too-large'] as const
+export type AttemptClass = (typeof attemptClasses)[number]
+
+export const TEST_EVENT = 'webhook.test'
+
+const endpointUrl = z.string({ error: 'is required' }).trim().max(2000, 'must be at most 2000 characters')
+  .pipe(z.url({ protocol: /^https?$/, error: 'must be an http or https URL' }))
+
+export const endpointInput = z.object({
+  url: endpointUrl,
+  description: z.string().trim().max(500).default(''),
+  eventTypes: z.array(z.enum(eventTypes, { error: `must be one of ${eventTypes.join(', ')}` })).min(1, 'choose at least one event type')
+    .default([...eventTypes]).transform(s => [...new Set(s)]),
+  labIds: z.array(uuid).max(100).default([]).transform(s => [...new Set(s)]),
+  schemaVersion: z.number().int().min(1).default(1),
+}).strict()
+export type EndpointInput = z.infer<typeof endpointInput>
+
+export const endpointUpdate = z.object({
+  url: endpointUrl.optional(),
+  description: z.string().trim().max(500).optional(),
+  eventTypes: endpointInput.shape.eventTypes.optional(),
+  labIds: z.array(uuid).max(100).transform(s => [...new Set(s)]).optional(),
+  schemaVersion: z.number().int().min(1).optional(),
+  // Pause and resume; `active` also brings a disabled endpoint back.
+  status: z.enum(['active', 'paused'], { error: 'must be active or paused' }).optional(),
+}).strict()
+export type EndpointUpdate = z.infer<typeof endpointUpdate>
+
+export const secretRotation = z.object({
+  // How long the old secret keeps signing beside the new one, so receivers can switch over.
+  overlapHours: z.number().min(0).max(168, 'may be at most 168 hours (a week)').default(24),
+}).strict()
+
+export const endpointParams = z.object({ id: uuid, endpointId: uuid })
+export const deliveryParams = z.object({ id: uuid, deliveryId: uuid })
+
+export const deliveryFilter = z.object({
+  endpoint: uuid.optional(),
+  status: z.enum(['pending', 'failing', 'succeeded', 'dead']).optional(),
+  eventType: z.string().max(60).optional(),
+  from: z.iso.datetime({ offset: true }).optional(),
+  to: z.iso.datetime({ offset: true }).optional(),
+})
+export const deliveryListQuery = deliveryFilter.extend({
+  limit: z.coerce.number().int().min(1).max(200).default(50),
+  cursor: z.string().max(200).optional(),
+})
+
+/** Bulk replay: every failing or dead delivery that matches the filter. */
+export const replayFilter = deliveryFilter.omit({ status: true }).extend({
+  status: z.enum(['failing', 'dead']).default('dead'),
+}).strict()
+
+/** What a `result.created` message carries in `data`: the result, with where it came from. */
+export const resultEventData = acquisitionView.extend({
+  eventId: z.uuid(),
+  lab: z.string().describe('slug of the lab the result came from'),
+  sequence: z.number().int().describe('per-lab sequence number, increasing by one per event: order by it'),
+})
+
+/** A message too large to send whole: the summary and where to fetch the rest (never truncated). */
+export const thinResultEventData = acquisitionView.pick({ id: true, runId: true, instrument: true, acquiredAt: true, sampleRef: true, status: true, receivedAt: true }).extend({
+  eventId: z.uuid(), lab: z.string(), sequence: z.number().int(),
+  thin: z.literal(true),
+  resultUrl: z.string().describe('GET it with a partner access token (results:read)'),
+})
+
+/** The Standard Webhooks envelope every message uses. */
+export const webhookMessage = z.object({
+  type: z.string().describe('result.created, or webhook.test for a test message'),
+  timestamp: z.string().describe('when the event happened (ISO 8601); the same on every retry'),
+  data: z.union([resultEventData, thinResultEventData, z.record(z.string(), z.unknown())]),
+})
