@@ -48,7 +48,8 @@ export default defineNuxtConfig({
       // An endpoint failing without a success for this long is disabled and its owners told.
       disableAfterHours: 72,
       maxPayloadBytes: 256 * 1024,
-      leaseSeconds: 60,
+      // The shortest lease; a batch is leased for as long as its sends could take at worst.
+      leaseSeconds: 30,
       concurrency: 16,
       // How often a worker looks for due deliveries (it is also woken by each new event).
       pollMs: 1000,

@@ -11,7 +11,7 @@ import { buildIfStale } from './lib/build'
 import { demoInstruments } from './lib/demo-instruments'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
-import { startServer, startStack } from './lib/services'
+import { startServer, startStack, waitForServer } from './lib/services'
 
 const PORT = 3300
 const base = `http://127.0.0.1:${PORT}`
@@ -26,7 +26,7 @@ export async function benchIngest(opts: { seconds?: number } = {}) {
   buildIfStale()
   const server = startServer({ ...stack.serverEnv, NUXT_BENCH_ROUTES: 'true', NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
   try {
-    await waitFor(`${base}/api/health`)
+    await waitForServer(`${base}/api/health`)
     const keys = JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>
     const inst = demoInstruments.find(i => i.slug === 'irms-north')!
     // 1,000 points, as the issue asks; each request gets its own run id.
@@ -107,15 +107,6 @@ async function uploadMemory(pid: number, key: string) {
   }
   clearInterval(sampler)
   return { csvMb: Number((csv.length / 1e6).toFixed(1)), httpStatus: res.status, finalStatus: status, seconds: Number(((Date.now() - started) / 1000).toFixed(1)), rssBeforeMb: Math.round(before), rssPeakMb: Math.round(peak), growthMb: Math.round(peak - before), goalMb: '< 250' }
-}
-
-async function waitFor(url: string) {
-  for (let i = 0; i < 120; i++) {
-    try { if ((await fetch(url)).ok) return }
-    catch { /* not up yet */ }
-    await new Promise(r => setTimeout(r, 500))
-  }
-  throw new Error(`no answer from ${url}`)
 }
 
 if (import.meta.url === `file://${process.argv[1]}`) {

@@ -4,7 +4,7 @@ import { buildIfStale } from './lib/build'
 import { log } from './lib/paths'
 import { postDemoHistory } from './lib/lab-system'
 import { demoKeysFile, printDemoSignIns, readDemoKeys, seedDemo } from './lib/seed'
-import { mailFile, startServer, startStack } from './lib/services'
+import { mailFile, startServer, startStack, waitForServer } from './lib/services'
 import { createDemoEndpoints, demoEndpointSecrets } from './lib/demo-webhooks'
 import { startReceiver } from './lib/receiver'
 
@@ -48,11 +48,3 @@ log(`demo partner receiver (webhooks arriving): ${receiver.url}/`)
 log('simulate a lab system: npm run lab:simulate -- --lab saltmarsh-isotopes --rate 1 --count 10')
 log('press Ctrl-C to stop')
 
-async function waitForServer(url: string) {
-  for (let i = 0; i < 120; i++) {
-    try { if ((await fetch(url)).ok) return }
-    catch { /* not up yet */ }
-    await new Promise(r => setTimeout(r, 500))
-  }
-  throw new Error(`the server did not answer at ${url}`)
-}

@@ -144,6 +144,18 @@ async function waitUntilAnswering(url: string) {
   }
 }
 
+/**
+ * Restarts the private cluster (`pg_ctl restart -m fast`): every open connection is cut.
+ * The fault tests use it to show that deliveries survive a database restart.
+ */
+export async function restartCluster() {
+  if (process.env.DATABASE_URL) throw new Error('restartCluster works on the private cluster only')
+  const bin = findPgBin()
+  const r = asServerUser(join(bin, 'pg_ctl'), ['-D', clusterDir, '-l', logFile, '-m', 'fast', '-w', '-t', '60', 'restart'], { quiet: true })
+  if (r.status !== 0) throw new Error(`PostgreSQL did not restart (see ${logFile}):\n${r.stdout}${r.stderr}`)
+  await waitUntilAnswering(baseUrl('postgres'))
+}
+
 /** Creates the database if it is missing; with `fresh`, drops it first. */
 export async function ensureDatabase(cluster: Cluster, name: string, opts: { fresh?: boolean } = {}) {
   const admin = postgres(cluster.url('postgres'), { max: 1, onnotice: () => {} })

@@ -57,3 +57,13 @@ export function startServer(env: Record<string, string>, port: number): ChildPro
 }
 
 export const mailFile = join(dataDir, 'mail.jsonl')
+
+/** Resolves once `url` answers 2xx (the server is up); fails after a minute. */
+export async function waitForServer(url: string) {
+  for (let i = 0; i < 120; i++) {
+    try { if ((await fetch(url)).ok) return }
+    catch { /* not up yet */ }
+    await new Promise(r => setTimeout(r, 500))
+  }
+  throw new Error(`the server did not answer at ${url}`)
+}

@@ -1,6 +1,6 @@
 import { hostname } from 'node:os'
 import { randomUUID } from 'node:crypto'
-import { and, eq, isNotNull, sql } from 'drizzle-orm'
+import { and, eq, inArray, isNotNull, sql } from 'drizzle-orm'
 import pRetry from 'p-retry'
 import { Webhook } from 'standardwebhooks'
 import { DEFAULT_RETRY_SCHEDULE_S, type AttemptClass } from '#shared/schemas/webhooks'
@@ -39,15 +39,15 @@ type Claimed = {
   sealed_secret: string
   previous_sealed_secret: string | null
   previous_secret_until: string | null
-  payload: Record<string, unknown> | null
+  // The event's payload as PostgreSQL's JSON text: spliced into the body, never re-serialised.
+  payload_text: string | null
   sequence: number | null
   lab: string | null
   event_at: string | null
 }
 
-/** Claims up to `limit` due deliveries of active endpoints for this worker. */
-export async function claimDueDeliveries(limit: number): Promise<Claimed[]> {
-  const { leaseSeconds } = config()
+/** Claims up to `limit` due deliveries of active endpoints for this worker, leased for `leaseSeconds`. */
+export async function claimDueDeliveries(limit: number, leaseSeconds: number): Promise<Claimed[]> {
   const rows = await useDb().execute<Claimed>(sql`
     with due as (
       select d.id from ${deliveries} d join ${webhookEndpoints} e on e.id = d.endpoint_id and e.status = 'active'
@@ -58,30 +58,44 @@ export async function claimDueDeliveries(limit: number): Promise<Claimed[]> {
       from due where d.id = due.id
       returning d.id, d.endpoint_id, d.event_id, d.event_type, d.test_payload, d.attempts, d.replay_requested)
     select c.*, e.url, e.sealed_secret, e.previous_sealed_secret, e.previous_secret_until::text,
-           ev.payload, ev.sequence, l.slug as lab, ev.created_at::text as event_at
+           ev.payload::text as payload_text, ev.sequence, l.slug as lab, ev.created_at::text as event_at
     from claimed c join ${webhookEndpoints} e on e.id = c.endpoint_id
     left join ${events} ev on ev.id = c.event_id left join ${labs} l on l.id = ev.lab_id`)
   return [...rows]
 }
 
-/** The body a delivery sends: Standard Webhooks' `{ type, timestamp, data }`. */
-export function deliveryBody(row: Pick<Claimed, 'event_type' | 'test_payload' | 'payload' | 'sequence' | 'lab' | 'event_at' | 'event_id'>, maxBytes: number): string {
-  if (!row.payload) return JSON.stringify({ type: row.event_type, timestamp: new Date().toISOString(), data: row.test_payload ?? {} })
+type BodySource = Pick<Claimed, 'event_type' | 'test_payload' | 'payload_text' | 'sequence' | 'lab' | 'event_at' | 'event_id'>
+
+/** The body a delivery sends: Standard Webhooks' `{ type, timestamp, data }`, the same on every retry. */
+export function deliveryBody(row: BodySource, maxBytes: number): string {
+  if (!row.payload_text) return JSON.stringify({ type: row.event_type, timestamp: new Date().toISOString(), data: row.test_payload ?? {} })
   const timestamp = new Date(row.event_at!).toISOString()
-  const full = JSON.stringify({ type: row.event_type, timestamp, data: { eventId: row.event_id, lab: row.lab, sequence: Number(row.sequence), ...row.payload } })
+  const head = { eventId: row.event_id, lab: row.lab, sequence: Number(row.sequence) }
+  // `data` is the stored payload object with the event's fields first (spliced as text).
+  const full = `{"type":${JSON.stringify(row.event_type)},"timestamp":"${timestamp}","data":${JSON.stringify(head).slice(0, -1)},${row.payload_text.slice(1)}}`
   if (Buffer.byteLength(full) <= maxBytes) return full
   // Too large to send whole: the summary and where to fetch the rest, never a truncation.
-  const p = row.payload as { id: string, runId: string, instrument: string, acquiredAt: string, sampleRef: string | null, status: string, receivedAt: string }
+  const p = JSON.parse(row.payload_text) as { id: string, runId: string, instrument: string, acquiredAt: string, sampleRef: string | null, status: string, receivedAt: string }
   return JSON.stringify({ type: row.event_type, timestamp, data: {
-    eventId: row.event_id, lab: row.lab, sequence: Number(row.sequence), thin: true,
+    ...head, thin: true,
     id: p.id, runId: p.runId, instrument: p.instrument, acquiredAt: p.acquiredAt, sampleRef: p.sampleRef, status: p.status, receivedAt: p.receivedAt,
     resultUrl: `${useRuntimeConfig().appUrl}/api/v1/results/${p.id}`,
   } })
 }
 
 /** Standard Webhooks headers; during a rotation the previous secret signs too. */
+const signers = new Map<string, Webhook>()
+function signer(secret: string) {
+  let w = signers.get(secret)
+  if (!w) {
+    if (signers.size > 1000) signers.clear()
+    signers.set(secret, w = new Webhook(secret))
+  }
+  return w
+}
+
 export function signedHeaders(id: string, body: string, secrets: string[], at = new Date()): Record<string, string> {
-  const signatures = secrets.map(s => new Webhook(s).sign(id, at, body))
+  const signatures = secrets.map(s => signer(s).sign(id, at, body))
   return {
     'content-type': 'application/json',
     'user-agent': 'Arcwise-Webhooks/1',
@@ -143,49 +157,64 @@ export function nextDelaySeconds(attempts: number, retryAfterS: number | null, s
   return Math.max(jittered, Math.min(retryAfterS ?? 0, 86_400))
 }
 
-/** Sends one claimed delivery and records the attempt and what happens next. */
-async function deliver(row: Claimed) {
-  const { maxPayloadBytes, disableAfterMs } = config()
-  const body = deliveryBody(row, maxPayloadBytes)
-  let headers: Record<string, string>
-  let outcome: AttemptOutcome
+interface Sent { row: Claimed, body: string, headers: Record<string, string>, outcome: AttemptOutcome }
+
+/** Signs and sends one claimed delivery; the database is not touched here. */
+async function send(row: Claimed, secrets: (row: Claimed) => string[]): Promise<Sent> {
+  const body = deliveryBody(row, config().maxPayloadBytes)
   try {
-    headers = signedHeaders(row.id, body, secretsOf(row))
-    outcome = await sendOnce(row.url, headers, body)
+    const headers = signedHeaders(row.id, body, secrets(row))
+    return { row, body, headers, outcome: await sendOnce(row.url, headers, body) }
   }
   catch (error) {
-    headers = {}
-    outcome = { class: 'client-error', statusCode: null, error: `not sent: ${(error as Error).message}`, excerpt: null, retryAfterS: null, durationMs: 0 }
+    return { row, body, headers: {}, outcome: { class: 'client-error', statusCode: null, error: `not sent: ${(error as Error).message}`, excerpt: null, retryAfterS: null, durationMs: 0 } }
   }
-  const attempts = row.attempts + 1
-  const gone = outcome.statusCode === 410
-  const delay = outcome.class === 'success' || outcome.class === 'guard-refused' || gone ? null : nextDelaySeconds(attempts, outcome.retryAfterS)
-  const status = outcome.class === 'success' ? 'succeeded' : delay === null ? 'dead' : 'pending'
+}
+
+/**
+ * Records a round's attempts and what follows each, in one transaction: one statement for
+ * the deliveries and their attempts (only those this worker still leases), then the
+ * endpoints' failure clocks, and disabling where due.
+ */
+async function recordAttempts(sent: Sent[]) {
+  if (!sent.length) return
+  const { disableAfterMs } = config()
+  const rows = sent.map(({ row, body, headers, outcome }) => {
+    const attempts = row.attempts + 1
+    const gone = outcome.statusCode === 410
+    const delay = outcome.class === 'success' || outcome.class === 'guard-refused' || gone ? null : nextDelaySeconds(attempts, outcome.retryAfterS)
+    const status = outcome.class === 'success' ? 'succeeded' : delay === null ? 'dead' : 'pending'
+    return { id: row.id, endpoint: row.endpoint_id, attempts, status, delay, gone, cls: outcome.class, code: outcome.statusCode, error: outcome.error, excerpt: outcome.excerpt, headers, body, duration: outcome.durationMs, replay: row.replay_requested }
+  })
   await useDb().transaction(async (tx) => {
-    // Only the worker holding the lease records the attempt as the delivery's state.
-    const [updated] = await tx.update(deliveries).set({
-      attempts, status, lastClass: outcome.class, lastStatusCode: outcome.statusCode, replayRequested: false, leaseOwner: null, leaseUntil: null,
-      nextAttemptAt: delay === null ? sql`${deliveries.nextAttemptAt}` : sql`now() + make_interval(secs => ${delay})`,
-      finishedAt: status === 'pending' ? null : new Date(),
-    }).where(and(eq(deliveries.id, row.id), eq(deliveries.leaseOwner, workerId))).returning({ id: deliveries.id })
-    if (!updated) return
-    await tx.insert(deliveryAttempts).values({
-      deliveryId: row.id, number: attempts, durationMs: outcome.durationMs, class: outcome.class, statusCode: outcome.statusCode,
-      error: outcome.error, responseExcerpt: outcome.excerpt, requestHeaders: headers, requestBody: body, replay: row.replay_requested,
-    })
-    if (outcome.class === 'success') {
-      await tx.update(webhookEndpoints).set({ failingSince: null }).where(and(eq(webhookEndpoints.id, row.endpoint_id), isNotNull(webhookEndpoints.failingSince)))
+    await tx.execute(sql`
+      with o as (
+        select * from jsonb_to_recordset(${JSON.stringify(rows)}::jsonb) as o(id uuid, attempts int, status delivery_status, delay float8, cls text, code int,
+          error text, excerpt text, headers jsonb, body text, duration int, replay boolean)),
+      upd as (
+        update ${deliveries} d set attempts = o.attempts, status = o.status, last_class = o.cls, last_status_code = o.code,
+          replay_requested = false, lease_owner = null, lease_until = null,
+          next_attempt_at = case when o.delay is null then d.next_attempt_at else now() + make_interval(secs => o.delay) end,
+          finished_at = case when o.status = 'pending' then null else now() end
+        from o where d.id = o.id and d.lease_owner = ${workerId}
+        returning d.id)
+      insert into ${deliveryAttempts} (delivery_id, number, duration_ms, class, status_code, error, response_excerpt, request_headers, request_body, replay)
+      select o.id, o.attempts, o.duration, o.cls, o.code, o.error, o.excerpt, o.headers, o.body, o.replay from o join upd on upd.id = o.id`)
+    const succeeded = [...new Set(rows.filter(r => r.cls === 'success').map(r => r.endpoint))]
+    const failing = [...new Set(rows.filter(r => r.cls !== 'success' && !r.gone).map(r => r.endpoint))]
+    if (succeeded.length) {
+      await tx.update(webhookEndpoints).set({ failingSince: null }).where(and(inArray(webhookEndpoints.id, succeeded), isNotNull(webhookEndpoints.failingSince)))
     }
-    else if (gone) {
-      await disableEndpoint(tx, row.endpoint_id, 'the receiver answered 410 Gone')
-    }
-    else {
-      const [ep] = await tx.update(webhookEndpoints).set({ failingSince: sql`coalesce(${webhookEndpoints.failingSince}, now())` })
-        .where(eq(webhookEndpoints.id, row.endpoint_id)).returning({ failingSince: webhookEndpoints.failingSince })
-      if (ep?.failingSince && Date.now() - ep.failingSince.getTime() >= disableAfterMs) {
-        await disableEndpoint(tx, row.endpoint_id, `no delivery succeeded for ${Math.round(disableAfterMs / 3600_000)} hours`)
+    if (failing.length) {
+      const clocks = await tx.update(webhookEndpoints).set({ failingSince: sql`coalesce(${webhookEndpoints.failingSince}, now())` })
+        .where(inArray(webhookEndpoints.id, failing)).returning({ id: webhookEndpoints.id, failingSince: webhookEndpoints.failingSince })
+      for (const ep of clocks) {
+        if (ep.failingSince && Date.now() - ep.failingSince.getTime() >= disableAfterMs) {
+          await disableEndpoint(tx, ep.id, `no delivery succeeded for ${Math.round(disableAfterMs / 3600_000)} hours`)
+        }
       }
     }
+    for (const endpoint of new Set(rows.filter(r => r.gone).map(r => r.endpoint))) await disableEndpoint(tx, endpoint, 'the receiver answered 410 Gone')
   })
 }
 
@@ -212,29 +241,56 @@ export async function disableEndpoint(tx: Queryable, endpointId: string, reason:
   await recordAudit(tx, { actor: { id: null, label: 'delivery worker' }, action: 'endpoint.disabled', targetType: 'webhook-endpoint', targetId: endpointId, detail: { url: ep.url, reason } })
 }
 
-/** One round: claim due deliveries and send them, `concurrency` at a time. */
+/**
+ * One round: claim a batch of due deliveries, send them `concurrency` at a time, record
+ * the attempts together. The lease covers the worst case of the batch (every send timing
+ * out), so no other worker takes a delivery that is still being sent.
+ */
 export async function runDeliveryRound(): Promise<number> {
-  const { concurrency } = config()
-  const claimed = await claimDueDeliveries(concurrency)
-  await Promise.all(claimed.map(row => deliver(row).catch(error => console.error('[delivery]', row.id, error))))
+  const { concurrency, timeoutMs, leaseSeconds } = config()
+  const batch = concurrency * 4
+  const lease = Math.max(leaseSeconds, Math.ceil(batch / concurrency) * Math.ceil(timeoutMs / 1000) * 2 + 5)
+  const claimed = await claimDueDeliveries(batch, lease)
+  if (!claimed.length) return 0
+  // Secrets are unsealed once per endpoint and round.
+  const unsealed = new Map<string, string[]>()
+  const secrets = (row: Claimed) => {
+    let s = unsealed.get(row.endpoint_id)
+    if (!s) unsealed.set(row.endpoint_id, s = secretsOf(row))
+    return s
+  }
+  const sent: Sent[] = []
+  let next = 0
+  await Promise.all(Array.from({ length: Math.min(concurrency, claimed.length) }, async () => {
+    while (next < claimed.length) sent.push(await send(claimed[next++]!, secrets))
+  }))
+  await recordAttempts(sent)
   return claimed.length
 }
 
+// Two rounds run at once, so one sends while the other claims or records.
+const ROUNDS_IN_FLIGHT = 2
 let timer: NodeJS.Timeout | undefined
-let running: Promise<void> | undefined
+const loops = new Set<Promise<void>>()
 let again = false
 let stopped = true
+
+async function loop() {
+  while (!stopped) {
+    again = false
+    const sent = await runDeliveryRound().catch((error) => { console.error('[delivery] round failed', error); return 0 })
+    if (sent === 0 && !again) return
+  }
+}
 
 /** Wakes the worker now (after an event was recorded) rather than at its next poll. */
 export function kickDeliveries() {
   if (stopped) return
-  if (running) { again = true; return }
-  running = (async () => {
-    try {
-      do { again = false } while (await runDeliveryRound() > 0 || again)
-    }
-    catch (error) { console.error('[delivery] round failed', error) }
-  })().finally(() => { running = undefined })
+  again = true
+  while (loops.size < ROUNDS_IN_FLIGHT) {
+    const running: Promise<void> = loop().finally(() => loops.delete(running))
+    loops.add(running)
+  }
 }
 
 export function startDeliveryWorker() {
@@ -248,7 +304,7 @@ export function startDeliveryWorker() {
 export async function stopDeliveryWorker() {
   stopped = true
   clearInterval(timer)
-  await running?.catch(() => {})
+  await Promise.all(loops)
   await useDb().update(deliveries).set({ leaseOwner: null, leaseUntil: null })
     .where(and(eq(deliveries.leaseOwner, workerId), eq(deliveries.status, 'pending')))
 }

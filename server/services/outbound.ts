@@ -12,10 +12,12 @@ export class GuardRefusal extends Error {
   code = 'GUARD_REFUSED'
 }
 
+let parsed: { allowHosts: Set<string>, ports: Set<number> } | undefined
 function settings() {
+  if (parsed) return parsed
   const { webhooks } = useRuntimeConfig()
   const list = (v: unknown) => String(v ?? '').split(',').map(s => s.trim().toLowerCase()).filter(Boolean)
-  return { allowHosts: new Set(list(webhooks.allowHosts)), ports: new Set(list(webhooks.allowedPorts).map(Number)) }
+  return (parsed = { allowHosts: new Set(list(webhooks.allowHosts)), ports: new Set(list(webhooks.allowedPorts).map(Number)) })
 }
 
 /** Why an address may not be reached, or null for a global unicast address. */
