@@ -1,6 +1,7 @@
 import { hostname } from 'node:os'
 import { randomUUID } from 'node:crypto'
 import { and, eq, inArray, isNotNull, sql } from 'drizzle-orm'
+import pLimit, { type LimitFunction } from 'p-limit'
 import pRetry from 'p-retry'
 import { Webhook } from 'standardwebhooks'
 import { DEFAULT_RETRY_SCHEDULE_S, type AttemptClass } from '#shared/schemas/webhooks'
@@ -241,15 +242,26 @@ export async function disableEndpoint(tx: Queryable, endpointId: string, reason:
   await recordAudit(tx, { actor: { id: null, label: 'delivery worker' }, action: 'endpoint.disabled', targetType: 'webhook-endpoint', targetId: endpointId, detail: { url: ep.url, reason } })
 }
 
+// Two rounds run at once, so one sends while the other claims or records.
+const ROUNDS_IN_FLIGHT = 2
+
+// One limit for every round of this process: `concurrency` is the number of requests in flight.
+let slots: LimitFunction | undefined
+function sendSlots(concurrency: number): LimitFunction {
+  if (slots?.concurrency !== concurrency) slots = pLimit(concurrency)
+  return slots
+}
+
 /**
- * One round: claim a batch of due deliveries, send them `concurrency` at a time, record
- * the attempts together. The lease covers the worst case of the batch (every send timing
+ * One round: claim a batch of due deliveries, send them (at most `concurrency` requests in
+ * flight across rounds), record the attempts together. The lease covers the worst case of the batch (every send timing
  * out), so no other worker takes a delivery that is still being sent.
  */
 export async function runDeliveryRound(): Promise<number> {
   const { concurrency, timeoutMs, leaseSeconds } = config()
   const batch = concurrency * 4
-  const lease = Math.max(leaseSeconds, Math.ceil(batch / concurrency) * Math.ceil(timeoutMs / 1000) * 2 + 5)
+  // At worst every send of every round in flight times out (twice, with p-retry's one retry).
+  const lease = Math.max(leaseSeconds, Math.ceil(batch * ROUNDS_IN_FLIGHT / concurrency) * Math.ceil(timeoutMs / 1000) * 2 + 5)
   const claimed = await claimDueDeliveries(batch, lease)
   if (!claimed.length) return 0
   // Secrets are unsealed once per endpoint and round.
@@ -259,17 +271,11 @@ export async function runDeliveryRound(): Promise<number> {
     if (!s) unsealed.set(row.endpoint_id, s = secretsOf(row))
     return s
   }
-  const sent: Sent[] = []
-  let next = 0
-  await Promise.all(Array.from({ length: Math.min(concurrency, claimed.length) }, async () => {
-    while (next < claimed.length) sent.push(await send(claimed[next++]!, secrets))
-  }))
-  await recordAttempts(sent)
+  const limit = sendSlots(concurrency)
+  await recordAttempts(await Promise.all(claimed.map(row => limit(() => send(row, secrets)))))
   return claimed.length
 }
 
-// Two rounds run at once, so one sends while the other claims or records.
-const ROUNDS_IN_FLIGHT = 2
 let timer: NodeJS.Timeout | undefined
 const loops = new Set<Promise<void>>()
 let again = false

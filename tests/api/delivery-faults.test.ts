@@ -4,8 +4,9 @@ import { join } from 'node:path'
 import { afterAll, afterEach, describe, expect, it } from 'vitest'
 import { restartCluster } from '../../scripts/lib/pg'
 import { rootDir, testEnv } from '../support/env'
-import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
+import { bearer, co2Acquisition } from '../support/lab'
 import { ConsoleClient, testDb, unique, useArcwise } from '../support/server'
+import { grantedPartnerWithEndpoint, until } from '../support/webhooks'
 
 // Deliveries under real faults: worker processes killed with SIGKILL mid-batch, two workers
 // sharing one queue, PostgreSQL restarted while deliveries are due. The server under test
@@ -47,20 +48,10 @@ function startWorker(): ChildProcess {
 }
 afterEach(() => { for (const w of workers.splice(0)) w.kill('SIGKILL') })
 
-async function until(what: string, probe: () => Promise<boolean> | boolean, timeoutMs = 60_000) {
-  const deadline = Date.now() + timeoutMs
-  while (!(await probe())) {
-    if (Date.now() > deadline) throw new Error(`timed out waiting for ${what}`)
-    await new Promise(r => setTimeout(r, 100))
-  }
-}
-
 /** A granted partner with one endpoint at the sink, and `n` accepted acquisitions owing it a delivery each. */
 async function owedDeliveries(n: number) {
-  const ctx = await labWithInstrument()
-  const partner = (await ctx.admin.post('/api/console/partners', { slug: unique('p'), name: 'Fault Partner', kind: 'data_team', contactEmail: 'f@example.org' })).body
-  await ctx.admin.post(`/api/console/labs/${ctx.lab.id}/grants`, { partnerId: partner.id })
-  const endpoint = (await ctx.admin.post(`/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${SINK_PORT}/hook` })).body
+  const ctx = await grantedPartnerWithEndpoint(`http://127.0.0.1:${SINK_PORT}/hook`)
+  const endpoint = ctx.endpoint
   for (let i = 0; i < n; i++) {
     expect((await new ConsoleClient().request('POST', '/api/v1/acquisitions', co2Acquisition(unique('run'), 800), bearer(ctx.key.secret))).status).toBe(201)
   }

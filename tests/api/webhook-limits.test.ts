@@ -4,8 +4,9 @@ import { Webhook } from 'standardwebhooks'
 import { afterAll, describe, expect, it } from 'vitest'
 import { acquisitionView } from '../../shared/schemas/responses'
 import { demoUser } from '../support/demo'
-import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
+import { bearer, co2Acquisition } from '../support/lab'
 import { ConsoleClient, unique, useArcwise, waitForMail } from '../support/server'
+import { grantedPartnerWithEndpoint, until } from '../support/webhooks'
 
 // Limits of webhook delivery, with the server configured small: messages over 1 KiB are sent
 // thin, and an endpoint failing for 2 seconds (0.0005 h) without a success is disabled.
@@ -31,23 +32,7 @@ const sink = createServer((req, res) => {
 await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
 afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
 
-async function until<T>(what: string, probe: () => Promise<T | undefined | false> | T | undefined | false, timeoutMs = 30_000): Promise<T> {
-  const deadline = Date.now() + timeoutMs
-  for (;;) {
-    const value = await probe()
-    if (value) return value
-    if (Date.now() > deadline) throw new Error(`timed out waiting for ${what}`)
-    await new Promise(r => setTimeout(r, 100))
-  }
-}
-
-async function setUp(path: string) {
-  const ctx = await labWithInstrument()
-  const partner = (await ctx.admin.post('/api/console/partners', { slug: unique('p'), name: 'Limits Partner', kind: 'data_team', contactEmail: 'l@example.org' })).body
-  await ctx.admin.post(`/api/console/labs/${ctx.lab.id}/grants`, { partnerId: partner.id })
-  const endpoint = (await ctx.admin.post(`/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${SINK_PORT}${path}` })).body
-  return { ...ctx, partner, endpoint }
-}
+const setUp = (path: string) => grantedPartnerWithEndpoint(`http://127.0.0.1:${SINK_PORT}${path}`)
 
 describe('webhook limits', () => {
   it('sends a message over the size limit thin, never truncated: the summary and a URL a partner token can fetch', async () => {

@@ -4,6 +4,7 @@ import { afterAll, describe, expect, it } from 'vitest'
 import { demoUser } from '../support/demo'
 import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
 import { ConsoleClient, testDb, unique, useArcwise, waitForMail } from '../support/server'
+import { grantedPartnerWithEndpoint, until } from '../support/webhooks'
 
 // Webhook delivery against sinks on loopback that fail in scripted ways. The retry schedule
 // is shortened to seconds and the sink's address is the one allowlisted past the SSRF guard.
@@ -39,30 +40,17 @@ afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
 const sinkUrl = (path: string) => `http://127.0.0.1:${SINK_PORT}${path}`
 const hitsTo = (path: string) => hits.filter(h => h.path === path)
 
-async function until<T>(what: string, probe: () => Promise<T | undefined | false> | T | undefined | false, timeoutMs = 20_000): Promise<T> {
-  const deadline = Date.now() + timeoutMs
-  for (;;) {
-    const value = await probe()
-    if (value) return value
-    if (Date.now() > deadline) throw new Error(`timed out waiting for ${what}`)
-    await new Promise(r => setTimeout(r, 100))
-  }
-}
-
 /** A lab that grants a new partner, that partner's integrator, and one endpoint at `path`. */
 async function partnerWithEndpoint(path: string, extra: Record<string, unknown> = {}) {
-  const ctx = await labWithInstrument()
-  const partner = (await ctx.admin.post('/api/console/partners', { slug: unique('p'), name: 'Sink Partner', kind: 'data_team', contactEmail: 'sink@example.org' })).body
-  await ctx.admin.post(`/api/console/labs/${ctx.lab.id}/grants`, { partnerId: partner.id })
-  const endpoint = await ctx.admin.post(`/api/console/partners/${partner.id}/endpoints`, { url: sinkUrl(path), ...extra })
-  expect(endpoint.status).toBe(201)
+  const ctx = await grantedPartnerWithEndpoint(sinkUrl(path), extra)
+  const { partner, endpoint } = ctx
   const post = (runId = unique('run')) => new ConsoleClient().request('POST', '/api/v1/acquisitions', co2Acquisition(runId, 1500), bearer(ctx.key.secret))
   const delivery = async (status: string) => until(`a ${status} delivery`, async () => {
-    const list = await ctx.admin.get(`/api/console/partners/${partner.id}/deliveries?endpoint=${endpoint.body.id}&status=${status}`)
+    const list = await ctx.admin.get(`/api/console/partners/${partner.id}/deliveries?endpoint=${endpoint.id}&status=${status}`)
     return list.body.items[0] as { id: string } | undefined
   })
   const detail = async (id: string) => (await ctx.admin.get(`/api/console/partners/${partner.id}/deliveries/${id}`)).body
-  return { ...ctx, partner, endpoint: endpoint.body, post, delivery, detail }
+  return { ...ctx, post, delivery, detail }
 }
 
 describe('signed delivery of result events', () => {
