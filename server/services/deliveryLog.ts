@@ -1,4 +1,5 @@
 import type { H3Event } from 'h3'
+import { stringify } from 'csv-stringify/sync'
 import { and, asc, desc, eq, gte, lte, sql, type SQL } from 'drizzle-orm'
 import type { z } from 'zod'
 import type { deliveryFilter, deliveryListQuery, replayFilter } from '#shared/schemas/webhooks'
@@ -45,9 +46,26 @@ export async function listDeliveries(partnerId: string, query: z.output<typeof d
     .where(and(...conditions)).orderBy(desc(deliveries.createdAt), desc(deliveries.id)).limit(query.limit + 1)
   const items = rows.slice(0, query.limit)
   return {
-    items: items.map(({ at: _at, ...r }) => ({ ...r, sequence: r.sequence === null ? null : Number(r.sequence), nextAttemptAt: r.status === 'pending' ? r.nextAttemptAt : null })),
+    items: items.map(({ at: _at, ...r }) => ({ ...r, state: r.status === 'pending' && r.attempts > 0 ? 'failing' as const : r.status, sequence: r.sequence === null ? null : Number(r.sequence), nextAttemptAt: r.status === 'pending' ? r.nextAttemptAt : null })),
     nextCursor: rows.length > query.limit ? encodeCursor(items.at(-1)!.at, items.at(-1)!.id) : null,
   }
+}
+
+const CSV_ROWS = 10_000
+
+/** The filtered log as CSV, newest first, at most CSV_ROWS rows. */
+export async function deliveryLogCsv(partnerId: string, filter: z.output<typeof deliveryFilter>) {
+  const rows: Awaited<ReturnType<typeof listDeliveries>>['items'] = []
+  let cursor: string | undefined
+  do {
+    const page = await listDeliveries(partnerId, { ...filter, limit: 200, cursor })
+    rows.push(...page.items)
+    cursor = page.nextCursor ?? undefined
+  } while (cursor && rows.length < CSV_ROWS)
+  return stringify(rows.slice(0, CSV_ROWS).map(r => [
+    r.id, r.createdAt.toISOString(), r.eventType, r.lab ?? '', r.sequence ?? '', r.url, r.state, r.attempts, r.lastClass ?? '', r.lastStatusCode ?? '',
+    r.nextAttemptAt?.toISOString() ?? '', r.finishedAt?.toISOString() ?? '',
+  ]), { header: true, columns: ['webhook_id', 'created_at', 'event_type', 'lab', 'sequence', 'url', 'status', 'attempts', 'last_class', 'last_status_code', 'next_attempt_at', 'finished_at'] })
 }
 
 /** One delivery of the partner with every attempt, oldest first. */

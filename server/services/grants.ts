@@ -1,7 +1,7 @@
 import type { H3Event } from 'h3'
 import { and, eq, sql } from 'drizzle-orm'
 import type { SessionUser } from '#shared/types/roles'
-import { grants, partners } from '../database/schema'
+import { grants, labs, partners } from '../database/schema'
 
 export function listGrants(labId: string) {
   return useDb().select({ id: grants.id, labId: grants.labId, partnerId: grants.partnerId, partnerName: partners.name, eventTypes: grants.eventTypes, createdAt: grants.createdAt })
@@ -33,4 +33,10 @@ export async function grantedLabIds(partnerId: string, eventType = 'result.creat
   const rows = await useDb().select({ labId: grants.labId }).from(grants)
     .where(and(eq(grants.partnerId, partnerId), sql`${eventType} = any(${grants.eventTypes})`))
   return rows.map(r => r.labId)
+}
+
+/** Labs that grant a partner anything, by name. */
+export function labsGrantingPartner(partnerId: string) {
+  return useDb().select({ id: labs.id, slug: labs.slug, name: labs.name, eventTypes: grants.eventTypes })
+    .from(grants).innerJoin(labs, eq(labs.id, grants.labId)).where(eq(grants.partnerId, partnerId)).orderBy(labs.name)
 }

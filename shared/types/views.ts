@@ -3,3 +3,28 @@ import type { LabInput, PartnerInput } from '../schemas/orgs'
 // What the console routes answer, as the browser sees it (dates arrive as ISO strings).
 export type LabView = LabInput & { id: string, createdAt: string, updatedAt: string }
 export type PartnerView = PartnerInput & { id: string, createdAt: string, updatedAt: string }
+
+/** A webhook endpoint as the console routes answer it (never its secret). */
+export interface EndpointView {
+  id: string, partnerId: string, url: string, description: string, eventTypes: string[], labIds: string[], schemaVersion: number
+  status: 'active' | 'paused' | 'disabled', disabledReason: string | null, failingSince: string | null, previousSecretUntil: string | null
+  createdAt: string, updatedAt: string
+}
+export interface GrantedLabView { id: string, slug: string, name: string, eventTypes: string[] }
+
+/** One row of the delivery log; `state` is `failing` for a pending delivery that has failed before. */
+export interface DeliveryListItem {
+  id: string, endpointId: string, url: string, eventType: string, eventId: string | null, lab: string | null, sequence: number | null
+  status: 'pending' | 'succeeded' | 'dead', state: 'pending' | 'failing' | 'succeeded' | 'dead', attempts: number
+  lastClass: string | null, lastStatusCode: number | null, nextAttemptAt: string | null, createdAt: string, finishedAt: string | null
+}
+export interface DeliveryPage { items: DeliveryListItem[], nextCursor: string | null }
+export interface DeliveryAttemptView {
+  id: number, number: number, at: string, durationMs: number, class: string, statusCode: number | null, error: string | null
+  responseExcerpt: string | null, requestHeaders: Record<string, string>, requestBody: string, replay: boolean
+}
+export interface DeliveryDetail {
+  id: string, endpointId: string, url: string, eventId: string | null, eventType: string, status: 'pending' | 'succeeded' | 'dead', attempts: DeliveryAttemptView[]
+  nextAttemptAt: string, createdAt: string, finishedAt: string | null, lastClass: string | null, lastStatusCode: number | null, replayRequested: boolean
+}
+export interface TestSendView { deliveryId: string, ok: boolean, class: string, statusCode: number | null, durationMs: number, error: string | null, responseExcerpt: string | null }

@@ -10,7 +10,7 @@ await useArcwise({ browser: true })
 const menus: Record<Role, string[]> = {
   admin: ['Overview', 'Labs', 'Partners', 'Users and invitations', 'Audit log'],
   lab_manager: ['Overview', 'Labs'],
-  integrator: ['Overview', 'Partners'],
+  integrator: ['Overview', 'Partners', 'Webhooks', 'Deliveries'],
   viewer: ['Overview', 'Labs', 'Partners', 'Users and invitations', 'Audit log'],
 }
 const refused: Record<Role, string[]> = {

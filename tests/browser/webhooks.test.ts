@@ -1,0 +1,113 @@
+import { createServer } from 'node:http'
+import { createPage } from '@nuxt/test-utils/e2e'
+import { afterAll, describe, expect, it } from 'vitest'
+import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { demoUser } from '../support/demo'
+import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
+import { ConsoleClient, unique, useArcwise } from '../support/server'
+import { grantedPartnerWithEndpoint, until } from '../support/webhooks'
+
+// The webhook screens, driven as their users would: an integrator adds an endpoint and sees
+// deliveries arrive; an admin finds a dead delivery and replays it.
+
+const SINK_PORT = 4193
+await useArcwise({ browser: true, env: { NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}`, NUXT_WEBHOOKS_RETRY_SCHEDULE: '1', NUXT_WEBHOOKS_POLL_MS: '200' } })
+
+const hits: { path: string, headers: Record<string, string>, body: string }[] = []
+const failing = new Set<string>()
+const sink = createServer((req, res) => {
+  const chunks: Buffer[] = []
+  req.on('data', c => chunks.push(c as Buffer))
+  req.on('end', () => {
+    hits.push({ path: req.url!, headers: Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)])), body: Buffer.concat(chunks).toString() })
+    res.writeHead(failing.has(req.url!) ? 500 : 200).end('ok')
+  })
+})
+await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
+afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
+
+describe('webhooks in the console', () => {
+  it('an integrator adds an endpoint, keeps its secret, sees the delivery arrive and checks its signature', async () => {
+    // A lab that grants the integrator's partner (the demo's Northgate Water Authority).
+    const { admin, lab, key } = await labWithInstrument()
+    const northgate = (await admin.get('/api/console/partners')).body.items.find((p: { slug: string }) => p.slug === 'northgate-water')
+    await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: northgate.id })
+    const page = await createPage('/sign-in')
+    await signInThroughForm(page, demoUser('integrator').email, demoUser('integrator').password)
+    await page.getByRole('link', { name: 'Webhooks' }).click()
+    await page.waitForURL(/\/webhooks$/)
+    await expectAccessible(page)
+    const path = `/hook-${unique('int')}`
+    await page.getByLabel('Endpoint URL').fill(`http://127.0.0.1:${SINK_PORT}${path}`)
+    await page.getByLabel('Description').fill('Our LIMS intake')
+    await page.getByRole('checkbox', { name: lab.name }).check()
+    await page.getByRole('button', { name: 'Add endpoint' }).click()
+    const secret = (await page.getByTestId('webhook-secret').textContent())!
+    expect(secret).toMatch(/^whsec_/)
+    await shot(page, 'webhooks-endpoint-added')
+    await page.getByRole('button', { name: 'Done' }).click()
+
+    // Edit it in place.
+    await page.getByRole('button', { name: 'Edit' }).click()
+    await page.getByRole('form', { name: 'Edit the endpoint' }).getByLabel('Description').fill('LIMS intake, night shift')
+    await page.getByRole('button', { name: 'Save endpoint' }).click()
+    await expect.poll(() => page.getByRole('listitem').first().textContent()).toContain('LIMS intake, night shift')
+
+    // A bad URL is refused on the field it names.
+    await page.getByLabel('Endpoint URL').fill('http://10.0.0.5/hook')
+    await page.getByRole('button', { name: 'Add endpoint' }).click()
+    await expect.poll(() => page.getByRole('alert').last().textContent()).toContain('private')
+
+    expect((await new ConsoleClient().request('POST', '/api/v1/acquisitions', co2Acquisition(unique('run'), 1500), bearer(key.secret))).status).toBe(201)
+    const hit = await until('the message at the sink', () => hits.find(h => h.path === path))
+    await page.getByRole('link', { name: 'Deliveries' }).first().click()
+    await page.waitForURL(/\/deliveries$/)
+    await expect.poll(async () => { await page.reload(); return page.getByRole('table').textContent() }).toContain('succeeded')
+    await expectAccessible(page)
+    await shot(page, 'webhooks-deliveries')
+    await page.getByRole('row').nth(1).getByRole('link').click()
+    await page.waitForURL(/\/deliveries\/[0-9a-f-]{36}$/)
+    await expect.poll(() => page.getByRole('listitem').first().textContent()).toContain('success')
+    await expectAccessible(page)
+    await shot(page, 'webhooks-delivery-attempts')
+
+    // The signature checker, with what the receiver got.
+    await page.getByRole('link', { name: 'Signature check' }).click()
+    await page.getByLabel('Signing secret').fill(secret)
+    await page.getByLabel('webhook-id').fill(hit.headers['webhook-id']!)
+    await page.getByLabel('webhook-timestamp').fill(hit.headers['webhook-timestamp']!)
+    await page.getByLabel('webhook-signature').fill(hit.headers['webhook-signature']!)
+    await page.getByLabel('Body, exactly as received').fill(hit.body)
+    await page.getByRole('button', { name: 'Check' }).click()
+    await expect.poll(() => page.getByRole('status').textContent()).toContain('The signature verifies.')
+    await page.getByLabel('Body, exactly as received').fill(`${hit.body} `)
+    await page.getByRole('button', { name: 'Check' }).click()
+    await expect.poll(() => page.getByRole('status').textContent()).toContain('does not verify')
+    await expectAccessible(page)
+    await shot(page, 'webhooks-signature-check')
+  })
+
+  it('an admin finds a dead delivery and replays it', async () => {
+    const path = `/hook-${unique('dead')}`
+    failing.add(path)
+    const ctx = await grantedPartnerWithEndpoint(`http://127.0.0.1:${SINK_PORT}${path}`)
+    await new ConsoleClient().request('POST', '/api/v1/acquisitions', co2Acquisition(unique('run'), 1500), bearer(ctx.key.secret))
+    await until('the delivery to die', async () => (await ctx.admin.get(`/api/console/partners/${ctx.partner.id}/deliveries?status=dead`)).body.items.length === 1)
+    failing.delete(path)
+    const page = await createPage('/sign-in')
+    await signInThroughForm(page, demoUser('admin').email, demoUser('admin').password)
+    // A full page load: wait until Vue has hydrated it before clicking, or clicks go unheard.
+    await page.goto(page.url().replace(/\/console.*$/, `/console/partners/${ctx.partner.id}`), { waitUntil: 'hydration' } as never)
+    await page.getByRole('link', { name: 'Deliveries' }).click()
+    await page.getByLabel('State').selectOption('dead')
+    await page.getByRole('button', { name: 'Filter' }).click()
+    await expect.poll(() => page.getByRole('table').textContent()).toContain('dead')
+    await shot(page, 'webhooks-dead-delivery')
+    await page.getByRole('row').nth(1).getByRole('link').click()
+    await page.getByRole('button', { name: 'Replay' }).click()
+    await expect.poll(() => page.getByText('replay', { exact: true }).count(), { timeout: 15_000 }).toBeGreaterThan(0)
+    await expect.poll(() => page.getByRole('listitem').last().textContent()).toContain('success')
+    await expectAccessible(page)
+    await shot(page, 'webhooks-replayed')
+  })
+})
