@@ -28,3 +28,8 @@ export interface DeliveryDetail {
   nextAttemptAt: string, createdAt: string, finishedAt: string | null, lastClass: string | null, lastStatusCode: number | null, replayRequested: boolean
 }
 export interface TestSendView { deliveryId: string, ok: boolean, class: string, statusCode: number | null, durationMs: number, error: string | null, responseExcerpt: string | null }
+
+/** A lab key as the console lists it: never its secret or hash. */
+export interface KeyView {
+  id: string, labId: string, name: string, prefix: string, scopes: string[], expiresAt: string | null, revokedAt: string | null, lastUsedAt: string | null, createdAt: string
+}

@@ -42,7 +42,7 @@ describe('webhooks in the console', () => {
     await page.getByLabel('Description').fill('Our LIMS intake')
     await page.getByRole('checkbox', { name: lab.name }).check()
     await page.getByRole('button', { name: 'Add endpoint' }).click()
-    const secret = (await page.getByTestId('webhook-secret').textContent())!
+    const secret = (await page.getByTestId('console-secret').textContent())!
     expect(secret).toMatch(/^whsec_/)
     await shot(page, 'webhooks-endpoint-added')
     await page.getByRole('button', { name: 'Done' }).click()

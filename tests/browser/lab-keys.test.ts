@@ -1,0 +1,45 @@
+import { createPage } from '@nuxt/test-utils/e2e'
+import { describe, expect, it } from 'vitest'
+import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { demoUser } from '../support/demo'
+import { ConsoleClient, useArcwise } from '../support/server'
+
+await useArcwise({ browser: true })
+
+describe('lab keys in the console', () => {
+  it('a lab manager issues a key (shown once), a lab system uses it, and the manager revokes it', async () => {
+    const page = await createPage('/sign-in')
+    await signInThroughForm(page, demoUser('lab_manager').email, demoUser('lab_manager').password)
+    await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Labs' }).click()
+    await page.waitForURL(/\/console\/labs$/)
+    await page.getByRole('link', { name: 'Saltmarsh Stable Isotope Lab' }).click()
+    await page.waitForURL(/\/console\/labs\/[0-9a-f-]{36}$/)
+    await page.getByRole('link', { name: 'API keys' }).click()
+    await page.waitForURL(/\/keys$/)
+    await expectAccessible(page)
+    // A key without scopes is refused on the field.
+    await page.getByLabel('Name').fill('Bench 3 instrument PC')
+    for (const box of await page.getByRole('checkbox').all()) await box.uncheck()
+    await page.getByRole('button', { name: 'Issue key' }).click()
+    await expect.poll(() => page.getByRole('alert').last().textContent()).toContain('choose at least one scope')
+    for (const box of await page.getByRole('checkbox').all()) await box.check()
+    await page.getByRole('button', { name: 'Issue key' }).click()
+    const secret = (await page.getByTestId('console-secret').textContent())!
+    expect(secret).toMatch(/^awk_[A-Za-z0-9_-]{12}_[A-Za-z0-9_-]{43}$/)
+    await shot(page, 'lab-key-issued')
+
+    // The lab system uses it: the list shows when.
+    const read = await new ConsoleClient().request('GET', '/api/v1/acquisitions', undefined, { authorization: `Bearer ${secret}` })
+    expect(read.status).toBe(200)
+    await page.reload()
+    const row = page.getByRole('row', { name: /Bench 3 instrument PC/ })
+    await expect.poll(() => row.textContent()).not.toContain('not yet')
+
+    page.once('dialog', dialog => dialog.accept())
+    await row.getByRole('button', { name: 'Revoke Bench 3 instrument PC' }).click()
+    await expect.poll(() => row.textContent()).toContain('revoked')
+    expect((await new ConsoleClient().request('GET', '/api/v1/acquisitions', undefined, { authorization: `Bearer ${secret}` })).status).toBe(401)
+    await expectAccessible(page)
+    await shot(page, 'lab-key-revoked')
+  })
+})
