@@ -33,3 +33,9 @@ export interface TestSendView { deliveryId: string, ok: boolean, class: string, 
 export interface KeyView {
   id: string, labId: string, name: string, prefix: string, scopes: string[], expiresAt: string | null, revokedAt: string | null, lastUsedAt: string | null, createdAt: string
 }
+
+/** An exchange schema version with who still uses it. */
+export interface ExchangeSchemaView {
+  id: string, name: string, version: number, status: 'current' | 'deprecated' | 'retired', deprecatedAt: string | null, sunsetAt: string | null
+  usedBy: { lab: string, labName: string, uses: number, lastUsedAt: string }[]
+}

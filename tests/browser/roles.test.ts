@@ -8,10 +8,10 @@ import { useArcwise } from '../support/server'
 await useArcwise({ browser: true })
 
 const menus: Record<Role, string[]> = {
-  admin: ['Overview', 'Labs', 'Partners', 'Users and invitations', 'Audit log'],
-  lab_manager: ['Overview', 'Labs'],
-  integrator: ['Overview', 'Partners', 'Webhooks', 'Deliveries'],
-  viewer: ['Overview', 'Labs', 'Partners', 'Users and invitations', 'Audit log'],
+  admin: ['Overview', 'Labs', 'Partners', 'Exchange schemas', 'Users and invitations', 'Audit log'],
+  lab_manager: ['Overview', 'Labs', 'Exchange schemas'],
+  integrator: ['Overview', 'Partners', 'Webhooks', 'Deliveries', 'Exchange schemas'],
+  viewer: ['Overview', 'Labs', 'Partners', 'Exchange schemas', 'Users and invitations', 'Audit log'],
 }
 const refused: Record<Role, string[]> = {
   admin: [],

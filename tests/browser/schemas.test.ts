@@ -1,0 +1,32 @@
+import { createPage } from '@nuxt/test-utils/e2e'
+import { describe, expect, it } from 'vitest'
+import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { demoUser } from '../support/demo'
+import { ConsoleClient, useArcwise } from '../support/server'
+
+await useArcwise({ browser: true })
+
+describe('exchange schemas in the console', () => {
+  it('an admin deprecates a version with a sunset date; lab systems then see the headers; and makes it current again', async () => {
+    const page = await createPage('/sign-in')
+    await signInThroughForm(page, demoUser('admin').email, demoUser('admin').password)
+    await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Exchange schemas' }).click()
+    await page.waitForURL(/\/console\/schemas$/)
+    const item = page.getByRole('listitem', { name: 'acquisition v1' })
+    // Deprecated without a sunset date: refused on the field.
+    await item.getByLabel('Status', { exact: true }).selectOption('deprecated')
+    await item.getByRole('button', { name: 'Save status' }).click()
+    await expect.poll(() => item.getByRole('alert').first().textContent()).toContain('sunset')
+    await item.getByLabel('Sunset', { exact: true }).fill('2027-06-30')
+    await item.getByRole('button', { name: 'Save status' }).click()
+    await expect.poll(() => page.getByRole('listitem', { name: 'acquisition v1' }).textContent()).toContain('Sunset')
+    await expectAccessible(page)
+    await shot(page, 'schemas-deprecated')
+    const schema = await new ConsoleClient().request('GET', '/api/v1/schemas/acquisition/1')
+    expect(schema.headers.get('sunset')).toContain('2027')
+    await page.getByRole('listitem', { name: 'acquisition v1' }).getByLabel('Status', { exact: true }).selectOption('current')
+    await page.getByRole('listitem', { name: 'acquisition v1' }).getByRole('button', { name: 'Save status' }).click()
+    await expect.poll(() => page.getByRole('listitem', { name: 'acquisition v1' }).textContent()).toContain('current')
+    expect((await new ConsoleClient().request('GET', '/api/v1/schemas/acquisition/1')).headers.get('deprecation')).toBeNull()
+  })
+})
