@@ -40,3 +40,8 @@ export function labsGrantingPartner(partnerId: string) {
   return useDb().select({ id: labs.id, slug: labs.slug, name: labs.name, eventTypes: grants.eventTypes })
     .from(grants).innerJoin(labs, eq(labs.id, grants.labId)).where(eq(grants.partnerId, partnerId)).orderBy(labs.name)
 }
+
+/** Every partner, by name and kind only. */
+export function grantablePartners() {
+  return useDb().select({ id: partners.id, name: partners.name, kind: partners.kind }).from(partners).orderBy(partners.name)
+}

@@ -39,3 +39,6 @@ export interface ExchangeSchemaView {
   id: string, name: string, version: number, status: 'current' | 'deprecated' | 'retired', deprecatedAt: string | null, sunsetAt: string | null
   usedBy: { lab: string, labName: string, uses: number, lastUsedAt: string }[]
 }
+
+/** A lab's grant to a partner. */
+export interface GrantView { id: string, labId: string, partnerId: string, partnerName: string, eventTypes: string[], createdAt: string }
