@@ -42,3 +42,6 @@ export interface ExchangeSchemaView {
 
 /** A lab's grant to a partner. */
 export interface GrantView { id: string, labId: string, partnerId: string, partnerName: string, eventTypes: string[], createdAt: string }
+
+/** A partner's OAuth client as the console lists it: never its secret or hash. */
+export interface PartnerClientView { id: string, partnerId: string, name: string, clientId: string, scopes: string[], revokedAt: string | null, lastUsedAt: string | null, createdAt: string }

@@ -1,5 +1,5 @@
 import { createServer } from 'node:http'
-import { createPage } from '@nuxt/test-utils/e2e'
+import { createPage, url } from '@nuxt/test-utils/e2e'
 import { afterAll, describe, expect, it } from 'vitest'
 import { expectAccessible, shot, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
@@ -110,5 +110,26 @@ describe('webhooks in the console', () => {
     await expect.poll(() => page.getByRole('listitem').last().textContent()).toContain('success')
     await expectAccessible(page)
     await shot(page, 'webhooks-replayed')
+  })
+
+  it('an integrator adds an API client, whose secret gets a token, and revokes it', async () => {
+    const page = await createPage('/sign-in')
+    await signInThroughForm(page, demoUser('integrator').email, demoUser('integrator').password)
+    await page.getByRole('link', { name: 'Webhooks' }).click()
+    await page.waitForURL(/\/webhooks$/)
+    await page.getByRole('link', { name: 'API clients' }).click()
+    await page.waitForURL(/\/clients$/)
+    await page.getByLabel('Client name').fill('LIMS nightly import')
+    await page.getByRole('button', { name: 'Add client' }).click()
+    const secret = (await page.getByTestId('console-secret').textContent())!
+    const clientId = (await page.getByRole('row', { name: /LIMS nightly import/ }).locator('td').nth(1).textContent())!.trim()
+    const token = (form: Record<string, string>) => fetch(url('/api/v1/oauth/token'), { method: 'POST', headers: { 'content-type': 'application/x-www-form-urlencoded' }, body: new URLSearchParams({ grant_type: 'client_credentials', ...form }) })
+    expect((await token({ client_id: clientId, client_secret: secret })).status).toBe(200)
+    await expectAccessible(page)
+    await shot(page, 'partner-api-client')
+    page.once('dialog', dialog => dialog.accept())
+    await page.getByRole('button', { name: 'Revoke LIMS nightly import' }).click()
+    await expect.poll(() => page.getByRole('row', { name: /LIMS nightly import/ }).textContent()).toContain('revoked')
+    expect((await token({ client_id: clientId, client_secret: secret })).status).toBe(401)
   })
 })
