@@ -6,16 +6,22 @@ import { ConsoleClient, useArcwise } from '../support/server'
 
 await useArcwise({ browser: true })
 
+/** Signs in as the demo lab manager and walks the menu to a tab of their lab, as they would. */
+async function openOwnLabTab(tab: string, at: RegExp) {
+  const page = await createPage('/sign-in')
+  await signInThroughForm(page, demoUser('lab_manager').email, demoUser('lab_manager').password)
+  await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Labs' }).click()
+  await page.waitForURL(/\/console\/labs$/)
+  await page.getByRole('link', { name: 'Saltmarsh Stable Isotope Lab' }).click()
+  await page.waitForURL(/\/console\/labs\/[0-9a-f-]{36}$/)
+  await page.getByRole('link', { name: tab }).click()
+  await page.waitForURL(at)
+  return page
+}
+
 describe('lab keys in the console', () => {
   it('a lab manager issues a key (shown once), a lab system uses it, and the manager revokes it', async () => {
-    const page = await createPage('/sign-in')
-    await signInThroughForm(page, demoUser('lab_manager').email, demoUser('lab_manager').password)
-    await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Labs' }).click()
-    await page.waitForURL(/\/console\/labs$/)
-    await page.getByRole('link', { name: 'Saltmarsh Stable Isotope Lab' }).click()
-    await page.waitForURL(/\/console\/labs\/[0-9a-f-]{36}$/)
-    await page.getByRole('link', { name: 'API keys' }).click()
-    await page.waitForURL(/\/keys$/)
+    const page = await openOwnLabTab('API keys', /\/keys$/)
     await expectAccessible(page)
     // A key without scopes is refused on the field.
     await page.getByLabel('Name').fill('Bench 3 instrument PC')
@@ -44,14 +50,7 @@ describe('lab keys in the console', () => {
   })
 
   it('a lab manager grants a partner access to the lab\'s results and revokes it', async () => {
-    const page = await createPage('/sign-in')
-    await signInThroughForm(page, demoUser('lab_manager').email, demoUser('lab_manager').password)
-    await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Labs' }).click()
-    await page.waitForURL(/\/console\/labs$/)
-    await page.getByRole('link', { name: 'Saltmarsh Stable Isotope Lab' }).click()
-    await page.waitForURL(/\/console\/labs\/[0-9a-f-]{36}$/)
-    await page.getByRole('link', { name: 'Partner access' }).click()
-    await page.waitForURL(/\/access$/)
+    const page = await openOwnLabTab('Partner access', /\/access$/)
     // The demo grants Northgate Water Authority; Tidewater Clinical Research is not granted yet.
     await expect.poll(() => page.getByRole('table').textContent()).toContain('Northgate Water Authority')
     await page.getByLabel('Partner', { exact: true }).selectOption({ label: 'Tidewater Clinical Research' })
