@@ -1,6 +1,7 @@
 import './zodOpenapi'
 import { OpenAPIRegistry, OpenApiGeneratorV31 } from '@asteasolutions/zod-to-openapi'
 import { z } from 'zod'
+import { CAUTION } from './caution'
 import { acquisitionInput, acquisitionListQuery } from './schemas/acquisitions'
 import { idParams, problemDocument } from './schemas/common'
 import { schemaParams } from './schemas/exchange'
@@ -12,7 +13,7 @@ import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, 
 // The OpenAPI 3.1 document of API v1, generated from the zod schemas that the routes
 // validate with; `npm run openapi` writes it to openapi/openapi.json.
 
-export const CAUTION = 'Arcwise computes results from the geometry and calibration each lab registers. Results that feed regulatory, clinical, forensic or safety decisions must be reviewed under the lab\'s own quality system and accreditation.'
+
 
 const example = {
   instrument: 'irms-north', runId: 'carb-2026-11-30-017', acquiredAt: '2026-11-30T14:05:00Z', sampleRef: 'CARB-1017',

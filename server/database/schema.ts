@@ -179,7 +179,11 @@ export const acquisitions = pgTable('acquisitions', {
   payload: jsonb('payload').$type<Record<string, unknown>>().notNull(),
   pointCount: integer('point_count').notNull(),
   createdAt: createdAt(),
-}, t => [uniqueIndex('acquisitions_lab_external_idx').on(t.labId, t.externalId), index('acquisitions_lab_created_idx').on(t.labId, t.createdAt, t.id)])
+}, t => [
+  uniqueIndex('acquisitions_lab_external_idx').on(t.labId, t.externalId),
+  index('acquisitions_lab_created_idx').on(t.labId, t.createdAt, t.id),
+  index('acquisitions_lab_acquired_idx').on(t.labId, t.acquiredAt, t.id),
+])
 
 export const results = pgTable('results', {
   id: uuid('id').primaryKey().defaultRandom(),

@@ -1,9 +1,11 @@
+import type { H3Event } from 'h3'
 import { and, desc, eq, gte, lte, sql, type SQL } from 'drizzle-orm'
 import type { z } from 'zod'
-import type { acquisitionListQuery } from '#shared/schemas/acquisitions'
-import { acquisitions, instruments, results } from '../database/schema'
+import type { AcquisitionInput, acquisitionListQuery } from '#shared/schemas/acquisitions'
+import type { SessionUser } from '#shared/types/roles'
+import { acquisitions, geometryVersions, instruments, results } from '../database/schema'
 
-// Cursor pages in a stable order: newest received first, ties broken by id. The cursor
+// Cursor pages in a stable order: newest first (received, or acquired), ties broken by id. The cursor
 // keeps PostgreSQL's microsecond timestamp as text: a JavaScript Date would round it to
 // the millisecond and skip rows received within the same millisecond.
 function encodeCursor(row: { at: string, id: string }) {
@@ -21,16 +23,17 @@ export async function listAcquisitions(labId: string, query: z.output<typeof acq
   if (query.status) conditions.push(eq(acquisitions.status, query.status))
   if (query.from) conditions.push(gte(acquisitions.acquiredAt, new Date(query.from)))
   if (query.to) conditions.push(lte(acquisitions.acquiredAt, new Date(query.to)))
+  const sortColumn = query.sort === 'acquired' ? acquisitions.acquiredAt : acquisitions.createdAt
   if (query.cursor) {
     const c = decodeCursor(query.cursor)
-    conditions.push(sql`(${acquisitions.createdAt}, ${acquisitions.id}) < (${c.at}::timestamptz, ${c.id}::uuid)`)
+    conditions.push(sql`(${sortColumn}, ${acquisitions.id}) < (${c.at}::timestamptz, ${c.id}::uuid)`)
   }
   const rows = await useDb().select({
     id: acquisitions.id, runId: acquisitions.externalId, instrument: instruments.slug, acquiredAt: acquisitions.acquiredAt,
     sampleRef: acquisitions.sampleRef, status: acquisitions.status, points: acquisitions.pointCount, createdAt: acquisitions.createdAt,
-    at: sql<string>`${acquisitions.createdAt}::text`,
+    at: sql<string>`${sortColumn}::text`,
   }).from(acquisitions).innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
-    .where(and(...conditions)).orderBy(desc(acquisitions.createdAt), desc(acquisitions.id)).limit(query.limit + 1)
+    .where(and(...conditions)).orderBy(desc(sortColumn), desc(acquisitions.id)).limit(query.limit + 1)
   const items = rows.slice(0, query.limit)
   return {
     items: items.map(({ createdAt, at: _at, ...r }) => ({ ...r, acquiredAt: r.acquiredAt.toISOString(), receivedAt: createdAt.toISOString() })),
@@ -46,4 +49,45 @@ export async function getAcquisition(labId: string, id: string) {
     .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
   return resultView(row.acq, row.res, row.slug)
+}
+
+/**
+ * What the console shows of one acquisition: the API's view, where it came from (instrument,
+ * geometry kind) and the first characters of the raw payload as stored. The payload itself
+ * can be tens of megabytes, so PostgreSQL cuts it rather than sending it to the app.
+ */
+export async function acquisitionDetail(labId: string, id: string) {
+  const view = await getAcquisition(labId, id)
+  const [row] = await useDb().execute<{ instrument_id: string, instrument_name: string, geometry_kind: string, head: string, chars: number }>(sql`
+    select i.id as instrument_id, i.name as instrument_name, g.kind as geometry_kind,
+      left(jsonb_pretty(a.payload), ${PAYLOAD_PREVIEW_CHARS}) as head, length(a.payload::text) as chars
+    from ${acquisitions} a join ${instruments} i on i.id = a.instrument_id
+    join ${results} r on r.acquisition_id = a.id join ${geometryVersions} g on g.id = r.geometry_version_id
+    where a.id = ${id}::uuid and a.lab_id = ${labId}::uuid limit 1`)
+  return {
+    ...view,
+    instrumentId: row!.instrument_id, instrumentName: row!.instrument_name, geometryKind: row!.geometry_kind,
+    payload: { head: row!.head, chars: row!.chars, truncated: row!.head.length >= PAYLOAD_PREVIEW_CHARS },
+  }
+}
+const PAYLOAD_PREVIEW_CHARS = 6000
+
+/** The acquisition's stored payload as JSON text, for download. */
+export async function acquisitionPayload(labId: string, id: string) {
+  const [row] = await useDb().execute<{ run_id: string, payload: string }>(sql`
+    select external_id as run_id, payload::text as payload from ${acquisitions} where id = ${id}::uuid and lab_id = ${labId}::uuid`)
+  if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
+  return { runId: row.run_id, json: row.payload }
+}
+
+/**
+ * An acquisition uploaded as a file in the console by a lab manager or admin: processed at
+ * once, whatever its size (the console waits for it), and recorded in the audit log.
+ */
+export async function uploadFromConsole(event: H3Event, actor: SessionUser, labId: string, input: AcquisitionInput) {
+  const result = await acceptAcquisition({ labId }, input)
+  if (result.status === 201) {
+    await recordAudit(useDb(), { actor: actorOf(actor), action: 'acquisition.uploaded', targetType: 'acquisition', targetId: result.body.id, event, detail: { labId, runId: input.runId, points: result.body.result.points } })
+  }
+  return result
 }

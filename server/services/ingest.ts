@@ -74,7 +74,7 @@ export interface AcceptOptions {
  * event in one transaction. The same run id with the same body answers the stored result;
  * with another body, 409.
  */
-export async function acceptAcquisition(key: LabKey, input: AcquisitionInput, opts: AcceptOptions = {}): Promise<{ status: 200 | 201, body: AcquisitionResultView }> {
+export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: AcquisitionInput, opts: AcceptOptions = {}): Promise<{ status: 200 | 201, body: AcquisitionResultView }> {
   const hash = opts.upload?.bodyHash ?? bodyHash(input)
   const acquiredAt = new Date(input.acquiredAt)
   const instrument = await instrumentContextAt(key.labId, input.instrument, acquiredAt, input.runId)

@@ -1,8 +1,9 @@
 import type { H3Event } from 'h3'
 import { and, asc, desc, eq, lte, sql } from 'drizzle-orm'
 import type { z } from 'zod'
-import { fitCalibration } from '#shared/engine'
-import type { calibrationInput, InstrumentInput } from '#shared/schemas/instruments'
+import { fitCalibration, geometry as geometrySchema, processReadings } from '#shared/engine'
+import type { AcquisitionInput } from '#shared/schemas/acquisitions'
+import type { calibrationInput, CalibrationFromReferenceInput, InstrumentInput } from '#shared/schemas/instruments'
 import type { Geometry } from '#shared/engine'
 import type { SessionUser } from '#shared/types/roles'
 import { acquisitions, calibrations, geometryVersions, instruments } from '../database/schema'
@@ -37,6 +38,15 @@ export async function createInstrument(event: H3Event, actor: SessionUser, labId
   })
 }
 
+export async function renameInstrument(event: H3Event, actor: SessionUser, labId: string, id: string, name: string) {
+  return useDb().transaction(async (tx) => {
+    const [row] = await tx.update(instruments).set({ name }).where(and(eq(instruments.id, id), eq(instruments.labId, labId))).returning()
+    if (!row) throw problem(404, 'instrument-not-found', 'No such instrument in this lab.')
+    await recordAudit(tx, { actor: actorOf(actor), action: 'instrument.renamed', targetType: 'instrument', targetId: id, event, detail: { name } })
+    return row
+  })
+}
+
 export async function addGeometryVersion(event: H3Event, actor: SessionUser, labId: string, instrumentId: string, input: { geometry: Geometry, validFrom: Date, note?: string }) {
   await getInstrument(labId, instrumentId)
   return useDb().transaction(async (tx) => {
@@ -66,6 +76,32 @@ export async function addCalibration(event: H3Event, actor: SessionUser, labId: 
     await recordAudit(tx, { actor: actorOf(actor), action: 'instrument.calibrated', targetType: 'instrument', targetId: instrumentId, event, detail: { version: row.version, rmsPpm: fit.rmsPpm } })
     return row
   })
+}
+
+/**
+ * Proposes a calibration from a reference acquisition of the instrument: its raw readings
+ * are run through the engine with the geometry in force when it was acquired and NO
+ * calibration, the unambiguously assigned peaks become reference points (measured m/z →
+ * the assigned ion's m/z), and the fit is returned for review, not stored.
+ */
+export async function calibrationFromReference(labId: string, instrumentId: string, input: CalibrationFromReferenceInput) {
+  const [row] = await useDb().select({ payload: acquisitions.payload, acquiredAt: acquisitions.acquiredAt, runId: acquisitions.externalId }).from(acquisitions)
+    .where(and(eq(acquisitions.id, input.acquisitionId), eq(acquisitions.instrumentId, instrumentId), eq(acquisitions.labId, labId))).limit(1)
+  if (!row) throw fieldProblem('acquisitionId', 'no acquisition of this instrument has this id')
+  const payload = row.payload as unknown as AcquisitionInput
+  if (payload.mzSpectrum) throw fieldProblem('acquisitionId', 'this acquisition arrived already in m/z, so the geometry played no part; choose one sent as raw readings')
+  const geo = await geometryAt(instrumentId, row.acquiredAt)
+  if (!geo) throw fieldProblem('acquisitionId', 'was acquired before the instrument\'s first geometry')
+  try {
+    const engine = processReadings(geometrySchema.parse(geo.params), { settings: payload.settings, sweep: payload.sweep, detectors: payload.detectors }, {
+      tolerance: { ppm: input.tolerancePpm }, formulas: payload.processing?.formulas, isotopes: payload.processing?.isotopes, maxCharge: payload.processing?.maxCharge, calibration: null,
+    })
+    const points = engine.peaks.filter(p => p.assignment && !p.ambiguous).map(p => ({
+      measuredMz: p.centroid, referenceMz: p.assignment!.mz, label: p.assignment!.z > 1 ? `${p.assignment!.species} (z=${p.assignment!.z})` : p.assignment!.species,
+    }))
+    return { acquisitionId: input.acquisitionId, runId: row.runId, geometryVersion: geo.version, points, fit: fitCalibration(points, input.degree) }
+  }
+  catch (error) { engineProblem(error, 'reference.') }
 }
 
 /** The geometry version in force at `at`: the latest one valid from at or before it. */

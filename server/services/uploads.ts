@@ -2,7 +2,7 @@ import type { H3Event } from 'h3'
 import { and, eq, sql } from 'drizzle-orm'
 import { acquisitionInput, type AcquisitionInput } from '#shared/schemas/acquisitions'
 import type { ProblemDocument } from '#shared/schemas/common'
-import { apiKeys, uploads } from '../database/schema'
+import { uploads } from '../database/schema'
 import { fileKindOf, parseCsvUpload, parseJcampUpload, parseMzmlUpload, type FileKind } from './fileFormats'
 import type { LabKey } from './apiKeys'
 
@@ -33,16 +33,23 @@ export async function readAcquisitionBody(event: H3Event): Promise<AcquisitionIn
     const file = parts?.find(p => p.name === 'file')
     if (!file) throw fieldProblem('file', 'a multipart upload needs a part named "file"')
     const kind = fileKindOf(file.type ?? '') ?? kindByName(file.filename)
-    if (!kind || kind === 'json') return parseOrProblem(JSON.parse(file.data.toString('utf8')))
+    if (!kind || kind === 'json') return parseOrProblem(jsonPart(file.data))
     // The part is parsed through the same stream parsers, from memory.
     const { Readable } = await import('node:stream')
-    const fake = { ...event, node: { ...event.node, req: Object.assign(Readable.from(file.data), { headers: {} }) } } as unknown as H3Event
+    // A view of the event whose body is the part; the rest (the query string with metadata
+    // the file lacks) is read through the prototype.
+    const fake = Object.assign(Object.create(event) as H3Event, { node: { ...event.node, req: Object.assign(Readable.from(file.data), { headers: {}, url: event.node.req.url }) } })
     return parseOrProblem(await parsers[kind](fake, MAX_UPLOAD_BYTES))
   }
   const kind = fileKindOf(contentType)
   if (!kind) throw problem(415, 'unsupported-media-type', `Content-Type ${contentType} is not taken here: send application/json, text/csv, chemical/x-jcamp-dx, application/mzml+xml or multipart/form-data.`)
   if (kind === 'json') return readValidBody(event, acquisitionInput)
   return parseOrProblem(await parsers[kind](event, MAX_UPLOAD_BYTES))
+}
+
+function jsonPart(data: Buffer): unknown {
+  try { return JSON.parse(data.toString('utf8')) }
+  catch (error) { throw fieldProblem('file', `is neither CSV, JCAMP-DX nor mzML by its type or name, and not JSON: ${(error as Error).message}`, 400, 'malformed-json') }
 }
 
 function kindByName(filename?: string): FileKind | undefined {
@@ -86,9 +93,8 @@ export async function processPendingUploads(limit = 2) {
       returning id`)
     if (!claimed) return
     const row = (await useDb().query.uploads.findFirst({ where: eq(uploads.id, claimed.id) }))!
-    const key = (await useDb().query.apiKeys.findFirst({ where: eq(apiKeys.id, row.apiKeyId) }))!
     try {
-      const result = await acceptAcquisition({ id: key.id, labId: key.labId, scopes: key.scopes as LabKey['scopes'], name: key.name }, row.body as unknown as AcquisitionInput,
+      const result = await acceptAcquisition({ labId: row.labId }, row.body as unknown as AcquisitionInput,
         { schemaId: row.schemaId ?? undefined, upload: { id: row.id, bodyHash: row.bodyHash ?? bodyHash(row.body) } })
       await useDb().update(uploads).set({ status: 'processed', acquisitionId: result.body.id, finishedAt: new Date(), leaseUntil: null }).where(eq(uploads.id, row.id))
     }

@@ -43,9 +43,9 @@ const unitNames = (q: Quantity) => Object.keys(unitFactors[q]) as [string, ...st
 
 /** A registered value with its unit and standard uncertainty (GUM: u, same unit). */
 export const measured = (quantity: Quantity) => z.object({
-  value: z.number().finite(),
+  value: z.number({ error: 'must be a number' }).finite('must be a finite number'),
   unit: z.enum(unitNames(quantity), { error: `must be one of ${unitNames(quantity).join(', ')}` }),
-  u: z.number().finite().min(0, 'a standard uncertainty cannot be negative').default(0),
+  u: z.number({ error: 'must be a number (0 when not known)' }).finite().min(0, 'a standard uncertainty cannot be negative').default(0),
 })
 export type Measured = { value: number, unit: string, u: number }
 

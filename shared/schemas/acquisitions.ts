@@ -70,6 +70,8 @@ export const acquisitionListQuery = z.object({
   status: z.enum(['processed', 'failed']).optional(),
   from: z.iso.datetime({ offset: true }).optional(),
   to: z.iso.datetime({ offset: true }).optional(),
+  /** Newest first by when Arcwise received it (default) or by when the instrument acquired it. */
+  sort: z.enum(['received', 'acquired'], { error: 'must be received or acquired' }).default('received'),
   limit: z.coerce.number().int().min(1).max(200).default(50),
   cursor: z.string().max(200).optional(),
 })

@@ -45,3 +45,17 @@ export type ApiKeyInput = z.infer<typeof apiKeyInput>
 export const labParams = z.object({ id: z.uuid() })
 export const labInstrumentParams = z.object({ id: z.uuid(), instrumentId: z.uuid() })
 export const labKeyParams = z.object({ id: z.uuid(), keyId: z.uuid() })
+
+/**
+ * A calibration proposed from a reference acquisition: its peaks, found with the geometry
+ * alone and assigned within `tolerancePpm`, become the reference points. Wider than the
+ * ingest default (50 ppm), since an instrument that needs calibrating is off by more.
+ */
+export const calibrationFromReferenceInput = z.object({
+  acquisitionId: z.uuid({ error: 'must be the id of an acquisition of this instrument' }),
+  degree: z.number().int().min(1, 'must be 1, 2 or 3').max(3, 'must be 1, 2 or 3'),
+  tolerancePpm: z.number().positive().max(10_000).default(200),
+}).strict()
+export type CalibrationFromReferenceInput = z.infer<typeof calibrationFromReferenceInput>
+
+export const labAcquisitionParams = z.object({ id: z.uuid(), acquisitionId: z.uuid() })

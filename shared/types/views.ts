@@ -1,3 +1,7 @@
+import type { z } from 'zod'
+import type { CalibrationFit } from '../engine/calibrate'
+import type { Geometry } from '../engine/geometry'
+import type { acquisitionListView, acquisitionView } from '../schemas/responses'
 import type { LabInput, PartnerInput } from '../schemas/orgs'
 
 // What the console routes answer, as the browser sees it (dates arrive as ISO strings).
@@ -45,3 +49,40 @@ export interface GrantView { id: string, labId: string, partnerId: string, partn
 
 /** A partner's OAuth client as the console lists it: never its secret or hash. */
 export interface PartnerClientView { id: string, partnerId: string, name: string, clientId: string, scopes: string[], revokedAt: string | null, lastUsedAt: string | null, createdAt: string }
+
+/** An instrument as a lab's list shows it, with the geometry version in force now. */
+export interface InstrumentListItem {
+  id: string, labId: string, slug: string, name: string, createdAt: string
+  geometry: { version: number, kind: Geometry['kind'], validFrom: string } | null
+}
+export interface GeometryVersionView { id: string, version: number, kind: Geometry['kind'], params: Geometry, validFrom: string, note: string | null, createdAt: string }
+export interface CalibrationView {
+  id: string, version: number, validFrom: string, createdAt: string
+  fit: CalibrationFit, points: { measuredMz: number, referenceMz: number, label?: string }[]
+}
+export interface InstrumentDetail {
+  id: string, labId: string, slug: string, name: string, createdAt: string
+  geometryVersions: GeometryVersionView[], calibrations: CalibrationView[]
+}
+/** A calibration fitted from a reference acquisition, for review before it is saved. */
+export interface CalibrationProposal {
+  acquisitionId: string, runId: string, geometryVersion: number
+  points: { measuredMz: number, referenceMz: number, label: string }[], fit: CalibrationFit
+}
+
+export type AcquisitionListPage = z.infer<typeof acquisitionListView>
+export type AcquisitionListItem = AcquisitionListPage['items'][number]
+/** One acquisition in the console: the API's view plus where it came from and the start of its raw payload. */
+export type AcquisitionDetailView = z.infer<typeof acquisitionView> & {
+  instrumentId: string, instrumentName: string, geometryKind: Geometry['kind']
+  payload: { head: string, chars: number, truncated: boolean }
+}
+
+/** The overview's acquisition figures: per lab per day, per hour for the last day, recent QC flags. */
+export interface AcquisitionActivityView {
+  days: string[]
+  perLab: { labId: string, lab: string, counts: number[] }[]
+  hourly: { hour: string, n: number }[]
+  last24h: number
+  recentQc: { id: string, labId: string, lab: string, runId: string, receivedAt: string, flags: { code: string, message: string }[] }[]
+}

@@ -33,3 +33,26 @@ export function co2Acquisition(runId = unique('run'), points = 4000) {
 export function bearer(secret: string) {
   return { authorization: `Bearer ${secret}` }
 }
+
+/**
+ * A run of a reference gas on the test sector (N2, Ar, CO2, 13CO2 from m/z 27 to 47), the
+ * kind of acquisition a lab calibrates from: four peaks spread over the range.
+ */
+export function referenceAcquisition(runId = unique('ref'), acquiredAt = '2026-11-30T08:00:00Z', instrument = 'ms-1') {
+  const geo = geometry.parse(sectorGeometry)
+  const raw = simulateFieldSweep({
+    geometry: geo, acceleratingVoltageV: 3000, mzFrom: 27, mzTo: 47, points: 8000, resolvingPower: 900, seed: 5,
+    species: [
+      { species: formulaSpecies('N2'), currentA: 2e-10 }, { species: isotope('40Ar'), currentA: 5e-11 },
+      { species: formulaSpecies('CO2'), currentA: 3e-9 }, { species: formulaSpecies('[13C]O2'), currentA: 3e-9 * 0.0111802 },
+    ],
+    noiseA: 1e-15, baselineA: 5e-15, currentUnit: 'fA',
+  })
+  return {
+    instrument, runId, acquiredAt, sampleRef: 'REF-GAS-2',
+    settings: { acceleratingVoltage: { value: 3, unit: 'kV', u: 0.0006 } },
+    sweep: { reading: 'field' as const, unit: 'T', values: Array.from(raw.sweep!.values) },
+    detectors: [{ unit: 'fA', values: Array.from(raw.detectors[0]!.values) }],
+    processing: { formulas: ['N2', '[40Ar]', 'CO2', '[13C]O2'], ratios: [{ id: 'VPDB:13C/12C' as const, heavy: '[13C]O2', light: 'CO2' }] },
+  }
+}

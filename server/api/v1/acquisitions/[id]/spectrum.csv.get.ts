@@ -5,6 +5,6 @@ export default defineEventHandler(async (event) => {
   const { id } = getValidParams(event, idParams)
   const spectrum = await spectrumOf(key.labId, id)
   setResponseHeader(event, 'content-type', 'text/csv; charset=utf-8')
-  setResponseHeader(event, 'content-disposition', `attachment; filename="${spectrum.runId}.csv"`)
+  setResponseHeader(event, 'content-disposition', attachmentName(spectrum.runId, 'csv'))
   return spectrumCsv(spectrum)
 })

@@ -5,6 +5,6 @@ export default defineEventHandler(async (event) => {
   const { id } = getValidParams(event, idParams)
   const spectrum = await spectrumOf(key.labId, id)
   setResponseHeader(event, 'content-type', 'chemical/x-jcamp-dx; charset=utf-8')
-  setResponseHeader(event, 'content-disposition', `attachment; filename="${spectrum.runId}.jdx"`)
+  setResponseHeader(event, 'content-disposition', attachmentName(spectrum.runId, 'jdx'))
   return spectrumJcamp(spectrum)
 })

@@ -1,0 +1,1 @@
+CREATE INDEX "acquisitions_lab_acquired_idx" ON "acquisitions" USING btree ("lab_id","acquired_at","id");

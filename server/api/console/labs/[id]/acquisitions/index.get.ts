@@ -1,0 +1,8 @@
+import { acquisitionListQuery } from '#shared/schemas/acquisitions'
+import { labParams } from '#shared/schemas/instruments'
+
+export default defineEventHandler(async (event) => {
+  const { id } = getValidParams(event, labParams)
+  await requireLabAccess(event, id, 'read')
+  return listAcquisitions(id, getValidQuery(event, acquisitionListQuery))
+})

@@ -1,0 +1,10 @@
+import { labParams } from '#shared/schemas/instruments'
+
+// A file uploaded in the console (CSV, JCAMP-DX, mzML or JSON as the multipart part "file").
+export default defineEventHandler(async (event) => {
+  const { id } = getValidParams(event, labParams)
+  const actor = await requireLabAccess(event, id, 'write')
+  const { status, body } = await uploadFromConsole(event, actor, id, await readAcquisitionBody(event))
+  setResponseStatus(event, status)
+  return body
+})
