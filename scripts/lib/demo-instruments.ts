@@ -1,6 +1,6 @@
 // The demo consortium's instruments and what each one measures: invented for the demo,
 // simulated with the engine's forward model (shared/engine/simulate.ts).
-import { formulaSpecies, geometry, isotope, simulateFieldSweep, type Geometry, type SimulatedSpecies } from '../../shared/engine'
+import { fitCalibration, formulaSpecies, geometry, isotope, processReadings, simulateFieldSweep, type Geometry, type SimulatedSpecies } from '../../shared/engine'
 import type { AcquisitionInput } from '../../shared/schemas/acquisitions'
 
 export interface DemoInstrument {
@@ -72,3 +72,14 @@ export const demoInstruments: DemoInstrument[] = [
     }, { formulas: ['[4He]', 'H2', 'HD', '[3He]'], maxCharge: 1, tolerancePpm: 500 }),
   },
 ]
+
+/**
+ * The demo's calibration of an instrument: the engine's fit to a simulated run of a
+ * reference gas, as the console's "calibrate from a reference acquisition" makes one.
+ */
+export function demoCalibration(inst: DemoInstrument, degree = 1) {
+  const body = inst.acquisition('reference', new Date(), 0)
+  const engine = processReadings(inst.geometry, { settings: body.settings, sweep: body.sweep, detectors: body.detectors }, { formulas: body.processing?.formulas, tolerance: { ppm: 200 } })
+  const points = engine.peaks.filter(p => p.assignment && !p.ambiguous).map(p => ({ measuredMz: p.centroid, referenceMz: p.assignment!.mz, label: p.assignment!.species }))
+  return { points, fit: fitCalibration(points, degree) }
+}

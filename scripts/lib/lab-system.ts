@@ -16,13 +16,14 @@ export async function postAcquisition(appUrl: string, secret: string, body: unkn
 }
 
 /** The demo's history: a few acquisitions per instrument over the last days, posted once. */
-export async function postDemoHistory(appUrl: string, keys: Record<string, string>, perInstrument = 8) {
+export async function postDemoHistory(appUrl: string, keys: Record<string, string>, perInstrument = 12) {
   let posted = 0
   for (const inst of demoInstruments) {
     const secret = keys[inst.lab]
     if (!secret) continue
     for (let k = 0; k < perInstrument; k++) {
-      const acquiredAt = new Date(Date.now() - (perInstrument - k) * 5 * 3_600_000)
+      // Spread over the last 13 days, so the overview's two-week chart has a history.
+      const acquiredAt = new Date(Date.now() - (perInstrument - k) * 26 * 3_600_000)
       const runId = `demo-${inst.slug}-${String(k + 1).padStart(3, '0')}`
       const res = await postAcquisition(appUrl, secret, inst.acquisition(runId, acquiredAt, k + 1), runId)
       if (res.status === 201) posted++

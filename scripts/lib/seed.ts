@@ -3,7 +3,7 @@ import { existsSync, readFileSync, writeFileSync } from 'node:fs'
 import { join } from 'node:path'
 import postgres from 'postgres'
 import { demoLabs, demoPartners, demoUsers } from './demo'
-import { demoInstruments } from './demo-instruments'
+import { demoCalibration, demoInstruments } from './demo-instruments'
 import { hashPassword } from './password'
 import { dataDir, log } from './paths'
 
@@ -42,6 +42,18 @@ export async function seedDemo(url: string, opts: { keysFile?: string } = {}): P
         const [row] = await tx`insert into instruments (lab_id, slug, name) values (${labId}, ${inst.slug}, ${inst.name}) returning id`
         await tx`insert into geometry_versions (instrument_id, version, kind, params, valid_from, note)
                  values (${row!.id}, 1, ${inst.geometry.kind}, ${tx.json(inst.geometry as never)}, '2026-01-01T00:00:00Z', 'as installed')`
+        // A history to look at: the noble-gas sector's radius re-measured after a service five
+        // days ago, and the carbonate bench calibrated against its reference gas six days ago.
+        if (inst.geometry.kind === 'potential-sector' && inst.slug === 'noble-gas-1') {
+          const serviced = { ...inst.geometry, analyzerRadius: { ...inst.geometry.analyzerRadius, u: inst.geometry.analyzerRadius.u / 2 } }
+          await tx`insert into geometry_versions (instrument_id, version, kind, params, valid_from, note)
+                   values (${row!.id}, 2, ${serviced.kind}, ${tx.json(serviced as never)}, ${new Date(Date.now() - 5 * 86_400_000)}, 'radius re-measured after source service')`
+        }
+        if (inst.slug === 'irms-north') {
+          const { points, fit } = demoCalibration(inst)
+          await tx`insert into calibrations (instrument_id, version, fit, points, valid_from)
+                   values (${row!.id}, 1, ${tx.json(fit as never)}, ${tx.json(points as never)}, ${new Date(Date.now() - 6 * 86_400_000)})`
+        }
         // Same key format as the API issues: awk_<12-character prefix>_<43-character secret>.
         const prefix = randomBytes(9).toString('base64url')
         const secret = `awk_${prefix}_${randomBytes(32).toString('base64url')}`
