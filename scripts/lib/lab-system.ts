@@ -15,15 +15,23 @@ export async function postAcquisition(appUrl: string, secret: string, body: unkn
   }, { retries: 3, minTimeout: 500 })
 }
 
-/** The demo's history: a few acquisitions per instrument over the last days, posted once. */
-export async function postDemoHistory(appUrl: string, keys: Record<string, string>, perInstrument = 12) {
+/**
+ * The demo's history, posted once: each instrument at its own pace over the last 12 days
+ * (the carbonate bench busiest, the noble-gas sector a run most days), so the overview's
+ * per-lab chart tells the labs apart.
+ */
+const demoRunsPerInstrument: Record<string, number> = { 'irms-north': 22, 'noble-gas-1': 9, 'he-leak-2': 15 }
+
+export async function postDemoHistory(appUrl: string, keys: Record<string, string>) {
   let posted = 0
   for (const inst of demoInstruments) {
     const secret = keys[inst.lab]
     if (!secret) continue
-    for (let k = 0; k < perInstrument; k++) {
-      // Spread over the last 13 days, so the overview's two-week chart has a history.
-      const acquiredAt = new Date(Date.now() - (perInstrument - k) * 26 * 3_600_000)
+    const runs = demoRunsPerInstrument[inst.slug] ?? 8
+    for (let k = 0; k < runs; k++) {
+      // Evenly over 12 days, moved by up to ±5 h so that runs do not fall on the same hour.
+      const hoursAgo = (runs - k) * (12 * 24 / runs) + ((k * 7919) % 11) - 5
+      const acquiredAt = new Date(Date.now() - hoursAgo * 3_600_000)
       const runId = `demo-${inst.slug}-${String(k + 1).padStart(3, '0')}`
       const res = await postAcquisition(appUrl, secret, inst.acquisition(runId, acquiredAt, k + 1), runId)
       if (res.status === 201) posted++
