@@ -1,5 +1,5 @@
 import type { H3Event } from 'h3'
-import { and, eq } from 'drizzle-orm'
+import { and, eq, sql } from 'drizzle-orm'
 import { idempotencyKeys } from '../database/schema'
 
 // Idempotency-Key (IETF draft-ietf-httpapi-idempotency-key-header): the same key with the
@@ -27,10 +27,14 @@ export async function withIdempotency<T>(event: H3Event, apiKeyId: string, key: 
     const stored = await db.query.idempotencyKeys.findFirst({ where: and(eq(idempotencyKeys.apiKeyId, apiKeyId), eq(idempotencyKeys.key, key)) })
     if (!stored) throw problem(409, 'idempotency-key-in-flight', 'A request with this Idempotency-Key is being processed; retry later.')
     if (stored.requestHash !== requestHash) throw fieldProblem('Idempotency-Key', 'was used before with a different request body', 422, 'idempotency-key-reused')
-    if (stored.state === 'in-flight') throw problem(409, 'idempotency-key-in-flight', 'A request with this Idempotency-Key is being processed; retry later.')
-    setResponseStatus(event, stored.responseStatus ?? 200)
-    setResponseHeader(event, 'idempotent-replayed', 'true')
-    return stored.responseBody as T
+    if (stored.state === 'in-flight' && !(await takeOverAbandoned(apiKeyId, key, stored.createdAt))) {
+      throw problem(409, 'idempotency-key-in-flight', 'A request with this Idempotency-Key is being processed; retry later.')
+    }
+    if (stored.state === 'done') {
+      setResponseStatus(event, stored.responseStatus ?? 200)
+      setResponseHeader(event, 'idempotent-replayed', 'true')
+      return stored.responseBody as T
+    }
   }
   try {
     const { status, body } = await run()
@@ -44,4 +48,22 @@ export async function withIdempotency<T>(event: H3Event, apiKeyId: string, key: 
     await db.delete(idempotencyKeys).where(and(eq(idempotencyKeys.apiKeyId, apiKeyId), eq(idempotencyKeys.key, key)))
     throw error
   }
+}
+
+/**
+ * A key left in flight longer than any request takes belongs to a process that died (or lost
+ * PostgreSQL) mid-request: without this the lab's retries would get 409 for ever. One retry
+ * takes it over; the run id's uniqueness still stops a second acquisition if the first
+ * request did finish after all. `npm run chaos` found the stuck key by killing a process.
+ */
+const IN_FLIGHT_TTL_MS = 30_000
+
+async function takeOverAbandoned(apiKeyId: string, key: string, since: Date): Promise<boolean> {
+  if (Date.now() - since.getTime() < IN_FLIGHT_TTL_MS) return false
+  // Compared in PostgreSQL (microseconds), and only one of several retries at once wins.
+  const taken = await useDb().update(idempotencyKeys).set({ createdAt: sql`now()` })
+    .where(and(eq(idempotencyKeys.apiKeyId, apiKeyId), eq(idempotencyKeys.key, key), eq(idempotencyKeys.state, 'in-flight'),
+      sql`${idempotencyKeys.createdAt} < now() - make_interval(secs => ${IN_FLIGHT_TTL_MS / 1000})`))
+    .returning({ key: idempotencyKeys.key })
+  return taken.length === 1
 }

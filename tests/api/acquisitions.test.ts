@@ -83,6 +83,25 @@ describe('POST /api/v1/acquisitions', () => {
     expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
   })
 
+  it('Idempotency-Key left in flight by a process that died is taken over by a retry after 30 s, and the run is stored once', async () => {
+    const { key, lab, sql } = await labWithInstrument()
+    const body = co2Acquisition()
+    const idem = unique('idem-stuck')
+    const first = await post(key.secret, body, { 'idempotency-key': idem })
+    expect(first.status).toBe(201)
+    // What a process killed after storing the acquisition but before answering leaves behind.
+    await sql`update idempotency_keys set state = 'in-flight', response_status = null, response_body = null, created_at = now() - interval '5 seconds' where key = ${idem}`
+    const early = await post(key.secret, body, { 'idempotency-key': idem })
+    expect(early.status).toBe(409)
+    expect(early.body.type).toBe('urn:arcwise:problem:idempotency-key-in-flight')
+    await sql`update idempotency_keys set created_at = now() - interval '31 seconds' where key = ${idem}`
+    const retry = await post(key.secret, body, { 'idempotency-key': idem })
+    // The run id was stored already: the retry gets its result, not a second acquisition.
+    expect(retry.status).toBe(200)
+    expect(retry.body.id).toBe(first.body.id)
+    expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
+  })
+
   it.each([
     ['wrong types', (b: any) => ({ ...b, acquiredAt: 12 }), 'acquiredAt'],
     ['a date that cannot be', (b: any) => ({ ...b, acquiredAt: '2026-02-30T10:00:00Z' }), 'acquiredAt'],
