@@ -2,7 +2,7 @@ import { createPage, url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { describe, expect, it } from 'vitest'
 import { postAcquisition } from '../../scripts/lib/lab-system'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { expectAccessible, openLabFromMenu, shot, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { referenceAcquisition } from '../support/lab'
 import { testDb, unique, useArcwise } from '../support/server'
@@ -24,9 +24,7 @@ const chartPixels = (page: Page) => page.locator('.aw-chart canvas').first().scr
 describe('a lab manager\'s main flow in the console', () => {
   it('registers an instrument and issues a key; the lab simulator posts; the acquisition appears with its plot and assignments; a calibration is fitted from it', async () => {
     const page = await signIn('lab_manager')
-    await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Labs' }).click()
-    await page.getByRole('link', { name: 'Saltmarsh Stable Isotope Lab' }).click()
-    await page.waitForURL(/\/console\/labs\/[0-9a-f-]{36}$/)
+    await openLabFromMenu(page, 'Saltmarsh Stable Isotope Lab')
     await openTab(page, 'Instruments', /\/instruments$/)
     await expectAccessible(page)
     await shot(page, 'flow-01-instruments')

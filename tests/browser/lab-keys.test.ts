@@ -1,6 +1,6 @@
 import { createPage } from '@nuxt/test-utils/e2e'
 import { describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { expectAccessible, openLabFromMenu, shot, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { ConsoleClient, useArcwise } from '../support/server'
 
@@ -10,10 +10,7 @@ await useArcwise({ browser: true })
 async function openOwnLabTab(tab: string, at: RegExp) {
   const page = await createPage('/sign-in')
   await signInThroughForm(page, demoUser('lab_manager').email, demoUser('lab_manager').password)
-  await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Labs' }).click()
-  await page.waitForURL(/\/console\/labs$/)
-  await page.getByRole('link', { name: 'Saltmarsh Stable Isotope Lab' }).click()
-  await page.waitForURL(/\/console\/labs\/[0-9a-f-]{36}$/)
+  await openLabFromMenu(page, 'Saltmarsh Stable Isotope Lab')
   await page.getByRole('link', { name: tab }).click()
   await page.waitForURL(at)
   return page

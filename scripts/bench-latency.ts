@@ -1,0 +1,88 @@
+// Ingest-to-receipt latency: from the moment a lab system starts posting an acquisition to
+// the moment the partner's webhook receiver has the signed result. Acquisitions are posted
+// open-loop at a steady rate (not one after another), as lab systems do, to a server whose
+// delivery worker runs in the same process. Prints one JSON object.
+import { createServer } from 'node:http'
+import { cpus, tmpdir } from 'node:os'
+import { join } from 'node:path'
+import { readFileSync } from 'node:fs'
+import { buildIfStale } from './lib/build'
+import { demoInstruments } from './lib/demo-instruments'
+import { demoUsers } from './lib/demo'
+import { log } from './lib/paths'
+import { seedDemo } from './lib/seed'
+import { startServer, startStack, waitForServer } from './lib/services'
+
+const PORT = 3300
+const SINK_PORT = 3391
+const base = `http://127.0.0.1:${PORT}`
+
+/** The q-quantile of sorted values (nearest rank). */
+const quantile = (sorted: number[], q: number) => sorted[Math.min(sorted.length - 1, Math.ceil(q * sorted.length) - 1)]!
+
+export async function benchLatency(opts: { count?: number, ratePerSecond?: number } = {}) {
+  const count = opts.count ?? 300
+  const rate = opts.ratePerSecond ?? 20
+  const arrived = new Map<string, number>()
+  const sink = createServer((req, res) => {
+    const chunks: Buffer[] = []
+    req.on('data', c => chunks.push(c as Buffer))
+    req.on('end', () => {
+      const at = performance.now()
+      const runId = (JSON.parse(Buffer.concat(chunks).toString()) as { data: { runId: string } }).data.runId
+      if (!arrived.has(runId)) arrived.set(runId, at)
+      res.writeHead(200).end()
+    })
+  })
+  await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
+  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, appUrl: base })
+  const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
+  await seedDemo(stack.databaseUrl, { keysFile })
+  buildIfStale()
+  const server = startServer({ ...stack.serverEnv, NUXT_RATE_LIMIT_PER_MINUTE: '0', NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}` }, PORT)
+  try {
+    await waitForServer(`${base}/api/health`)
+    const keys = JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>
+    const admin = demoUsers.find(u => u.role === 'admin')!
+    const signIn = await fetch(`${base}/api/console/session`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ email: admin.email, password: admin.password }) })
+    const cookie = signIn.headers.getSetCookie().find(c => c.startsWith('nuxt-session='))!.split(';')[0]!
+    const partners = await (await fetch(`${base}/api/console/partners`, { headers: { cookie } })).json() as { items: { id: string, slug: string }[] }
+    const partner = partners.items.find(p => p.slug === 'northgate-water')!
+    await fetch(`${base}/api/console/partners/${partner.id}/endpoints`, { method: 'POST', headers: { 'content-type': 'application/json', cookie }, body: JSON.stringify({ url: `http://127.0.0.1:${SINK_PORT}/hook` }) })
+    // The demo carbonate bench's acquisitions as its lab system sends them (12,000 points).
+    const inst = demoInstruments.find(i => i.slug === 'irms-north')!
+    const body = inst.acquisition('x', new Date(), 2)
+    const sentAt = new Map<string, number>()
+    const post = (runId: string) => fetch(`${base}/api/v1/acquisitions`, {
+      method: 'POST', headers: { 'content-type': 'application/json', 'authorization': `Bearer ${keys['saltmarsh-isotopes']}` }, body: JSON.stringify({ ...body, runId }),
+    }).then(async (r) => { await r.arrayBuffer(); if (r.status !== 201) throw new Error(`posting answered ${r.status}`) })
+    for (let i = 0; i < 10; i++) await post(`warm-${process.pid}-${i}`) // JIT and connection pools
+    const posts: Promise<void>[] = []
+    const started = performance.now()
+    for (let i = 0; i < count; i++) {
+      const runId = `lat-${process.pid}-${i}`
+      await new Promise(r => setTimeout(r, Math.max(0, started + i * 1000 / rate - performance.now())))
+      sentAt.set(runId, performance.now())
+      posts.push(post(runId))
+    }
+    await Promise.all(posts)
+    const deadline = Date.now() + 60_000
+    while ([...sentAt.keys()].some(id => !arrived.has(id)) && Date.now() < deadline) await new Promise(r => setTimeout(r, 20))
+    const latencies = [...sentAt].filter(([id]) => arrived.has(id)).map(([id, t]) => arrived.get(id)! - t).sort((a, b) => a - b)
+    return {
+      acquisitions: count, ratePerSecond: rate, points: body.sweep!.values.length, received: latencies.length,
+      latencyMs: { p50: Math.round(quantile(latencies, 0.5)), p99: Math.round(quantile(latencies, 0.99)), max: Math.round(latencies.at(-1)!) },
+    }
+  }
+  finally {
+    server.kill('SIGTERM')
+    await new Promise(resolve => server.once('exit', resolve))
+    await stack.stop()
+    await new Promise<void>(resolve => sink.close(() => resolve()))
+  }
+}
+
+if (import.meta.url === `file://${process.argv[1]}`) {
+  log('ingest-to-receipt latency benchmark: this takes about half a minute')
+  console.log(JSON.stringify({ benchmark: 'latency', node: process.version, cores: cpus().length, ...await benchLatency() }, null, 2))
+}

@@ -1,0 +1,61 @@
+// `npm run bench`: every benchmark, each beside its baseline in the same run, as one JSON
+// report under reports/ and a table. Starts what it needs (its own database `arcwise_bench`,
+// the built server, local sinks on loopback) and stops it; about five minutes.
+// Figures are ratios where a baseline exists: the machine is shared and noisy.
+import { execFileSync } from 'node:child_process'
+import { mkdirSync, readFileSync, writeFileSync } from 'node:fs'
+import { cpus, totalmem } from 'node:os'
+import { join } from 'node:path'
+import { benchDelivery } from './bench-delivery'
+import { benchEngine } from './bench-engine'
+import { benchIngest } from './bench-ingest'
+import { benchLatency } from './bench-latency'
+import { log, root } from './lib/paths'
+import { findPgBin } from './lib/pg'
+
+function versions() {
+  const lock = JSON.parse(readFileSync(join(root, 'package-lock.json'), 'utf8')) as { packages: Record<string, { version?: string }> }
+  const of = (name: string) => lock.packages[`node_modules/${name}`]?.version ?? 'unknown'
+  let postgresql = 'unknown'
+  try { postgresql = execFileSync(join(findPgBin(), 'postgres'), ['--version'], { encoding: 'utf8' }).trim() }
+  catch { /* reported as unknown */ }
+  return { node: process.version, postgresql, nuxt: of('nuxt'), 'drizzle-orm': of('drizzle-orm'), postgres: of('postgres'), undici: of('undici'), standardwebhooks: of('standardwebhooks') }
+}
+
+const machine = { cores: cpus().length, cpu: cpus()[0]?.model ?? 'unknown', memoryGb: Math.round(totalmem() / 2 ** 30) }
+log(`benchmarks on ${machine.cores} cores (${machine.cpu}); about five minutes`)
+log('1/4 engine')
+const engine = benchEngine()
+log('2/4 ingest and the 10^6-point upload')
+const ingest = await benchIngest()
+log('3/4 delivery')
+const delivery = await benchDelivery()
+log('4/4 ingest-to-receipt latency')
+const latency = await benchLatency()
+
+const report = { kind: 'bench', at: new Date().toISOString(), machine, versions: versions(), engine, ingest, delivery, latency }
+mkdirSync(join(root, 'reports'), { recursive: true })
+const file = join(root, 'reports', `bench-${report.at.replace(/[:.]/g, '-')}.json`)
+writeFileSync(file, JSON.stringify(report, null, 2))
+
+const met = (ok: boolean) => ok ? 'met' : 'NOT met'
+const rows: Record<string, { figure: string, baseline: string, ratio: string, goal: string, verdict: string }> = {
+  'engine: m/z conversion, 10^6 points': {
+    figure: `${engine.conversion.engineMs} ms`, baseline: `bare loop ${engine.conversion.bareLoopMs} ms`, ratio: String(engine.conversion.ratio), goal: '≤ 1.5', verdict: met(engine.conversion.ratio <= 1.5),
+  },
+  ...Object.fromEntries(engine.pipeline.map(p => [`engine: pipeline, ${p.points.toLocaleString('en')} points`, {
+    figure: `${p.pointsPerSecond.toLocaleString('en')} points/s`, baseline: '', ratio: `${p.nsPerPoint} ns/point`, goal: '', verdict: '',
+  }])),
+  'engine: cost per point, 10^3 vs 10^6': { figure: '', baseline: '', ratio: String(engine.costPerPointSpread.ratio), goal: '≤ 2', verdict: met(engine.costPerPointSpread.ratio <= 2) },
+  'ingest: acquisitions/s (1,000 points)': {
+    figure: `${ingest.ingest.requestsPerSecond}/s`, baseline: `baseline route ${ingest.baseline.requestsPerSecond}/s`, ratio: String(ingest.ratio.value), goal: '≥ 0.5', verdict: met(ingest.ratio.value >= 0.5),
+  },
+  'ingest: server memory, 10^6-point upload': { figure: `+${ingest.upload1M.growthMb} MB`, baseline: `${ingest.upload1M.rssBeforeMb} MB before`, ratio: '', goal: '< 250 MB', verdict: met(ingest.upload1M.growthMb < 250) },
+  'delivery: webhooks/s': {
+    figure: `${delivery.worker.deliveriesPerSecond}/s`, baseline: `bare sender ${delivery.bareSender.requestsPerSecond}/s`, ratio: String(delivery.ratio.value), goal: '≥ 0.7', verdict: met(delivery.ratio.value >= 0.7),
+  },
+  'ingest-to-receipt latency': { figure: `p50 ${latency.latencyMs.p50} ms, p99 ${latency.latencyMs.p99} ms`, baseline: '', ratio: '', goal: '', verdict: `${latency.received}/${latency.acquisitions} received` },
+}
+console.log(`\n  Arcwise benchmarks · ${machine.cores} cores · ${machine.cpu} · Node ${process.version} · ${report.versions.postgresql}`)
+console.table(rows)
+console.log(`  report: ${file}`)

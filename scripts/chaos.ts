@@ -1,0 +1,261 @@
+// `npm run chaos`: a soak of a few minutes with faults injected, then a fuzz phase; ends with
+// one table and a JSON report under reports/. Loopback only, bounded in time, stops by itself.
+//
+// Soak: lab systems post acquisitions to two app processes (A: web, B: web and deliveries)
+// while a third (C: deliveries only) shares the delivery queue. Each event owes a delivery to
+// five endpoints of one partner: steady; flaky (a share of 500s); slow for a while (answers
+// after the send timeout); gone for a while (connection refused); never (503 always).
+// Faults: C killed with SIGKILL three times, B once, PostgreSQL restarted once.
+// Then: events ingested, deliveries owed, delivered (distinct webhook-ids answered 2xx),
+// duplicates (further 2xx copies of a webhook-id), dead (must be exactly those to "never"),
+// lost (owed, neither delivered nor dead: must be 0).
+// Fuzz: CHAOS_FUZZ (10,000) generated bad requests (scripts/lib/fuzz.ts) against ingest and
+// console routes: 5xx count, non-problem-document count, rows written: all must be 0.
+import { spawn, type ChildProcess } from 'node:child_process'
+import { createServer, type Server } from 'node:http'
+import { mkdirSync, readFileSync, writeFileSync } from 'node:fs'
+import { cpus, tmpdir } from 'node:os'
+import { join } from 'node:path'
+import fc from 'fast-check'
+import pLimit from 'p-limit'
+import postgres from 'postgres'
+import { buildIfStale } from './lib/build'
+import { demoUsers } from './lib/demo'
+import { demoInstruments } from './lib/demo-instruments'
+import { badRequests, rowCounts, rowsWritten, sendBadRequest } from './lib/fuzz'
+import { log, root } from './lib/paths'
+import { restartCluster } from './lib/pg'
+import { seedDemo } from './lib/seed'
+import { startStack, waitForServer } from './lib/services'
+
+const SECONDS = Number(process.env.CHAOS_SECONDS ?? 150)
+const FUZZ = Number(process.env.CHAOS_FUZZ ?? 10_000)
+const RATE = Number(process.env.CHAOS_RATE ?? 4) // acquisitions per second
+const SINK = 3490
+const GONE = 3491
+const ports = { A: 3400, B: 3401, C: 3402 } as const
+const roles = { A: 'web', B: 'both', C: 'worker' } as const
+type Name = keyof typeof ports
+const started = Date.now()
+const elapsed = () => ((Date.now() - started) / 1000).toFixed(0).padStart(4)
+const say = (message: string) => log(`chaos ${elapsed()} s: ${message}`)
+const sleep = (ms: number) => new Promise(r => setTimeout(r, ms))
+
+// ── Sinks ──────────────────────────────────────────────────────────────────────────────
+// A copy counts as delivered when the sink's 2xx answer went out ('finish'); an answer to a
+// sender that had already given up (the slow phase) does not.
+const delivered = new Map<string, number>()
+const faults = { slow: false, flakyEvery: 3 }
+let flakyCount = 0
+function handler(path: string, req: import('node:http').IncomingMessage, res: import('node:http').ServerResponse) {
+  const id = `${path}|${String(req.headers['webhook-id'])}`
+  const ok = () => { res.on('finish', () => delivered.set(id, (delivered.get(id) ?? 0) + 1)); res.writeHead(200).end() }
+  if (path === '/never') return res.writeHead(503).end()
+  if (path === '/flaky' && ++flakyCount % faults.flakyEvery === 0) return res.writeHead(500).end()
+  if (path === '/slow' && faults.slow) return setTimeout(ok, 2500)
+  ok()
+}
+function sinkServer(port: number): Promise<Server> {
+  const server = createServer((req, res) => { req.resume(); req.on('end', () => handler(req.url ?? '/', req, res)) })
+  return new Promise(resolve => server.listen(port, '127.0.0.1', () => resolve(server)))
+}
+const sink = await sinkServer(SINK)
+let gone: Server | null = await sinkServer(GONE)
+
+// ── The stack and three app processes of one build ─────────────────────────────────────
+const appUrl = `http://127.0.0.1:${ports.A}`
+const stack = await startStack({ database: 'arcwise_chaos', fresh: true, smtpPort: 2529, mailHttpPort: 2584, appUrl })
+const keysFile = join(tmpdir(), `arcwise-chaos-keys-${process.pid}.json`)
+await seedDemo(stack.databaseUrl, { keysFile })
+buildIfStale()
+const env = {
+  ...stack.serverEnv,
+  NUXT_RATE_LIMIT_PER_MINUTE: '0',
+  NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK},127.0.0.1:${GONE}`,
+  // Retries over about a minute, so that "never" ends dead within the run and the other
+  // endpoints' outages (15-20 s) stay well inside it.
+  NUXT_WEBHOOKS_RETRY_SCHEDULE: '1,2,3,5,8,13,20',
+  NUXT_WEBHOOKS_TIMEOUT_MS: '1000',
+  NUXT_WEBHOOKS_LEASE_SECONDS: '5',
+  NUXT_WEBHOOKS_POLL_MS: '250',
+}
+const processes: Partial<Record<Name, ChildProcess>> = {}
+function startApp(name: Name) {
+  processes[name] = spawn(process.execPath, [join(root, '.output', 'server', 'index.mjs')], {
+    cwd: root, stdio: ['ignore', 'ignore', 'inherit'],
+    env: { ...process.env, ...env, NUXT_PROCESS_ROLE: roles[name], PORT: String(ports[name]), HOST: '127.0.0.1', NODE_ENV: 'production' },
+  })
+}
+async function killAndRestart(name: Name) {
+  const child = processes[name]!
+  child.kill('SIGKILL')
+  await new Promise(r => child.once('exit', r))
+  say(`${name} (${roles[name]}) killed with SIGKILL`)
+  await sleep(2000)
+  startApp(name)
+  await waitForServer(`http://127.0.0.1:${ports[name]}/api/health`)
+  say(`${name} back`)
+}
+for (const name of Object.keys(ports) as Name[]) startApp(name)
+for (const name of Object.keys(ports) as Name[]) await waitForServer(`http://127.0.0.1:${ports[name]}/api/health`)
+
+const sql = postgres(stack.databaseUrl, { max: 2, onnotice: () => {} })
+let exitCode: number
+try {
+  const keys = JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>
+  const admin = demoUsers.find(u => u.role === 'admin')!
+  const signIn = await fetch(`${appUrl}/api/console/session`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ email: admin.email, password: admin.password }) })
+  const cookie = signIn.headers.getSetCookie().find(c => c.startsWith('nuxt-session='))!.split(';')[0]!
+  const asAdmin = <T>(method: string, path: string, body?: unknown) => fetch(`${appUrl}${path}`, { method, headers: { 'content-type': 'application/json', cookie }, body: body === undefined ? undefined : JSON.stringify(body) }).then(r => r.json() as Promise<T>)
+  const partner = (await asAdmin<{ items: { id: string, slug: string }[] }>('GET', '/api/console/partners')).items.find(p => p.slug === 'northgate-water')!
+  const endpointNames = ['steady', 'flaky', 'slow', 'gone', 'never'] as const
+  const endpointIds: Record<string, string> = {}
+  for (const name of endpointNames) {
+    const port = name === 'gone' ? GONE : SINK
+    const ep = await asAdmin<{ id: string }>('POST', `/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${port}/${name}`, eventTypes: ['result.created'] })
+    endpointIds[name] = ep.id
+  }
+
+  // ── Soak ─────────────────────────────────────────────────────────────────────────────
+  const inst = demoInstruments.find(i => i.slug === 'irms-north')!
+  const full = inst.acquisition('x', new Date(), 4)
+  // 1,500 points around the CO2 line: real work for the engine, light on the wire.
+  const strongest = full.detectors[0]!.values.reduce((best, v, i, a) => (v > a[best]! ? i : best), 0)
+  const from = Math.max(0, strongest - 700)
+  const small = { ...full, sweep: { ...full.sweep!, values: full.sweep!.values.slice(from, from + 1500) }, detectors: [{ ...full.detectors[0]!, values: full.detectors[0]!.values.slice(from, from + 1500) }] }
+  const accepted = new Set<string>()
+  let postErrors = 0
+  // A lab system: retries a failed post with the same Idempotency-Key, on the other process.
+  async function post(n: number) {
+    const runId = `chaos-${process.pid}-${n}`
+    const body = JSON.stringify({ ...small, runId, acquiredAt: new Date().toISOString() })
+    for (let attempt = 0; attempt < 120; attempt++) {
+      const target = (n + attempt) % 2 === 0 ? ports.A : ports.B
+      try {
+        const res = await fetch(`http://127.0.0.1:${target}/api/v1/acquisitions`, { method: 'POST', headers: { 'content-type': 'application/json', 'authorization': `Bearer ${keys['saltmarsh-isotopes']}`, 'idempotency-key': runId }, body, signal: AbortSignal.timeout(10_000) })
+        await res.arrayBuffer()
+        if (res.status === 201 || res.status === 200) { accepted.add(runId); return }
+        if (res.status < 500 && res.status !== 409) throw new Error(`post ${runId} answered ${res.status}`)
+      }
+      catch (error) { if (String(error).includes('answered')) throw error }
+      postErrors++
+      await sleep(500)
+    }
+    throw new Error(`post ${runId} was never accepted`)
+  }
+  const schedule: [number, string, () => Promise<void> | void][] = [
+    [0.15, 'slow endpoint starts answering after the timeout', () => { faults.slow = true }],
+    [0.20, 'kill C', () => killAndRestart('C')],
+    [0.30, 'slow endpoint answers in time again', () => { faults.slow = false }],
+    [0.40, 'restart PostgreSQL', async () => { await restartCluster(); say('PostgreSQL restarted') }],
+    [0.45, 'kill C', () => killAndRestart('C')],
+    [0.55, '"gone" receiver goes away', async () => { const g = gone!; gone = null; g.closeAllConnections(); await new Promise(r => g.close(r)) }],
+    [0.70, '"gone" receiver comes back; kill C', async () => { gone = await sinkServer(GONE); await killAndRestart('C') }],
+    [0.80, 'kill B', () => killAndRestart('B')],
+  ]
+  const soakStart = Date.now()
+  const faultRun = (async () => {
+    for (const [at, what, act] of schedule) {
+      await sleep(Math.max(0, soakStart + at * SECONDS * 1000 - Date.now()))
+      say(what)
+      await act()
+    }
+  })()
+  const posts: Promise<void>[] = []
+  const soakEnd = soakStart + SECONDS * 1000
+  for (let n = 0; Date.now() < soakEnd; n++) {
+    posts.push(post(n))
+    await sleep(1000 / RATE)
+  }
+  await Promise.all(posts)
+  await faultRun
+  say(`soak over: ${accepted.size} acquisitions accepted (${postErrors} failed tries, retried)`)
+
+  // ── Settle: every owed delivery succeeds or dies ─────────────────────────────────────
+  const settleDeadline = Date.now() + 240_000
+  for (;;) {
+    const [{ pending }] = await sql`select count(*)::int as pending from deliveries where status = 'pending'`
+    if (pending === 0 || Date.now() > settleDeadline) break
+    await sleep(1000)
+  }
+  const [counts] = await sql`select
+    (select count(*)::int from events) as events,
+    (select count(*)::int from deliveries where event_id is not null) as owed,
+    (select count(*)::int from deliveries where status = 'pending') as pending,
+    (select count(*)::int from deliveries where status = 'succeeded') as succeeded`
+  const deadRows = await sql`select e.url from deliveries d join webhook_endpoints e on e.id = d.endpoint_id where d.status = 'dead'`
+  const succeededRows = await sql`select d.id, e.url from deliveries d join webhook_endpoints e on e.id = d.endpoint_id where d.status = 'succeeded' and d.event_id is not null`
+  const owedToNever = (await sql`select count(*)::int as n from deliveries where endpoint_id = ${endpointIds.never!}`)[0]!.n as number
+  const deliveredDistinct = [...delivered.keys()].length
+  const duplicates = [...delivered.values()].reduce((s, n) => s + n - 1, 0)
+  const dead = deadRows.length
+  const deadElsewhere = deadRows.filter(r => !String(r.url).endsWith('/never')).length
+  const lost = counts!.owed - deliveredDistinct - dead
+  const succeededUnseen = succeededRows.filter(r => !delivered.has(`${new URL(String(r.url)).pathname}|${r.id}`)).length
+  const soak = {
+    seconds: SECONDS, ratePerSecond: RATE, processes: { A: 'web', B: 'both', C: 'worker' },
+    acquisitionsAccepted: accepted.size, eventsIngested: counts!.events, deliveriesOwed: counts!.owed, delivered: deliveredDistinct,
+    duplicates, dead, deadExpected: owedToNever, deadElsewhere, stillPending: counts!.pending, succeededButNotReceived: succeededUnseen, lost,
+  }
+
+  // ── Fuzz ─────────────────────────────────────────────────────────────────────────────
+  const [lab] = await sql`select id from labs where slug = 'saltmarsh-isotopes'`
+  const [viewer] = await sql`select id from users where role = 'viewer' limit 1`
+  const target = { labId: lab!.id, instrumentSlug: 'irms-north', labKey: keys['saltmarsh-isotopes']!, partnerId: partner.id, userId: viewer!.id, cookie, allowedHosts: [`127.0.0.1:${SINK}`, `127.0.0.1:${GONE}`] }
+  const requests = fc.sample(badRequests(target), { numRuns: FUZZ, seed: 20261202 })
+  say(`fuzz: ${requests.length} generated bad requests`)
+  const before = await rowCounts(sql)
+  const limit = pLimit(16)
+  const fuzz = { requests: requests.length, serverErrors: 0, notProblem: 0, accepted: 0, examples: [] as string[] }
+  await Promise.all(requests.map((r, i) => limit(async () => {
+    const outcome = await sendBadRequest(`http://127.0.0.1:${i % 2 ? ports.B : ports.A}`, r)
+    const bad = outcome.status >= 500 || outcome.status < 400 || !outcome.problem
+    if (outcome.status >= 500) fuzz.serverErrors++
+    else if (outcome.status < 400) fuzz.accepted++
+    if (outcome.status >= 400 && !outcome.problem) fuzz.notProblem++
+    if (bad && fuzz.examples.length < 10) fuzz.examples.push(`${outcome.status}: ${r.why}: ${r.method} ${r.path} ${r.body?.slice(0, 100) ?? ''}`)
+  })))
+  await sleep(1500) // anything a refused request set going in the background
+  const written = rowsWritten(before, await rowCounts(sql))
+  const rowsWrittenByRejected = Object.values(written).reduce((s, n) => s + Math.abs(n), 0)
+
+  const checks = {
+    'the soak ingested and delivered something': accepted.size > 0 && deliveredDistinct > 0 && owedToNever > 0,
+    'lost = 0': lost === 0,
+    'dead = deliveries to "never"': dead === owedToNever && deadElsewhere === 0,
+    'nothing still pending': counts!.pending === 0,
+    'every succeeded delivery was received': succeededUnseen === 0,
+    'every accepted acquisition has its event': counts!.events === accepted.size,
+    'fuzz: 5xx = 0': fuzz.serverErrors === 0,
+    'fuzz: non-problem errors = 0': fuzz.notProblem === 0,
+    'fuzz: rows written by rejected = 0': rowsWrittenByRejected === 0,
+    'fuzz: none accepted': fuzz.accepted === 0,
+  }
+  exitCode = Object.values(checks).every(Boolean) ? 0 : 1
+  const report = { kind: 'chaos', at: new Date().toISOString(), node: process.version, cores: cpus().length, soak, fuzz: { ...fuzz, rowsWrittenByRejected, rowsByTable: written }, checks }
+  mkdirSync(join(root, 'reports'), { recursive: true })
+  const file = join(root, 'reports', `chaos-${report.at.replace(/[:.]/g, '-')}.json`)
+  writeFileSync(file, JSON.stringify(report, null, 2))
+  console.log('\n  Arcwise chaos report')
+  console.table({
+    'events ingested': soak.eventsIngested, 'deliveries owed': soak.deliveriesOwed, 'delivered': soak.delivered, 'duplicates (same webhook-id)': soak.duplicates,
+    'dead': soak.dead, 'dead expected ("never" endpoint)': soak.deadExpected, 'lost': soak.lost,
+    'fuzz requests': fuzz.requests, 'fuzz 5xx': fuzz.serverErrors, 'fuzz non-problem errors': fuzz.notProblem, 'fuzz rows written by rejected': rowsWrittenByRejected,
+  })
+  for (const [check, ok] of Object.entries(checks)) console.log(`  ${ok ? 'ok  ' : 'FAIL'} ${check}`)
+  if (fuzz.examples.length) console.log(`  examples:\n    ${fuzz.examples.join('\n    ')}`)
+  console.log(`  report: ${file}`)
+}
+catch (error) {
+  console.error(error)
+  exitCode = 1
+}
+finally {
+  await sql.end()
+  for (const child of Object.values(processes)) child?.kill('SIGTERM')
+  await sleep(500)
+  await stack.stop()
+  sink.close()
+  gone?.close()
+}
+process.exit(exitCode)
