@@ -31,3 +31,15 @@ export async function signInThroughForm(page: Page, email: string, password: str
   await page.getByRole('button', { name: 'Sign in' }).click()
   await page.waitForURL(/\/console/)
 }
+
+/**
+ * Walks the menu to a lab's page as a person would: Labs, then the lab. It waits for the
+ * Labs page itself, since the overview it leaves links to labs too.
+ */
+export async function openLabFromMenu(page: Page, labName: string) {
+  await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Labs' }).click()
+  await page.waitForURL(/\/console\/labs$/)
+  await expect.poll(() => page.getByRole('heading', { level: 1 }).textContent()).toBe('Labs')
+  await page.getByRole('main').getByRole('link', { name: labName, exact: true }).click()
+  await page.waitForURL(/\/console\/labs\/[0-9a-f-]{36}$/)
+}
