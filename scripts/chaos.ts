@@ -13,7 +13,7 @@
 // console routes: 5xx count, non-problem-document count, rows written: all must be 0.
 import { spawn, type ChildProcess } from 'node:child_process'
 import { createServer, type Server } from 'node:http'
-import { mkdirSync, readFileSync, writeFileSync } from 'node:fs'
+import { mkdirSync, openSync, readFileSync, writeFileSync } from 'node:fs'
 import { cpus, tmpdir } from 'node:os'
 import { join } from 'node:path'
 import fc from 'fast-check'
@@ -80,9 +80,14 @@ const env = {
   NUXT_WEBHOOKS_POLL_MS: '250',
 }
 const processes: Partial<Record<Name, ChildProcess>> = {}
+// The app processes' own output (connection errors while PostgreSQL restarts, and so on)
+// goes to a log beside the report, so that the table stays readable.
+mkdirSync(join(root, 'reports'), { recursive: true })
+const appLog = join(root, 'reports', `chaos-${new Date().toISOString().replace(/[:.]/g, '-')}-apps.log`)
+const appLogFd = openSync(appLog, 'a')
 function startApp(name: Name) {
   processes[name] = spawn(process.execPath, [join(root, '.output', 'server', 'index.mjs')], {
-    cwd: root, stdio: ['ignore', 'ignore', 'inherit'],
+    cwd: root, stdio: ['ignore', appLogFd, appLogFd],
     env: { ...process.env, ...env, NUXT_PROCESS_ROLE: roles[name], PORT: String(ports[name]), HOST: '127.0.0.1', NODE_ENV: 'production' },
   })
 }
@@ -233,7 +238,6 @@ try {
   }
   exitCode = Object.values(checks).every(Boolean) ? 0 : 1
   const report = { kind: 'chaos', at: new Date().toISOString(), node: process.version, cores: cpus().length, soak, fuzz: { ...fuzz, rowsWrittenByRejected, rowsByTable: written }, checks }
-  mkdirSync(join(root, 'reports'), { recursive: true })
   const file = join(root, 'reports', `chaos-${report.at.replace(/[:.]/g, '-')}.json`)
   writeFileSync(file, JSON.stringify(report, null, 2))
   console.log('\n  Arcwise chaos report')
@@ -244,7 +248,7 @@ try {
   })
   for (const [check, ok] of Object.entries(checks)) console.log(`  ${ok ? 'ok  ' : 'FAIL'} ${check}`)
   if (fuzz.examples.length) console.log(`  examples:\n    ${fuzz.examples.join('\n    ')}`)
-  console.log(`  report: ${file}`)
+  console.log(`  report: ${file}\n  app processes' log: ${appLog}`)
 }
 catch (error) {
   console.error(error)
