@@ -1,7 +1,7 @@
 import type { H3Event } from 'h3'
 import { eq } from 'drizzle-orm'
 import { labs, partners, users } from '../database/schema'
-import { permissions, type Permission, type Role, type SessionUser } from '#shared/types/roles'
+import { can, permissions, type Permission, type Role, type SessionUser } from '#shared/types/roles'
 
 /** The signed-in user, reloaded from the database so role changes and disabling act at once. 401 otherwise. */
 export async function requireUser(event: H3Event): Promise<SessionUser> {
@@ -39,8 +39,7 @@ export function requirePermission(event: H3Event, permission: Permission): Promi
 export async function requireLabAccess(event: H3Event, labId: string, access: 'read' | 'write'): Promise<SessionUser> {
   const user = await requireUser(event)
   if (user.role === 'lab_manager' && user.labId !== labId) throw problem(404, 'lab-not-found', 'No such lab.')
-  const allowed = access === 'read' ? ['admin', 'viewer', 'lab_manager'] : ['admin', 'lab_manager']
-  if (!allowed.includes(user.role)) throw problem(403, 'forbidden', 'Your role may not do this.')
+  if (!can(user.role, access === 'read' ? 'labs:read' : 'labs:manage')) throw problem(403, 'forbidden', 'Your role may not do this.')
   const lab = await useDb().query.labs.findFirst({ where: eq(labs.id, labId), columns: { id: true } })
   if (!lab) throw problem(404, 'lab-not-found', 'No such lab.')
   return user
@@ -54,8 +53,7 @@ export async function requireLabAccess(event: H3Event, labId: string, access: 'r
 export async function requirePartnerAccess(event: H3Event, partnerId: string, access: 'read' | 'write'): Promise<SessionUser> {
   const user = await requireUser(event)
   if (user.role === 'integrator' && user.partnerId !== partnerId) throw problem(404, 'partner-not-found', 'No such partner.')
-  const allowed = access === 'read' ? ['admin', 'viewer', 'integrator'] : ['admin', 'integrator']
-  if (!allowed.includes(user.role)) throw problem(403, 'forbidden', 'Your role may not do this.')
+  if (!can(user.role, access === 'read' ? 'partners:read' : 'partners:update')) throw problem(403, 'forbidden', 'Your role may not do this.')
   const partner = await useDb().query.partners.findFirst({ where: eq(partners.id, partnerId), columns: { id: true } })
   if (!partner) throw problem(404, 'partner-not-found', 'No such partner.')
   return user

@@ -19,6 +19,8 @@ export const permissions = {
   'labs:read': ['admin', 'viewer', 'lab_manager'],
   'labs:create': ['admin'],
   'labs:update': ['admin', 'lab_manager'],
+  // A lab's instruments, calibrations, keys, partner grants and uploads (a lab manager: their own lab only).
+  'labs:manage': ['admin', 'lab_manager'],
   'partners:read': ['admin', 'viewer', 'integrator'],
   'partners:create': ['admin'],
   'partners:update': ['admin', 'integrator'],

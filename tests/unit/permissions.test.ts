@@ -13,7 +13,8 @@ describe('permission table', () => {
   })
 
   it.each([
-    ['lab_manager', 'labs:update', true], ['lab_manager', 'partners:read', false], ['lab_manager', 'audit:read', false],
+    ['lab_manager', 'labs:update', true], ['lab_manager', 'labs:manage', true], ['lab_manager', 'partners:read', false], ['lab_manager', 'audit:read', false],
+    ['integrator', 'labs:manage', false],
     ['integrator', 'partners:update', true], ['integrator', 'labs:read', false], ['integrator', 'users:read', false],
   ] as const)('%s %s: %s', (role, permission, allowed) => {
     expect(can(role, permission)).toBe(allowed)
