@@ -15,8 +15,19 @@ export async function shot(page: Page, name: string) {
 
 const axePath = createRequire(import.meta.url).resolve('axe-core/axe.min.js')
 
-/** Runs axe-core on the page and fails on serious or critical violations. */
+// Uncaught errors in the page, from sign-in on: a broken chart or handler throws here
+// while the page can still look fine to a text check.
+const pageErrors = new WeakMap<Page, string[]>()
+export function watchPageErrors(page: Page) {
+  if (pageErrors.has(page)) return
+  const seen: string[] = []
+  pageErrors.set(page, seen)
+  page.on('pageerror', error => seen.push(error.message))
+}
+
+/** Runs axe-core on the page and fails on serious or critical violations, or on any page error seen so far. */
 export async function expectAccessible(page: Page) {
+  expect(pageErrors.get(page) ?? []).toEqual([])
   await page.addScriptTag({ path: axePath })
   const violations = await page.evaluate(async () => {
     const result = await (window as unknown as { axe: { run: () => Promise<{ violations: { id: string, impact: string, nodes: { target: string[] }[] }[] }> } }).axe.run()
@@ -26,6 +37,7 @@ export async function expectAccessible(page: Page) {
 }
 
 export async function signInThroughForm(page: Page, email: string, password: string) {
+  watchPageErrors(page)
   await page.getByLabel('E-mail').fill(email)
   await page.getByLabel('Password').fill(password)
   await page.getByRole('button', { name: 'Sign in' }).click()
