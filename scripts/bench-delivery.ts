@@ -9,7 +9,7 @@ import { readFileSync } from 'node:fs'
 import { Agent, request } from 'undici'
 import { buildIfStale } from './lib/build'
 import { demoInstruments } from './lib/demo-instruments'
-import { demoUsers } from './lib/demo'
+import { demoAdmin } from './lib/console-client'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
 import { startServer, startStack, waitForServer } from './lib/services'
@@ -44,11 +44,9 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
   try {
     await waitForServer(`${base}/api/health`)
     const keys = JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>
-    const admin = demoUsers.find(u => u.role === 'admin')!
-    const signIn = await fetch(`${base}/api/console/session`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ email: admin.email, password: admin.password }) })
-    const cookie = signIn.headers.getSetCookie().find(c => c.startsWith('nuxt-session='))!.split(';')[0]!
-    const asAdmin = <T>(method: string, path: string, body?: unknown) => fetch(`${base}${path}`, { method, headers: { 'content-type': 'application/json', cookie }, body: body === undefined ? undefined : JSON.stringify(body) }).then(r => r.json() as Promise<T>)
-    const partner = (await asAdmin<{ items: { id: string, slug: string }[] }>('GET', '/api/console/partners')).items.find(p => p.slug === 'northgate-water')!
+    const admin = await demoAdmin(base)
+    const asAdmin = async <T>(method: string, path: string, body?: unknown) => (await admin.call<T>(method, path, body)).body
+    const partner = await admin.partner('northgate-water')
     const endpoints: string[] = []
     for (let i = 0; i < endpointCount; i++) {
       const ep = await asAdmin<{ id: string }>('POST', `/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${SINK_PORT}/hook/${i}` })

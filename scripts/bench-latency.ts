@@ -8,7 +8,7 @@ import { join } from 'node:path'
 import { readFileSync } from 'node:fs'
 import { buildIfStale } from './lib/build'
 import { demoInstruments } from './lib/demo-instruments'
-import { demoUsers } from './lib/demo'
+import { demoAdmin } from './lib/console-client'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
 import { startServer, startStack, waitForServer } from './lib/services'
@@ -43,12 +43,9 @@ export async function benchLatency(opts: { count?: number, ratePerSecond?: numbe
   try {
     await waitForServer(`${base}/api/health`)
     const keys = JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>
-    const admin = demoUsers.find(u => u.role === 'admin')!
-    const signIn = await fetch(`${base}/api/console/session`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ email: admin.email, password: admin.password }) })
-    const cookie = signIn.headers.getSetCookie().find(c => c.startsWith('nuxt-session='))!.split(';')[0]!
-    const partners = await (await fetch(`${base}/api/console/partners`, { headers: { cookie } })).json() as { items: { id: string, slug: string }[] }
-    const partner = partners.items.find(p => p.slug === 'northgate-water')!
-    await fetch(`${base}/api/console/partners/${partner.id}/endpoints`, { method: 'POST', headers: { 'content-type': 'application/json', cookie }, body: JSON.stringify({ url: `http://127.0.0.1:${SINK_PORT}/hook` }) })
+    const admin = await demoAdmin(base)
+    const partner = await admin.partner('northgate-water')
+    await admin.call('POST', `/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${SINK_PORT}/hook` })
     // The demo carbonate bench's acquisitions as its lab system sends them (12,000 points).
     const inst = demoInstruments.find(i => i.slug === 'irms-north')!
     const body = inst.acquisition('x', new Date(), 2)

@@ -20,7 +20,7 @@ import fc from 'fast-check'
 import pLimit from 'p-limit'
 import postgres from 'postgres'
 import { buildIfStale } from './lib/build'
-import { demoUsers } from './lib/demo'
+import { demoAdmin } from './lib/console-client'
 import { demoInstruments } from './lib/demo-instruments'
 import { badRequests, rowCounts, rowsWritten, sendBadRequest } from './lib/fuzz'
 import { log, root } from './lib/paths'
@@ -108,17 +108,15 @@ const sql = postgres(stack.databaseUrl, { max: 2, onnotice: () => {} })
 let exitCode: number
 try {
   const keys = JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>
-  const admin = demoUsers.find(u => u.role === 'admin')!
-  const signIn = await fetch(`${appUrl}/api/console/session`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ email: admin.email, password: admin.password }) })
-  const cookie = signIn.headers.getSetCookie().find(c => c.startsWith('nuxt-session='))!.split(';')[0]!
-  const asAdmin = <T>(method: string, path: string, body?: unknown) => fetch(`${appUrl}${path}`, { method, headers: { 'content-type': 'application/json', cookie }, body: body === undefined ? undefined : JSON.stringify(body) }).then(r => r.json() as Promise<T>)
-  const partner = (await asAdmin<{ items: { id: string, slug: string }[] }>('GET', '/api/console/partners')).items.find(p => p.slug === 'northgate-water')!
+  const admin = await demoAdmin(appUrl)
+  const { cookie } = admin
+  const partner = await admin.partner('northgate-water')
   const endpointNames = ['steady', 'flaky', 'slow', 'gone', 'never'] as const
   const endpointIds: Record<string, string> = {}
   for (const name of endpointNames) {
     const port = name === 'gone' ? GONE : SINK
-    const ep = await asAdmin<{ id: string }>('POST', `/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${port}/${name}`, eventTypes: ['result.created'] })
-    endpointIds[name] = ep.id
+    const ep = await admin.call<{ id: string }>('POST', `/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${port}/${name}`, eventTypes: ['result.created'] })
+    endpointIds[name] = ep.body.id
   }
 
   // ── Soak ─────────────────────────────────────────────────────────────────────────────
