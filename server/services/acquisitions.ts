@@ -43,7 +43,7 @@ export async function listAcquisitions(labId: string, query: z.output<typeof acq
 
 /** One acquisition of the lab with its current result; another lab's is 404 like a missing one. */
 export async function getAcquisition(labId: string, id: string) {
-  const [row] = await useDb().select({ acq: acquisitions, res: results, slug: instruments.slug }).from(acquisitions)
+  const [row] = await useDb().select({ acq: acquisitionHead, res: results, slug: instruments.slug }).from(acquisitions)
     .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
@@ -51,26 +51,29 @@ export async function getAcquisition(labId: string, id: string) {
   return resultView(row.acq, row.res, row.slug)
 }
 
+const PAYLOAD_PREVIEW_CHARS = 6000
+
 /**
  * What the console shows of one acquisition: the API's view, where it came from (instrument,
  * geometry kind) and the first characters of the raw payload as stored. The payload itself
  * can be tens of megabytes, so PostgreSQL cuts it rather than sending it to the app.
  */
 export async function acquisitionDetail(labId: string, id: string) {
-  const view = await getAcquisition(labId, id)
-  const [row] = await useDb().execute<{ instrument_id: string, instrument_name: string, geometry_kind: string, head: string, chars: number }>(sql`
-    select i.id as instrument_id, i.name as instrument_name, g.kind as geometry_kind,
-      left(jsonb_pretty(a.payload), ${PAYLOAD_PREVIEW_CHARS}) as head, length(a.payload::text) as chars
-    from ${acquisitions} a join ${instruments} i on i.id = a.instrument_id
-    join ${results} r on r.acquisition_id = a.id join ${geometryVersions} g on g.id = r.geometry_version_id
-    where a.id = ${id}::uuid and a.lab_id = ${labId}::uuid limit 1`)
+  const [row] = await useDb().select({
+    acq: acquisitionHead, res: results, slug: instruments.slug, instrumentName: instruments.name, geometryKind: geometryVersions.kind,
+    head: sql<string>`left(jsonb_pretty(${acquisitions.payload}), ${PAYLOAD_PREVIEW_CHARS})`, chars: sql<number>`length(${acquisitions.payload}::text)`,
+  }).from(acquisitions)
+    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+    .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
+    .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
+    .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
+  if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
   return {
-    ...view,
-    instrumentId: row!.instrument_id, instrumentName: row!.instrument_name, geometryKind: row!.geometry_kind,
-    payload: { head: row!.head, chars: row!.chars, truncated: row!.head.length >= PAYLOAD_PREVIEW_CHARS },
+    ...resultView(row.acq, row.res, row.slug),
+    instrumentId: row.acq.instrumentId, instrumentName: row.instrumentName, geometryKind: row.geometryKind,
+    payload: { head: row.head, chars: Number(row.chars), truncated: row.head.length >= PAYLOAD_PREVIEW_CHARS },
   }
 }
-const PAYLOAD_PREVIEW_CHARS = 6000
 
 /** The acquisition's stored payload as JSON text, for download. */
 export async function acquisitionPayload(labId: string, id: string) {

@@ -1,5 +1,5 @@
 import { createHash, randomUUID } from 'node:crypto'
-import { and, eq, sql, type SQL } from 'drizzle-orm'
+import { and, eq, getTableColumns, sql, type SQL } from 'drizzle-orm'
 import { geometry as geometrySchema, processMzSpectrum, processReadings, type EngineResult, type RawReadings } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import { acquisitions, events, labs, peaks, results, uploads } from '../database/schema'
@@ -25,8 +25,16 @@ export function bodyHash(body: object): string {
   return canonicalBody(body).hash
 }
 
+/**
+ * An acquisition's columns without its payload: the payload can be tens of megabytes, and
+ * nothing that answers with a result needs it.
+ */
+const { payload: _payload, ...acquisitionHead } = getTableColumns(acquisitions)
+export { acquisitionHead }
+export type AcquisitionHead = Omit<typeof acquisitions.$inferSelect, 'payload'>
+
 /** What the API answers for one acquisition and its result. */
-export function resultView(acq: typeof acquisitions.$inferSelect, res: typeof results.$inferSelect, instrumentSlug: string) {
+export function resultView(acq: AcquisitionHead, res: typeof results.$inferSelect, instrumentSlug: string) {
   const summary = res.summary as unknown as EngineResult & { geometryVersion: number, calibrationVersion: number | null }
   return {
     id: acq.id,
@@ -162,13 +170,13 @@ function recordAcceptedStatement(acq: typeof acquisitions.$inferSelect, res: typ
 }
 
 async function findByRunId(labId: string, runId: string) {
-  const [row] = await useDb().select({ acq: acquisitions, res: results }).from(acquisitions)
+  const [row] = await useDb().select({ acq: acquisitionHead, res: results }).from(acquisitions)
     .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
     .where(and(eq(acquisitions.labId, labId), eq(acquisitions.externalId, runId))).limit(1)
   return row
 }
 
-function replayOrConflict(existing: { acq: typeof acquisitions.$inferSelect, res: typeof results.$inferSelect }, hash: string, slug: string) {
+function replayOrConflict(existing: { acq: AcquisitionHead, res: typeof results.$inferSelect }, hash: string, slug: string) {
   if (existing.acq.bodyHash !== hash) throw fieldProblem('runId', 'this run id was accepted before with a different body', 409, 'run-id-conflict')
   return { status: 200 as const, body: resultView(existing.acq, existing.res, slug) }
 }
