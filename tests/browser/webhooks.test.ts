@@ -132,4 +132,20 @@ describe('webhooks in the console', () => {
     await expect.poll(() => page.getByRole('row', { name: /LIMS nightly import/ }).textContent()).toContain('revoked')
     expect((await token({ client_id: clientId, client_secret: secret })).status).toBe(401)
   })
+
+  it('an integrator sees which labs share their results with the partner', async () => {
+    const page = await createPage('/sign-in')
+    await signInThroughForm(page, demoUser('integrator').email, demoUser('integrator').password)
+    await page.getByRole('link', { name: 'Webhooks' }).click()
+    await page.waitForURL(/\/webhooks$/)
+    await page.getByRole('navigation', { name: 'Partner' }).getByRole('link', { name: 'Details' }).click()
+    await page.waitForURL(/\/partners\/[0-9a-f-]{36}$/)
+    // The demo seed: Saltmarsh and Kestrel grant Northgate Water Authority; Halvard Ridge does not.
+    const granted = page.getByRole('region', { name: 'Labs that share their results with this partner' })
+    await expect.poll(() => granted.textContent()).toContain('Saltmarsh Stable Isotope Lab')
+    expect(await granted.textContent()).toContain('Kestrel Leak-Test Services')
+    expect(await granted.textContent()).not.toContain('Halvard Ridge')
+    await expectAccessible(page)
+    await shot(page, 'partner-granted-labs')
+  })
 })
