@@ -47,10 +47,13 @@ export function benchEngine() {
   const sizes = [1_000, 10_000, 100_000, 1_000_000]
   const pipeline = sizes.map((points) => {
     const raw = simulate(points)
-    const runs = points >= 1_000_000 ? 7 : points >= 100_000 ? 15 : 201
-    // As many warm-up runs as timed ones: a 10^3-point call is short enough that 5 warm-ups
-    // left the JIT cold and the figure was mostly compilation.
-    const ms = time(() => { sink += processReadings(geo, raw, { formulas: ['N2', 'O2', 'CO2', '[13C]O2', 'CO'] }).peaks.length }, runs, Math.max(5, runs))
+    // Each timed sample processes about 10^6 points (a thousand 10^3-point calls, or one
+    // 10^6-point call), so timer resolution and a stray GC weigh alike on every size.
+    const calls = Math.max(1, Math.round(1_000_000 / points))
+    const sampleMs = time(() => {
+      for (let c = 0; c < calls; c++) sink += processReadings(geo, raw, { formulas: ['N2', 'O2', 'CO2', '[13C]O2', 'CO'] }).peaks.length
+    }, points >= 1_000_000 ? 7 : 15, 3)
+    const ms = sampleMs / calls
     return { points, ms: round(ms, 3), pointsPerSecond: Math.round(points / ms * 1000), nsPerPoint: round(ms * 1e6 / points, 1) }
   })
   const perPoint = pipeline.map(p => p.nsPerPoint)
