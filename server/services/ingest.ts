@@ -1,11 +1,9 @@
 import { createHash, randomUUID } from 'node:crypto'
-import { and, eq, getTableColumns, sql, type SQL } from 'drizzle-orm'
+import { and, eq, getTableColumns } from 'drizzle-orm'
 import { geometry as geometrySchema, processMzSpectrum, processReadings, type EngineResult, type RawReadings } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
-import { acquisitions, events, labs, peaks, results, uploads } from '../database/schema'
+import { acquisitions, results } from '../database/schema'
 import type { LabKey } from './apiKeys'
-
-export const RESULT_EVENT = 'result.created'
 
 // The body is serialised once per request: the Idempotency-Key check, the run-id check and
 // the stored payload all use the same text.
@@ -121,52 +119,20 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
   }
   const view = resultView(acq, res, instrument.slug)
   try {
-    const payload = opts.upload ? sql`(select body from ${uploads} where id = ${opts.upload.id}::uuid)` : sql`${canonicalBody(input).json}::jsonb`
-    await useDb().execute(recordAcceptedStatement(acq, res, payload, engine.peaks, view))
+    const { payload: _, ...head } = acq
+    await recordAccepted({ acq: head, res, payload: opts.upload ? { uploadId: opts.upload.id } : { json: canonicalBody(input).json }, peaks: engine.peaks, view })
     if (opts.schemaId) countSchemaUse(opts.schemaId, key.labId)
     kickDeliveries()
     return { status: 201, body: view }
   }
   catch (error) {
     // Two requests with one run id at once: the unique index lets one in; the other replays or conflicts.
-    if ((error as { code?: string }).code === '23505') {
+    if (pgErrorCode(error) === '23505') {
       const winner = await findByRunId(key.labId, input.runId)
       if (winner) return replayOrConflict(winner, hash, instrument.slug)
     }
     throw error
   }
-}
-
-/**
- * The acquisition, its result, its peaks and the outbox event as ONE statement, so one
- * implicit transaction. Events are numbered per lab under the lab row's lock; inside a
- * single statement that lock is held only until the statement's own commit, never across
- * a round trip to a busy app process (bench:ingest found that wait to be the bottleneck).
- * The deliveries the event owes are written by the same statement.
- */
-function recordAcceptedStatement(acq: typeof acquisitions.$inferSelect, res: typeof results.$inferSelect, payload: SQL, enginePeaks: EngineResult['peaks'], view: AcquisitionResultView) {
-  const peakRows = enginePeaks.map(p => ({ mz: p.centroid, area: p.area, species: p.assignment?.species ?? null, charge: p.assignment?.z ?? null }))
-  const at = acq.createdAt.toISOString()
-  return sql`
-    with acq as (
-      insert into ${acquisitions} (id, lab_id, instrument_id, external_id, acquired_at, sample_ref, status, body_hash, payload, point_count, created_at)
-      values (${acq.id}::uuid, ${acq.labId}::uuid, ${acq.instrumentId}::uuid, ${acq.externalId}, ${acq.acquiredAt.toISOString()}::timestamptz, ${acq.sampleRef},
-              ${acq.status}, ${acq.bodyHash}, ${payload}, ${acq.pointCount}, ${at}::timestamptz)),
-    res as (
-      insert into ${results} (id, acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, created_at)
-      values (${res.id}::uuid, ${acq.id}::uuid, ${acq.labId}::uuid, ${res.geometryVersionId}::uuid, ${res.calibrationId}::uuid, ${res.engineVersion},
-              ${JSON.stringify(res.summary)}::jsonb, ${at}::timestamptz)),
-    pk as (
-      insert into ${peaks} (result_id, lab_id, mz, area, species, charge)
-      select ${res.id}::uuid, ${acq.labId}::uuid, p.mz, p.area, p.species, p.charge
-      from jsonb_to_recordset(${JSON.stringify(peakRows)}::jsonb) as p(mz float8, area float8, species text, charge int)),
-    seq as (
-      update ${labs} set event_sequence = event_sequence + 1 where id = ${acq.labId}::uuid returning event_sequence),
-    ev as (
-      insert into ${events} (lab_id, sequence, type, payload, created_at)
-      select ${acq.labId}::uuid, seq.event_sequence, ${RESULT_EVENT}, ${JSON.stringify(view)}::jsonb, ${at}::timestamptz from seq
-      returning id)
-    ${fanOut(acq.labId, RESULT_EVENT)}`
 }
 
 async function findByRunId(labId: string, runId: string) {

@@ -20,16 +20,17 @@ function newSecret() {
 }
 
 /**
- * The final clause of a statement that records an event (a CTE named `ev` returning its id):
- * one delivery per endpoint that takes `eventType` from `labId`, within the partner's grant.
- * Paused endpoints collect their deliveries and get them when resumed.
+ * The final clause of a statement that records events (a CTE named `ev` returning their ids):
+ * one delivery per endpoint that takes `eventType` from the event's lab (`lab`, an SQL
+ * expression such as `ev.lab_id`), within the partner's grant. Paused endpoints collect
+ * their deliveries and get them when resumed.
  */
-export function fanOut(labId: string, eventType: string): SQL {
+export function fanOut(eventType: string, lab: SQL): SQL {
   return sql`insert into ${deliveries} (endpoint_id, event_id, event_type)
     select e.id, ev.id, ${eventType} from ev
     join ${webhookEndpoints} e on e.status in ('active', 'paused') and ${eventType} = any(e.event_types)
-      and (cardinality(e.lab_ids) = 0 or ${labId}::uuid = any(e.lab_ids))
-    join ${grants} g on g.partner_id = e.partner_id and g.lab_id = ${labId}::uuid and ${eventType} = any(g.event_types)`
+      and (cardinality(e.lab_ids) = 0 or ${lab} = any(e.lab_ids))
+    join ${grants} g on g.partner_id = e.partner_id and g.lab_id = ${lab} and ${eventType} = any(g.event_types)`
 }
 
 function checkUrlField(url: string) {

@@ -49,10 +49,30 @@ function preparedStatements(sql: postgres.Sql): postgres.Sql {
   })
 }
 
+/**
+ * Calls `onMessage` with the payload of every NOTIFY on `channel`, on a connection of its own;
+ * `onListen` runs each time that connection is (re)established, when messages sent while it
+ * was down are lost.
+ */
+export function listenDb(channel: string, onMessage: (payload: string) => void, onListen: () => void) {
+  useDb()
+  return client!.listen(channel, onMessage, onListen)
+}
+
 export async function closeDb() {
   await client?.end({ timeout: 5 })
   client = undefined
   database = undefined
+}
+
+/**
+ * The SQLSTATE of a failed statement (e.g. '23505', unique violation). Drizzle wraps the
+ * driver's error in its own (DrizzleQueryError) with the original as `cause`.
+ */
+export function pgErrorCode(error: unknown): string | undefined {
+  const e = error as { code?: unknown, cause?: { code?: unknown } } | null
+  const code = e?.code ?? e?.cause?.code
+  return typeof code === 'string' ? code : undefined
 }
 
 /** The one row a statement must return (an INSERT … RETURNING, an aggregate). */

@@ -54,6 +54,33 @@ describe('POST /api/v1/acquisitions', () => {
     expect(early.body.errors[0].path).toBe('acquiredAt')
   })
 
+  it('many acquisitions of two labs at once: each written whole, each lab\'s events numbered 1..n without a gap, a run id sent twice at once kept single', async () => {
+    // The server writes the acquisitions accepted in one turn of its event loop with one
+    // statement; what a lab sees must be as if each had been written alone.
+    const a = await labWithInstrument()
+    const b = await labWithInstrument()
+    const twice = co2Acquisition(unique('twice'), 600)
+    const posts = [
+      ...Array.from({ length: 10 }, () => ({ lab: a, res: post(a.key.secret, co2Acquisition(unique('run'), 600)) })),
+      ...Array.from({ length: 10 }, () => ({ lab: b, res: post(b.key.secret, co2Acquisition(unique('run'), 600)) })),
+      { lab: a, res: post(a.key.secret, twice) }, { lab: a, res: post(a.key.secret, twice) },
+    ]
+    const answers = await Promise.all(posts.map(async p => ({ lab: p.lab, res: await p.res })))
+    expect(answers.map(x => x.res.status).sort()).toEqual([...Array(21).fill(201), 200].sort())
+    const sql = a.sql
+    for (const [lab, n] of [[a.lab, 11], [b.lab, 10]] as const) {
+      const seqs = await sql`select sequence::int as s from events where lab_id = ${lab.id} order by sequence`
+      expect(seqs.map((r: any) => r.s)).toEqual(Array.from({ length: n }, (_, i) => i + 1))
+      expect(await countRows(sql, lab.id)).toEqual({ a: n, e: n })
+    }
+    // Every answer is its own acquisition's, and its event carries the same result.
+    for (const { lab, res } of answers) {
+      const [row] = await sql`select a.external_id, e.payload->>'id' as event_of, (select count(*)::int from peaks p join results r on r.id = p.result_id where r.acquisition_id = a.id) as peaks
+        from acquisitions a join results r on r.acquisition_id = a.id join events e on e.payload->>'id' = a.id::text where a.id = ${res.body.id} and a.lab_id = ${lab.lab.id}`
+      expect(row).toEqual({ external_id: res.body.runId, event_of: res.body.id, peaks: res.body.result.peaks.length })
+    }
+  })
+
   it('the same run id with the same body replays; with another body, 409', async () => {
     const { key, lab, sql } = await labWithInstrument()
     const body = co2Acquisition()
