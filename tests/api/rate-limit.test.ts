@@ -20,4 +20,16 @@ describe('rate limits per key', () => {
     const [row] = await testDb()`select points from rate_limits where key = ${`api:lab-key:${key.id}`}`
     expect(row!.points).toBeGreaterThanOrEqual(7)
   })
+
+  it('lets exactly the limit through when a burst arrives at once, however the requests are counted together', async () => {
+    // The server counts a key's requests of one event-loop turn in one statement; the
+    // answer must be the same as counting them one by one: 5 pass, the rest 429.
+    const { key } = await labWithInstrument()
+    const answers = await Promise.all(Array.from({ length: 12 }, () => new ConsoleClient().request('GET', '/api/v1/acquisitions', undefined, bearer(key.secret))))
+    const statuses = answers.map(a => a.status).sort()
+    expect(statuses).toEqual([...Array(5).fill(200), ...Array(7).fill(429)])
+    for (const refused of answers.filter(a => a.status === 429)) expect(Number(refused.headers.get('retry-after'))).toBeGreaterThan(0)
+    const [row] = await testDb()`select points from rate_limits where key = ${`api:lab-key:${key.id}`}`
+    expect(row!.points).toBe(12)
+  })
 })
