@@ -1,6 +1,6 @@
 import type { H3Event } from 'h3'
 import { randomBytes, timingSafeEqual } from 'node:crypto'
-import { and, desc, eq, isNull } from 'drizzle-orm'
+import { and, desc, eq, isNull, sql } from 'drizzle-orm'
 import type { ApiKeyInput, KeyScope } from '#shared/schemas/instruments'
 import type { SessionUser } from '#shared/types/roles'
 import { apiKeys } from '../database/schema'
@@ -34,7 +34,40 @@ export async function revokeKey(event: H3Event, actor: SessionUser, labId: strin
   const [row] = await useDb().update(apiKeys).set({ revokedAt: new Date() })
     .where(and(eq(apiKeys.id, keyId), eq(apiKeys.labId, labId), isNull(apiKeys.revokedAt))).returning(publicColumns)
   if (!row) throw problem(404, 'key-not-found', 'No active key with this id in this lab.')
+  knownKeys.delete(row.prefix)
+  await useDb().execute(sql`select pg_notify(${KEY_CHANNEL}, ${row.prefix})`)
   await recordAudit(useDb(), { actor: actorOf(actor), action: 'key.revoked', targetType: 'api-key', targetId: keyId, event, detail: { labId, prefix: row.prefix } })
+  return row
+}
+
+// Key rows are kept in memory for a few seconds, so a lab system posting at full speed does
+// not look its key up on every request. A revocation reaches every app process at once by
+// NOTIFY; should the listening connection drop, its messages are lost until it is back
+// (the cache is emptied then), and KEY_CACHE_MS bounds how long a revoked key could still
+// pass. Nothing is cached before the listener is up.
+const KEY_CHANNEL = 'arcwise_api_keys'
+const KEY_CACHE_MS = 10_000
+const knownKeys = new Map<string, { row: typeof apiKeys.$inferSelect, until: number }>()
+let listener: Promise<unknown> | undefined
+let listening = false
+
+function watchRevocations() {
+  listener ??= listenDb(KEY_CHANNEL, prefix => knownKeys.delete(prefix), () => { knownKeys.clear(); listening = true })
+    .catch((error) => {
+      listener = undefined
+      console.error('[keys] cannot listen for revocations; keys are looked up on every request', error)
+    })
+}
+
+async function keyRow(prefix: string) {
+  watchRevocations()
+  const known = listening ? knownKeys.get(prefix) : undefined
+  if (known && known.until > Date.now()) return known.row
+  const row = await useDb().query.apiKeys.findFirst({ where: eq(apiKeys.prefix, prefix) })
+  if (row && listening) {
+    if (knownKeys.size >= 10_000) knownKeys.clear()
+    knownKeys.set(prefix, { row, until: Date.now() + KEY_CACHE_MS })
+  }
   return row
 }
 
@@ -49,7 +82,7 @@ export async function requireLabKey(event: H3Event, scope: KeyScope): Promise<La
   const match = /^Bearer (awk_([A-Za-z0-9_-]{12})_[A-Za-z0-9_-]{43})$/.exec(header)
   if (!match) throw invalidKey()
   const [, secret, prefix] = match
-  const row = await useDb().query.apiKeys.findFirst({ where: eq(apiKeys.prefix, prefix!) })
+  const row = await keyRow(prefix!)
   if (!row) throw invalidKey()
   const same = timingSafeEqual(Buffer.from(row.secretHash, 'hex'), Buffer.from(hashToken(secret!), 'hex'))
   if (!same || row.revokedAt || (row.expiresAt && row.expiresAt <= new Date())) throw invalidKey()
@@ -57,7 +90,8 @@ export async function requireLabKey(event: H3Event, scope: KeyScope): Promise<La
   await consumeRateLimit('lab-key', row.id)
   // Last use is kept to the minute, so a busy key does not write on every request.
   if (!row.lastUsedAt || Date.now() - row.lastUsedAt.getTime() > 60_000) {
-    await useDb().update(apiKeys).set({ lastUsedAt: new Date() }).where(eq(apiKeys.id, row.id))
+    row.lastUsedAt = new Date()
+    await useDb().update(apiKeys).set({ lastUsedAt: row.lastUsedAt }).where(eq(apiKeys.id, row.id))
   }
   return { id: row.id, labId: row.labId, scopes: row.scopes as KeyScope[], name: row.name }
 }
