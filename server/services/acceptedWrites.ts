@@ -1,6 +1,7 @@
 import { sql } from 'drizzle-orm'
 import type { EngineResult } from '#shared/engine'
 import { acquisitions, events, labs, peaks, results, uploads } from '../database/schema'
+import type { Outcome } from '../utils/turnBatch'
 import type { AcquisitionHead, AcquisitionResultView } from './ingest'
 
 // Writing accepted acquisitions. Every acquisition accepted in the same turn of the event
@@ -8,7 +9,7 @@ import type { AcquisitionHead, AcquisitionResultView } from './ingest'
 // row, result, peaks, outbox event and the deliveries the event owes. A group commit: under
 // load, the statement's fixed costs (executor start-up, the locks on some twenty relations
 // and indexes, the WAL flush at commit, the round trip) are paid once for the group, not
-// once per acquisition. A lone request waits no longer than one turn (setImmediate).
+// once per acquisition (batchPerTurn).
 
 const RESULT_EVENT = 'result.created'
 
@@ -21,49 +22,35 @@ export interface AcceptedEntry {
   view: AcquisitionResultView
 }
 
-interface Waiting { entry: AcceptedEntry, bytes: number, resolve: () => void, reject: (error: unknown) => void }
-
 // A group is also bounded by size, so 10^5-point bodies do not make one huge statement.
 const MAX_GROUP = 16
 const MAX_GROUP_BYTES = 4 * 1024 * 1024
 
-const queue: Waiting[] = []
-let flushScheduled = false
+const sizeOf = (entry: AcceptedEntry) => 'json' in entry.payload ? entry.payload.json.length : 0
 
 /** Writes one accepted acquisition (with whatever else was accepted in this turn); resolves once committed. */
-export function recordAccepted(entry: AcceptedEntry): Promise<void> {
-  return new Promise((resolve, reject) => {
-    queue.push({ entry, bytes: 'json' in entry.payload ? entry.payload.json.length : 0, resolve, reject })
-    if (!flushScheduled) {
-      flushScheduled = true
-      setImmediate(flush)
-    }
-  })
-}
-
-function flush() {
-  flushScheduled = false
-  while (queue.length) {
-    const group = [queue.shift()!]
-    let bytes = group[0]!.bytes
-    while (queue.length && group.length < MAX_GROUP && bytes + queue[0]!.bytes <= MAX_GROUP_BYTES) {
-      bytes += queue[0]!.bytes
-      group.push(queue.shift()!)
-    }
-    void write(group)
+export const recordAccepted = batchPerTurn<AcceptedEntry, undefined>(async (entries) => {
+  const outcomes: Promise<Outcome<undefined>[]>[] = []
+  for (let start = 0; start < entries.length;) {
+    let end = start + 1
+    let bytes = sizeOf(entries[start]!)
+    while (end < entries.length && end - start < MAX_GROUP && bytes + sizeOf(entries[end]!) <= MAX_GROUP_BYTES) bytes += sizeOf(entries[end++]!)
+    outcomes.push(write(entries.slice(start, end)))
+    start = end
   }
-}
+  return (await Promise.all(outcomes)).flat()
+})
 
-async function write(group: Waiting[]) {
+async function write(group: AcceptedEntry[]): Promise<Outcome<undefined>[]> {
   try {
-    await useDb().execute(acceptedStatement(group.map(w => w.entry)))
-    for (const w of group) w.resolve()
+    await useDb().execute(acceptedStatement(group))
+    return group.map(() => ({ value: undefined }))
   }
   catch (error) {
-    if (group.length === 1) return group[0]!.reject(error)
+    if (group.length === 1) return [{ error }]
     // The statement wrote nothing. One entry's failure (its run id sent twice at once, a
     // deadlock with another group) must not fail the others: each is written alone.
-    await Promise.all(group.map(w => write([w])))
+    return (await Promise.all(group.map(entry => write([entry])))).flat()
   }
 }
 

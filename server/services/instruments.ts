@@ -104,7 +104,6 @@ export async function calibrationFromReference(labId: string, instrumentId: stri
   catch (error) { engineProblem(error, 'reference.') }
 }
 
-/** The geometry version in force at `at`: the latest one valid from at or before it. */
 export interface InstrumentContext {
   id: string
   slug: string
@@ -113,22 +112,36 @@ export interface InstrumentContext {
   runSeen: boolean
 }
 
+interface ContextQuery { labId: string, slug: string, at: string, runId: string }
+
+// The lookups of one event-loop turn go to PostgreSQL as one statement (batchPerTurn).
+const lookUpTogether = batchPerTurn<ContextQuery, InstrumentContext | undefined>(async (queries) => {
+  const rows = await useDb().execute<{ ord: number, id: string | null, slug: string, geometry: InstrumentContext['geometry'], calibration: InstrumentContext['calibration'], run_seen: boolean }>(sql`
+    select q.ord, i.id, i.slug,
+      (select json_build_object('id', g.id, 'version', g.version, 'params', g.params) from ${geometryVersions} g
+        where g.instrument_id = i.id and g.valid_from <= q.at order by g.valid_from desc, g.version desc limit 1) as geometry,
+      (select json_build_object('id', c.id, 'version', c.version, 'fit', c.fit) from ${calibrations} c
+        where c.instrument_id = i.id and c.valid_from <= q.at order by c.valid_from desc, c.version desc limit 1) as calibration,
+      exists (select 1 from ${acquisitions} a where a.lab_id = q.lab_id and a.external_id = q.run_id) as run_seen
+    from jsonb_to_recordset(${JSON.stringify(queries.map((q, ord) => ({ ord, lab_id: q.labId, slug: q.slug, at: q.at, run_id: q.runId })))}::jsonb)
+      as q(ord int, lab_id uuid, slug text, at timestamptz, run_id text)
+    left join ${instruments} i on i.lab_id = q.lab_id and i.slug = q.slug`)
+  const byOrd = new Map([...rows].map(r => [Number(r.ord), r]))
+  return queries.map((_, ord) => {
+    const row = byOrd.get(ord)
+    return { value: row?.id ? { id: row.id, slug: row.slug, geometry: row.geometry, calibration: row.calibration, runSeen: row.run_seen } : undefined }
+  })
+})
+
 /**
  * What ingest needs to know about a lab's instrument, in one round trip: the geometry and
  * calibration versions in force at `at`, and whether the lab already sent `runId`.
  */
-export async function instrumentContextAt(labId: string, slug: string, at: Date, runId: string): Promise<InstrumentContext | undefined> {
-  const [row] = await useDb().execute<{ id: string, slug: string, geometry: InstrumentContext['geometry'], calibration: InstrumentContext['calibration'], run_seen: boolean }>(sql`
-    select i.id, i.slug,
-      (select json_build_object('id', g.id, 'version', g.version, 'params', g.params) from ${geometryVersions} g
-        where g.instrument_id = i.id and g.valid_from <= ${at.toISOString()}::timestamptz order by g.valid_from desc, g.version desc limit 1) as geometry,
-      (select json_build_object('id', c.id, 'version', c.version, 'fit', c.fit) from ${calibrations} c
-        where c.instrument_id = i.id and c.valid_from <= ${at.toISOString()}::timestamptz order by c.valid_from desc, c.version desc limit 1) as calibration,
-      exists (select 1 from ${acquisitions} a where a.lab_id = i.lab_id and a.external_id = ${runId}) as run_seen
-    from ${instruments} i where i.lab_id = ${labId}::uuid and i.slug = ${slug}`)
-  return row && { id: row.id, slug: row.slug, geometry: row.geometry, calibration: row.calibration, runSeen: row.run_seen }
+export function instrumentContextAt(labId: string, slug: string, at: Date, runId: string): Promise<InstrumentContext | undefined> {
+  return lookUpTogether({ labId, slug, at: at.toISOString(), runId })
 }
 
+/** The geometry version in force at `at`: the latest one valid from at or before it. */
 export async function geometryAt(instrumentId: string, at: Date, db: Queryable = useDb()) {
   const [row] = await db.select().from(geometryVersions)
     .where(and(eq(geometryVersions.instrumentId, instrumentId), lte(geometryVersions.validFrom, at)))

@@ -11,37 +11,19 @@ import { rateLimits } from '../database/schema'
 // on the one counter row (bench:ingest).
 let limiter: RateLimiterDrizzle | undefined
 
-interface Waiting { resolve: () => void, reject: (error: unknown) => void }
-const waiting = new Map<string, Waiting[]>()
-
-export function consumeRateLimit(kind: 'lab-key' | 'partner', id: string): Promise<void> {
-  // 0 turns the limit off (a deployment behind its own gateway limits there).
-  if (Number(useRuntimeConfig().rateLimit.perMinute) === 0) return Promise.resolve()
-  const key = `${kind}:${id}`
-  return new Promise((resolve, reject) => {
-    let group = waiting.get(key)
-    if (!group) {
-      waiting.set(key, group = [])
-      setImmediate(() => void count(key))
-    }
-    group.push({ resolve, reject })
-  })
-}
-
-async function count(key: string) {
-  const group = waiting.get(key)!
-  waiting.delete(key)
+const countTogether = batchPerTurn<string, undefined>(async (keys) => {
   const perMinute = Number(useRuntimeConfig().rateLimit.perMinute)
   limiter ??= new RateLimiterDrizzle({ storeClient: useDb(), schema: rateLimits, keyPrefix: 'api', points: perMinute, duration: 60 })
-  try {
-    const res = await limiter.penalty(key, group.length)
-    const room = Math.max(0, perMinute - (res.consumedPoints - group.length))
-    const seconds = Math.max(1, Math.ceil(res.msBeforeNext / 1000))
-    group.forEach((w, i) => i < room
-      ? w.resolve()
-      : w.reject(problem(429, 'rate-limited', `Too many requests for this key; retry in ${seconds} s.`, { headers: { 'retry-after': String(seconds) } })))
-  }
-  catch (error) {
-    for (const w of group) w.reject(error)
-  }
+  const res = await limiter.penalty(keys[0]!, keys.length)
+  const room = Math.max(0, perMinute - (res.consumedPoints - keys.length))
+  const seconds = Math.max(1, Math.ceil(res.msBeforeNext / 1000))
+  return keys.map((_, i) => i < room
+    ? { value: undefined }
+    : { error: problem(429, 'rate-limited', `Too many requests for this key; retry in ${seconds} s.`, { headers: { 'retry-after': String(seconds) } }) })
+}, key => key)
+
+export function consumeRateLimit(kind: 'lab-key' | 'partner', id: string): Promise<undefined> {
+  // 0 turns the limit off (a deployment behind its own gateway limits there).
+  if (Number(useRuntimeConfig().rateLimit.perMinute) === 0) return Promise.resolve(undefined)
+  return countTogether(`${kind}:${id}`)
 }
