@@ -109,9 +109,9 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
   catch (error) { engineProblem(error) }
 
   const summary = { ...engine, geometryVersion: geo.version, calibrationVersion: calibration?.version ?? null }
-  const acq: typeof acquisitions.$inferSelect = {
+  const acq: AcquisitionHead = {
     id: randomUUID(), labId: key.labId, instrumentId: instrument.id, externalId: input.runId, acquiredAt, sampleRef: input.sampleRef ?? null,
-    status: 'processed', bodyHash: hash, payload: input as unknown as Record<string, unknown>, pointCount: engine.points, createdAt: new Date(),
+    status: 'processed', bodyHash: hash, pointCount: engine.points, createdAt: new Date(),
   }
   const res: typeof results.$inferSelect = {
     id: randomUUID(), acquisitionId: acq.id, labId: key.labId, geometryVersionId: geo.id, calibrationId: calibration?.id ?? null,
@@ -119,8 +119,7 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
   }
   const view = resultView(acq, res, instrument.slug)
   try {
-    const { payload: _, ...head } = acq
-    await recordAccepted({ acq: head, res, payload: opts.upload ? { uploadId: opts.upload.id } : { json: canonicalBody(input).json }, peaks: engine.peaks, view })
+    await recordAccepted({ acq, res, payload: opts.upload ? { uploadId: opts.upload.id } : { json: canonicalBody(input).json }, peaks: engine.peaks, view })
     if (opts.schemaId) countSchemaUse(opts.schemaId, key.labId)
     kickDeliveries()
     return { status: 201, body: view }
