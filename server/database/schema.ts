@@ -362,7 +362,9 @@ export const deliveries = pgTable('deliveries', {
   createdAt: createdAt(),
   finishedAt: timestamp('finished_at', { withTimezone: true }),
 }, t => [
-  index('deliveries_due_idx').on(t.nextAttemptAt).where(sql`status = 'pending'`),
+  // The claim walks each active endpoint's due deliveries in time order, so its cost follows
+  // the number of endpoints rather than the backlog (a paused endpoint's pile is never read).
+  index('deliveries_endpoint_due_idx').on(t.endpointId, t.nextAttemptAt).where(sql`status = 'pending'`),
   index('deliveries_endpoint_idx').on(t.endpointId, t.createdAt),
   uniqueIndex('deliveries_event_endpoint_idx').on(t.eventId, t.endpointId),
 ])
@@ -379,6 +381,8 @@ export const deliveryAttempts = pgTable('delivery_attempts', {
   error: text('error'),
   responseExcerpt: text('response_excerpt'),
   requestHeaders: jsonb('request_headers').$type<Record<string, string>>().notNull(),
-  requestBody: text('request_body').notNull(),
+  // Null when the attempt sent its event's whole message, which is rebuilt from the event when
+  // shown rather than stored again with every attempt (a thin or test message is stored).
+  requestBody: text('request_body'),
   replay: boolean('replay').notNull().default(false),
 }, t => [index('delivery_attempts_delivery_idx').on(t.deliveryId, t.number)])

@@ -1,7 +1,6 @@
 import { hostname } from 'node:os'
 import { createHmac, randomUUID } from 'node:crypto'
-import { and, eq, inArray, isNotNull, sql } from 'drizzle-orm'
-import pLimit, { type LimitFunction } from 'p-limit'
+import { and, eq, inArray, sql } from 'drizzle-orm'
 import pRetry from 'p-retry'
 import { DEFAULT_RETRY_SCHEDULE_S, type AttemptClass } from '#shared/schemas/webhooks'
 import { deliveries, deliveryAttempts, events, labs, partners, users, webhookEndpoints } from '../database/schema'
@@ -49,38 +48,65 @@ type Claimed = {
 /** Claims up to `limit` due deliveries of active endpoints for this worker, leased for `leaseSeconds`. */
 export async function claimDueDeliveries(limit: number, leaseSeconds: number): Promise<Claimed[]> {
   const rows = await useDb().execute<Claimed>(sql`
-    with due as (
-      select d.id from ${deliveries} d join ${webhookEndpoints} e on e.id = d.endpoint_id and e.status = 'active'
-      where d.status = 'pending' and d.next_attempt_at <= now() and (d.lease_until is null or d.lease_until < now())
-      order by d.next_attempt_at limit ${limit} for update of d skip locked),
+    with candidates as (
+      select c.id, c.next_attempt_at from ${webhookEndpoints} e cross join lateral (
+        select d.id, d.next_attempt_at from ${deliveries} d
+        where d.endpoint_id = e.id and d.status = 'pending' and d.next_attempt_at <= now() and (d.lease_until is null or d.lease_until < now())
+        order by d.next_attempt_at limit ${limit}) c
+      where e.status = 'active' order by c.next_attempt_at limit ${limit}),
+    -- Locked after they are chosen (and checked again once locked), so the rows of other
+    -- endpoints that the choice passed over are not locked.
+    due as (
+      select d.id from ${deliveries} d join candidates c on c.id = d.id
+      where d.status = 'pending' and (d.lease_until is null or d.lease_until < now())
+      for update of d skip locked),
     claimed as (
       update ${deliveries} d set lease_owner = ${workerId}, lease_until = now() + make_interval(secs => ${leaseSeconds})
       from due where d.id = due.id
       returning d.id, d.endpoint_id, d.event_id, d.event_type, d.test_payload, d.attempts, d.replay_requested)
     select c.*, e.url, e.sealed_secret, e.previous_sealed_secret, e.previous_secret_until::text,
-           ev.payload::text as payload_text, ev.sequence, l.slug as lab, ev.created_at::text as event_at
+           -- An event owed to several endpoints: its payload comes once, on the first of its rows.
+           case when row_number() over (partition by c.event_id order by c.id) = 1 then ev.payload::text end as payload_text,
+           ev.sequence, l.slug as lab, ev.created_at::text as event_at
     from claimed c join ${webhookEndpoints} e on e.id = c.endpoint_id
     left join ${events} ev on ev.id = c.event_id left join ${labs} l on l.id = ev.lab_id`)
-  return [...rows]
+  const payloads = new Map<string, string>()
+  for (const r of rows) if (r.event_id && r.payload_text !== null) payloads.set(r.event_id, r.payload_text)
+  return rows.map(r => r.event_id ? { ...r, payload_text: payloads.get(r.event_id) ?? null } : r)
 }
 
 type BodySource = Pick<Claimed, 'event_type' | 'test_payload' | 'payload_text' | 'sequence' | 'lab' | 'event_at' | 'event_id'>
 
-/** The body a delivery sends: Standard Webhooks' `{ type, timestamp, data }`, the same on every retry. */
-export function deliveryBody(row: BodySource, maxBytes: number): string {
-  if (!row.payload_text) return JSON.stringify({ type: row.event_type, timestamp: new Date().toISOString(), data: row.test_payload ?? {} })
+/**
+ * A delivery's message: its body and what kind it is. An event's message is the whole event
+ * or, over `maxBytes`, its thin form; either is the same on every retry (its timestamp is the
+ * event's own time).
+ */
+export interface Message { body: string, kind: 'event' | 'thin' | 'test' }
+
+/** The message a delivery sends: Standard Webhooks' `{ type, timestamp, data }`. */
+export function deliveryMessage(row: BodySource, maxBytes: number): Message {
+  if (!row.payload_text) return { kind: 'test', body: JSON.stringify({ type: row.event_type, timestamp: new Date().toISOString(), data: row.test_payload ?? {} }) }
   const timestamp = new Date(row.event_at!).toISOString()
   const head = { eventId: row.event_id, lab: row.lab, sequence: Number(row.sequence) }
   // `data` is the stored payload object with the event's fields first (spliced as text).
   const full = `{"type":${JSON.stringify(row.event_type)},"timestamp":"${timestamp}","data":${JSON.stringify(head).slice(0, -1)},${row.payload_text.slice(1)}}`
-  if (Buffer.byteLength(full) <= maxBytes) return full
+  if (Buffer.byteLength(full) <= maxBytes) return { kind: 'event', body: full }
   // Too large to send whole: the summary and where to fetch the rest, never a truncation.
   const p = JSON.parse(row.payload_text) as { id: string, runId: string, instrument: string, acquiredAt: string, sampleRef: string | null, status: string, receivedAt: string }
-  return JSON.stringify({ type: row.event_type, timestamp, data: {
+  return { kind: 'thin', body: JSON.stringify({ type: row.event_type, timestamp, data: {
     ...head, thin: true,
     id: p.id, runId: p.runId, instrument: p.instrument, acquiredAt: p.acquiredAt, sampleRef: p.sampleRef, status: p.status, receivedAt: p.receivedAt,
     resultUrl: `${useRuntimeConfig().appUrl}/api/v1/results/${p.id}`,
-  } })
+  } }) }
+}
+
+/** An event's whole message as the worker sent it, for an attempt that did not store its body. */
+export async function eventMessageBody(eventId: string): Promise<string | null> {
+  const [row] = await useDb().execute<BodySource>(sql`
+    select ev.id as event_id, ev.type as event_type, null as test_payload, ev.payload::text as payload_text, ev.sequence, l.slug as lab, ev.created_at::text as event_at
+    from ${events} ev join ${labs} l on l.id = ev.lab_id where ev.id = ${eventId}`)
+  return row ? deliveryMessage(row, Infinity).body : null
 }
 
 /**
@@ -111,9 +137,20 @@ export function signedHeaders(id: string, body: string, secrets: string[], at = 
   }
 }
 
+// Unsealed secrets by their sealed text: a rotation seals a new text, so nothing goes stale.
+const unsealed = new Map<string, string>()
+function unsealCached(sealed: string): string {
+  let secret = unsealed.get(sealed)
+  if (secret === undefined) {
+    if (unsealed.size > 1000) unsealed.clear()
+    unsealed.set(sealed, secret = unseal(sealed))
+  }
+  return secret
+}
+
 export function secretsOf(row: { sealed_secret: string, previous_sealed_secret: string | null, previous_secret_until: string | null }): string[] {
-  const list = [unseal(row.sealed_secret)]
-  if (row.previous_sealed_secret && row.previous_secret_until && new Date(row.previous_secret_until) > new Date()) list.push(unseal(row.previous_sealed_secret))
+  const list = [unsealCached(row.sealed_secret)]
+  if (row.previous_sealed_secret && row.previous_secret_until && new Date(row.previous_secret_until) > new Date()) list.push(unsealCached(row.previous_sealed_secret))
   return list
 }
 
@@ -163,54 +200,64 @@ export function nextDelaySeconds(attempts: number, retryAfterS: number | null, s
   return Math.max(jittered, Math.min(retryAfterS ?? 0, 86_400))
 }
 
-interface Sent { row: Claimed, body: string, headers: Record<string, string>, outcome: AttemptOutcome }
+interface Sent { row: Claimed, message: Message, headers: Record<string, string>, outcome: AttemptOutcome }
 
-/** Signs and sends one claimed delivery; the database is not touched here. */
+/** Signs and sends one claimed delivery; the database is not touched here, and it never throws. */
 async function send(row: Claimed, secrets: (row: Claimed) => string[]): Promise<Sent> {
-  const body = deliveryBody(row, config().maxPayloadBytes)
+  let message: Message = { kind: 'test', body: '' }
   try {
-    const headers = signedHeaders(row.id, body, secrets(row))
-    return { row, body, headers, outcome: await sendOnce(row.url, headers, body) }
+    message = deliveryMessage(row, config().maxPayloadBytes)
+    const headers = signedHeaders(row.id, message.body, secrets(row))
+    return { row, message, headers, outcome: await sendOnce(row.url, headers, message.body) }
   }
   catch (error) {
-    return { row, body, headers: {}, outcome: { class: 'client-error', statusCode: null, error: `not sent: ${(error as Error).message}`, excerpt: null, retryAfterS: null, durationMs: 0 } }
+    return { row, message, headers: {}, outcome: { class: 'client-error', statusCode: null, error: `not sent: ${(error as Error).message}`, excerpt: null, retryAfterS: null, durationMs: 0 } }
   }
 }
 
 /**
- * Records a round's attempts and what follows each, in one transaction: one statement for
- * the deliveries and their attempts (only those this worker still leases), then the
- * endpoints' failure clocks, and disabling where due.
+ * Records a group of attempts and what follows each. One statement writes the deliveries
+ * (only those this worker still leases), their attempts and the success of their endpoints;
+ * when some failed, the same transaction then starts the endpoints' failure clocks and
+ * disables where due.
  */
 async function recordAttempts(sent: Sent[]) {
   if (!sent.length) return
   const { disableAfterMs } = config()
-  const rows = sent.map(({ row, body, headers, outcome }) => {
+  const rows = sent.map(({ row, message, headers, outcome }) => {
     const attempts = row.attempts + 1
     const gone = outcome.statusCode === 410
     const delay = outcome.class === 'success' || outcome.class === 'guard-refused' || gone ? null : nextDelaySeconds(attempts, outcome.retryAfterS)
     const status = outcome.class === 'success' ? 'succeeded' : delay === null ? 'dead' : 'pending'
-    return { id: row.id, endpoint: row.endpoint_id, attempts, status, delay, gone, cls: outcome.class, code: outcome.statusCode, error: outcome.error, excerpt: outcome.excerpt, headers, body, duration: outcome.durationMs, replay: row.replay_requested }
+    return { id: row.id, endpoint: row.endpoint_id, attempts, status, delay, gone, cls: outcome.class, code: outcome.statusCode, error: outcome.error, excerpt: outcome.excerpt, headers,
+      // An event's whole message is not stored with every attempt: it is rebuilt from the event
+      // when shown (eventMessageBody). Storing it was most of what recording an attempt cost.
+      body: message.kind === 'event' ? null : message.body, duration: outcome.durationMs, replay: row.replay_requested }
   })
-  await useDb().transaction(async (tx) => {
-    await tx.execute(sql`
-      with o as (
-        select * from jsonb_to_recordset(${JSON.stringify(rows)}::jsonb) as o(id uuid, attempts int, status delivery_status, delay float8, cls text, code int,
-          error text, excerpt text, headers jsonb, body text, duration int, replay boolean)),
-      upd as (
-        update ${deliveries} d set attempts = o.attempts, status = o.status, last_class = o.cls, last_status_code = o.code,
-          replay_requested = false, lease_owner = null, lease_until = null,
-          next_attempt_at = case when o.delay is null then d.next_attempt_at else now() + make_interval(secs => o.delay) end,
-          finished_at = case when o.status = 'pending' then null else now() end
-        from o where d.id = o.id and d.lease_owner = ${workerId}
-        returning d.id)
+  const write = (db: Queryable) => db.execute(sql`
+    with o as (
+      select * from jsonb_to_recordset(${JSON.stringify(rows)}::jsonb) as o(id uuid, endpoint uuid, attempts int, status delivery_status, delay float8, cls text, code int,
+        error text, excerpt text, headers jsonb, body text, duration int, replay boolean)),
+    upd as (
+      update ${deliveries} d set attempts = o.attempts, status = o.status, last_class = o.cls, last_status_code = o.code,
+        replay_requested = false, lease_owner = null, lease_until = null,
+        next_attempt_at = case when o.delay is null then d.next_attempt_at else now() + make_interval(secs => o.delay) end,
+        finished_at = case when o.status = 'pending' then null else now() end
+      from o where d.id = o.id and d.lease_owner = ${workerId}
+      returning d.id),
+    logged as (
       insert into ${deliveryAttempts} (delivery_id, number, duration_ms, class, status_code, error, response_excerpt, request_headers, request_body, replay)
-      select o.id, o.attempts, o.duration, o.cls, o.code, o.error, o.excerpt, o.headers, o.body, o.replay from o join upd on upd.id = o.id`)
-    const succeeded = [...new Set(rows.filter(r => r.cls === 'success').map(r => r.endpoint))]
-    const failing = [...new Set(rows.filter(r => r.cls !== 'success' && !r.gone).map(r => r.endpoint))]
-    if (succeeded.length) {
-      await tx.update(webhookEndpoints).set({ failingSince: null }).where(and(inArray(webhookEndpoints.id, succeeded), isNotNull(webhookEndpoints.failingSince)))
-    }
+      select o.id, o.attempts, o.duration, o.cls, o.code, o.error, o.excerpt, o.headers, o.body, o.replay from o join upd on upd.id = o.id)
+    update ${webhookEndpoints} e set failing_since = null
+    where e.failing_since is not null and e.id in (select endpoint from o where cls = 'success')`)
+  const failing = [...new Set(rows.filter(r => r.cls !== 'success' && !r.gone).map(r => r.endpoint))]
+  const gone = [...new Set(rows.filter(r => r.gone).map(r => r.endpoint))]
+  if (!failing.length && !gone.length) {
+    await write(useDb())
+    return
+  }
+  await useDb().transaction(async (tx) => {
+    await write(tx)
     if (failing.length) {
       const clocks = await tx.update(webhookEndpoints).set({ failingSince: sql`coalesce(${webhookEndpoints.failingSince}, now())` })
         .where(inArray(webhookEndpoints.id, failing)).returning({ id: webhookEndpoints.id, failingSince: webhookEndpoints.failingSince })
@@ -220,7 +267,7 @@ async function recordAttempts(sent: Sent[]) {
         }
       }
     }
-    for (const endpoint of new Set(rows.filter(r => r.gone).map(r => r.endpoint))) await disableEndpoint(tx, endpoint, 'the receiver answered 410 Gone')
+    for (const endpoint of gone) await disableEndpoint(tx, endpoint, 'the receiver answered 410 Gone')
   })
 }
 
@@ -247,75 +294,125 @@ export async function disableEndpoint(tx: Queryable, endpointId: string, reason:
   await recordAudit(tx, { actor: { id: null, label: 'delivery worker' }, action: 'endpoint.disabled', targetType: 'webhook-endpoint', targetId: endpointId, detail: { url: ep.url, reason } })
 }
 
-// Two rounds run at once, so one sends while the other claims or records.
-const ROUNDS_IN_FLIGHT = 2
-
-// One limit for every round of this process: `concurrency` is the number of requests in flight.
-let slots: LimitFunction | undefined
-function sendSlots(concurrency: number): LimitFunction {
-  if (slots?.concurrency !== concurrency) slots = pLimit(concurrency)
-  return slots
-}
-
 /**
- * One round: claim a batch of due deliveries, send them (at most `concurrency` requests in
- * flight across rounds), record the attempts together. The lease covers the worst case of the batch (every send timing
- * out), so no other worker takes a delivery that is still being sent.
+ * The worker of this process, as a pipeline: claims keep a short queue of leased deliveries
+ * filled, `concurrency` sends stay in flight while there is work, and finished attempts are
+ * recorded in groups, one statement at a time, while the sends go on. (Run in rounds of
+ * claim, send all, record, the send slots stood idle while a round was claimed and recorded,
+ * and every round waited for its slowest send: 0.2 of the bare sender's rate.)
  */
-export async function runDeliveryRound(): Promise<number> {
-  const { concurrency, timeoutMs, leaseSeconds } = config()
-  const batch = concurrency * 4
-  // At worst every send of every round in flight times out (twice, with p-retry's one retry).
-  const lease = Math.max(leaseSeconds, Math.ceil(batch * ROUNDS_IN_FLIGHT / concurrency) * Math.ceil(timeoutMs / 1000) * 2 + 5)
-  const claimed = await claimDueDeliveries(batch, lease)
-  if (!claimed.length) return 0
-  // Secrets are unsealed once per endpoint and round.
-  const unsealed = new Map<string, string[]>()
-  const secrets = (row: Claimed) => {
-    let s = unsealed.get(row.endpoint_id)
-    if (!s) unsealed.set(row.endpoint_id, s = secretsOf(row))
-    return s
+class DeliveryPipeline {
+  private queue: Claimed[] = []
+  private sending = 0
+  private finished: Sent[] = []
+  private claiming = false
+  private recording = false
+  // A claim may find due work: the worker was woken, or the last claim came back full.
+  private more = false
+  private stopped = true
+  private idle: (() => void)[] = []
+
+  start() {
+    this.stopped = false
+    this.kick()
   }
-  const limit = sendSlots(concurrency)
-  await recordAttempts(await Promise.all(claimed.map(row => limit(() => send(row, secrets)))))
-  return claimed.length
+
+  kick() {
+    if (this.stopped) return
+    this.more = true
+    this.pump()
+  }
+
+  /** Stops claiming and sending, records what was sent, and hands back the rest of the queue. */
+  async stop() {
+    this.stopped = true
+    await new Promise<void>((resolve) => {
+      this.idle.push(resolve)
+      this.settle()
+    })
+    this.queue = []
+    await useDb().update(deliveries).set({ leaseOwner: null, leaseUntil: null })
+      .where(and(eq(deliveries.leaseOwner, workerId), eq(deliveries.status, 'pending')))
+  }
+
+  private pump() {
+    const { concurrency } = config()
+    while (!this.stopped && this.sending < concurrency && this.queue.length) {
+      this.sending++
+      void send(this.queue.shift()!, secretsOf).then((sent) => {
+        this.sending--
+        this.finished.push(sent)
+        this.record()
+        this.pump()
+      })
+    }
+    // The next claim runs while the last of the queue is sent, unless recording lags behind.
+    const batch = concurrency * 4
+    if (!this.stopped && this.more && !this.claiming && this.queue.length < concurrency && this.finished.length < batch * 4) {
+      this.more = false
+      this.claiming = true
+      void this.claim(batch, concurrency)
+    }
+    this.settle()
+  }
+
+  private async claim(batch: number, concurrency: number) {
+    const { timeoutMs, leaseSeconds } = config()
+    // The lease covers the worst case: every delivery ahead of the batch's last one, and it,
+    // timing out twice (p-retry's one retry), `concurrency` at a time.
+    const ahead = this.queue.length + this.sending + batch
+    const lease = Math.max(leaseSeconds, Math.ceil(ahead / concurrency) * Math.ceil((2 * timeoutMs + 200) / 1000) + 5)
+    try {
+      const rows = await claimDueDeliveries(batch, lease)
+      this.queue.push(...rows)
+      if (rows.length === batch) this.more = true
+    }
+    catch (error) {
+      console.error('[delivery] claiming failed; the next poll tries again', error)
+    }
+    this.claiming = false
+    this.pump()
+  }
+
+  private record() {
+    if (this.recording || !this.finished.length) return
+    this.recording = true
+    const group = this.finished.splice(0, RECORD_GROUP)
+    recordAttempts(group)
+      .catch(error => console.error('[delivery] recording attempts failed; their leases run out and they are sent again', error))
+      .finally(() => {
+        this.recording = false
+        this.record()
+        this.pump()
+      })
+  }
+
+  private settle() {
+    if (this.stopped && !this.claiming && !this.sending && !this.recording && !this.finished.length) {
+      for (const resolve of this.idle.splice(0)) resolve()
+    }
+  }
 }
 
+// At most this many attempts are recorded by one statement.
+const RECORD_GROUP = 256
+
+const worker = new DeliveryPipeline()
 let timer: NodeJS.Timeout | undefined
-const loops = new Set<Promise<void>>()
-let again = false
-let stopped = true
-
-async function loop() {
-  while (!stopped) {
-    again = false
-    const sent = await runDeliveryRound().catch((error) => { console.error('[delivery] round failed', error); return 0 })
-    if (sent === 0 && !again) return
-  }
-}
 
 /** Wakes the worker now (after an event was recorded) rather than at its next poll. */
 export function kickDeliveries() {
-  if (stopped) return
-  again = true
-  while (loops.size < ROUNDS_IN_FLIGHT) {
-    const running: Promise<void> = loop().finally(() => loops.delete(running))
-    loops.add(running)
-  }
+  worker.kick()
 }
 
 export function startDeliveryWorker() {
-  stopped = false
+  worker.start()
   timer = setInterval(kickDeliveries, Number(useRuntimeConfig().webhooks.pollMs))
   timer.unref()
-  kickDeliveries()
 }
 
-/** Stops the worker after its current round and hands back whatever it still holds. */
+/** Stops the worker: what is being sent is sent and recorded, and what it still holds is handed back. */
 export async function stopDeliveryWorker() {
-  stopped = true
   clearInterval(timer)
-  await Promise.all(loops)
-  await useDb().update(deliveries).set({ leaseOwner: null, leaseUntil: null })
-    .where(and(eq(deliveries.leaseOwner, workerId), eq(deliveries.status, 'pending')))
+  await worker.stop()
 }

@@ -76,7 +76,8 @@ export async function getDelivery(partnerId: string, deliveryId: string) {
   if (!row) throw problem(404, 'delivery-not-found', 'No such delivery for this partner.')
   const attempts = await useDb().select().from(deliveryAttempts).where(eq(deliveryAttempts.deliveryId, deliveryId)).orderBy(asc(deliveryAttempts.number), asc(deliveryAttempts.id))
   const { leaseOwner: _o, leaseUntil: _u, testPayload: _t, ...d } = row.d
-  return { ...d, url: row.url, attempts: attempts.map(({ deliveryId: _d, ...a }) => a) }
+  const eventBody = d.eventId && attempts.some(a => a.requestBody === null) ? await eventMessageBody(d.eventId) : null
+  return { ...d, url: row.url, attempts: attempts.map(({ deliveryId: _d, ...a }) => ({ ...a, requestBody: a.requestBody ?? eventBody ?? '' })) }
 }
 
 // A replay is a new attempt of the same message (same webhook-id), due now.

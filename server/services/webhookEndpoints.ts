@@ -137,7 +137,7 @@ export async function sendTestEvent(event: H3Event, actor: SessionUser, partnerI
   const partner = await useDb().query.partners.findFirst({ where: eq(partners.id, partnerId), columns: { slug: true } })
   const testPayload = { message: 'A test message from Arcwise: your endpoint received and can verify it.', partner: partner?.slug, endpointId, sentBy: actor.email }
   const delivery = firstRow(await useDb().insert(deliveries).values({ endpointId, eventType: TEST_EVENT, testPayload, status: 'pending', nextAttemptAt: sql`'infinity'::timestamptz` }).returning({ id: deliveries.id }))
-  const body = deliveryBody({ event_type: TEST_EVENT, test_payload: testPayload, payload_text: null, sequence: null, lab: null, event_at: null, event_id: null }, Infinity)
+  const { body } = deliveryMessage({ event_type: TEST_EVENT, test_payload: testPayload, payload_text: null, sequence: null, lab: null, event_at: null, event_id: null }, Infinity)
   const headers = signedHeaders(delivery.id, body, secretsOf({ sealed_secret: ep.sealedSecret, previous_sealed_secret: ep.previousSealedSecret, previous_secret_until: ep.previousSecretUntil?.toISOString() ?? null }))
   const outcome = await sendOnce(ep.url, headers, body)
   const ok = outcome.class === 'success'

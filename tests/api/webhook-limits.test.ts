@@ -45,6 +45,9 @@ describe('webhook limits', () => {
     expect(Buffer.byteLength(hit.body)).toBeLessThanOrEqual(1024)
     expect(message.data).toMatchObject({ thin: true, id: accepted.body.id, runId: accepted.body.runId, lab: ctx.lab.slug })
     expect(message.data.result).toBeUndefined()
+    // The delivery log shows the thin message that was sent, not the whole event.
+    const logged = (await ctx.admin.get(`/api/console/partners/${ctx.partner.id}/deliveries/${hit.headers['webhook-id']}`)).body
+    expect(logged.attempts[0].requestBody).toBe(hit.body)
     // The full result is one authorised GET away.
     const client = (await ctx.admin.post(`/api/console/partners/${ctx.partner.id}/clients`, { name: 'fetcher' })).body
     const token = await (await fetch(url('/api/v1/oauth/token'), { method: 'POST', headers: { 'content-type': 'application/x-www-form-urlencoded' }, body: new URLSearchParams({ grant_type: 'client_credentials', client_id: client.clientId, client_secret: client.clientSecret }) })).json() as { access_token: string }

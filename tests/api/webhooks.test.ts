@@ -74,6 +74,10 @@ describe('signed delivery of result events', () => {
     expect(detail.attempts).toHaveLength(1)
     expect(detail.attempts[0]).toMatchObject({ class: 'success', statusCode: 200, responseExcerpt: 'received', replay: false })
     expect(detail.attempts[0].requestHeaders['webhook-signature']).toMatch(/^v1,/)
+    // The log shows the request as the receiver got it: the body byte for byte (it is rebuilt
+    // from the event rather than stored with each attempt) and headers it verifies with.
+    expect(detail.attempts[0].requestBody).toBe(hit!.body)
+    expect(new Webhook(ctx.endpoint.secret).verify(detail.attempts[0].requestBody, detail.attempts[0].requestHeaders)).toMatchObject({ type: 'result.created' })
   })
 
   it('the delivery rows are written with the acquisition: one per entitled endpoint, none for a paused-then-deleted or ungranted one', async () => {

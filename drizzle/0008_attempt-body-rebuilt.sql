@@ -1,0 +1,1 @@
+ALTER TABLE "delivery_attempts" ALTER COLUMN "request_body" DROP NOT NULL;
