@@ -30,7 +30,7 @@ export async function benchIngest(opts: { seconds?: number } = {}) {
     const keys = JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>
     const inst = demoInstruments.find(i => i.slug === 'irms-north')!
     // 1,000 points, as the issue asks; each request gets its own run id.
-    const template = JSON.stringify({ ...inst.acquisition('RUNID', new Date(), 5), sweep: undefined, detectors: undefined, ...thousandPoints(inst) })
+    const template = JSON.stringify(thousandPointAcquisition(inst, 'RUNID'))
     let n = 0
     const run = (path: string, auth: boolean, duration: number) => autocannon({
       url: `${base}${path}`, connections: 32, duration, method: 'POST',
@@ -73,19 +73,6 @@ function summed(turns: autocannon.Result[]) {
     perTurn: turns.map(t => Math.round(t.requests.total / t.duration)),
     non2xx: turns.reduce((sum, t) => sum + t.non2xx, 0),
     latencyP99Ms: Math.max(...turns.map(t => t.latency.p99)),
-  }
-}
-
-function thousandPoints(inst: (typeof demoInstruments)[number]) {
-  // The demo instrument's sweep cut to 1,000 points holding real work for the engine: the
-  // strongest line (CO2, m/z 44) 250 points in, and [13C]O2 at m/z 45 about 500 points on.
-  const body = inst.acquisition('x', new Date(), 5)
-  const detector = body.detectors[0]!.values
-  const strongest = detector.reduce((best, v, i) => (v > detector[best]! ? i : best), 0)
-  const start = Math.max(0, strongest - 250)
-  return {
-    sweep: { ...body.sweep!, values: body.sweep!.values.slice(start, start + 1000) },
-    detectors: [{ ...body.detectors[0]!, values: detector.slice(start, start + 1000) }],
   }
 }
 

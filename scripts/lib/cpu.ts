@@ -1,0 +1,34 @@
+import { execFileSync } from 'node:child_process'
+import { readdirSync, readFileSync } from 'node:fs'
+
+// CPU time of the processes a benchmark involves, read from /proc (Linux): the app server,
+// this benchmark process, PostgreSQL's processes and everything else. A rate is only half of
+// a benchmark's story on a machine whose cores are shared by all of them. A process that
+// ends between two readings is not counted.
+
+const clockTicks = Number(execFileSync('getconf', ['CLK_TCK'], { encoding: 'utf8' }).trim()) || 100
+
+export type CpuSeconds = Record<'server' | 'bench' | 'postgres' | 'other', number>
+
+export function cpuSeconds(serverPid: number): CpuSeconds {
+  const out: CpuSeconds = { server: 0, bench: 0, postgres: 0, other: 0 }
+  for (const entry of readdirSync('/proc')) {
+    if (!/^\d+$/.test(entry)) continue
+    let stat: string
+    try { stat = readFileSync(`/proc/${entry}/stat`, 'utf8') }
+    catch { continue } // ended meanwhile
+    // proc(5): the command sits in parentheses; utime and stime are fields 14 and 15.
+    const comm = stat.slice(stat.indexOf('(') + 1, stat.lastIndexOf(')'))
+    const fields = stat.slice(stat.lastIndexOf(')') + 2).split(' ')
+    const seconds = (Number(fields[11]) + Number(fields[12])) / clockTicks
+    const pid = Number(entry)
+    out[pid === serverPid ? 'server' : pid === process.pid ? 'bench' : comm === 'postgres' ? 'postgres' : 'other'] += seconds
+  }
+  return out
+}
+
+/** Each group's share of one core between two readings, in per cent. */
+export function cpuShares(before: CpuSeconds, after: CpuSeconds, seconds: number): Record<keyof CpuSeconds, number> {
+  const share = (k: keyof CpuSeconds) => Math.round((after[k] - before[k]) / seconds * 100)
+  return { server: share('server'), bench: share('bench'), postgres: share('postgres'), other: share('other') }
+}
