@@ -30,7 +30,7 @@ try {
   else {
     await sql.begin(async (tx) => {
       const [u] = await tx`insert into users (email, name, password_hash, role) values (${parsed.data.email}, ${parsed.data.name}, ${await hashPassword(parsed.data.password)}, 'admin') returning id`
-      await tx`insert into audit_log (actor_label, action, target_type, target_id) values ('admin:create', 'user.created', 'user', ${u.id})`
+      await tx`insert into audit_log (actor_label, action, target_type, target_id) values ('admin:create', 'user.created', 'user', ${u!.id})`
     })
     console.log(`admin ${parsed.data.email} created`)
   }

@@ -8,7 +8,7 @@ import { join } from 'node:path'
 import autocannon from 'autocannon'
 import postgres from 'postgres'
 import { buildIfStale } from './lib/build'
-import { demoInstruments } from './lib/demo-instruments'
+import { demoInstruments, thousandPointAcquisition } from './lib/demo-instruments'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
 import { startServer, startStack, waitForServer } from './lib/services'
@@ -35,7 +35,7 @@ export async function benchIngest(opts: { seconds?: number } = {}) {
     const run = (path: string, auth: boolean, duration: number) => autocannon({
       url: `${base}${path}`, connections: 32, duration, method: 'POST',
       headers: { 'content-type': 'application/json', ...(auth ? { authorization: `Bearer ${keys['saltmarsh-isotopes']}` } : {}) },
-      requests: [{ setupRequest: (req: Record<string, unknown>) => ({ ...req, body: template.replace('RUNID', `bench-${process.pid}-${n++}`) }) }],
+      requests: [{ setupRequest: (req: autocannon.Request) => ({ ...req, body: template.replace('RUNID', `bench-${process.pid}-${n++}`) }) }],
     })
     // Warm-up of both routes and the JIT, then the two routes in turns of a third of the
     // time each: whatever drifts during a run (a checkpoint, the tables' growth, a noisy

@@ -177,7 +177,7 @@ try {
   // ── Settle: every owed delivery succeeds or dies ─────────────────────────────────────
   const settleDeadline = Date.now() + 240_000
   for (;;) {
-    const [{ pending }] = await sql`select count(*)::int as pending from deliveries where status = 'pending'`
+    const [{ pending }] = await sql<[{ pending: number }]>`select count(*)::int as pending from deliveries where status = 'pending'`
     if (pending === 0 || Date.now() > settleDeadline) break
     await sleep(1000)
   }

@@ -40,6 +40,7 @@ try {
   await seedDemo(stack.databaseUrl)
   await step('lint', bin('eslint'), ['.'])
   await step('typecheck', bin('nuxi'), ['typecheck'])
+  await step('typecheck scripts and tests', bin('tsc'), ['-p', 'tsconfig.tools.json'])
   buildIfStale()
   const testEnv = JSON.stringify({ serverEnv: stack.serverEnv, databaseUrl: stack.databaseUrl, mailUrl: stack.mail.httpUrl, appPort: testPorts.app, appUrl })
   const report = join(root, 'test-results', 'vitest.json')

@@ -42,7 +42,7 @@ function validAcquisition(t: FuzzTarget) {
     settings: { acceleratingVoltage: { value: 3, unit: 'kV', u: 0.0006 } },
     sweep: { reading: 'field', unit: 'T', values: Array.from({ length: n }, (_, i) => 0.47 + i * 1e-4) },
     detectors: [{ unit: 'fA', values: Array.from({ length: n }, (_, i) => 5 + (i % 7)) }],
-  } as Record<string, unknown> & { sweep: { values: unknown[] }, detectors: { values: unknown[] }[], settings: { acceleratingVoltage: Record<string, unknown> } }
+  } as unknown as Record<string, unknown> & { sweep: { values: unknown[] }, detectors: { values: unknown[] }[], settings: { acceleratingVoltage: Record<string, unknown> } }
 }
 
 const topFields = ['instrument', 'runId', 'acquiredAt', 'sampleRef', 'settings', 'sweep', 'detectors', 'processing']
@@ -165,7 +165,7 @@ export async function sendBadRequest(base: string, r: BadRequest): Promise<FuzzO
 }
 
 /** Every table of the schema: a refused request must change none of them (the rate limiter is off in fuzz runs). */
-export const guardedTables = Object.values(schema).filter((t): t is PgTable => is(t, PgTable)).map(t => getTableName(t))
+export const guardedTables = Object.values(schema as Record<string, unknown>).filter((t): t is PgTable => is(t, PgTable)).map(t => getTableName(t))
 
 /** Row counts of every guarded table, to compare before and after. */
 export async function rowCounts(sql: postgres.Sql): Promise<Record<string, number>> {

@@ -17,18 +17,18 @@ export function readDemoKeys(): Record<string, string> {
 export async function seedDemo(url: string, opts: { keysFile?: string } = {}): Promise<boolean> {
   const sql = postgres(url, { max: 1, onnotice: () => {} })
   try {
-    const [{ count }] = await sql<{ count: number }[]>`select count(*)::int as count from labs`
+    const [{ count }] = await sql<[{ count: number }]>`select count(*)::int as count from labs`
     if (count > 0) return false
     await sql.begin(async (tx) => {
       const labIds = new Map<string, string>()
       for (const lab of demoLabs) {
         const [row] = await tx`insert into labs (slug, name, site, contact_email) values (${lab.slug}, ${lab.name}, ${lab.site}, ${lab.contactEmail}) returning id`
-        labIds.set(lab.slug, row.id)
+        labIds.set(lab.slug, row!.id)
       }
       const partnerIds = new Map<string, string>()
       for (const p of demoPartners) {
         const [row] = await tx`insert into partners (slug, name, kind, contact_email) values (${p.slug}, ${p.name}, ${p.kind}, ${p.contactEmail}) returning id`
-        partnerIds.set(p.slug, row.id)
+        partnerIds.set(p.slug, row!.id)
       }
       for (const u of demoUsers) {
         const labId = u.lab ? labIds.get(u.lab)! : null

@@ -32,7 +32,7 @@ describe('POST /api/v1/acquisitions', () => {
     expect(r.versions).toEqual({ engine: '1.0.0', constants: 'CODATA 2018', geometry: 1, calibration: null })
     expect(r.qc.map((q: any) => q.code)).toContain('uncalibrated')
     expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
-    const [peakRows] = await sql`select count(*)::int as n from peaks where lab_id = ${lab.id}`
+    const [peakRows] = await sql<[{ n: number }]>`select count(*)::int as n from peaks where lab_id = ${lab.id}`
     expect(peakRows.n).toBe(r.peaks.length)
     const [event] = await sql`select sequence::int as sequence, type from events where lab_id = ${lab.id}`
     expect(event).toEqual({ sequence: 1, type: 'result.created' })
@@ -227,7 +227,7 @@ describe('reads are scoped to the key\'s lab (OWASP API1:2023)', () => {
     const { convert } = await import('jcampconverter')
     const parsed = convert(String(jdx.body)).flatten[0]!
     expect(parsed.dataType).toBe('MASS SPECTRUM')
-    const data = parsed.spectra[0]!.data
+    const data = parsed.spectra[0]!.data as { x: number[], y: number[] }
     expect(data.x).toHaveLength(4000)
     expect(data.x[0]).toBeCloseTo(Number(lines[1]!.split(',')[0]), 6)
     expect(data.x.at(-1)).toBeCloseTo(Number(lines.at(-1)!.split(',')[0]), 6)

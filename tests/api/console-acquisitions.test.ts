@@ -50,7 +50,7 @@ describe('acquisitions in the console', () => {
     acquisitionView.parse(view)
     expect({ instrumentName, geometryKind }).toEqual({ instrumentName: 'Sector one', geometryKind: 'potential-sector' })
     expect(instrumentId).toMatch(/^[0-9a-f-]{36}$/)
-    const [stored] = await sql`select length(payload::text)::int as chars from acquisitions where id = ${posted.body.id}`
+    const [stored] = await sql<[{ chars: number }]>`select length(payload::text)::int as chars from acquisitions where id = ${posted.body.id}`
     expect(payload).toMatchObject({ chars: stored.chars, truncated: true })
     expect(payload.head.startsWith('{')).toBe(true)
     expect(payload.head).toContain(`"runId": "${body.runId}"`)
@@ -105,7 +105,7 @@ describe('acquisitions in the console', () => {
     const refused2 = await fetch(url(`/api/console/labs/${lab.id}/acquisitions`), { method: 'POST', headers: { cookie: admin.cookie }, body: garbage })
     expect(refused2.status).toBe(400)
     expect(((await refused2.json()) as any).errors[0].path).toBe('file')
-    const [{ n }] = await sql`select count(*)::int as n from acquisitions where lab_id = ${lab.id}`
+    const [{ n }] = await sql<[{ n: number }]>`select count(*)::int as n from acquisitions where lab_id = ${lab.id}`
     expect(n).toBe(1)
   })
 
@@ -124,7 +124,7 @@ describe('acquisitions in the console', () => {
     // Simulated with the registered geometry, so the fit is close to identity.
     expect(preview.body.fit.rmsPpm).toBeLessThan(5)
     expect(preview.body.fit.residualsPpm).toHaveLength(4)
-    const [{ n: before }] = await sql`select count(*)::int as n from calibrations where instrument_id = ${instrument.id}`
+    const [{ n: before }] = await sql<[{ n: number }]>`select count(*)::int as n from calibrations where instrument_id = ${instrument.id}`
     expect(before).toBe(0)
 
     const saved = await admin.post(base, { degree: 1, points: preview.body.points, validFrom: '2026-11-30T12:00:00Z' })
@@ -149,7 +149,7 @@ describe('acquisitions in the console', () => {
     expect(notHers.body.errors[0].path).toBe('acquisitionId')
     const badDegree = await admin.post(base, { acquisitionId: co2Only.body.id, degree: 4 })
     expect(badDegree.body.errors[0].path).toBe('degree')
-    const [{ n }] = await sql`select count(*)::int as n from calibrations where instrument_id = ${instrument.id}`
+    const [{ n }] = await sql<[{ n: number }]>`select count(*)::int as n from calibrations where instrument_id = ${instrument.id}`
     expect(n).toBe(0)
   })
 

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest'
 import { bearer, labWithInstrument } from '../support/lab'
-import { ConsoleClient, testDb, useArcwise } from '../support/server'
+import { ConsoleClient, testDb, useArcwise, type ApiResponse } from '../support/server'
 
 // A server of its own with a limit of 5 requests per key per minute.
 await useArcwise({ env: { NUXT_RATE_LIMIT_PER_MINUTE: '5' } })
@@ -9,7 +9,7 @@ describe('rate limits per key', () => {
   it('answers 429 with Retry-After once a key spends its minute, counted in PostgreSQL', async () => {
     const { key } = await labWithInstrument()
     const statuses: number[] = []
-    let last: Awaited<ReturnType<ConsoleClient['request']>> | undefined
+    let last: ApiResponse | undefined
     for (let i = 0; i < 7; i++) {
       last = await new ConsoleClient().request('GET', '/api/v1/acquisitions', undefined, bearer(key.secret))
       statuses.push(last.status)

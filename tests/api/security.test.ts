@@ -9,7 +9,7 @@ describe('OWASP API Security Top 10 (2023)', () => {
   it('API1/API3: no answer to a lab key carries a key hash, a secret, or another tenant\'s id', async () => {
     const mine = await labWithInstrument()
     const other = await labWithInstrument()
-    const [{ secret_hash: hash }] = await mine.sql`select secret_hash from api_keys where id = ${mine.key.id}`
+    const [{ secret_hash: hash }] = await mine.sql<[{ secret_hash: string }]>`select secret_hash from api_keys where id = ${mine.key.id}`
     const posted = await new ConsoleClient().request('POST', '/api/v1/acquisitions', co2Acquisition(), bearer(mine.key.secret))
     const otherPosted = await new ConsoleClient().request('POST', '/api/v1/acquisitions', co2Acquisition(), bearer(other.key.secret))
     const answers = [posted.body]
@@ -31,7 +31,7 @@ describe('OWASP API Security Top 10 (2023)', () => {
       const res = await new ConsoleClient().request('POST', '/api/v1/acquisitions', { ...co2Acquisition(), ...extra }, bearer(key.secret))
       expect(res.status).toBe(422)
     }
-    const [{ n }] = await sql`select count(*)::int as n from acquisitions where lab_id = ${lab.id}`
+    const [{ n }] = await sql<[{ n: number }]>`select count(*)::int as n from acquisitions where lab_id = ${lab.id}`
     expect(n).toBe(0)
   })
 

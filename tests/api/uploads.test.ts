@@ -23,7 +23,7 @@ function csvFile(runId: string, points = 3000, eol = '\r\n') {
 }
 
 const upload = (secret: string, body: string | Buffer | FormData, type?: string) =>
-  fetch(url('/api/v1/acquisitions'), { method: 'POST', headers: { ...bearer(secret), ...(type ? { 'content-type': type } : {}) }, body }).then(async r => ({ status: r.status, body: await r.json() as any }))
+  fetch(url('/api/v1/acquisitions'), { method: 'POST', headers: { ...bearer(secret), ...(type ? { 'content-type': type } : {}) }, body: body as BodyInit }).then(async r => ({ status: r.status, body: await r.json() as any }))
 
 describe('acquisitions as files', () => {
   it('takes a CSV with a byte-order mark, CRLF line ends, settings in comments and units in the header', async () => {
@@ -53,7 +53,7 @@ describe('acquisitions as files', () => {
     const res = await upload(key.secret, text, 'text/csv')
     expect(res.status).toBe(422)
     expect(res.body.errors.map((e: any) => e.path)).toContain(path)
-    const [{ n }] = await sql`select count(*)::int as n from acquisitions where lab_id = ${lab.id}`
+    const [{ n }] = await sql<[{ n: number }]>`select count(*)::int as n from acquisitions where lab_id = ${lab.id}`
     expect(n).toBe(0)
   })
 
@@ -64,7 +64,7 @@ describe('acquisitions as files', () => {
     const y = raw.detectors[0]!.values
     const delta = (x[x.length - 1]! - x[0]!) / (x.length - 1)
     const rows: string[] = []
-    for (let i = 0; i < x.length; i += 10) rows.push(`${x[i]} ${Array.from(y.slice(i, i + 10) as Float64Array, v => Math.round(v * 1000)).join(' ')}`)
+    for (let i = 0; i < x.length; i += 10) rows.push(`${x[i]} ${Array.from({ length: Math.min(10, y.length - i) }, (_, k) => Math.round(y[i + k]! * 1000)).join(' ')}`)
     const jdx = ['##TITLE=co2 run', '##JCAMP-DX=5.01', '##DATA TYPE=MASS SPECTRUM', '##$INSTRUMENT=ms-1', `##$RUN ID=${unique('jdx')}`, '##LONGDATE=2026-11-30T09:00:00Z', '##$ACCELERATING VOLTAGE=3 kV',
       '##$FORMULAS=CO2 [13C]O2', '##XUNITS=T', '##YUNITS=FA', `##FIRSTX=${x[0]}`, `##LASTX=${x[x.length - 1]}`, `##DELTAX=${delta}`, '##XFACTOR=1', '##YFACTOR=0.001', `##NPOINTS=${x.length}`, '##XYDATA=(X++(Y..Y))', ...rows, '##END=']
     const ok = await upload(key.secret, jdx.join('\n'), 'chemical/x-jcamp-dx')

@@ -104,7 +104,7 @@ describe('a lab manager\'s main flow in the console', () => {
 
   it('uploads a CSV in the console with a progress bar and lands on the processed acquisition', async () => {
     const page = await signIn('lab_manager')
-    const [{ id: labId }] = await testDb()`select id from labs where slug = 'saltmarsh-isotopes'`
+    const [{ id: labId }] = await testDb()<[{ id: string }]>`select id from labs where slug = 'saltmarsh-isotopes'`
     await page.goto(url(`/console/labs/${labId}/acquisitions`), { waitUntil: 'hydration' } as never)
     const ref = referenceAcquisition(unique('csv-run'), '2026-11-30T10:00:00Z', 'irms-north')
     const csv = ['# acceleratingVoltage: 3 kV ± 0.0006', '# formulas: CO2, [13C]O2, N2, [40Ar]', 'field [T],detector [fA]', ...ref.sweep.values.map((b, i) => `${b},${ref.detectors[0]!.values[i]}`)].join('\n')
@@ -128,7 +128,7 @@ describe('a lab manager\'s main flow in the console', () => {
   })
 
   it('refuses the lab pages to roles that must not see them', async () => {
-    const [{ id: labId }] = await testDb()`select id from labs where slug = 'halvard-ridge'`
+    const [{ id: labId }] = await testDb()<[{ id: string }]>`select id from labs where slug = 'halvard-ridge'`
     const integrator = await signIn('integrator')
     for (const path of ['instruments', 'acquisitions']) {
       await integrator.goto(url(`/console/labs/${labId}/${path}`))

@@ -15,7 +15,8 @@ export async function useArcwise(opts: { browser?: boolean, env?: Record<string,
     server: true,
     port: env.appPort,
     env: { ...env.serverEnv, ...opts.env },
-    nuxtConfig: { nitro: { output: { dir: join(rootDir, '.output') } } },
+    // Nitro's options are not in the NuxtConfig type that this tsconfig sees.
+    nuxtConfig: { nitro: { output: { dir: join(rootDir, '.output') } } } as Record<string, unknown>,
     browser: opts.browser ?? false,
     browserOptions: { type: 'chromium', launch: { executablePath: '/usr/bin/chromium', args: chromiumArgs } },
   })
