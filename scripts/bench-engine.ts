@@ -4,6 +4,8 @@
 //  - the whole pipeline (convert, baseline, peaks, assignment) at 10^3..10^6 points, in ms
 //    and points per second (goal: cost per point within a factor 2 over that range).
 import { cpus } from 'node:os'
+import { setFlagsFromString } from 'node:v8'
+import { runInNewContext } from 'node:vm'
 import { ENGINE_VERSION, KG_PER_C_TO_U_PER_E, formulaSpecies, geometry, isotope, processReadings, simulateFieldSweep, sweepToMz } from '../shared/engine'
 
 const geo = geometry.parse({ kind: 'potential-sector', analyzerRadius: { value: 0.27, unit: 'm', u: 0.0001 } })
@@ -16,11 +18,19 @@ const species = [
 ]
 const simulate = (points: number) => simulateFieldSweep({ geometry: geo, acceleratingVoltageV: 3000, mzFrom: 26, mzTo: 48, points, resolvingPower: 1200, species, baselineA: 1e-14, noiseA: 2e-15, seed: 11 })
 
-/** Median wall time of `fn` in ms over `runs` runs after `warmup` runs. */
-function time(fn: () => void, runs: number, warmup = 3): number {
+// For the conversion, a full garbage collection before each timed sample (untimed). Without
+// it, whether a sample's 8 MB output array reuses freed memory or takes fresh pages from the kernel (about
+// 25 ms of page faults here) depended on when V8 last collected: the bare loop measured
+// 2.8 ms in one process and 28 ms in another (`npm run bench`, which loads more modules).
+setFlagsFromString('--expose-gc')
+const collectGarbage = runInNewContext('gc') as () => void
+
+/** Median wall time of `fn` in ms over `runs` runs after `warmup` runs (each after a full GC if `gc`). */
+function time(fn: () => void, runs: number, warmup = 3, gc = false): number {
   for (let i = 0; i < warmup; i++) fn()
   const samples: number[] = []
   for (let i = 0; i < runs; i++) {
+    if (gc) collectGarbage()
     const t0 = process.hrtime.bigint()
     fn()
     samples.push(Number(process.hrtime.bigint() - t0) / 1e6)
@@ -36,13 +46,13 @@ export function benchEngine() {
   const r = 0.27
   let sink = 0
   const bare = time(() => {
-    // The formula alone: m/z = (rB)²/(2U) · e/m_u, over a preallocated typed array.
+    // The formula alone: m/z = (rB)²/(2U) · e/m_u, into a new typed array as the engine's is.
     const c = r * r / (2 * U) * KG_PER_C_TO_U_PER_E
     const out = new Float64Array(field.length)
     for (let i = 0; i < field.length; i++) { const b = field[i]!; out[i] = c * b * b }
     sink += out[out.length - 1]!
-  }, 21)
-  const engine = time(() => { sink += sweepToMz(geo, big).mz[0]! }, 21)
+  }, 21, 3, true)
+  const engine = time(() => { sink += sweepToMz(geo, big).mz[0]! }, 21, 3, true)
 
   const sizes = [1_000, 10_000, 100_000, 1_000_000]
   const pipeline = sizes.map((points) => {
