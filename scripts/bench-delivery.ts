@@ -11,11 +11,13 @@ import { createServer } from 'node:http'
 import { cpus, tmpdir } from 'node:os'
 import { join } from 'node:path'
 import { readFileSync } from 'node:fs'
+import { setTimeout as sleep } from 'node:timers/promises'
 import { Agent, request } from 'undici'
 import { buildIfStale } from './lib/build'
 import { cpuSeconds, cpuShares } from './lib/cpu'
 import { demoInstruments, thousandPointAcquisition } from './lib/demo-instruments'
 import { demoAdmin } from './lib/console-client'
+import { noteArrival, openLoopLatency } from './lib/open-loop'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
 import { startServer, startStack, waitForServer } from './lib/services'
@@ -27,9 +29,6 @@ const CONCURRENCY = 16
 
 interface Message { headers: Record<string, string>, body: string }
 
-/** The q-quantile of sorted values (nearest rank). */
-const quantile = (sorted: number[], q: number) => sorted[Math.min(sorted.length - 1, Math.ceil(q * sorted.length) - 1)] ?? NaN
-const sleep = (ms: number) => new Promise(resolve => setTimeout(resolve, ms))
 
 export async function benchDelivery(opts: { acquisitions?: number, endpoints?: number, latencyRate?: number, latencySeconds?: number } = {}) {
   const acquisitionCount = opts.acquisitions ?? Number(process.env.BENCH_ACQUISITIONS ?? 1000)
@@ -46,9 +45,7 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
     req.on('end', () => {
       const body = Buffer.concat(chunks).toString()
       if (req.url === '/latency') {
-        const at = performance.now()
-        const runId = (JSON.parse(body) as { data: { runId: string } }).data.runId
-        if (!arrived.has(runId)) arrived.set(runId, at)
+        noteArrival(arrived, body)
       }
       else {
         const headers = Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)]))
@@ -128,22 +125,12 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
     await asAdmin('POST', endpointsPath, { url: `http://127.0.0.1:${SINK_PORT}/latency` })
     const template = thousandPointAcquisition(inst, 'x')
     for (let w = 0; w < 20; w++) await post({ ...template, runId: `lat-warm-${process.pid}-${w}` })
-    const answered = new Map<string, number>()
-    const posts: Promise<void>[] = []
     const count = latencyRate * latencySeconds
-    const latencyStarted = performance.now()
-    for (let n = 0; n < count; n++) {
-      const runId = `lat-${process.pid}-${n}`
-      await sleep(Math.max(0, latencyStarted + n * 1000 / latencyRate - performance.now()))
-      posts.push(post({ ...template, runId }).then(() => { answered.set(runId, performance.now()) }))
-    }
-    await Promise.all(posts)
-    const postedPerSecond = count / ((performance.now() - latencyStarted) / 1000)
-    const latencyDeadline = performance.now() + 60_000
-    while ([...answered.keys()].some(id => !arrived.has(id)) && performance.now() < latencyDeadline) await sleep(20)
-    // A result can reach the receiver before its answer reaches the lab system: that is 0.
-    const latencies = [...answered].filter(([id]) => arrived.has(id)).map(([id, t]) => Math.max(0, arrived.get(id)! - t)).sort((a, b) => a - b)
-    const p99 = Math.round(quantile(latencies, 0.99))
+    // Timed from the moment each post is answered.
+    const timed = await openLoopLatency({ count, rate: latencyRate, runIdPrefix: `lat-${process.pid}`, arrived, send: async (runId) => {
+      await post({ ...template, runId })
+      return performance.now()
+    } })
 
     return {
       concurrency: CONCURRENCY, endpoints: endpointCount, deliveriesOwed: owed, delivered: inbox.worker.size,
@@ -151,9 +138,8 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
       bareSender: { seconds: Number(bareSeconds.toFixed(2)), requestsPerSecond: Math.round(bareRate), cpuPercent: bareCpu },
       ratio: { value: ratio, goal: '>= 0.7', met: ratio >= 0.7 },
       latency: {
-        eventsPerSecond: latencyRate, postedPerSecond: Math.round(postedPerSecond), events: count, received: latencies.length, points: template.sweep!.values.length,
-        ms: { p50: Math.round(quantile(latencies, 0.5)), p99, max: Math.round(latencies.at(-1) ?? NaN) },
-        goal: 'p99 < 250 ms', met: latencies.length === count && p99 < 250,
+        eventsPerSecond: latencyRate, postedPerSecond: timed.postedPerSecond, events: count, received: timed.received, points: template.sweep!.values.length,
+        ms: timed.ms, goal: 'p99 < 250 ms', met: timed.received === count && timed.ms.p99 < 250,
       },
     }
   }

@@ -9,6 +9,7 @@ import { readFileSync } from 'node:fs'
 import { buildIfStale } from './lib/build'
 import { demoInstruments } from './lib/demo-instruments'
 import { demoAdmin } from './lib/console-client'
+import { noteArrival, openLoopLatency } from './lib/open-loop'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
 import { startServer, startStack, waitForServer } from './lib/services'
@@ -16,9 +17,6 @@ import { startServer, startStack, waitForServer } from './lib/services'
 const PORT = 3300
 const SINK_PORT = 3391
 const base = `http://127.0.0.1:${PORT}`
-
-/** The q-quantile of sorted values (nearest rank). */
-const quantile = (sorted: number[], q: number) => sorted[Math.min(sorted.length - 1, Math.ceil(q * sorted.length) - 1)]!
 
 export async function benchLatency(opts: { count?: number, ratePerSecond?: number } = {}) {
   const count = opts.count ?? 300
@@ -28,9 +26,7 @@ export async function benchLatency(opts: { count?: number, ratePerSecond?: numbe
     const chunks: Buffer[] = []
     req.on('data', c => chunks.push(c as Buffer))
     req.on('end', () => {
-      const at = performance.now()
-      const runId = (JSON.parse(Buffer.concat(chunks).toString()) as { data: { runId: string } }).data.runId
-      if (!arrived.has(runId)) arrived.set(runId, at)
+      noteArrival(arrived, Buffer.concat(chunks).toString())
       res.writeHead(200).end()
     })
   })
@@ -49,26 +45,18 @@ export async function benchLatency(opts: { count?: number, ratePerSecond?: numbe
     // The demo carbonate bench's acquisitions as its lab system sends them (12,000 points).
     const inst = demoInstruments.find(i => i.slug === 'irms-north')!
     const body = inst.acquisition('x', new Date(), 2)
-    const sentAt = new Map<string, number>()
     const post = (runId: string) => fetch(`${base}/api/v1/acquisitions`, {
       method: 'POST', headers: { 'content-type': 'application/json', 'authorization': `Bearer ${keys['saltmarsh-isotopes']}` }, body: JSON.stringify({ ...body, runId }),
     }).then(async (r) => { await r.arrayBuffer(); if (r.status !== 201) throw new Error(`posting answered ${r.status}`) })
     for (let i = 0; i < 10; i++) await post(`warm-${process.pid}-${i}`) // JIT and connection pools
-    const posts: Promise<void>[] = []
-    const started = performance.now()
-    for (let i = 0; i < count; i++) {
-      const runId = `lat-${process.pid}-${i}`
-      await new Promise(r => setTimeout(r, Math.max(0, started + i * 1000 / rate - performance.now())))
-      sentAt.set(runId, performance.now())
-      posts.push(post(runId))
-    }
-    await Promise.all(posts)
-    const deadline = Date.now() + 60_000
-    while ([...sentAt.keys()].some(id => !arrived.has(id)) && Date.now() < deadline) await new Promise(r => setTimeout(r, 20))
-    const latencies = [...sentAt].filter(([id]) => arrived.has(id)).map(([id, t]) => arrived.get(id)! - t).sort((a, b) => a - b)
+    // Timed from the start of each post.
+    const timed = await openLoopLatency({ count, rate, runIdPrefix: `lat-${process.pid}`, arrived, send: async (runId) => {
+      const at = performance.now()
+      await post(runId)
+      return at
+    } })
     return {
-      acquisitions: count, ratePerSecond: rate, points: body.sweep!.values.length, received: latencies.length,
-      latencyMs: { p50: Math.round(quantile(latencies, 0.5)), p99: Math.round(quantile(latencies, 0.99)), max: Math.round(latencies.at(-1)!) },
+      acquisitions: count, ratePerSecond: rate, points: body.sweep!.values.length, received: timed.received, latencyMs: timed.ms,
     }
   }
   finally {
