@@ -13,7 +13,12 @@ import { deliveries, deliveryAttempts, events, labs, partners, users, webhookEnd
 
 const workerId = `${hostname()}:${process.pid}:${randomUUID().slice(0, 8)}`
 
-function config() {
+// Read once: the runtime config is fixed for the life of the process, and the worker asks
+// for it on every send (as outbound.ts does for its guard settings).
+let settings: ReturnType<typeof readConfig> | undefined
+const config = () => (settings ??= readConfig())
+
+function readConfig() {
   const w = useRuntimeConfig().webhooks
   const schedule = String(w.retrySchedule ?? '').split(',').map(Number).filter(n => Number.isFinite(n) && n >= 0)
   return {
@@ -115,15 +120,20 @@ export async function eventMessageBody(eventId: string): Promise<string | null> 
  * node:crypto: the standardwebhooks package's pure-JavaScript HMAC was about 7 % of the
  * worker's time in bench:delivery. The tests verify every signature with that package.
  */
-const keys = new Map<string, Buffer>()
-function hmacKey(secret: string): Buffer {
-  let key = keys.get(secret)
-  if (!key) {
-    if (keys.size > 1000) keys.clear()
-    keys.set(secret, key = Buffer.from(secret.replace(/^whsec_/, ''), 'base64'))
+/** `fn` remembered by its argument, for at most 1,000 arguments at a time (then forgotten). */
+function remembered<V>(fn: (key: string) => V): (key: string) => V {
+  const known = new Map<string, V>()
+  return (key) => {
+    let value = known.get(key)
+    if (value === undefined) {
+      if (known.size >= 1000) known.clear()
+      known.set(key, value = fn(key))
+    }
+    return value
   }
-  return key
 }
+
+const hmacKey = remembered(secret => Buffer.from(secret.replace(/^whsec_/, ''), 'base64'))
 
 export function signedHeaders(id: string, body: string, secrets: string[], at = new Date()): Record<string, string> {
   const timestamp = Math.floor(at.getTime() / 1000)
@@ -138,15 +148,7 @@ export function signedHeaders(id: string, body: string, secrets: string[], at = 
 }
 
 // Unsealed secrets by their sealed text: a rotation seals a new text, so nothing goes stale.
-const unsealed = new Map<string, string>()
-function unsealCached(sealed: string): string {
-  let secret = unsealed.get(sealed)
-  if (secret === undefined) {
-    if (unsealed.size > 1000) unsealed.clear()
-    unsealed.set(sealed, secret = unseal(sealed))
-  }
-  return secret
-}
+const unsealCached = remembered(unseal)
 
 export function secretsOf(row: { sealed_secret: string, previous_sealed_secret: string | null, previous_secret_until: string | null }): string[] {
   const list = [unsealCached(row.sealed_secret)]
@@ -203,11 +205,11 @@ export function nextDelaySeconds(attempts: number, retryAfterS: number | null, s
 interface Sent { row: Claimed, message: Message, headers: Record<string, string>, outcome: AttemptOutcome }
 
 /** Signs and sends one claimed delivery; the database is not touched here, and it never throws. */
-async function send(row: Claimed, secrets: (row: Claimed) => string[]): Promise<Sent> {
+async function send(row: Claimed): Promise<Sent> {
   let message: Message = { kind: 'test', body: '' }
   try {
     message = deliveryMessage(row, config().maxPayloadBytes)
-    const headers = signedHeaders(row.id, message.body, secrets(row))
+    const headers = signedHeaders(row.id, message.body, secretsOf(row))
     return { row, message, headers, outcome: await sendOnce(row.url, headers, message.body) }
   }
   catch (error) {
@@ -339,7 +341,7 @@ class DeliveryPipeline {
     const { concurrency } = config()
     while (!this.stopped && this.sending < concurrency && this.queue.length) {
       this.sending++
-      void send(this.queue.shift()!, secretsOf).then((sent) => {
+      void send(this.queue.shift()!).then((sent) => {
         this.sending--
         this.finished.push(sent)
         this.record()
