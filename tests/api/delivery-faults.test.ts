@@ -1,11 +1,9 @@
-import { spawn, type ChildProcess } from 'node:child_process'
+import type { ChildProcess } from 'node:child_process'
 import { createServer } from 'node:http'
-import { join } from 'node:path'
 import { afterAll, afterEach, describe, expect, it } from 'vitest'
 import { restartCluster } from '../../scripts/lib/pg'
-import { rootDir, testEnv } from '../support/env'
 import { bearer, co2Acquisition } from '../support/lab'
-import { ConsoleClient, testDb, unique, useArcwise } from '../support/server'
+import { ConsoleClient, startAppProcess, testDb, unique, useArcwise } from '../support/server'
 import { grantedPartnerWithEndpoint, until } from '../support/webhooks'
 
 // Deliveries under real faults: worker processes killed with SIGKILL mid-batch, two workers
@@ -39,10 +37,7 @@ afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
 const workers: ChildProcess[] = []
 let nextPort = 3160
 function startWorker(): ChildProcess {
-  const child = spawn(process.execPath, [join(rootDir, '.output', 'server', 'index.mjs')], {
-    env: { ...process.env, ...testEnv().serverEnv, ...webhookEnv, NUXT_PROCESS_ROLE: 'worker', PORT: String(nextPort++), HOST: '127.0.0.1', NODE_ENV: 'production' },
-    stdio: 'ignore',
-  })
+  const child = startAppProcess(nextPort++, { ...webhookEnv, NUXT_PROCESS_ROLE: 'worker' })
   workers.push(child)
   return child
 }

@@ -1,9 +1,8 @@
-import { spawn, type ChildProcess } from 'node:child_process'
-import { join } from 'node:path'
+import type { ChildProcess } from 'node:child_process'
 import { afterAll, describe, expect, it } from 'vitest'
-import { rootDir, testEnv } from '../support/env'
 import { bearer, labWithInstrument } from '../support/lab'
-import { useArcwise } from '../support/server'
+import { startAppProcess, useArcwise } from '../support/server'
+import { until } from '../support/webhooks'
 
 // App processes keep key rows in memory for a few seconds; a revocation made through one
 // process must stop the key at every other one at once (NOTIFY), not when its copy expires.
@@ -15,16 +14,8 @@ let child: ChildProcess | undefined
 afterAll(() => { child?.kill('SIGTERM') })
 
 async function startOtherProcess() {
-  child = spawn(process.execPath, [join(rootDir, '.output', 'server', 'index.mjs')], {
-    env: { ...process.env, ...testEnv().serverEnv, NUXT_PROCESS_ROLE: 'web', PORT: String(OTHER_PORT), HOST: '127.0.0.1', NODE_ENV: 'production' },
-    stdio: 'ignore',
-  })
-  for (let i = 0; i < 100; i++) {
-    try { if ((await fetch(`${other}/api/health`)).ok) return }
-    catch { /* not up yet */ }
-    await new Promise(r => setTimeout(r, 200))
-  }
-  throw new Error('the second app process did not start')
+  child = startAppProcess(OTHER_PORT, { NUXT_PROCESS_ROLE: 'web' })
+  await until('the second app process', () => fetch(`${other}/api/health`).then(r => r.ok, () => false), 20_000)
 }
 
 const listAt = (base: string, secret: string) => fetch(`${base}/api/v1/acquisitions`, { headers: bearer(secret) })

@@ -1,3 +1,4 @@
+import { spawn, type ChildProcess } from 'node:child_process'
 import { join } from 'node:path'
 import { setup, url } from '@nuxt/test-utils/e2e'
 import postgres from 'postgres'
@@ -5,6 +6,17 @@ import { afterAll } from 'vitest'
 import { rootDir, testEnv } from './env'
 
 const chromiumArgs = ['--no-sandbox', '--headless', '--disable-gpu', '--disable-quic', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run']
+
+/**
+ * One more process of the built server on `port`, against the test database (a second web
+ * process, or a worker with NUXT_PROCESS_ROLE); the caller stops it.
+ */
+export function startAppProcess(port: number, env: Record<string, string> = {}): ChildProcess {
+  return spawn(process.execPath, [join(rootDir, '.output', 'server', 'index.mjs')], {
+    env: { ...process.env, ...testEnv().serverEnv, ...env, PORT: String(port), HOST: '127.0.0.1', NODE_ENV: 'production' },
+    stdio: 'ignore',
+  })
+}
 
 /** Starts the built server (built once by scripts/test.ts) for this test file. */
 export async function useArcwise(opts: { browser?: boolean, env?: Record<string, string> } = {}) {
