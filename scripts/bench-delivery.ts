@@ -118,6 +118,10 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
     const deliveryRate = inbox.worker.size / workerSeconds
     const bareRate = inbox.bare.size / bareSeconds
     const ratio = Number((deliveryRate / bareRate).toFixed(2))
+    // CPU time of all processes per message: less at the mercy of this machine's noise than
+    // the rates, since a slow moment slows both the work and its clock.
+    const perMessage = (shares: Record<string, number>, seconds: number, count: number) =>
+      Math.round(Object.values(shares).reduce((a, b) => a + b, 0) / 100 * seconds / count * 1e6)
 
     // 2. Latency, at a steady rate to one endpoint (the rate measure's endpoints paused), with
     // 1,000-point acquisitions: the 12,000-point ones cannot be ingested 200 times a second here.
@@ -137,6 +141,7 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
       worker: { seconds: Number(workerSeconds.toFixed(2)), deliveriesPerSecond: Math.round(deliveryRate), cpuPercent: workerCpu },
       bareSender: { seconds: Number(bareSeconds.toFixed(2)), requestsPerSecond: Math.round(bareRate), cpuPercent: bareCpu },
       ratio: { value: ratio, goal: '>= 0.7', met: ratio >= 0.7 },
+      cpuMicrosecondsPerMessage: { worker: perMessage(workerCpu, workerSeconds, inbox.worker.size), bareSender: perMessage(bareCpu, bareSeconds, inbox.bare.size) },
       latency: {
         eventsPerSecond: latencyRate, postedPerSecond: timed.postedPerSecond, events: count, received: timed.received, points: template.sweep!.values.length,
         ms: timed.ms, goal: 'p99 < 250 ms', met: timed.received === count && timed.ms.p99 < 250,
