@@ -50,6 +50,10 @@ type Claimed = {
   event_at: string | null
 }
 
+// The least an endpoint offers to a claim. A claim that brings fewer rows than this found
+// every due delivery: no endpoint had more than it offered.
+const SHARE_MIN = 32
+
 /** Claims up to `limit` due deliveries of active endpoints for this worker, leased for `leaseSeconds`. */
 export async function claimDueDeliveries(limit: number, leaseSeconds: number): Promise<Claimed[]> {
   // The plan must not depend on the table's statistics: just after a bulk of events they say
@@ -61,9 +65,9 @@ export async function claimDueDeliveries(limit: number, leaseSeconds: number): P
       select c.id, c.next_attempt_at from ${webhookEndpoints} e cross join lateral (
         select d.id, d.next_attempt_at from ${deliveries} d
         where d.endpoint_id = e.id and d.status = 'pending' and d.next_attempt_at <= now() and (d.lease_until is null or d.lease_until < now())
-        -- Each endpoint offers its share of the claim (at least 32), not the whole claim: a
-        -- claim of 256 across 10 endpoints read 2,560 rows to keep 256.
-        order by d.next_attempt_at limit greatest(32, ceil(${limit}::float8 / greatest(1, (select count(*) from ${webhookEndpoints} where status = 'active'))))) c
+        -- Each endpoint offers its share of the claim (at least SHARE_MIN), not the whole
+        -- claim: a claim of 256 across 10 endpoints read 2,560 rows to keep 256.
+        order by d.next_attempt_at limit greatest(${SHARE_MIN}, ceil(${limit}::float8 / greatest(1, (select count(*) from ${webhookEndpoints} where status = 'active'))))) c
       where e.status = 'active' order by c.next_attempt_at limit ${limit}),
     -- Locked after they are chosen (and checked again once locked), so the rows of other
     -- endpoints that the choice passed over are not locked.
@@ -382,8 +386,9 @@ class DeliveryPipeline {
     try {
       const rows = await claimDueDeliveries(batch, lease)
       this.queue.push(...rows)
-      // A claim may come back short while others are due: each endpoint offers only its share.
-      if (rows.length) this.more = true
+      // A claim can come back short of the batch while more is due (each endpoint offers only
+      // its share), but not short of the least share.
+      if (rows.length >= Math.min(batch, SHARE_MIN)) this.more = true
     }
     catch (error) {
       console.error('[delivery] claiming failed; the next poll tries again', error)

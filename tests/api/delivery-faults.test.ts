@@ -95,6 +95,19 @@ describe('deliveries survive faults', () => {
     expect(attempts!.n).toBe(40)
   })
 
+  it('a backlog larger than one claim drains from a single wake-up, without waiting for the next poll', async () => {
+    // A claim of 64 (16 sends in flight) takes at most 32 from each endpoint while two are
+    // active, so this backlog of 100 needs four claims; the poll is ten minutes away.
+    const { ids, tally } = await owedDeliveries(100)
+    await grantedPartnerWithEndpoint(`http://127.0.0.1:${SINK_PORT}/idle`)
+    const [active] = await testDb()`select count(*)::int as n from webhook_endpoints where status = 'active'`
+    expect(active!.n).toBeGreaterThanOrEqual(2)
+    const child = startAppProcess(nextPort++, { ...webhookEnv, NUXT_PROCESS_ROLE: 'worker', NUXT_WEBHOOKS_CONCURRENCY: '16', NUXT_WEBHOOKS_POLL_MS: '600000' })
+    workers.push(child)
+    await until('every delivery to succeed', async () => (await tally()).done === 100, 60_000)
+    expect(received(ids).distinct).toEqual(ids)
+  })
+
   it('PostgreSQL restarted while deliveries are due: every one still arrives', async () => {
     answer = 503
     const { ids, tally } = await owedDeliveries(12)
