@@ -3,8 +3,9 @@
 //
 // Soak: lab systems post acquisitions to two app processes (A: web, B: web and deliveries)
 // while a third (C: deliveries only) shares the delivery queue. Each event owes a delivery to
-// five endpoints of one partner: steady; flaky (a share of 500s); slow for a while (answers
-// after the send timeout); gone for a while (connection refused); never (503 always).
+// five endpoints of one partner: steady; flaky (every third message fails twice with 500);
+// slow for a while (answers after the send timeout); gone for a while (connection refused);
+// never (503 always).
 // Faults: C killed with SIGKILL three times, B once, PostgreSQL restarted once.
 // Then: events ingested, deliveries owed, delivered (distinct webhook-ids answered 2xx),
 // duplicates (further 2xx copies of a webhook-id), dead (must be exactly those to "never"),
@@ -45,13 +46,22 @@ const sleep = (ms: number) => new Promise(r => setTimeout(r, ms))
 // A copy counts as delivered when the sink's 2xx answer went out ('finish'); an answer to a
 // sender that had already given up (the slow phase) does not.
 const delivered = new Map<string, number>()
-const faults = { slow: false, flakyEvery: 3 }
-let flakyCount = 0
+const faults = { slow: false }
+// Flaky: every third message fails its first two tries. (A 500 for every third request of
+// the endpoint, whatever its message, let one message draw all eight of its attempts, about
+// (1/3)^8 each, so roughly one run in eleven ended a delivery dead that should have arrived.)
+const flakyTries = new Map<string, { order: number, tries: number }>()
+function flakyFails(id: string) {
+  const seen = flakyTries.get(id) ?? { order: flakyTries.size, tries: 0 }
+  seen.tries++
+  flakyTries.set(id, seen)
+  return seen.order % 3 === 2 && seen.tries <= 2
+}
 function handler(path: string, req: import('node:http').IncomingMessage, res: import('node:http').ServerResponse) {
   const id = `${path}|${String(req.headers['webhook-id'])}`
   const ok = () => { res.on('finish', () => delivered.set(id, (delivered.get(id) ?? 0) + 1)); res.writeHead(200).end() }
   if (path === '/never') return res.writeHead(503).end()
-  if (path === '/flaky' && ++flakyCount % faults.flakyEvery === 0) return res.writeHead(500).end()
+  if (path === '/flaky' && flakyFails(id)) return res.writeHead(500).end()
   if (path === '/slow' && faults.slow) return setTimeout(ok, 2500)
   ok()
 }
