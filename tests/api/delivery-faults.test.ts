@@ -36,8 +36,9 @@ afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
 
 const workers: ChildProcess[] = []
 let nextPort = 3160
-function startWorker(): ChildProcess {
-  const child = startAppProcess(nextPort++, { ...webhookEnv, NUXT_PROCESS_ROLE: 'worker' })
+/** A worker process with the file's webhook settings, and `env` over them. */
+function startWorker(env: Record<string, string> = {}): ChildProcess {
+  const child = startAppProcess(nextPort++, { ...webhookEnv, NUXT_PROCESS_ROLE: 'worker', ...env })
   workers.push(child)
   return child
 }
@@ -102,8 +103,7 @@ describe('deliveries survive faults', () => {
     await grantedPartnerWithEndpoint(`http://127.0.0.1:${SINK_PORT}/idle`)
     const [active] = await testDb()`select count(*)::int as n from webhook_endpoints where status = 'active'`
     expect(active!.n).toBeGreaterThanOrEqual(2)
-    const child = startAppProcess(nextPort++, { ...webhookEnv, NUXT_PROCESS_ROLE: 'worker', NUXT_WEBHOOKS_CONCURRENCY: '16', NUXT_WEBHOOKS_POLL_MS: '600000' })
-    workers.push(child)
+    startWorker({ NUXT_WEBHOOKS_CONCURRENCY: '16', NUXT_WEBHOOKS_POLL_MS: '600000' })
     await until('every delivery to succeed', async () => (await tally()).done === 100, 60_000)
     expect(received(ids).distinct).toEqual(ids)
   })
