@@ -84,7 +84,7 @@ export interface OutboundResponse { statusCode: number, headers: Record<string, 
  * POSTs `body` to a checked URL: no redirects followed, `timeoutMs` for the whole exchange,
  * and at most `excerptBytes` of the answer read (the rest is dropped unread).
  */
-export async function postGuarded(rawUrl: string, headers: Record<string, string>, body: string, opts: { timeoutMs: number, excerptBytes?: number }): Promise<OutboundResponse> {
+export async function postGuarded(rawUrl: string, headers: Record<string, string>, body: string | Buffer, opts: { timeoutMs: number, excerptBytes?: number }): Promise<OutboundResponse> {
   const url = checkOutboundUrl(rawUrl)
   // The deadline of the whole exchange, given to undici as an EventEmitter signal (it aborts
   // with an AbortError): AbortSignal.timeout cost about 25 µs more per request, a sixth of

@@ -97,8 +97,8 @@ describe('deliveries survive faults', () => {
   })
 
   it('a backlog larger than one claim drains from a single wake-up, without waiting for the next poll', async () => {
-    // A claim of 64 (16 sends in flight) takes at most 32 from each endpoint while two are
-    // active, so this backlog of 100 needs four claims; the poll is ten minutes away.
+    // A claim of 128 (16 sends in flight) takes at most 64 from each endpoint while two are
+    // active, so this backlog of 100 needs two claims; the poll is ten minutes away.
     const { ids, tally } = await owedDeliveries(100)
     await grantedPartnerWithEndpoint(`http://127.0.0.1:${SINK_PORT}/idle`)
     const [active] = await testDb()`select count(*)::int as n from webhook_endpoints where status = 'active'`
