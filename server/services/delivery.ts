@@ -357,9 +357,9 @@ export async function disableEndpoint(tx: Queryable, endpointId: string, reason:
  *
  * Claims and records are large: every statement wakes PostgreSQL, and the worker when it
  * answers, on cores that the app, PostgreSQL and the receivers share. Recording whatever had
- * finished (about 20 attempts a statement) and claiming 64 at a time cost 900–1,000 µs of
+ * finished (about 20 attempts a statement) and claiming 64 at a time cost 814–1,008 µs of
  * CPU per delivery in bench:delivery, all processes together; groups of at least 128 and
- * claims of 128–256 cost 670–740 µs.
+ * claims of 128 cost 628–800 µs (six runs each).
  */
 class DeliveryPipeline {
   private queue: Queued[] = []
