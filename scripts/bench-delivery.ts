@@ -7,6 +7,9 @@
 //    both (it keeps every message it receives), and the CPU each process used is reported.
 // 2. Latency: acquisitions posted open-loop at 200 a second to one endpoint; the time from
 //    the ingest answer to the sink's receipt of the result, p50 and p99 (goal: p99 < 250 ms).
+// Beside the rate, for the reader: the worker's send path alone (sign, guard, send, classify),
+// run by the server with no claim and no record (`/_bench/send-loop`). What separates the
+// worker from it is the durable queue; what separates it from the bare sender is the send path.
 import { createServer } from 'node:http'
 import { cpus, tmpdir } from 'node:os'
 import { join } from 'node:path'
@@ -21,6 +24,7 @@ import { noteArrival, openLoopLatency } from './lib/open-loop'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
 import { startServer, startStack, waitForServer } from './lib/services'
+import type { BenchSendLoop } from '../shared/schemas/webhooks'
 
 const PORT = 3300
 const SINK_PORT = 3390
@@ -37,7 +41,7 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
   const latencySeconds = opts.latencySeconds ?? 5
   // What the sink received, by path: the worker's messages, the bare sender's, and for the
   // latency measure the moment each run's result arrived.
-  const inbox = { worker: new Map<string, Message>(), bare: new Map<string, Message>() }
+  const inbox = { worker: new Map<string, Message>(), bare: new Map<string, Message>(), loop: new Map<string, Message>() }
   const arrived = new Map<string, number>()
   const sink = createServer((req, res) => {
     const chunks: Buffer[] = []
@@ -49,7 +53,7 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
       }
       else {
         const headers = Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)]))
-        inbox[req.url === '/bare' ? 'bare' : 'worker'].set(headers['webhook-id']!, { headers, body })
+        inbox[req.url === '/bare' ? 'bare' : req.url === '/loop' ? 'loop' : 'worker'].set(headers['webhook-id']!, { headers, body })
       }
       res.writeHead(200).end()
     })
@@ -60,7 +64,7 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
   await seedDemo(stack.databaseUrl, { keysFile })
   buildIfStale()
   const server = startServer({
-    ...stack.serverEnv, NUXT_RATE_LIMIT_PER_MINUTE: '0', NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}`, NUXT_WEBHOOKS_CONCURRENCY: String(CONCURRENCY),
+    ...stack.serverEnv, NUXT_RATE_LIMIT_PER_MINUTE: '0', NUXT_BENCH_ROUTES: 'true', NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}`, NUXT_WEBHOOKS_CONCURRENCY: String(CONCURRENCY),
   }, PORT)
   try {
     await waitForServer(`${base}/api/health`)
@@ -115,6 +119,17 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
     const bareSeconds = (performance.now() - bareStarted) / 1000
     const bareCpu = cpuShares(bareCpuBefore, cpuSeconds(server.pid!), bareSeconds)
     await agent.close()
+
+    // The worker's send path alone, in the server: as many messages, the same body and concurrency.
+    const loopCpuBefore = cpuSeconds(server.pid!)
+    const loopStarted = performance.now()
+    const loop: BenchSendLoop = { url: `http://127.0.0.1:${SINK_PORT}/loop`, count: messages.length, concurrency: CONCURRENCY, body: messages[0]!.body }
+    const loopAnswer = await fetch(`${base}/_bench/send-loop`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(loop) })
+    if (!loopAnswer.ok) throw new Error(`the send loop answered ${loopAnswer.status}: ${await loopAnswer.text()}`)
+    await loopAnswer.arrayBuffer()
+    const loopSeconds = (performance.now() - loopStarted) / 1000
+    const loopCpu = cpuShares(loopCpuBefore, cpuSeconds(server.pid!), loopSeconds)
+    const loopRate = inbox.loop.size / loopSeconds
     const deliveryRate = inbox.worker.size / workerSeconds
     const bareRate = inbox.bare.size / bareSeconds
     const ratio = Number((deliveryRate / bareRate).toFixed(2))
@@ -141,7 +156,10 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
       worker: { seconds: Number(workerSeconds.toFixed(2)), deliveriesPerSecond: Math.round(deliveryRate), cpuPercent: workerCpu },
       bareSender: { seconds: Number(bareSeconds.toFixed(2)), requestsPerSecond: Math.round(bareRate), cpuPercent: bareCpu },
       ratio: { value: ratio, goal: '>= 0.7', met: ratio >= 0.7 },
-      cpuMicrosecondsPerMessage: { worker: perMessage(workerCpu, workerSeconds, inbox.worker.size), bareSender: perMessage(bareCpu, bareSeconds, inbox.bare.size) },
+      sendPathOnly: { seconds: Number(loopSeconds.toFixed(2)), requestsPerSecond: Math.round(loopRate), cpuPercent: loopCpu, ratioToBare: Number((loopRate / bareRate).toFixed(2)) },
+      cpuMicrosecondsPerMessage: {
+        worker: perMessage(workerCpu, workerSeconds, inbox.worker.size), bareSender: perMessage(bareCpu, bareSeconds, inbox.bare.size), sendPathOnly: perMessage(loopCpu, loopSeconds, inbox.loop.size),
+      },
       latency: {
         eventsPerSecond: latencyRate, postedPerSecond: timed.postedPerSecond, events: count, received: timed.received, points: template.sweep!.values.length,
         ms: timed.ms, goal: 'p99 < 250 ms', met: timed.received === count && timed.ms.p99 < 250,

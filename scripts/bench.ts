@@ -54,6 +54,12 @@ const rows: Record<string, { figure: string, baseline: string, ratio: string, go
   'delivery: webhooks/s': {
     figure: `${delivery.worker.deliveriesPerSecond}/s`, baseline: `bare sender ${delivery.bareSender.requestsPerSecond}/s`, ratio: String(delivery.ratio.value), goal: '≥ 0.7', verdict: met(delivery.ratio.met),
   },
+  'delivery: send path alone (no claim, no record)': {
+    figure: `${delivery.sendPathOnly.requestsPerSecond}/s`, baseline: `bare sender ${delivery.bareSender.requestsPerSecond}/s`, ratio: String(delivery.sendPathOnly.ratioToBare), goal: '', verdict: '',
+  },
+  'delivery: CPU of all processes per message': {
+    figure: `worker ${delivery.cpuMicrosecondsPerMessage.worker} µs`, baseline: `bare ${delivery.cpuMicrosecondsPerMessage.bareSender} µs, send path ${delivery.cpuMicrosecondsPerMessage.sendPathOnly} µs`, ratio: '', goal: '', verdict: '',
+  },
   'delivery: ingest answer to receipt, 200 events/s': {
     figure: `p50 ${delivery.latency.ms.p50} ms, p99 ${delivery.latency.ms.p99} ms`, baseline: '', ratio: '', goal: 'p99 < 250 ms', verdict: met(delivery.latency.met),
   },

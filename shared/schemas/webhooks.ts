@@ -84,3 +84,15 @@ export const webhookMessage = z.object({
   timestamp: z.string().describe('when the event happened (ISO 8601); the same on every retry'),
   data: z.union([resultEventData, thinResultEventData, z.record(z.string(), z.unknown())]),
 })
+
+/**
+ * The benchmark's send loop (`/_bench/send-loop`, only with NUXT_BENCH_ROUTES=true): the
+ * worker's send path run `count` times to `url`, `concurrency` at a time, with no claim or record.
+ */
+export const benchSendLoop = z.object({
+  url: z.string(),
+  count: z.number().int().min(1).max(100_000),
+  concurrency: z.number().int().min(1).max(256),
+  body: z.string(),
+})
+export type BenchSendLoop = z.infer<typeof benchSendLoop>

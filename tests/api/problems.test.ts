@@ -32,6 +32,14 @@ describe('problem documents', () => {
     expect(res.body.type).toBe('urn:arcwise:problem:cross-origin')
   })
 
+  it('the benchmark routes do not exist unless NUXT_BENCH_ROUTES=true, so nobody can make this server post to a URL', async () => {
+    for (const path of ['/_bench/send-loop', '/_bench/baseline']) {
+      const res = await new ConsoleClient().request('POST', path, { url: 'http://127.0.0.1:9/', count: 1, concurrency: 1, body: '{}' }, {})
+      expect(res.status).toBe(404)
+      expect(res.body.type).toBe('urn:arcwise:problem:not-found')
+    }
+  })
+
   it('pages still get the HTML error page', async () => {
     const res = await fetch(url('/no-such-page'), { headers: { accept: 'text/html' } })
     expect(res.status).toBe(404)
