@@ -408,7 +408,7 @@ class DeliveryPipeline {
       })
     }
     // The next claim runs while the last of the queue is sent, unless recording lags behind.
-    const batch = concurrency * 8
+    const batch = concurrency * GROUP_PER_SLOT
     if (!this.stopped && this.more && !this.claiming && this.queue.length < concurrency * 2 && this.finished.length < batch * 4) {
       this.more = false
       this.claiming = true
@@ -441,7 +441,7 @@ class DeliveryPipeline {
     if (this.recording || !this.finished.length) return
     // A group waits (at most RECORD_WAIT_MS) to grow while sends are in flight; what finished
     // when nothing else is being sent, or when stopping, is recorded at once.
-    if (this.finished.length < config().concurrency * 8 && this.sending && !this.stopped) {
+    if (this.finished.length < config().concurrency * GROUP_PER_SLOT && this.sending && !this.stopped) {
       this.recordTimer ??= setTimeout(() => {
         this.recordTimer = undefined
         this.recordNow()
@@ -473,8 +473,10 @@ class DeliveryPipeline {
   }
 }
 
-// At most this many attempts are recorded by one statement, and a smaller group waits at most
-// this long for more.
+// A claim, and the group a record waits for, is this many deliveries per send slot (128 at
+// the default concurrency of 16). At most RECORD_GROUP attempts are recorded by one
+// statement, and a smaller group waits at most RECORD_WAIT_MS for more.
+const GROUP_PER_SLOT = 8
 const RECORD_GROUP = 256
 const RECORD_WAIT_MS = 25
 
