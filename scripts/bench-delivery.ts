@@ -126,7 +126,8 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
     const loop: BenchSendLoop = { url: `http://127.0.0.1:${SINK_PORT}/loop`, count: messages.length, concurrency: CONCURRENCY, body: messages[0]!.body }
     const loopAnswer = await fetch(`${base}/_bench/send-loop`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(loop) })
     if (!loopAnswer.ok) throw new Error(`the send loop answered ${loopAnswer.status}: ${await loopAnswer.text()}`)
-    await loopAnswer.arrayBuffer()
+    const { classes } = await loopAnswer.json() as { classes: Record<string, number> }
+    if (classes.success !== loop.count) throw new Error(`the send loop's sends did not all succeed: ${JSON.stringify(classes)}`)
     const loopSeconds = (performance.now() - loopStarted) / 1000
     const loopCpu = cpuShares(loopCpuBefore, cpuSeconds(server.pid!), loopSeconds)
     const loopRate = inbox.loop.size / loopSeconds

@@ -12,15 +12,13 @@ export default defineEventHandler(async (event) => {
   const bytes = Buffer.from(body)
   const classes: Record<string, number> = {}
   let next = 0
-  const cpu = process.cpuUsage()
-  const started = performance.now()
   await Promise.all(Array.from({ length: concurrency }, async () => {
     while (next < count) {
       const outcome = await sendOnce(url, signedHeaders(`msg_bench_${next++}`, bytes, [BENCH_SECRET]), bytes)
       classes[outcome.class] = (classes[outcome.class] ?? 0) + 1
     }
   }))
-  const seconds = (performance.now() - started) / 1000
-  const used = process.cpuUsage(cpu)
-  return { sent: count, seconds, classes, serverCpuMicrosecondsPerMessage: Math.round((used.user + used.system) / count) }
+  // The benchmark times the loop and reads every process's CPU itself; it needs to know only
+  // how the sends went.
+  return { sent: count, classes }
 })
