@@ -1,4 +1,5 @@
 import { fileURLToPath } from 'node:url'
+import { scryptParams } from './shared/passwordHashing'
 
 // The problem-document handler runs before Nuxt's own error page handler, so API routes
 // answer RFC 9457 JSON while pages keep Nuxt's error page.
@@ -31,10 +32,18 @@ export default defineNuxtConfig({
     // URL of the local SMTP fake's message list; empty outside development and tests.
     mailCaptureUrl: '',
     signIn: { maxFailures: 5, lockMinutes: 15 },
-    rateLimit: { perMinute: 1200 },
+    // Requests per API key per minute; console changes (non-GET console calls) per user per
+    // minute. perMinute 0 turns both off (a deployment whose gateway limits everything).
+    rateLimit: { perMinute: 1200, consolePerMinute: 120 },
+    // CIDRs of the reverse proxies whose X-Forwarded-For and X-Forwarded-Proto are believed.
+    trustedProxies: '',
+    // NUXT_SEALING_KEYS: "id:secret" pairs, oldest first; the newest seals (server/utils/keyring.ts).
+    sealingKeys: '',
     // The benchmark's baseline route (server/routes/_bench), off unless NUXT_BENCH_ROUTES=true.
     benchRoutes: false,
     session: { maxAge: 60 * 60 * 12 },
+    // nuxt-auth-utils' hashPassword / verifyPassword / passwordNeedsReHash read these.
+    hash: { scrypt: { ...scryptParams } },
     // web (HTTP only), worker (deliveries and background work only) or both.
     processRole: 'both',
     webhooks: {

@@ -14,6 +14,7 @@ buildIfStale()
 const worker = startServer({
   NUXT_DATABASE_URL: databaseUrl,
   NUXT_SESSION_PASSWORD: localSecrets().sessionPassword,
+  NUXT_SEALING_KEYS: localSecrets().sealingKeys,
   NUXT_APP_URL: process.env.NUXT_APP_URL ?? 'http://localhost:3000',
   NUXT_SMTP_HOST: '127.0.0.1',
   NUXT_SMTP_PORT: '2525',

@@ -1,6 +1,7 @@
 import type { H3Error } from 'h3'
 import { isError, setResponseHeader, setResponseStatus, send } from 'h3'
 import type { ProblemDocument } from '#shared/schemas/common'
+import { unexpectedErrorLine } from './utils/errorLog'
 import { problemType } from './utils/problem'
 
 // API routes answer every error as an RFC 9457 problem document; pages fall through to
@@ -17,7 +18,7 @@ export default defineNitroErrorHandler(async (error, event) => {
   }
   else {
     const status = h3?.statusCode ?? 500
-    if (status >= 500) console.error(error)
+    if (status >= 500) console.error(unexpectedErrorLine(error, event.method, path))
     doc = {
       type: problemType(status === 404 ? 'not-found' : status >= 500 ? 'internal' : 'http-error'),
       title: status >= 500 ? 'Internal error' : (h3?.statusMessage || 'Error'),
@@ -33,3 +34,4 @@ export default defineNitroErrorHandler(async (error, event) => {
   setResponseHeader(event, 'cache-control', 'no-store')
   await send(event, JSON.stringify(doc))
 })
+

@@ -10,17 +10,28 @@ export function log(message: string) {
   console.log(`[arcwise] ${message}`)
 }
 
-interface LocalSecrets { sessionPassword: string, pgPassword: string }
+interface LocalSecrets { sessionPassword: string, pgPassword: string, sealingKeys: string }
 
-/** Secrets of this checkout, made once and kept under .data/ (never committed). */
+/** A sealing keyring entry for NUXT_SEALING_KEYS: `id:secret`. */
+export function newSealingKey(id: string): string {
+  return `${id}:${randomBytes(32).toString('base64url')}`
+}
+
+/**
+ * Secrets of this checkout, made once and kept under .data/ (never committed). A checkout
+ * from before the sealing keyring gets one added, so development and tests seal with it.
+ */
 export function localSecrets(): LocalSecrets {
   const file = join(dataDir, 'secrets.json')
-  if (existsSync(file)) return JSON.parse(readFileSync(file, 'utf8')) as LocalSecrets
-  mkdirSync(dirname(file), { recursive: true })
-  const secrets = {
-    sessionPassword: randomBytes(32).toString('base64url'),
-    pgPassword: randomBytes(18).toString('base64url'),
+  const existing = existsSync(file) ? JSON.parse(readFileSync(file, 'utf8')) as Partial<LocalSecrets> : {}
+  const secrets: LocalSecrets = {
+    sessionPassword: existing.sessionPassword ?? randomBytes(32).toString('base64url'),
+    pgPassword: existing.pgPassword ?? randomBytes(18).toString('base64url'),
+    sealingKeys: existing.sealingKeys ?? newSealingKey('local1'),
   }
-  writeFileSync(file, JSON.stringify(secrets, null, 2), { mode: 0o600 })
+  if (existing.sessionPassword !== secrets.sessionPassword || existing.pgPassword !== secrets.pgPassword || existing.sealingKeys !== secrets.sealingKeys) {
+    mkdirSync(dirname(file), { recursive: true })
+    writeFileSync(file, JSON.stringify(secrets, null, 2), { mode: 0o600 })
+  }
   return secrets
 }

@@ -27,6 +27,7 @@ export async function startStack(opts: { database: string, fresh?: boolean, smtp
     const serverEnv = {
       NUXT_DATABASE_URL: databaseUrl,
       NUXT_SESSION_PASSWORD: localSecrets().sessionPassword,
+      NUXT_SEALING_KEYS: localSecrets().sealingKeys,
       NUXT_APP_URL: opts.appUrl,
       NUXT_SMTP_HOST: '127.0.0.1',
       NUXT_SMTP_PORT: String(mail.smtpPort),

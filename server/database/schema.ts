@@ -50,6 +50,21 @@ export const users = pgTable('users', {
   check('users_role_scope', sql`(${t.role} = 'lab_manager') = (${t.labId} is not null) and (${t.role} = 'integrator') = (${t.partnerId} is not null)`),
 ])
 
+/**
+ * One row per console sign-in; the cookie carries its id. Signing out or an admin ending a
+ * user's sessions sets `ended_at`, and the guards refuse a cookie whose row has ended, so a
+ * copied cookie stops working on the server, not only in the browser that signed out.
+ */
+export const userSessions = pgTable('user_sessions', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  userId: uuid('user_id').notNull().references(() => users.id, { onDelete: 'cascade' }),
+  createdAt: createdAt(),
+  expiresAt: timestamp('expires_at', { withTimezone: true }).notNull(),
+  endedAt: timestamp('ended_at', { withTimezone: true }),
+  ip: text('ip'),
+  userAgent: text('user_agent'),
+}, t => [index('user_sessions_user_idx').on(t.userId)])
+
 export const invitations = pgTable('invitations', {
   id: uuid('id').primaryKey().defaultRandom(),
   email: text('email').notNull(),

@@ -5,21 +5,21 @@
 export default defineNitroPlugin((nitro) => {
   const background = useRuntimeConfig().processRole !== 'web'
   // The exchange schemas this build speaks are registered (idempotently) at start.
-  registerExchangeSchemas().catch(error => console.error('[schemas] registration failed', error))
+  registerExchangeSchemas().catch(error => logError('[schemas] registration failed', error))
   // Mail and deferred uploads are picked up every few seconds (and right after they are queued).
   const timer = setInterval(() => {
     if (background) {
       kickMailOutbox()
       kickUploads()
     }
-    flushSchemaUses().catch(error => console.error('[schemas] usage flush failed', error))
+    flushSchemaUses().catch(error => logError('[schemas] usage flush failed', error))
   }, 5000)
   timer.unref()
   if (background) startDeliveryWorker()
   nitro.hooks.hook('close', async () => {
     clearInterval(timer)
     // Leases this process holds are handed back, so another worker need not wait them out.
-    if (background) await stopDeliveryWorker().catch(error => console.error('[delivery] stop failed', error))
+    if (background) await stopDeliveryWorker().catch(error => logError('[delivery] stop failed', error))
     await flushSchemaUses().catch(() => {})
     await closeDb()
   })

@@ -10,7 +10,7 @@ let decoyHash: Promise<string> | undefined
 
 /** Signs in with e-mail and password; the answer is the same for an unknown e-mail and a wrong password. */
 export async function signIn(event: H3Event, input: SignInInput): Promise<SessionUser> {
-  const ip = getRequestIP(event, { xForwardedFor: false }) ?? 'unknown'
+  const ip = clientAddress(event)
   const lock = await signInLockState(input.email, ip)
   if (lock.locked) throw lockedProblem(lock.retryAfterSeconds)
 
@@ -30,8 +30,10 @@ export async function signIn(event: H3Event, input: SignInInput): Promise<Sessio
   }
 
   await clearSignInFailures(input.email)
-  await db.update(users).set({ lastSignInAt: new Date() }).where(eq(users.id, row.id))
-  await setUserSession(event, { user: { id: row.id, sessionVersion: row.sessionVersion }, loggedInAt: Date.now() })
+  // A hash made at an older cost is re-made now, while the password is at hand.
+  const rehashed = passwordNeedsReHash(row.passwordHash) ? await hashPassword(input.password) : undefined
+  await db.update(users).set({ lastSignInAt: new Date(), ...(rehashed ? { passwordHash: rehashed } : {}) }).where(eq(users.id, row.id))
+  await startConsoleSession(event, row)
   await recordAudit(db, { actor: actorOf(row), action: 'sign-in', targetType: 'user', targetId: row.id, event })
   return { id: row.id, email: row.email, name: row.name, role: row.role, labId: row.labId, partnerId: row.partnerId }
 }
@@ -44,7 +46,7 @@ function lockedProblem(retryAfterSeconds: number) {
 const userColumns = {
   id: users.id, email: users.email, name: users.name, role: users.role, status: users.status,
   labId: users.labId, labName: labs.name, partnerId: users.partnerId, partnerName: partners.name,
-  lastSignInAt: users.lastSignInAt, createdAt: users.createdAt,
+  lastSignInAt: users.lastSignInAt, createdAt: users.createdAt, openSessions: openSessionCount(),
 }
 
 export function listUsers() {

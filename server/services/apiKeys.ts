@@ -55,7 +55,7 @@ function watchRevocations() {
   listener ??= listenDb(KEY_CHANNEL, prefix => knownKeys.delete(prefix), () => { knownKeys.clear(); listening = true })
     .catch((error) => {
       listener = undefined
-      console.error('[keys] cannot listen for revocations; keys are looked up on every request', error)
+      logError('[keys] cannot listen for revocations; keys are looked up on every request', error)
     })
 }
 

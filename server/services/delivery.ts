@@ -431,7 +431,7 @@ class DeliveryPipeline {
       if (rows.length >= Math.min(batch, SHARE_MIN)) this.more = true
     }
     catch (error) {
-      console.error('[delivery] claiming failed; the next poll tries again', error)
+      logError('[delivery] claiming failed; the next poll tries again', error)
     }
     this.claiming = false
     this.pump()
@@ -458,7 +458,7 @@ class DeliveryPipeline {
     this.recording = true
     const group = this.finished.splice(0, RECORD_GROUP)
     recordAttempts(group)
-      .catch(error => console.error('[delivery] recording attempts failed; their leases run out and they are sent again', error))
+      .catch(error => logError('[delivery] recording attempts failed; their leases run out and they are sent again', error))
       .finally(() => {
         this.recording = false
         this.record()

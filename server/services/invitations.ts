@@ -98,6 +98,6 @@ export async function acceptInvitation(event: H3Event, token: string, input: { n
     await recordAudit(tx, { actor: actorOf(created), action: 'invitation.accepted', targetType: 'user', targetId: created.id, event, detail: { invitationId: inv.id, role: inv.role } })
     return created
   })
-  await setUserSession(event, { user: { id: user.id, sessionVersion: user.sessionVersion }, loggedInAt: Date.now() })
+  await startConsoleSession(event, user)
   return { id: user.id, email: user.email, name: user.name, role: user.role, labId: user.labId, partnerId: user.partnerId }
 }

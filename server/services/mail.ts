@@ -36,7 +36,7 @@ export async function flushMailOutbox(limit = 20): Promise<number> {
       try {
         // p-retry covers a passing hiccup (a reset connection); the outbox covers the rest.
         await pRetry(() => useTransporter().sendMail({ from: smtp.from, to: row.to, subject: row.subject, text: row.text, html: row.html }), { retries: 2, minTimeout: 200 })
-        await tx.update(mailOutbox).set({ status: 'sent', sentAt: new Date(), attempts: row.attempts + 1 }).where(eq(mailOutbox.id, row.id))
+        await tx.update(mailOutbox).set({ status: 'sent', sentAt: new Date(), attempts: row.attempts + 1, text: withoutLinks(row.text), html: withoutLinks(row.html) }).where(eq(mailOutbox.id, row.id))
         sent++
       }
       catch (error) {
@@ -46,6 +46,7 @@ export async function flushMailOutbox(limit = 20): Promise<number> {
           attempts,
           lastError: String((error as Error).message ?? error).slice(0, 500),
           status: waitMinutes === undefined ? 'failed' : 'pending',
+          ...(waitMinutes === undefined ? { text: withoutLinks(row.text), html: withoutLinks(row.html) } : {}),
           nextAttemptAt: sql`now() + make_interval(mins => ${waitMinutes ?? 0})`,
         }).where(eq(mailOutbox.id, row.id))
       }
@@ -54,10 +55,18 @@ export async function flushMailOutbox(limit = 20): Promise<number> {
   return sent
 }
 
+/**
+ * A message's text once it has left (or will never leave): its links, which carry one-time
+ * reset and invitation tokens, are cut, so the outbox does not keep live links readable.
+ */
+export function withoutLinks(body: string): string {
+  return body.replace(/https?:\/\/[^\s"'<>]+/g, '[link removed after sending]')
+}
+
 let flushing: Promise<unknown> | undefined
 /** Flushes soon, without making the caller wait for SMTP. */
 export function kickMailOutbox() {
-  flushing ??= flushMailOutbox().catch(error => console.error('[mail] flush failed', error)).finally(() => { flushing = undefined })
+  flushing ??= flushMailOutbox().catch(error => logError('[mail] flush failed', error)).finally(() => { flushing = undefined })
 }
 
 /** A plain message with one call to action, as text and as HTML. */

@@ -77,16 +77,44 @@ function oauthProblem(status: number, error: string, description: string) {
   return p
 }
 
-/** The token endpoint: client credentials in, an RFC 9068 access token out. */
-export async function issueAccessToken(credentials: { clientId?: string, clientSecret?: string, grantType?: string, scope?: string }) {
+/**
+ * Client credentials from an HTTP Basic header (RFC 6749 §2.3.1: id and secret each
+ * form-urlencoded, joined by a colon, base64). Undefined without a Basic header; a Basic
+ * header that does not decode to a non-empty id and a colon is 401 invalid_client.
+ */
+export function basicCredentials(header: string | undefined): { id: string, secret: string } | undefined {
+  const [scheme, encoded, ...rest] = (header ?? '').trim().split(/ +/)
+  if (scheme?.toLowerCase() !== 'basic') return undefined
+  const malformed = () => oauthProblem(401, 'invalid_client', 'The Basic authorization header is malformed: base64 of client_id:client_secret is expected.')
+  if (!encoded || rest.length || encoded.length > 4096 || !/^[A-Za-z0-9+/]+={0,2}$/.test(encoded) || encoded.length % 4 !== 0) throw malformed()
+  const decoded = Buffer.from(encoded, 'base64').toString('utf8')
+  const colon = decoded.indexOf(':')
+  if (colon <= 0) throw malformed()
+  try { return { id: decodeURIComponent(decoded.slice(0, colon).replaceAll('+', ' ')), secret: decodeURIComponent(decoded.slice(colon + 1).replaceAll('+', ' ')) } }
+  catch { throw malformed() }
+}
+
+/** Who asked for a token, as the audit log names them: the client id given, cut short. */
+const clientActor = (clientId: string | undefined) => ({ id: null, label: `client:${(clientId ?? '(none)').slice(0, 80)}` })
+
+/** The token endpoint: client credentials in, an RFC 9068 access token out. Issued and refused tokens are audited. */
+export async function issueAccessToken(event: H3Event, credentials: { clientId?: string, clientSecret?: string, grantType?: string, scope?: string }) {
   if (credentials.grantType !== 'client_credentials') throw oauthProblem(400, 'unsupported_grant_type', 'Only grant_type=client_credentials is supported.')
   const row = credentials.clientId ? await useDb().query.partnerClients.findFirst({ where: eq(partnerClients.clientId, credentials.clientId) }) : undefined
   const ok = row && !row.revokedAt && credentials.clientSecret
     && timingSafeEqual(Buffer.from(row.secretHash, 'hex'), Buffer.from(hashToken(credentials.clientSecret), 'hex'))
-  if (!ok) throw oauthProblem(401, 'invalid_client', 'The client id or secret is wrong, or the client was revoked.')
+  if (!ok) {
+    await recordAudit(useDb(), { actor: clientActor(credentials.clientId), action: 'token.refused', targetType: 'partner-client', targetId: row?.id, event,
+      detail: { reason: !row ? 'unknown-client' : row.revokedAt ? 'revoked-client' : 'wrong-secret' } })
+    throw oauthProblem(401, 'invalid_client', 'The client id or secret is wrong, or the client was revoked.')
+  }
   const asked = credentials.scope ? credentials.scope.split(' ').filter(Boolean) : row.scopes
   const denied = asked.filter(s => !row.scopes.includes(s))
-  if (denied.length) throw oauthProblem(400, 'invalid_scope', `This client may not ask for ${denied.join(', ')}.`)
+  if (denied.length) {
+    await recordAudit(useDb(), { actor: clientActor(row.clientId), action: 'token.refused', targetType: 'partner-client', targetId: row.id, event,
+      detail: { reason: 'scope-not-allowed', denied: denied.slice(0, 10).map(s => s.slice(0, 60)) } })
+    throw oauthProblem(400, 'invalid_scope', `This client may not ask for ${denied.join(', ')}.`)
+  }
   const key = await signingKey()
   const now = Math.floor(Date.now() / 1000)
   const token = await new SignJWT({ client_id: row.clientId, scope: asked.join(' '), partner_id: row.partnerId })
@@ -95,6 +123,8 @@ export async function issueAccessToken(credentials: { clientId?: string, clientS
     .setIssuedAt(now).setExpirationTime(now + TOKEN_TTL_SECONDS).setJti(randomUUID())
     .sign(key.privateKey)
   await useDb().update(partnerClients).set({ lastUsedAt: new Date() }).where(eq(partnerClients.id, row.id))
+  await recordAudit(useDb(), { actor: clientActor(row.clientId), action: 'token.issued', targetType: 'partner-client', targetId: row.id, event,
+    detail: { partnerId: row.partnerId, scope: asked.join(' '), expiresIn: TOKEN_TTL_SECONDS } })
   return { access_token: token, token_type: 'Bearer', expires_in: TOKEN_TTL_SECONDS, scope: asked.join(' ') }
 }
 
@@ -102,24 +132,33 @@ export interface PartnerToken { partnerId: string, clientId: string, scopes: Par
 
 const invalidToken = () => problem(401, 'invalid-token', 'The access token is missing, malformed, expired or not for this API.', { headers: { 'www-authenticate': 'Bearer realm="arcwise", error="invalid_token"' } })
 
+/** A refused access token is audited when one was presented (a request with none is not). */
+async function refuseToken(event: H3Event, reason: string, clientId?: string): Promise<never> {
+  await recordAudit(useDb(), { actor: clientActor(clientId), action: 'token.refused', targetType: 'access-token', event, detail: { reason, path: event.path.split('?')[0]!.slice(0, 200) } })
+  throw invalidToken()
+}
+
 /** The partner of the request's access token holding `scope`: 401, or 403 for a missing scope. */
 export async function requirePartnerToken(event: H3Event, scope: PartnerScope): Promise<PartnerToken> {
-  const match = /^Bearer (\S+)$/.exec(getRequestHeader(event, 'authorization') ?? '')
-  if (!match || match[1]!.startsWith('awk_')) throw invalidToken()
+  const header = getRequestHeader(event, 'authorization') ?? ''
+  if (!header) throw invalidToken()
+  const match = /^Bearer (\S+)$/.exec(header)
+  if (!match) return refuseToken(event, 'malformed-header')
+  if (match[1]!.startsWith('awk_')) return refuseToken(event, 'lab-key')
   const key = await signingKey()
   let claims
   try {
     const { payload } = await jwtVerify(match[1]!, async (header) => {
-      const [row] = await useDb().select().from(signingKeys).where(eq(signingKeys.kid, header.kid ?? ''))
+      const [row] = await useDb().select().from(signingKeys).where(eq(signingKeys.kid, String(header.kid ?? '')))
       return importJWK((row?.publicJwk ?? key.publicJwk) as JWK, ALG)
     }, { issuer: issuer(), audience: AUDIENCE, typ: 'at+jwt', algorithms: [ALG] })
     claims = payload
   }
-  catch { throw invalidToken() }
+  catch { return refuseToken(event, 'invalid-or-expired') }
   const scopes = String(claims.scope ?? '').split(' ') as PartnerScope[]
   if (!scopes.includes(scope)) throw problem(403, 'insufficient-scope', `This token lacks the scope ${scope}.`)
   const client = await useDb().query.partnerClients.findFirst({ where: eq(partnerClients.clientId, String(claims.client_id)) })
-  if (!client || client.revokedAt) throw invalidToken()
+  if (!client || client.revokedAt) return refuseToken(event, 'revoked-client', String(claims.client_id))
   await consumeRateLimit('partner', client.id)
   return { partnerId: client.partnerId, clientId: client.clientId, scopes }
 }

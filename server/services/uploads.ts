@@ -100,7 +100,7 @@ export async function processPendingUploads(limit = 2) {
     }
     catch (error) {
       const doc = (error as { data?: { problem?: ProblemDocument } }).data?.problem
-      if (!doc) { console.error('[uploads] processing failed', error); await useDb().update(uploads).set({ status: 'pending', leaseUntil: null }).where(eq(uploads.id, row.id)); return }
+      if (!doc) { logError('[uploads] processing failed', error); await useDb().update(uploads).set({ status: 'pending', leaseUntil: null }).where(eq(uploads.id, row.id)); return }
       await useDb().update(uploads).set({ status: 'failed', problem: doc as unknown as Record<string, unknown>, finishedAt: new Date(), leaseUntil: null }).where(eq(uploads.id, row.id))
     }
   }
@@ -108,5 +108,5 @@ export async function processPendingUploads(limit = 2) {
 
 let running: Promise<unknown> | undefined
 export function kickUploads() {
-  running ??= processPendingUploads().catch(error => console.error('[uploads]', error)).finally(() => { running = undefined })
+  running ??= processPendingUploads().catch(error => logError('[uploads]', error)).finally(() => { running = undefined })
 }

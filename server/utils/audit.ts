@@ -19,7 +19,7 @@ export async function recordAudit(db: Queryable, entry: {
     targetType: entry.targetType,
     targetId: entry.targetId,
     detail: entry.detail ?? {},
-    ip: entry.event ? getRequestIP(entry.event, { xForwardedFor: false }) ?? null : null,
+    ip: entry.event ? clientAddress(entry.event) : null,
   })
 }
 

@@ -1,20 +1,24 @@
 import type { H3Event } from 'h3'
 import { eq } from 'drizzle-orm'
-import { labs, partners, users } from '../database/schema'
+import { labs, partners } from '../database/schema'
 import { can, permissions, type Permission, type Role, type SessionUser } from '#shared/types/roles'
 
-/** The signed-in user, reloaded from the database so role changes and disabling act at once. 401 otherwise. */
+/**
+ * The signed-in user, reloaded from the database with their session row so that role
+ * changes, disabling, sign-out and ended sessions act at once. 401 otherwise. A console
+ * change (any verb but GET and HEAD) counts against the user's per-minute limit.
+ */
 export async function requireUser(event: H3Event): Promise<SessionUser> {
   if (event.context.user) return event.context.user as SessionUser
   const session = await getUserSession(event)
-  const sessionUser = session.user as { id?: string, sessionVersion?: number } | undefined
-  if (!sessionUser?.id) throw problem(401, 'not-signed-in', 'Sign in to continue.')
-  const row = await useDb().query.users.findFirst({ where: eq(users.id, sessionUser.id) })
-  if (!row || row.status !== 'active' || row.sessionVersion !== sessionUser.sessionVersion) {
+  if (!session.user) throw problem(401, 'not-signed-in', 'Sign in to continue.')
+  const row = await userOfOpenSession(session)
+  if (!row) {
     await clearUserSession(event)
     throw problem(401, 'not-signed-in', 'Your session has ended; sign in again.')
   }
   const user: SessionUser = { id: row.id, email: row.email, name: row.name, role: row.role, labId: row.labId, partnerId: row.partnerId }
+  if (event.path.startsWith('/api/console/') && event.method !== 'GET' && event.method !== 'HEAD') await consumeConsoleChange(user.id)
   event.context.user = user
   return user
 }

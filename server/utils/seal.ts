@@ -1,25 +1,26 @@
-import { createCipheriv, createDecipheriv, hkdfSync, randomBytes } from 'node:crypto'
+// The server's sealing keyring (server/utils/keyring.ts): NUXT_SEALING_KEYS, and the session
+// password's key for values sealed before the keyring existed.
+let ring: { source: string, keyring: SealingKeyring } | undefined
+let warned = false
 
-// Secrets kept at rest (signing keys, webhook secrets) are sealed with AES-256-GCM under a
-// key derived (HKDF-SHA256, RFC 5869) from the deployment's secret, so a database dump
-// alone does not reveal them.
-function sealingKey(): Buffer {
-  const secret = process.env.NUXT_SEALING_SECRET || useRuntimeConfig().session?.password || process.env.NUXT_SESSION_PASSWORD
-  if (!secret || String(secret).length < 32) throw new Error('NUXT_SESSION_PASSWORD (32+ characters) is needed to seal secrets')
-  return Buffer.from(hkdfSync('sha256', String(secret), 'arcwise-seal', 'arcwise secrets at rest v1', 32))
+function serverKeyring(): SealingKeyring {
+  const config = useRuntimeConfig()
+  const keys = String(config.sealingKeys ?? '')
+  // Before the keyring, NUXT_SEALING_SECRET (when set) or the session password sealed (v1).
+  const password = String(process.env.NUXT_SEALING_SECRET || config.session?.password || process.env.NUXT_SESSION_PASSWORD || '')
+  const source = `${keys}\n${password}`
+  if (ring?.source !== source) ring = { source, keyring: parseSealingKeys(keys, password) }
+  if (!ring.keyring.keys.length && !warned) {
+    warned = true
+    console.warn(JSON.stringify({ level: 'warn', msg: 'NUXT_SEALING_KEYS is not set: secrets are sealed under the session password\'s key; set a keyring and run npm run keys:rotate' }))
+  }
+  return ring.keyring
 }
 
 export function seal(plain: string): string {
-  const iv = randomBytes(12)
-  const cipher = createCipheriv('aes-256-gcm', sealingKey(), iv)
-  const body = Buffer.concat([cipher.update(plain, 'utf8'), cipher.final()])
-  return ['v1', iv.toString('base64url'), cipher.getAuthTag().toString('base64url'), body.toString('base64url')].join('.')
+  return sealWith(serverKeyring(), plain)
 }
 
 export function unseal(sealed: string): string {
-  const [version, iv, tag, body] = sealed.split('.')
-  if (version !== 'v1' || !iv || !tag || !body) throw new Error('not a sealed value')
-  const decipher = createDecipheriv('aes-256-gcm', sealingKey(), Buffer.from(iv, 'base64url'))
-  decipher.setAuthTag(Buffer.from(tag, 'base64url'))
-  return Buffer.concat([decipher.update(Buffer.from(body, 'base64url')), decipher.final()]).toString('utf8')
+  return unsealWith(serverKeyring(), sealed)
 }

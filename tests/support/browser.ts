@@ -1,4 +1,4 @@
-import { mkdirSync } from 'node:fs'
+import { mkdirSync, readFileSync } from 'node:fs'
 import { createRequire } from 'node:module'
 import { join } from 'node:path'
 import type { Page } from 'playwright-core'
@@ -13,7 +13,9 @@ export async function shot(page: Page, name: string) {
   await page.screenshot({ path: join(shotsDir, `${name}.png`), fullPage: true })
 }
 
-const axePath = createRequire(import.meta.url).resolve('axe-core/axe.min.js')
+// axe-core is evaluated through the DevTools protocol, not added as a <script>: the hub's
+// Content-Security-Policy refuses inline scripts, as it should for any script a page did not ship.
+const axeSource = readFileSync(createRequire(import.meta.url).resolve('axe-core/axe.min.js'), 'utf8')
 
 // Uncaught errors in the page, from sign-in on: a broken chart or handler throws here
 // while the page can still look fine to a text check.
@@ -28,7 +30,7 @@ export function watchPageErrors(page: Page) {
 /** Runs axe-core on the page and fails on serious or critical violations, or on any page error seen so far. */
 export async function expectAccessible(page: Page) {
   expect(pageErrors.get(page) ?? []).toEqual([])
-  await page.addScriptTag({ path: axePath })
+  await page.evaluate(axeSource)
   const violations = await page.evaluate(async () => {
     const result = await (window as unknown as { axe: { run: () => Promise<{ violations: { id: string, impact: string, nodes: { target: string[] }[] }[] }> } }).axe.run()
     return result.violations.filter(v => v.impact === 'serious' || v.impact === 'critical').map(v => `${v.id}: ${v.nodes.map(n => n.target.join(' ')).join(', ')}`)

@@ -5,10 +5,9 @@ import { tokenRequest } from '#shared/schemas/partners'
 export default defineEventHandler(async (event) => {
   const form = tokenRequest.safeParse(await readFormOrJson(event))
   if (!form.success) throw problem(400, 'oauth-invalid_request', 'grant_type is required.', { errors: fieldErrors(form.error) })
-  const basic = /^Basic (.+)$/.exec(getRequestHeader(event, 'authorization') ?? '')
-  const [basicId, basicSecret] = basic ? Buffer.from(basic[1]!, 'base64').toString().split(':').map(decodeURIComponent) : []
+  const basic = basicCredentials(getRequestHeader(event, 'authorization'))
   setResponseHeader(event, 'cache-control', 'no-store')
-  return issueAccessToken({ grantType: form.data.grant_type, clientId: basicId ?? form.data.client_id, clientSecret: basicSecret ?? form.data.client_secret, scope: form.data.scope })
+  return issueAccessToken(event, { grantType: form.data.grant_type, clientId: basic?.id ?? form.data.client_id, clientSecret: basic?.secret ?? form.data.client_secret, scope: form.data.scope })
 })
 
 async function readFormOrJson(event: Parameters<typeof readRawBody>[0]): Promise<Record<string, string>> {
