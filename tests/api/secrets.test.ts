@@ -61,8 +61,8 @@ describe('secrets at rest', () => {
       await until('the second process', async () => (await fetch(`http://127.0.0.1:${port}/api/health`).catch(() => undefined))?.ok)
       expect(rotate(newRing)).toMatch(/with key "next"/)
       expect((await sealedSecretOf(endpoint.id)).startsWith('v2.next.')).toBe(true)
-      const [{ n }] = await testDb()`select count(*)::int as n from webhook_endpoints where sealed_secret not like 'v2.next.%'`
-      expect(n).toBe(0)
+      const [left] = await testDb()`select count(*)::int as n from webhook_endpoints where sealed_secret not like 'v2.next.%'`
+      expect(left!.n).toBe(0)
       const revealed = await fetch(`http://127.0.0.1:${port}/api/console/partners/${partner.id}/endpoints/${endpoint.id}/secret/reveal`, { method: 'POST', headers: { cookie: admin.cookie } })
       expect(revealed.status).toBe(200)
       expect((await revealed.json()).secret).toBe(endpoint.secret)
