@@ -2,7 +2,7 @@ import { randomBytes } from 'node:crypto'
 
 // Security headers on every answer: pages, /docs (the Scalar API reference), API routes and
 // errors (this middleware runs first, so a refusal by a later one carries them too).
-// Scripts run only from the hub itself or with this request's nonce (server/plugins/cspNonce.ts
+// Scripts run only from the hub itself or with this request's nonce (server/plugins/pageSecurity.ts
 // puts it on the scripts Nuxt writes into the page); styles allow inline because Vue style
 // bindings and the API reference set style attributes at run time. Nothing may frame the hub.
 export default defineEventHandler((event) => {
