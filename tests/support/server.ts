@@ -7,13 +7,18 @@ import { rootDir, testEnv } from './env'
 
 const chromiumArgs = ['--no-sandbox', '--headless', '--disable-gpu', '--disable-quic', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run']
 
+// Test files change things as the demo admin far faster than a person could (the role matrix
+// makes dozens of changes a second): the per-user console change limit is lifted here and
+// tested on its own, at 5 a minute, in tests/api/proxy.test.ts.
+const testLimits = { NUXT_RATE_LIMIT_CONSOLE_PER_MINUTE: '1000000' }
+
 /**
  * One more process of the built server on `port`, against the test database (a second web
  * process, or a worker with NUXT_PROCESS_ROLE); the caller stops it.
  */
 export function startAppProcess(port: number, env: Record<string, string> = {}): ChildProcess {
   return spawn(process.execPath, [join(rootDir, '.output', 'server', 'index.mjs')], {
-    env: { ...process.env, ...testEnv().serverEnv, ...env, PORT: String(port), HOST: '127.0.0.1', NODE_ENV: 'production' },
+    env: { ...process.env, ...testEnv().serverEnv, ...testLimits, ...env, PORT: String(port), HOST: '127.0.0.1', NODE_ENV: 'production' },
     stdio: 'ignore',
   })
 }
@@ -26,7 +31,7 @@ export async function useArcwise(opts: { browser?: boolean, env?: Record<string,
     build: false,
     server: true,
     port: env.appPort,
-    env: { ...env.serverEnv, ...opts.env },
+    env: { ...env.serverEnv, ...testLimits, ...opts.env },
     // Nitro's options are not in the NuxtConfig type that this tsconfig sees.
     nuxtConfig: { nitro: { output: { dir: join(rootDir, '.output') } } } as Record<string, unknown>,
     browser: opts.browser ?? false,
