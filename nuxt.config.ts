@@ -34,6 +34,8 @@ export default defineNuxtConfig({
     rateLimit: { perMinute: 1200 },
     // The benchmark's baseline route (server/routes/_bench), off unless NUXT_BENCH_ROUTES=true.
     benchRoutes: false,
+    // /_bench/diagnostics (event-loop delay, peak RSS) for npm run chaos, off unless NUXT_DIAGNOSTICS=true.
+    diagnostics: false,
     session: { maxAge: 60 * 60 * 12 },
     // web (HTTP only), worker (deliveries and background work only) or both.
     processRole: 'both',
