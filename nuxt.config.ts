@@ -41,6 +41,8 @@ export default defineNuxtConfig({
     sealingKeys: '',
     // The benchmark's baseline route (server/routes/_bench), off unless NUXT_BENCH_ROUTES=true.
     benchRoutes: false,
+    // /_bench/diagnostics (event-loop delay, peak RSS) for npm run chaos, off unless NUXT_DIAGNOSTICS=true.
+    diagnostics: false,
     session: { maxAge: 60 * 60 * 12 },
     // nuxt-auth-utils' hashPassword / verifyPassword / passwordNeedsReHash read these.
     hash: { scrypt: { ...scryptParams } },
@@ -62,6 +64,12 @@ export default defineNuxtConfig({
       concurrency: 16,
       // How often a worker looks for due deliveries (it is also woken by each new event).
       pollMs: 1000,
+      // Endpoints one partner may have (409 past it): each owes a delivery per event, so the
+      // count bounds the work one partner's events make (common practice, no source).
+      maxEndpointsPerPartner: 25,
+      // Test sends and replays (one or bulk) per partner per minute, 429 past it; 0 = off.
+      testSendsPerMinute: 10,
+      replaysPerMinute: 30,
     },
     public: { mailCapture: false },
   },

@@ -10,8 +10,15 @@
 // Then: events ingested, deliveries owed, delivered (distinct webhook-ids answered 2xx),
 // duplicates (further 2xx copies of a webhook-id), dead (must be exactly those to "never"),
 // lost (owed, neither delivered nor dead: must be 0).
-// Fuzz: CHAOS_FUZZ (10,000) generated bad requests (scripts/lib/fuzz.ts) against ingest and
-// console routes: 5xx count, non-problem-document count, rows written: all must be 0.
+// Fuzz: first a fixed list of requests built to exhaust a process (bodies past the cap sent
+// chunked with no Content-Length, backtracking bait in every text field and CSV header cell,
+// zlib bombs in mzML arrays, prototype keys, malformed credentials), then CHAOS_FUZZ (10,000)
+// generated bad requests (scripts/lib/fuzz.ts) against ingest and console routes: 5xx count,
+// non-problem-document count, rows written, unanswered requests: all must be 0; bodies past
+// the cap get 413; the worst event-loop stall inside the app processes (their
+// /_bench/diagnostics route, NUXT_DIAGNOSTICS=true) under 200 ms and their peak RSS under
+// 1 GB. A and B are restarted before the fuzz, so their peak RSS is the fuzz's.
+// `npm run chaos -- --fuzz-only` skips the soak (the fuzz phase alone, two app processes).
 import { spawn, type ChildProcess } from 'node:child_process'
 import { createServer, type Server } from 'node:http'
 import { mkdirSync, openSync, readFileSync, writeFileSync } from 'node:fs'
@@ -23,7 +30,7 @@ import postgres from 'postgres'
 import { buildIfStale } from './lib/build'
 import { demoAdmin } from './lib/console-client'
 import { demoInstruments } from './lib/demo-instruments'
-import { badRequests, rowCounts, rowsWritten, sendBadRequest } from './lib/fuzz'
+import { badRequests, exhaustionRequests, rowCounts, rowsWritten, sendBadRequest, sendExhaustion, type FuzzOutcome } from './lib/fuzz'
 import { log, root } from './lib/paths'
 import { restartCluster } from './lib/pg'
 import { seedDemo } from './lib/seed'
@@ -32,6 +39,19 @@ import { startStack, waitForServer } from './lib/services'
 const SECONDS = Number(process.env.CHAOS_SECONDS ?? 150)
 const FUZZ = Number(process.env.CHAOS_FUZZ ?? 10_000)
 const RATE = Number(process.env.CHAOS_RATE ?? 4) // acquisitions per second
+const FUZZ_ONLY = process.argv.includes('--fuzz-only')
+// The whole fuzz phase gives up after this many seconds; what it had not sent by then counts as unanswered.
+const FUZZ_SECONDS = Number(process.env.CHAOS_FUZZ_SECONDS ?? 900)
+// Spaces in the backtracking bait (the issue's figure is 5,000; fewer shortens a run against
+// a parser that is still super-linear, more stresses a linear one).
+const BAIT_SPACES = Number(process.env.CHAOS_BAIT_SPACES ?? 5000)
+// Pass/fail targets of the fuzz phase.
+const MAX_STALL_MS = 200
+const MAX_RSS_BYTES = 1024 ** 3
+// The caps the server is expected to hold: MAX_UPLOAD_BYTES of server/services/uploads.ts
+// and 1 MB for console, token and other JSON bodies (issue 16).
+const UPLOAD_CAP_BYTES = 64 * 1024 * 1024
+const JSON_CAP_BYTES = 1024 * 1024
 const SINK = 3490
 const GONE = 3491
 const ports = { A: 3400, B: 3401, C: 3402 } as const
@@ -88,6 +108,7 @@ const env = {
   NUXT_WEBHOOKS_TIMEOUT_MS: '1000',
   NUXT_WEBHOOKS_LEASE_SECONDS: '5',
   NUXT_WEBHOOKS_POLL_MS: '250',
+  NUXT_DIAGNOSTICS: 'true',
 }
 const processes: Partial<Record<Name, ChildProcess>> = {}
 // The app processes' own output (connection errors while PostgreSQL restarts, and so on)
@@ -111,8 +132,9 @@ async function killAndRestart(name: Name) {
   await waitForServer(`http://127.0.0.1:${ports[name]}/api/health`)
   say(`${name} back`)
 }
-for (const name of Object.keys(ports) as Name[]) startApp(name)
-for (const name of Object.keys(ports) as Name[]) await waitForServer(`http://127.0.0.1:${ports[name]}/api/health`)
+const appNames = (FUZZ_ONLY ? ['A', 'B'] : Object.keys(ports)) as Name[]
+for (const name of appNames) startApp(name)
+for (const name of appNames) await waitForServer(`http://127.0.0.1:${ports[name]}/api/health`)
 
 const sql = postgres(stack.databaseUrl, { max: 2, onnotice: () => {} })
 let exitCode: number
@@ -121,94 +143,117 @@ try {
   const admin = await demoAdmin(appUrl)
   const { cookie } = admin
   const partner = await admin.partner('northgate-water')
-  const endpointNames = ['steady', 'flaky', 'slow', 'gone', 'never'] as const
-  const endpointIds: Record<string, string> = {}
-  for (const name of endpointNames) {
-    const port = name === 'gone' ? GONE : SINK
-    const ep = await admin.call<{ id: string }>('POST', `/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${port}/${name}`, eventTypes: ['result.created'] })
-    endpointIds[name] = ep.body.id
-  }
+  async function runSoak() {
+    const endpointNames = ['steady', 'flaky', 'slow', 'gone', 'never'] as const
+    const endpointIds: Record<string, string> = {}
+    for (const name of endpointNames) {
+      const port = name === 'gone' ? GONE : SINK
+      const ep = await admin.call<{ id: string }>('POST', `/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${port}/${name}`, eventTypes: ['result.created'] })
+      endpointIds[name] = ep.body.id
+    }
 
-  // ── Soak ─────────────────────────────────────────────────────────────────────────────
-  const inst = demoInstruments.find(i => i.slug === 'irms-north')!
-  const full = inst.acquisition('x', new Date(), 4)
-  // 1,500 points around the CO2 line: real work for the engine, light on the wire.
-  const strongest = full.detectors[0]!.values.reduce((best, v, i, a) => (v > a[best]! ? i : best), 0)
-  const from = Math.max(0, strongest - 700)
-  const small = { ...full, sweep: { ...full.sweep!, values: full.sweep!.values.slice(from, from + 1500) }, detectors: [{ ...full.detectors[0]!, values: full.detectors[0]!.values.slice(from, from + 1500) }] }
-  const accepted = new Set<string>()
-  let postErrors = 0
-  // A lab system: retries a failed post with the same Idempotency-Key, on the other process.
-  async function post(n: number) {
-    const runId = `chaos-${process.pid}-${n}`
-    const body = JSON.stringify({ ...small, runId, acquiredAt: new Date().toISOString() })
-    for (let attempt = 0; attempt < 120; attempt++) {
-      const target = (n + attempt) % 2 === 0 ? ports.A : ports.B
-      try {
-        const res = await fetch(`http://127.0.0.1:${target}/api/v1/acquisitions`, { method: 'POST', headers: { 'content-type': 'application/json', 'authorization': `Bearer ${keys['saltmarsh-isotopes']}`, 'idempotency-key': runId }, body, signal: AbortSignal.timeout(10_000) })
-        await res.arrayBuffer()
-        if (res.status === 201 || res.status === 200) { accepted.add(runId); return }
-        if (res.status < 500 && res.status !== 409) throw new Error(`post ${runId} answered ${res.status}`)
+    // ── Soak ─────────────────────────────────────────────────────────────────────────────
+    const inst = demoInstruments.find(i => i.slug === 'irms-north')!
+    const full = inst.acquisition('x', new Date(), 4)
+    // 1,500 points around the CO2 line: real work for the engine, light on the wire.
+    const strongest = full.detectors[0]!.values.reduce((best, v, i, a) => (v > a[best]! ? i : best), 0)
+    const from = Math.max(0, strongest - 700)
+    const small = { ...full, sweep: { ...full.sweep!, values: full.sweep!.values.slice(from, from + 1500) }, detectors: [{ ...full.detectors[0]!, values: full.detectors[0]!.values.slice(from, from + 1500) }] }
+    const accepted = new Set<string>()
+    let postErrors = 0
+    // A lab system: retries a failed post with the same Idempotency-Key, on the other process.
+    async function post(n: number) {
+      const runId = `chaos-${process.pid}-${n}`
+      const body = JSON.stringify({ ...small, runId, acquiredAt: new Date().toISOString() })
+      for (let attempt = 0; attempt < 120; attempt++) {
+        const target = (n + attempt) % 2 === 0 ? ports.A : ports.B
+        try {
+          const res = await fetch(`http://127.0.0.1:${target}/api/v1/acquisitions`, { method: 'POST', headers: { 'content-type': 'application/json', 'authorization': `Bearer ${keys['saltmarsh-isotopes']}`, 'idempotency-key': runId }, body, signal: AbortSignal.timeout(10_000) })
+          await res.arrayBuffer()
+          if (res.status === 201 || res.status === 200) { accepted.add(runId); return }
+          if (res.status < 500 && res.status !== 409) throw new Error(`post ${runId} answered ${res.status}`)
+        }
+        catch (error) { if (String(error).includes('answered')) throw error }
+        postErrors++
+        await sleep(500)
       }
-      catch (error) { if (String(error).includes('answered')) throw error }
-      postErrors++
-      await sleep(500)
+      throw new Error(`post ${runId} was never accepted`)
     }
-    throw new Error(`post ${runId} was never accepted`)
-  }
-  const schedule: [number, string, () => Promise<void> | void][] = [
-    [0.15, 'slow endpoint starts answering after the timeout', () => { faults.slow = true }],
-    [0.20, 'kill C', () => killAndRestart('C')],
-    [0.30, 'slow endpoint answers in time again', () => { faults.slow = false }],
-    [0.40, 'restart PostgreSQL', async () => { await restartCluster(); say('PostgreSQL restarted') }],
-    [0.45, 'kill C', () => killAndRestart('C')],
-    [0.55, '"gone" receiver goes away', async () => { const g = gone!; gone = null; g.closeAllConnections(); await new Promise(r => g.close(r)) }],
-    [0.70, '"gone" receiver comes back; kill C', async () => { gone = await sinkServer(GONE); await killAndRestart('C') }],
-    [0.80, 'kill B', () => killAndRestart('B')],
-  ]
-  const soakStart = Date.now()
-  const faultRun = (async () => {
-    for (const [at, what, act] of schedule) {
-      await sleep(Math.max(0, soakStart + at * SECONDS * 1000 - Date.now()))
-      say(what)
-      await act()
+    const schedule: [number, string, () => Promise<void> | void][] = [
+      [0.15, 'slow endpoint starts answering after the timeout', () => { faults.slow = true }],
+      [0.20, 'kill C', () => killAndRestart('C')],
+      [0.30, 'slow endpoint answers in time again', () => { faults.slow = false }],
+      [0.40, 'restart PostgreSQL', async () => { await restartCluster(); say('PostgreSQL restarted') }],
+      [0.45, 'kill C', () => killAndRestart('C')],
+      [0.55, '"gone" receiver goes away', async () => { const g = gone!; gone = null; g.closeAllConnections(); await new Promise(r => g.close(r)) }],
+      [0.70, '"gone" receiver comes back; kill C', async () => { gone = await sinkServer(GONE); await killAndRestart('C') }],
+      [0.80, 'kill B', () => killAndRestart('B')],
+    ]
+    const soakStart = Date.now()
+    const faultRun = (async () => {
+      for (const [at, what, act] of schedule) {
+        await sleep(Math.max(0, soakStart + at * SECONDS * 1000 - Date.now()))
+        say(what)
+        await act()
+      }
+    })()
+    const posts: Promise<void>[] = []
+    const soakEnd = soakStart + SECONDS * 1000
+    for (let n = 0; Date.now() < soakEnd; n++) {
+      posts.push(post(n))
+      await sleep(1000 / RATE)
     }
-  })()
-  const posts: Promise<void>[] = []
-  const soakEnd = soakStart + SECONDS * 1000
-  for (let n = 0; Date.now() < soakEnd; n++) {
-    posts.push(post(n))
-    await sleep(1000 / RATE)
-  }
-  await Promise.all(posts)
-  await faultRun
-  say(`soak over: ${accepted.size} acquisitions accepted (${postErrors} failed tries, retried)`)
+    await Promise.all(posts)
+    await faultRun
+    say(`soak over: ${accepted.size} acquisitions accepted (${postErrors} failed tries, retried)`)
 
-  // ── Settle: every owed delivery succeeds or dies ─────────────────────────────────────
-  const settleDeadline = Date.now() + 240_000
-  for (;;) {
-    const [{ pending }] = await sql<[{ pending: number }]>`select count(*)::int as pending from deliveries where status = 'pending'`
-    if (pending === 0 || Date.now() > settleDeadline) break
-    await sleep(1000)
+    // ── Settle: every owed delivery succeeds or dies ─────────────────────────────────────
+    const settleDeadline = Date.now() + 240_000
+    for (;;) {
+      const [{ pending }] = await sql<[{ pending: number }]>`select count(*)::int as pending from deliveries where status = 'pending'`
+      if (pending === 0 || Date.now() > settleDeadline) break
+      await sleep(1000)
+    }
+    const [counts] = await sql`select
+      (select count(*)::int from events) as events,
+      (select count(*)::int from deliveries where event_id is not null) as owed,
+      (select count(*)::int from deliveries where status = 'pending') as pending,
+      (select count(*)::int from deliveries where status = 'succeeded') as succeeded`
+    const deadRows = await sql`select e.url from deliveries d join webhook_endpoints e on e.id = d.endpoint_id where d.status = 'dead'`
+    const succeededRows = await sql`select d.id, e.url from deliveries d join webhook_endpoints e on e.id = d.endpoint_id where d.status = 'succeeded' and d.event_id is not null`
+    const owedToNever = (await sql`select count(*)::int as n from deliveries where endpoint_id = ${endpointIds.never!}`)[0]!.n as number
+    const deliveredDistinct = [...delivered.keys()].length
+    const duplicates = [...delivered.values()].reduce((s, n) => s + n - 1, 0)
+    const dead = deadRows.length
+    const deadElsewhere = deadRows.filter(r => !String(r.url).endsWith('/never')).length
+    const lost = counts!.owed - deliveredDistinct - dead
+    const succeededUnseen = succeededRows.filter(r => !delivered.has(`${new URL(String(r.url)).pathname}|${r.id}`)).length
+    const soak = {
+      seconds: SECONDS, ratePerSecond: RATE, processes: { A: 'web', B: 'both', C: 'worker' },
+      acquisitionsAccepted: accepted.size, eventsIngested: counts!.events, deliveriesOwed: counts!.owed, delivered: deliveredDistinct,
+      duplicates, dead, deadExpected: owedToNever, deadElsewhere, stillPending: counts!.pending, succeededButNotReceived: succeededUnseen, lost,
+    }
+    const soakChecks = {
+      'the soak ingested and delivered something': accepted.size > 0 && deliveredDistinct > 0 && owedToNever > 0,
+      'lost = 0': lost === 0,
+      'dead = deliveries to "never"': dead === owedToNever && deadElsewhere === 0,
+      'nothing still pending': counts!.pending === 0,
+      'every succeeded delivery was received': succeededUnseen === 0,
+      'every accepted acquisition has its event': counts!.events === accepted.size,
+    }
+    return { soak, soakChecks }
   }
-  const [counts] = await sql`select
-    (select count(*)::int from events) as events,
-    (select count(*)::int from deliveries where event_id is not null) as owed,
-    (select count(*)::int from deliveries where status = 'pending') as pending,
-    (select count(*)::int from deliveries where status = 'succeeded') as succeeded`
-  const deadRows = await sql`select e.url from deliveries d join webhook_endpoints e on e.id = d.endpoint_id where d.status = 'dead'`
-  const succeededRows = await sql`select d.id, e.url from deliveries d join webhook_endpoints e on e.id = d.endpoint_id where d.status = 'succeeded' and d.event_id is not null`
-  const owedToNever = (await sql`select count(*)::int as n from deliveries where endpoint_id = ${endpointIds.never!}`)[0]!.n as number
-  const deliveredDistinct = [...delivered.keys()].length
-  const duplicates = [...delivered.values()].reduce((s, n) => s + n - 1, 0)
-  const dead = deadRows.length
-  const deadElsewhere = deadRows.filter(r => !String(r.url).endsWith('/never')).length
-  const lost = counts!.owed - deliveredDistinct - dead
-  const succeededUnseen = succeededRows.filter(r => !delivered.has(`${new URL(String(r.url)).pathname}|${r.id}`)).length
-  const soak = {
-    seconds: SECONDS, ratePerSecond: RATE, processes: { A: 'web', B: 'both', C: 'worker' },
-    acquisitionsAccepted: accepted.size, eventsIngested: counts!.events, deliveriesOwed: counts!.owed, delivered: deliveredDistinct,
-    duplicates, dead, deadExpected: owedToNever, deadElsewhere, stillPending: counts!.pending, succeededButNotReceived: succeededUnseen, lost,
+  const soakRun = FUZZ_ONLY ? null : await runSoak()
+  if (soakRun) {
+    // Fresh A and B, so that their peak RSS (a process's high-water mark) is the fuzz's own.
+    for (const name of ['A', 'B'] as const) {
+      const child = processes[name]!
+      child.kill('SIGTERM')
+      await new Promise(r => child.once('exit', r))
+      startApp(name)
+      await waitForServer(`http://127.0.0.1:${ports[name]}/api/health`)
+    }
+    say('A and B restarted for the fuzz phase')
   }
 
   // ── Fuzz ─────────────────────────────────────────────────────────────────────────────
@@ -216,43 +261,118 @@ try {
   const [viewer] = await sql`select id from users where role = 'viewer' limit 1`
   const target = { labId: lab!.id, instrumentSlug: 'irms-north', labKey: keys['saltmarsh-isotopes']!, partnerId: partner.id, userId: viewer!.id, cookie, allowedHosts: [`127.0.0.1:${SINK}`, `127.0.0.1:${GONE}`] }
   const requests = fc.sample(badRequests(target), { numRuns: FUZZ, seed: 20261202 })
-  say(`fuzz: ${requests.length} generated bad requests`)
+  const exhaustion = exhaustionRequests(target, { uploadBytes: UPLOAD_CAP_BYTES, jsonBytes: JSON_CAP_BYTES, baitSpaces: BAIT_SPACES })
+  say(`fuzz: ${exhaustion.length} requests built to exhaust, then ${requests.length} generated bad requests`)
+  const fuzzBases = [`http://127.0.0.1:${ports.A}`, `http://127.0.0.1:${ports.B}`]
+  const exits: string[] = []
+  for (const name of ['A', 'B'] as const) processes[name]!.once('exit', (code, signal) => exits.push(`${name} exited (${signal ?? code}) during the fuzz`))
+  await Promise.all(fuzzBases.map(base => fetch(`${base}/_bench/diagnostics`, { method: 'DELETE' })))
+  // The hub's token signing key is made on first use; a deployment has it long before a bad
+  // request comes, so it is made here rather than counted as written by one.
+  await fetch(`${fuzzBases[0]}/.well-known/jwks.json`)
   const before = await rowCounts(sql)
-  const limit = pLimit(16)
-  const fuzz = { requests: requests.length, serverErrors: 0, notProblem: 0, accepted: 0, examples: [] as string[] }
-  await Promise.all(requests.map((r, i) => limit(async () => {
-    const outcome = await sendBadRequest(`http://127.0.0.1:${i % 2 ? ports.B : ports.A}`, r)
-    const bad = outcome.status >= 500 || outcome.status < 400 || !outcome.problem
-    if (outcome.status >= 500) fuzz.serverErrors++
+  const fuzzDeadline = Date.now() + FUZZ_SECONDS * 1000
+  const fuzz = { requests: exhaustion.length + requests.length, serverErrors: 0, notProblem: 0, accepted: 0, unanswered: 0, leaks: 0, examples: [] as string[] }
+  const tally = (outcome: FuzzOutcome, what: string) => {
+    const bad = outcome.status >= 500 || outcome.status < 400 || !outcome.problem || outcome.leak
+    if (outcome.status === 0) fuzz.unanswered++
+    else if (outcome.status >= 500) fuzz.serverErrors++
     else if (outcome.status < 400) fuzz.accepted++
     if (outcome.status >= 400 && !outcome.problem) fuzz.notProblem++
-    if (bad && fuzz.examples.length < 10) fuzz.examples.push(`${outcome.status}: ${r.why}: ${r.method} ${r.path} ${r.body?.slice(0, 100) ?? ''}`)
+    if (outcome.leak) fuzz.leaks++
+    if (bad && fuzz.examples.length < 20) fuzz.examples.push(`${outcome.status || outcome.error}${outcome.leak ? ' (names a prototype function)' : ''}: ${what}`)
+  }
+  /** Waits, until the fuzz deadline, for a process held up by a request to answer again. */
+  const answering = async (base: string) => {
+    while (Date.now() < fuzzDeadline) {
+      try { if ((await fetch(`${base}/api/health`, { signal: AbortSignal.timeout(5000) })).ok) return true }
+      catch { /* still busy */ }
+      await sleep(1000)
+    }
+    return false
+  }
+
+  // 1. Built to exhaust: each process gets every other request, one at a time, so that a
+  //    request that holds a process up is seen alone; after one that got no answer, the next
+  //    waits until the process answers again.
+  const byCategory: Record<string, { requests: number, answeredRight: number, worst: string[] }> = {}
+  const chunked: { why: string, status: number, sentBytes: number, error?: string }[] = []
+  await Promise.all(fuzzBases.map(async (base, lane) => {
+    for (const [i, { request, category }] of exhaustion.entries()) {
+      if (i % 2 !== lane) continue
+      const outcome = Date.now() < fuzzDeadline && await answering(base)
+        ? await sendExhaustion(base, request, Math.min(60_000, Math.max(1000, fuzzDeadline - Date.now())))
+        : { status: 0, problem: false, leak: false, error: 'not sent: the fuzz phase ran out of time' }
+      tally(outcome, `[${category}] ${request.why}: ${request.method} ${request.path}`)
+      const c = byCategory[category] ??= { requests: 0, answeredRight: 0, worst: [] }
+      c.requests++
+      // A body past the cap is answered right only with 413.
+      if (outcome.status >= 400 && outcome.status < 500 && outcome.problem && !outcome.leak && (!('chunked' in request) || outcome.status === 413)) c.answeredRight++
+      else if (c.worst.length < 5) c.worst.push(`${outcome.status || outcome.error}: ${request.why}`)
+      if ('chunked' in request) chunked.push({ why: request.why, status: outcome.status, sentBytes: outcome.sentBytes ?? 0, ...(outcome.error ? { error: outcome.error } : {}) })
+    }
+  }))
+  const stillAnswering = await Promise.all(fuzzBases.map(answering))
+  say(`fuzz: exhaustion requests done (${Object.entries(byCategory).map(([k, v]) => `${k} ${v.answeredRight}/${v.requests}`).join(', ')})`)
+
+  // 2. Generated bad requests, 16 at a time, each with 30 s to answer.
+  const limit = pLimit(16)
+  await Promise.all(requests.map((r, i) => limit(async () => {
+    const outcome = Date.now() < fuzzDeadline
+      ? await sendBadRequest(fuzzBases[i % 2]!, r, 30_000)
+      : { status: 0, problem: false, leak: false, error: 'not sent: the fuzz phase ran out of time' }
+    tally(outcome, `${r.why}: ${r.method} ${r.path} ${r.body?.slice(0, 100) ?? ''}`)
   })))
   await sleep(1500) // anything a refused request set going in the background
   const written = rowsWritten(before, await rowCounts(sql))
   const rowsWrittenByRejected = Object.values(written).reduce((s, n) => s + Math.abs(n), 0)
+  // Measured inside each app process: the worst event-loop delay since the reset above and
+  // the process's peak RSS (A and B started fresh before the fuzz).
+  const diagnostics = await Promise.all(fuzzBases.map(async (base) => {
+    try { return await (await fetch(`${base}/_bench/diagnostics`, { signal: AbortSignal.timeout(10_000) })).json() as { eventLoopDelayMaxMs: number, peakRssBytes: number, pid: number } }
+    catch (error) { return { error: String(error), eventLoopDelayMaxMs: Number.POSITIVE_INFINITY, peakRssBytes: Number.POSITIVE_INFINITY, pid: 0 } }
+  }))
+  const worstStallMs = Math.max(...diagnostics.map(d => d.eventLoopDelayMaxMs))
+  const peakRssBytes = Math.max(...diagnostics.map(d => d.peakRssBytes))
+  const chunkedAnswered413 = chunked.filter(c => c.status === 413).length
 
   const checks = {
-    'the soak ingested and delivered something': accepted.size > 0 && deliveredDistinct > 0 && owedToNever > 0,
-    'lost = 0': lost === 0,
-    'dead = deliveries to "never"': dead === owedToNever && deadElsewhere === 0,
-    'nothing still pending': counts!.pending === 0,
-    'every succeeded delivery was received': succeededUnseen === 0,
-    'every accepted acquisition has its event': counts!.events === accepted.size,
+    ...(soakRun?.soakChecks ?? {}),
     'fuzz: 5xx = 0': fuzz.serverErrors === 0,
     'fuzz: non-problem errors = 0': fuzz.notProblem === 0,
     'fuzz: rows written by rejected = 0': rowsWrittenByRejected === 0,
     'fuzz: none accepted': fuzz.accepted === 0,
+    'fuzz: every request answered (60 s for exhaustion requests, 30 s for the rest)': fuzz.unanswered === 0,
+    'fuzz: bodies past the cap, chunked, answered 413': chunkedAnswered413 === chunked.length,
+    'fuzz: no answer names a prototype function': fuzz.leaks === 0,
+    [`fuzz: worst event-loop stall < ${MAX_STALL_MS} ms`]: worstStallMs < MAX_STALL_MS,
+    'fuzz: peak RSS < 1 GB': peakRssBytes < MAX_RSS_BYTES,
+    'fuzz: app processes alive and answering': exits.length === 0 && stillAnswering.every(Boolean),
   }
   exitCode = Object.values(checks).every(Boolean) ? 0 : 1
-  const report = { kind: 'chaos', at: new Date().toISOString(), node: process.version, cores: cpus().length, soak, fuzz: { ...fuzz, rowsWrittenByRejected, rowsByTable: written }, checks }
+  const mb = (bytes: number) => Number.isFinite(bytes) ? Math.round(bytes / 1024 / 1024) : 'no answer'
+  const report = {
+    kind: 'chaos', at: new Date().toISOString(), node: process.version, cores: cpus().length, fuzzOnly: FUZZ_ONLY, soak: soakRun?.soak ?? null,
+    fuzz: {
+      ...fuzz, rowsWrittenByRejected, rowsByTable: written, worstEventLoopStallMs: worstStallMs, peakRssBytes,
+      perProcess: diagnostics, exits, baitSpaces: BAIT_SPACES, exhaustion: { byCategory, chunked },
+    },
+    checks,
+  }
   const file = join(root, 'reports', `chaos-${report.at.replace(/[:.]/g, '-')}.json`)
   writeFileSync(file, JSON.stringify(report, null, 2))
   console.log('\n  Arcwise chaos report')
+  const soak = soakRun?.soak
   console.table({
-    'events ingested': soak.eventsIngested, 'deliveries owed': soak.deliveriesOwed, 'delivered': soak.delivered, 'duplicates (same webhook-id)': soak.duplicates,
-    'dead': soak.dead, 'dead expected ("never" endpoint)': soak.deadExpected, 'lost': soak.lost,
+    ...(soak
+      ? {
+          'events ingested': soak.eventsIngested, 'deliveries owed': soak.deliveriesOwed, 'delivered': soak.delivered, 'duplicates (same webhook-id)': soak.duplicates,
+          'dead': soak.dead, 'dead expected ("never" endpoint)': soak.deadExpected, 'lost': soak.lost,
+        }
+      : {}),
     'fuzz requests': fuzz.requests, 'fuzz 5xx': fuzz.serverErrors, 'fuzz non-problem errors': fuzz.notProblem, 'fuzz rows written by rejected': rowsWrittenByRejected,
+    'fuzz unanswered': fuzz.unanswered, 'fuzz chunked past the cap answered 413': `${chunkedAnswered413} of ${chunked.length}`,
+    'fuzz worst event-loop stall (ms)': Number.isFinite(worstStallMs) ? Math.round(worstStallMs) : 'no answer', 'fuzz peak RSS (MB)': mb(peakRssBytes),
   })
   for (const [check, ok] of Object.entries(checks)) console.log(`  ${ok ? 'ok  ' : 'FAIL'} ${check}`)
   if (fuzz.examples.length) console.log(`  examples:\n    ${fuzz.examples.join('\n    ')}`)

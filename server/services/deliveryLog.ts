@@ -84,21 +84,24 @@ export async function getDelivery(partnerId: string, deliveryId: string) {
 const replaySet = { status: 'pending' as const, replayRequested: true, nextAttemptAt: sql`now()`, finishedAt: null, leaseOwner: null, leaseUntil: null }
 
 export async function replayDelivery(event: H3Event, actor: SessionUser, partnerId: string, deliveryId: string) {
-  const [row] = await useDb().update(deliveries).set(replaySet)
-    .where(and(eq(deliveries.id, deliveryId), sql`${deliveries.eventId} is not null`,
-      sql`(${deliveries.status} = 'dead' or (${deliveries.status} = 'pending' and ${deliveries.attempts} > 0))`,
-      sql`${deliveries.endpointId} in (select id from ${webhookEndpoints} where partner_id = ${partnerId}::uuid)`))
-    .returning({ id: deliveries.id })
-  if (!row) {
-    await getDelivery(partnerId, deliveryId) // 404 when it is not the partner's
-    throw problem(409, 'not-replayable', 'Only failing or dead deliveries of events can be replayed; this one succeeded or has not been tried yet.')
-  }
+  const replayable = sql`${deliveries.eventId} is not null and (${deliveries.status} = 'dead' or (${deliveries.status} = 'pending' and ${deliveries.attempts} > 0))`
+  const ownedBy = sql`${deliveries.endpointId} in (select id from ${webhookEndpoints} where partner_id = ${partnerId}::uuid)`
+  // Only a replay that will happen counts against the partner's allowance: ids that name
+  // nothing, or deliveries that cannot be replayed, are refused before it is consumed.
+  const [own] = await useDb().select({ replayable: sql<boolean>`${replayable}` }).from(deliveries).where(and(eq(deliveries.id, deliveryId), ownedBy))
+  if (!own) throw problem(404, 'delivery-not-found', 'No such delivery for this partner.')
+  const notReplayable = () => problem(409, 'not-replayable', 'Only failing or dead deliveries of events can be replayed; this one succeeded or has not been tried yet.')
+  if (!own.replayable) throw notReplayable()
+  await consumePartnerAction('replay', partnerId)
+  const [row] = await useDb().update(deliveries).set(replaySet).where(and(eq(deliveries.id, deliveryId), replayable, ownedBy)).returning({ id: deliveries.id })
+  if (!row) throw notReplayable() // it was replayed or finished in the meantime
   await recordAudit(useDb(), { actor: actorOf(actor), action: 'delivery.replayed', targetType: 'delivery', targetId: deliveryId, event, detail: { partnerId } })
   kickDeliveries()
   return { replayed: 1 }
 }
 
 export async function replayMatching(event: H3Event, actor: SessionUser, partnerId: string, filter: z.output<typeof replayFilter>) {
+  await consumePartnerAction('replay', partnerId)
   const conditions = filterConditions(partnerId, filter)
   const rows = await useDb().update(deliveries).set(replaySet)
     .where(sql`${deliveries.id} in (select ${deliveries.id} from ${deliveries} join ${webhookEndpoints} on ${webhookEndpoints.id} = ${deliveries.endpointId}

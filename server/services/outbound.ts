@@ -1,4 +1,4 @@
-import { lookup as dnsLookup, type LookupAddress } from 'node:dns'
+import { lookup as dnsLookup, promises as dns, type LookupAddress } from 'node:dns'
 import { EventEmitter } from 'node:events'
 import ipaddr from 'ipaddr.js'
 import { Agent, request } from 'undici'
@@ -7,7 +7,8 @@ import { Agent, request } from 'undici'
 // http(s), allowed ports, no credentials in the URL, and every address the request would
 // reach must be global unicast (ipaddr.js `range()` is 'unicast'), whether the URL names an
 // IP literal in any spelling or a host name (checked after DNS resolution, so a name that
-// resolves to 127.0.0.1 is refused as well). A configured allowlist is the only way past it.
+// resolves to 127.0.0.1 is refused as well). Outside the configured allowlist, the only way
+// past it, webhooks use https: a signed result sent in clear text is readable on the way.
 
 export class GuardRefusal extends Error {
   code = 'GUARD_REFUSED'
@@ -49,11 +50,42 @@ export function checkOutboundUrl(raw: string): URL {
   if (isAllowlisted(url)) return url
   const port = Number(url.port || (url.protocol === 'https:' ? 443 : 80))
   if (!settings().ports.has(port)) throw new GuardRefusal(`port ${port} is not allowed for webhooks`)
-  const literal = url.hostname.replace(/^\[(.*)\]$/, '$1')
+  const literal = literalHost(url)
   if (ipaddr.isValid(literal)) {
     const why = refusedAddress(literal)
     if (why) throw new GuardRefusal(`${why}, which webhooks may not reach`)
   }
+  if (url.protocol !== 'https:') throw new GuardRefusal('must use https (plain http is only for hosts the hub\'s operator allowlisted)')
+  return url
+}
+
+const literalHost = (url: URL) => url.hostname.replace(/^\[(.*)\]$/, '$1')
+
+/** Why a name may not be reached, from the addresses it resolves to, or null when all are global unicast. */
+function refusedResolution(hostname: string, addresses: LookupAddress[]): string | null {
+  const bad = addresses.map(a => refusedAddress(a.address)).find(Boolean)
+  return bad ? `${hostname} resolves to ${bad}, which webhooks may not reach` : null
+}
+
+/** How long saving an endpoint waits for DNS before leaving the name to the check at send. */
+const SAVE_LOOKUP_MS = 3000
+
+/**
+ * checkOutboundUrl, and for a host name also its addresses now, so that an endpoint naming
+ * an internal host is refused when it is saved rather than at its first delivery. A name
+ * that does not resolve yet (or not in time) is kept: the same check runs again at each send,
+ * which is what stops a name that changes its addresses later.
+ */
+export async function checkOutboundUrlResolved(raw: string): Promise<URL> {
+  const url = checkOutboundUrl(raw)
+  if (isAllowlisted(url) || ipaddr.isValid(literalHost(url))) return url
+  let timer: NodeJS.Timeout | undefined
+  const addresses = await Promise.race([
+    dns.lookup(url.hostname, { all: true, verbatim: true }).catch(() => []),
+    new Promise<LookupAddress[]>((resolve) => { timer = setTimeout(() => resolve([]), SAVE_LOOKUP_MS) }),
+  ]).finally(() => clearTimeout(timer))
+  const why = refusedResolution(url.hostname, addresses)
+  if (why) throw new GuardRefusal(why)
   return url
 }
 
@@ -64,8 +96,8 @@ function guardedLookup(hostname: string, options: { all?: boolean }, callback: L
   dnsLookup(hostname, { ...options, all: true }, (err, addresses) => {
     if (err) return callback(err, [])
     const list = addresses as LookupAddress[]
-    const bad = list.map(a => refusedAddress(a.address)).find(Boolean)
-    if (bad) return callback(new GuardRefusal(`${hostname} resolves to ${bad}, which webhooks may not reach`), [])
+    const why = refusedResolution(hostname, list)
+    if (why) return callback(new GuardRefusal(why), [])
     if (options.all) return callback(null, list)
     callback(null, list[0]!.address, list[0]!.family)
   })

@@ -1,4 +1,4 @@
-import { RateLimiterDrizzle } from 'rate-limiter-flexible'
+import { RateLimiterDrizzle, RateLimiterRes } from 'rate-limiter-flexible'
 import { rateLimits } from '../database/schema'
 
 // Requests per API key (or partner client) per minute, counted in PostgreSQL so the limit
@@ -26,4 +26,25 @@ export function consumeRateLimit(kind: 'lab-key' | 'partner', id: string): Promi
   // 0 turns the limit off (a deployment behind its own gateway limits there).
   if (Number(useRuntimeConfig().rateLimit.perMinute) === 0) return Promise.resolve(undefined)
   return countTogether(`${kind}:${id}`)
+}
+
+// Test sends and replays make the hub send on a person's click: counted per partner per
+// minute (webhooks.testSendsPerMinute, webhooks.replaysPerMinute), in the same table, so a
+// script cannot turn the hub into a request cannon aimed at a receiver.
+const partnerActionLimiters = new Map<string, RateLimiterDrizzle>()
+const actionSettings = { 'test-send': 'testSendsPerMinute', 'replay': 'replaysPerMinute' } as const
+const actionWords = { 'test-send': 'test sends', 'replay': 'replays' } as const
+
+/** Counts one test send or replay for the partner; 429 with Retry-After past the minute's allowance. */
+export async function consumePartnerAction(action: keyof typeof actionSettings, partnerId: string): Promise<void> {
+  const perMinute = Number(useRuntimeConfig().webhooks[actionSettings[action]])
+  if (perMinute === 0) return
+  let limiter = partnerActionLimiters.get(action)
+  if (!limiter) partnerActionLimiters.set(action, limiter = new RateLimiterDrizzle({ storeClient: useDb(), schema: rateLimits, keyPrefix: `partner-${action}`, points: perMinute, duration: 60 }))
+  try { await limiter.consume(partnerId) }
+  catch (refusal) {
+    if (!(refusal instanceof RateLimiterRes)) throw refusal
+    const seconds = Math.max(1, Math.ceil(refusal.msBeforeNext / 1000))
+    throw problem(429, 'rate-limited', `At most ${perMinute} ${actionWords[action]} a minute per partner; retry in ${seconds} s.`, { headers: { 'retry-after': String(seconds) } })
+  }
 }

@@ -33,8 +33,8 @@ export function fanOut(eventType: string, lab: SQL): SQL {
     join ${grants} g on g.partner_id = e.partner_id and g.lab_id = ${lab} and ${eventType} = any(g.event_types)`
 }
 
-function checkUrlField(url: string) {
-  try { checkOutboundUrl(url) }
+async function checkUrlField(url: string) {
+  try { await checkOutboundUrlResolved(url) }
   catch (error) {
     if (error instanceof GuardRefusal) throw fieldProblem('url', error.message)
     throw error
@@ -65,11 +65,17 @@ export async function getEndpoint(partnerId: string, endpointId: string) {
 }
 
 export async function createEndpoint(event: H3Event, actor: SessionUser, partnerId: string, input: EndpointInput) {
-  checkUrlField(input.url)
+  await checkUrlField(input.url)
   await checkLabsGranted(partnerId, input.labIds)
   await checkSchemaVersion(input.schemaVersion)
   const secret = newSecret()
   return useDb().transaction(async (tx) => {
+    // The partner's row lock makes the count and the insert one step: creates racing past
+    // the cap wait here and then count the endpoint made before them.
+    await tx.select({ id: partners.id }).from(partners).where(eq(partners.id, partnerId)).for('update')
+    const max = Number(useRuntimeConfig().webhooks.maxEndpointsPerPartner)
+    const [{ count }] = await tx.select({ count: sql<number>`count(*)::int` }).from(webhookEndpoints).where(eq(webhookEndpoints.partnerId, partnerId)) as [{ count: number }]
+    if (count >= max) throw problem(409, 'endpoint-limit-reached', `This partner has ${count} webhook endpoints, the most allowed (${max}); delete one before adding another.`)
     const row = firstRow(await tx.insert(webhookEndpoints).values({ partnerId, ...input, sealedSecret: seal(secret), createdBy: actor.id }).returning(publicColumns))
     await recordAudit(tx, { actor: actorOf(actor), action: 'endpoint.created', targetType: 'webhook-endpoint', targetId: row.id, event, detail: { partnerId, url: input.url, eventTypes: input.eventTypes } })
     // The secret is in this answer and in an explicit reveal, nowhere else.
@@ -79,7 +85,7 @@ export async function createEndpoint(event: H3Event, actor: SessionUser, partner
 
 export async function updateEndpoint(event: H3Event, actor: SessionUser, partnerId: string, endpointId: string, input: EndpointUpdate) {
   const current = await getEndpoint(partnerId, endpointId)
-  if (input.url) checkUrlField(input.url)
+  if (input.url) await checkUrlField(input.url)
   if (input.labIds) await checkLabsGranted(partnerId, input.labIds)
   if (input.schemaVersion) await checkSchemaVersion(input.schemaVersion)
   return useDb().transaction(async (tx) => {
@@ -134,6 +140,7 @@ export async function rotateSecret(event: H3Event, actor: SessionUser, partnerId
 export async function sendTestEvent(event: H3Event, actor: SessionUser, partnerId: string, endpointId: string) {
   const ep = await useDb().query.webhookEndpoints.findFirst({ where: and(eq(webhookEndpoints.id, endpointId), eq(webhookEndpoints.partnerId, partnerId)) })
   if (!ep) throw problem(404, 'endpoint-not-found', 'No such webhook endpoint for this partner.')
+  await consumePartnerAction('test-send', partnerId)
   const partner = await useDb().query.partners.findFirst({ where: eq(partners.id, partnerId), columns: { slug: true } })
   const testPayload = { message: 'A test message from Arcwise: your endpoint received and can verify it.', partner: partner?.slug, endpointId, sentBy: actor.email }
   const delivery = firstRow(await useDb().insert(deliveries).values({ endpointId, eventType: TEST_EVENT, testPayload, status: 'pending', nextAttemptAt: sql`'infinity'::timestamptz` }).returning({ id: deliveries.id }))

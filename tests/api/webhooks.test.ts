@@ -236,7 +236,9 @@ describe('the SSRF guard', () => {
     ['http://255.255.255.255/hook', 'broadcast'],
     ['ftp://hooks.example.org/x', 'not http(s)'],
     ['http://user:pw@hooks.example.org/x', 'credentials'],
-    ['http://hooks.example.org:8080/x', 'port not allowed'],
+    ['https://hooks.example.org:8080/x', 'port not allowed'],
+    ['http://hooks.example.org/x', 'plain http to a host not on the allowlist'],
+    ['https://localhost/hook', 'a host name that resolves to loopback'],
   ])('refuses %s (%s) with a problem naming url, and stores nothing', async (target) => {
     const ctx = await labWithInstrument()
     const partner = (await ctx.admin.post('/api/console/partners', { slug: unique('p'), name: 'Guard', kind: 'data_team', contactEmail: 'g@example.org' })).body
@@ -247,11 +249,29 @@ describe('the SSRF guard', () => {
     expect(await testDb()`select 1 from webhook_endpoints where partner_id = ${partner.id}`).toHaveLength(0)
   })
 
-  it('refuses a host name that resolves to loopback when it sends', async () => {
-    const ctx = await labWithInstrument()
-    const partner = (await ctx.admin.post('/api/console/partners', { slug: unique('p'), name: 'Guard', kind: 'data_team', contactEmail: 'g@example.org' })).body
-    const ep = (await ctx.admin.post(`/api/console/partners/${partner.id}/endpoints`, { url: 'http://localhost/hook' })).body
-    const res = await ctx.admin.post(`/api/console/partners/${partner.id}/endpoints/${ep.id}/test`)
+  it('says why on the url field when a name resolves to loopback or the URL is plain http, and keeps the saved URL on an edit', async () => {
+    const ctx = await partnerWithEndpoint(`/edit-${unique('x')}`)
+    const at = `/api/console/partners/${ctx.partner.id}/endpoints`
+    const loopName = await ctx.admin.post(at, { url: 'https://localhost/hook' })
+    expect(loopName.status).toBe(422)
+    expect(loopName.body.errors).toEqual([{ path: 'url', message: expect.stringMatching(/localhost resolves to 127\.0\.0\.1 is a loopback address/) }])
+    const plain = await ctx.admin.post(at, { url: 'http://hooks.example.org/x' })
+    expect(plain.body.errors).toEqual([{ path: 'url', message: expect.stringContaining('must use https') }])
+    for (const url of ['https://localhost/elsewhere', 'http://hooks.example.org/x']) {
+      const edit = await ctx.admin.patch(`${at}/${ctx.endpoint.id}`, { url, description: 'moved' })
+      expect(edit.status).toBe(422)
+      expect(edit.body.errors[0].path).toBe('url')
+    }
+    expect((await ctx.admin.get(`${at}/${ctx.endpoint.id}`)).body).toMatchObject({ url: ctx.endpoint.url, description: ctx.endpoint.description })
+    // A public https name that does not resolve (yet) is kept: the check at each send decides.
+    expect((await ctx.admin.post(at, { url: 'https://hooks.example.invalid/x' })).status).toBe(201)
+  })
+
+  it('refuses at send a name that resolves to loopback by then (saved while it pointed elsewhere)', async () => {
+    const ctx = await partnerWithEndpoint(`/rebind-${unique('x')}`)
+    // What DNS rebinding does: the stored name now resolves to loopback.
+    await testDb()`update webhook_endpoints set url = 'https://localhost/hook' where id = ${ctx.endpoint.id}`
+    const res = await ctx.admin.post(`/api/console/partners/${ctx.partner.id}/endpoints/${ctx.endpoint.id}/test`)
     expect(res.body).toMatchObject({ ok: false, class: 'guard-refused', error: expect.stringContaining('loopback') })
   })
 })

@@ -53,10 +53,14 @@ describe('webhooks in the console', () => {
     await page.getByRole('button', { name: 'Save endpoint' }).click()
     await expect.poll(() => page.getByRole('listitem').first().textContent()).toContain('LIMS intake, night shift')
 
-    // A bad URL is refused on the field it names.
+    // A bad URL is refused on the field it names: a private address, and a host name that
+    // resolves to loopback (looked up when the endpoint is saved).
     await page.getByLabel('Endpoint URL').fill('http://10.0.0.5/hook')
     await page.getByRole('button', { name: 'Add endpoint' }).click()
     await expect.poll(() => page.getByRole('alert').last().textContent()).toContain('private')
+    await page.getByLabel('Endpoint URL').fill('https://localhost/hook')
+    await page.getByRole('button', { name: 'Add endpoint' }).click()
+    await expect.poll(() => page.getByRole('alert').last().textContent()).toContain('localhost resolves to 127.0.0.1')
 
     expect((await new ConsoleClient().request('POST', '/api/v1/acquisitions', co2Acquisition(unique('run'), 1500), bearer(key.secret))).status).toBe(201)
     const hit = await until('the message at the sink', () => hits.find(h => h.path === path))
