@@ -32,6 +32,12 @@ export default defineNuxtConfig({
     mailCaptureUrl: '',
     signIn: { maxFailures: 5, lockMinutes: 15 },
     rateLimit: { perMinute: 1200 },
+    ingest: {
+      // The byte cap of an acquisition upload (JSON or file); other routes take 1 MB.
+      maxUploadBytes: 64 * 1024 * 1024,
+      // An acquiredAt later than the server's clock plus this is refused.
+      clockSkewSeconds: 300,
+    },
     // The benchmark's baseline route (server/routes/_bench), off unless NUXT_BENCH_ROUTES=true.
     benchRoutes: false,
     session: { maxAge: 60 * 60 * 12 },
