@@ -54,7 +54,7 @@ export function splitUnitCell(cell: string): { name: string, unit: string } | un
   return undefined
 }
 
-const META_KEY = /^[A-Za-z][\w ]*$/
+const META_KEY = /^\w[\w ]*$/
 
 /** "# key: value" or "# key = value" -> key and value; anything else is a comment. */
 export function splitMetaLine(line: string): { key: string, value: string } | undefined {

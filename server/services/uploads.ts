@@ -81,7 +81,7 @@ async function readMultipartAcquisition(event: H3Event, contentType: string): Pr
   form.on('error', (error: Error) => { failure ??= (error as { statusCode?: number }).statusCode ? error : problem(400, 'malformed-multipart', `The multipart body cannot be read: ${error.message}`) })
   form.on('field', name => fail(fieldProblem(name.slice(0, 64) || '(part)', 'is not taken: send the file as the part "file" and metadata in the query string')))
   form.on('filesLimit', () => fail(fieldProblem('file', 'send one file per upload')))
-  form.on('partsLimit', () => fail(problem(413, 'payload-too-large', 'The multipart body has too many parts.', { headers: { connection: 'close' } })))
+  form.on('partsLimit', () => fail(problem(413, 'payload-too-large', 'The multipart body has too many parts.')))
   const closed = new Promise<void>((resolve, reject) => {
     form.on('close', () => failure ? reject(failure) : resolve())
     form.on('error', () => reject(failure))

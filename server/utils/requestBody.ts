@@ -36,8 +36,7 @@ function isUploadRoute(path: string): boolean {
 
 export function bodyTooLarge(cap: number, declared?: number) {
   return problem(413, 'payload-too-large',
-    declared === undefined ? `The body passes ${cap} bytes; at most ${cap} are accepted here.` : `The body is ${declared} bytes; at most ${cap} are accepted here.`,
-    { headers: { connection: 'close' } })
+    declared === undefined ? `The body passes ${cap} bytes; at most ${cap} are accepted here.` : `The body is ${declared} bytes; at most ${cap} are accepted here.`)
 }
 
 /**
@@ -49,7 +48,10 @@ export function guardRequestBody(event: H3Event, cap: number) {
   // In-process requests (Nitro's local fetch) carry their body in memory already.
   if (!req.socket || '__unenv__' in req) return
   const declared = Number.parseInt(req.headers['content-length'] ?? '', 10)
-  if (declared > cap) throw bodyTooLarge(cap, declared)
+  if (declared > cap) {
+    closeUnreadBody(event)
+    throw bodyTooLarge(cap, declared)
+  }
   ;(event as GuardedEvent)[counted] = { cap }
   // h3 reads `_requestBody` before the socket: a getter, so the stream is made only when read.
   Object.defineProperty(event, '_requestBody', {
@@ -70,36 +72,47 @@ function hasBody(event: H3Event) {
 
 /**
  * The request body as a stream that fails with a 413 problem as soon as it passes the
- * route's cap (or `cap`, when lower). One stream per request: every reader shares it.
+ * route's cap. One stream per request: every reader shares it.
  */
 export function readBodyStream(event: H3Event): Readable {
   const guard = (event as GuardedEvent)[counted]
   if (!guard) throw new Error('request body read without the body middleware\'s cap (server/middleware/body.ts)')
   if (guard.stream) return guard.stream
-  const { req, res } = event.node
+  const { req } = event.node
   let seen = 0
   const limiter = new Transform({
     transform(chunk: Buffer, _encoding, done) {
       seen += chunk.length
       if (seen <= guard.cap) return done(null, chunk)
       req.unpipe(limiter)
-      if (!res.headersSent) res.setHeader('connection', 'close')
       done(bodyTooLarge(guard.cap))
     },
   })
   req.on('error', error => limiter.destroy(error))
-  // A reader that stopped early (a refused header, the cap) leaves the rest unread: once the
-  // answer is out, the rest is discarded for a moment and the connection closed, so a client
-  // still sending neither holds a keep-alive connection nor gets read to the end.
-  res.once('finish', () => {
-    if (req.complete) return
-    req.unpipe(limiter)
-    req.resume()
-    setTimeout(() => req.destroy(), 2000).unref()
-  })
+  closeUnreadBody(event)
   guard.stream = req.pipe(limiter)
   return guard.stream
 }
+
+/**
+ * A reader that stopped early (the cap, a refused header line) leaves the rest of the body
+ * unread. Once the answer is out, what still arrives is discarded for a short while, so the
+ * client can read the answer (closing on unread data would reset the connection under it),
+ * and then the connection is closed: a client still sending is never read to the end.
+ */
+function closeUnreadBody(event: H3Event) {
+  const { req, res } = event.node
+  res.once('finish', () => {
+    if (req.complete) return
+    req.unpipe()
+    req.removeAllListeners('data')
+    req.resume()
+    const timer = setTimeout(() => req.socket?.destroy(), LINGER_MS)
+    timer.unref()
+    req.once('end', () => clearTimeout(timer))
+  })
+}
+const LINGER_MS = 2000
 
 /** The whole body as text, read through the counter (at most the route's cap). */
 export async function readBodyText(event: H3Event): Promise<string> {
