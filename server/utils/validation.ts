@@ -11,7 +11,7 @@ import { readBodyText } from './requestBody'
 export function fieldErrors(error: z.ZodError): FieldError[] {
   return error.issues.flatMap((issue) => {
     const at = issue.path.map(String)
-    if (issue.code === 'unrecognized_keys') return issue.keys.map(key => ({ path: [...at, key].join('.'), message: 'is not a field here' }))
+    if (issue.code === 'unrecognized_keys') return issue.keys.map(key => ({ path: [...at, key].join('.'), message: `Unrecognized key: "${key}" is not a field here` }))
     return [{ path: at.join('.') || '(body)', message: issue.message }]
   })
 }
