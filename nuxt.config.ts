@@ -39,6 +39,12 @@ export default defineNuxtConfig({
     trustedProxies: '',
     // NUXT_SEALING_KEYS: "id:secret" pairs, oldest first; the newest seals (server/utils/keyring.ts).
     sealingKeys: '',
+    ingest: {
+      // The byte cap of an acquisition upload (JSON or file); other routes take 1 MB.
+      maxUploadBytes: 64 * 1024 * 1024,
+      // An acquiredAt later than the server's clock plus this is refused.
+      clockSkewSeconds: 300,
+    },
     // The benchmark's baseline route (server/routes/_bench), off unless NUXT_BENCH_ROUTES=true.
     benchRoutes: false,
     // /_bench/diagnostics (event-loop delay, peak RSS) for npm run chaos, off unless NUXT_DIAGNOSTICS=true.

@@ -1,50 +1,117 @@
+import type { Readable } from 'node:stream'
+import Busboy from 'busboy'
 import type { H3Event } from 'h3'
 import { and, eq, sql } from 'drizzle-orm'
 import { acquisitionInput, type AcquisitionInput } from '#shared/schemas/acquisitions'
 import type { ProblemDocument } from '#shared/schemas/common'
 import { uploads } from '../database/schema'
-import { fileKindOf, parseCsvUpload, parseJcampUpload, parseMzmlUpload, type FileKind } from './fileFormats'
+import { fileKindOf, parseCsvUpload, parseJcampUpload, parseMzmlUpload, type FileKind, type QueryMeta } from './fileFormats'
 import type { LabKey } from './apiKeys'
 
-// An acquisition body arrives as JSON or as a file (CSV, JCAMP-DX, mzML; raw body or one
-// multipart part). Bodies of more than INLINE_POINTS points are stored and processed in
-// the background: the caller gets 202 and a status URL.
+// An acquisition body arrives as JSON or as a file (CSV, JCAMP-DX, mzML; raw body or the
+// one multipart part "file", streamed through busboy). Bodies of more than INLINE_POINTS
+// points are stored and processed in the background: the caller gets 202 and a status URL.
+// Every byte is read through the request's counter (server/utils/requestBody.ts), capped at
+// the configured upload limit (runtimeConfig.ingest.maxUploadBytes); a multipart part has
+// the same cap, and the parts around it small ones.
 
-export const MAX_UPLOAD_BYTES = 64 * 1024 * 1024
 export const INLINE_POINTS = 250_000
 
-const parsers: Record<FileKind, (e: H3Event, max: number) => Promise<Record<string, unknown>>> = {
+const parsers: Record<FileKind, (stream: Readable, query: QueryMeta) => Promise<Record<string, unknown>>> = {
   csv: parseCsvUpload, jcamp: parseJcampUpload, mzml: parseMzmlUpload,
 }
 
 function parseOrProblem(value: unknown): AcquisitionInput {
   const r = acquisitionInput.safeParse(value)
-  if (r.success) return r.data
-  const errors = fieldErrors(r.error)
-  throw problem(422, 'validation-failed', errors.map(e => `${e.path}: ${e.message}`).join('; '), { errors })
+  if (!r.success) {
+    const errors = fieldErrors(r.error)
+    throw problem(422, 'validation-failed', errors.map(e => `${e.path}: ${e.message}`).join('; '), { errors })
+  }
+  assertPlausibleTime(r.data)
+  return r.data
+}
+
+/**
+ * An instrument cannot have acquired a run in the future: acquiredAt later than the server's
+ * clock plus the configured skew (runtimeConfig.ingest.clockSkewSeconds) is refused.
+ */
+export function assertPlausibleTime(input: Pick<AcquisitionInput, 'acquiredAt'>) {
+  const skewMs = Number(useRuntimeConfig().ingest.clockSkewSeconds) * 1000
+  const latest = Date.now() + skewMs
+  if (Date.parse(input.acquiredAt) > latest) {
+    throw fieldProblem('acquiredAt', `is later than the hub's clock allows (${new Date(latest).toISOString()}, ${skewMs / 1000} s of clock skew)`)
+  }
+}
+
+/** The metadata the query string gives beside a file. */
+function queryMeta(event: H3Event): QueryMeta {
+  const q = getQuery(event)
+  const out: QueryMeta = {}
+  for (const k of ['instrument', 'runId', 'acquiredAt', 'sampleRef'] as const) if (typeof q[k] === 'string') out[k] = q[k]
+  return out
 }
 
 /** The acquisition body of the request, whatever form it came in. */
 export async function readAcquisitionBody(event: H3Event): Promise<AcquisitionInput> {
-  assertBodySize(event, MAX_UPLOAD_BYTES)
   const contentType = getRequestHeader(event, 'content-type') ?? ''
-  if (contentType.startsWith('multipart/form-data')) {
-    const parts = await readMultipartFormData(event)
-    const file = parts?.find(p => p.name === 'file')
-    if (!file) throw fieldProblem('file', 'a multipart upload needs a part named "file"')
-    const kind = fileKindOf(file.type ?? '') ?? kindByName(file.filename)
-    if (!kind || kind === 'json') return parseOrProblem(jsonPart(file.data))
-    // The part is parsed through the same stream parsers, from memory.
-    const { Readable } = await import('node:stream')
-    // A view of the event whose body is the part; the rest (the query string with metadata
-    // the file lacks) is read through the prototype.
-    const fake = Object.assign(Object.create(event) as H3Event, { node: { ...event.node, req: Object.assign(Readable.from(file.data), { headers: {}, url: event.node.req.url }) } })
-    return parseOrProblem(await parsers[kind](fake, MAX_UPLOAD_BYTES))
-  }
+  if (contentType.toLowerCase().startsWith('multipart/form-data')) return readMultipartAcquisition(event, contentType)
   const kind = fileKindOf(contentType)
-  if (!kind) throw problem(415, 'unsupported-media-type', `Content-Type ${contentType} is not taken here: send application/json, text/csv, chemical/x-jcamp-dx, application/mzml+xml or multipart/form-data.`)
-  if (kind === 'json') return readValidBody(event, acquisitionInput)
-  return parseOrProblem(await parsers[kind](event, MAX_UPLOAD_BYTES))
+  if (!kind) throw problem(415, 'unsupported-media-type', `Content-Type ${contentType.slice(0, 100)} is not taken here: send application/json, text/csv, chemical/x-jcamp-dx, application/mzml+xml or multipart/form-data.`)
+  if (kind === 'json') {
+    const body = await readValidBody(event, acquisitionInput)
+    assertPlausibleTime(body)
+    return body
+  }
+  return parseOrProblem(await parsers[kind](readBodyStream(event), queryMeta(event)))
+}
+
+/**
+ * A multipart upload: one part named "file", parsed as it streams. Any other part is refused
+ * by name (nothing sent is dropped unread); metadata goes in the query string.
+ */
+async function readMultipartAcquisition(event: H3Event, contentType: string): Promise<AcquisitionInput> {
+  const cap = uploadLimitBytes()
+  let form: Busboy.Busboy
+  try { form = Busboy({ headers: { 'content-type': contentType }, limits: { files: 1, fileSize: cap, fields: 8, fieldSize: 4096, parts: 9, headerPairs: 16 } }) }
+  catch (error) { throw problem(400, 'malformed-multipart', `The multipart body cannot be read: ${(error as Error).message}`) }
+  const body = readBodyStream(event)
+  let failure: Error | undefined
+  const fail = (error: Error) => { failure ??= error; form.destroy(failure) }
+  body.on('error', fail)
+  form.on('error', (error: Error) => { failure ??= (error as { statusCode?: number }).statusCode ? error : problem(400, 'malformed-multipart', `The multipart body cannot be read: ${error.message}`) })
+  form.on('field', name => fail(fieldProblem(name.slice(0, 64) || '(part)', 'is not taken: send the file as the part "file" and metadata in the query string')))
+  form.on('filesLimit', () => fail(fieldProblem('file', 'send one file per upload')))
+  form.on('partsLimit', () => fail(problem(413, 'payload-too-large', 'The multipart body has too many parts.')))
+  const closed = new Promise<void>((resolve, reject) => {
+    form.on('close', () => failure ? reject(failure) : resolve())
+    form.on('error', () => reject(failure))
+  })
+  closed.catch(() => {})
+  const file = await new Promise<{ stream: Readable, info: Busboy.FileInfo } | undefined>((resolve, reject) => {
+    form.on('file', (name, stream, info) => {
+      if (name !== 'file') { stream.resume(); fail(fieldProblem(name.slice(0, 64) || '(part)', 'is not taken: send the file as the part "file"')); return }
+      stream.on('limit', () => stream.destroy(bodyTooLarge(cap)))
+      resolve({ stream, info })
+    })
+    closed.then(() => resolve(undefined), reject)
+    body.pipe(form)
+  })
+  if (!file) throw failure ?? fieldProblem('file', 'a multipart upload needs a part named "file"')
+  const kind = fileKindOf(file.info.mimeType ?? '') ?? kindByName(file.info.filename)
+  let value: unknown
+  try { value = !kind || kind === 'json' ? jsonPart(await readPart(file.stream)) : await parsers[kind](file.stream, queryMeta(event)) }
+  // The part's stream fails with busboy's own error when the form breaks: answer the form's problem.
+  catch (error) { throw failure ?? error }
+  // A parser that stopped before the end of its part has refused it already; one that read
+  // it whole waits for the parts after it, so an unexpected one is refused, not dropped.
+  await closed
+  return parseOrProblem(value)
+}
+
+async function readPart(stream: Readable): Promise<Buffer> {
+  const chunks: Buffer[] = []
+  for await (const chunk of stream) chunks.push(chunk as Buffer)
+  return Buffer.concat(chunks)
 }
 
 function jsonPart(data: Buffer): unknown {

@@ -15,22 +15,22 @@ const positiveMeasured = (q: Parameters<typeof measured>[0], what: string) =>
 export const potentialSectorGeometry = z.object({
   kind: z.literal('potential-sector'),
   analyzerRadius: positiveMeasured('length', 'the analyzer radius'),
-})
+}).strict()
 
 export const wienSectorGeometry = z.object({
   kind: z.literal('wien-sector'),
   analyzerRadius: positiveMeasured('length', 'the analyzer radius'),
   plateGap: positiveMeasured('length', 'the plate gap'),
-})
+}).strict()
 
 export const multiCollectorGeometry = z.object({
   kind: z.literal('multi-collector'),
   collectors: z.array(z.object({
     id: z.string().trim().min(1).max(32),
     effectiveRadius: positiveMeasured('length', 'an effective radius'),
-  })).min(1, 'needs at least one collector').max(32)
+  }).strict()).min(1, 'needs at least one collector').max(32)
     .refine(cs => new Set(cs.map(c => c.id)).size === cs.length, 'collector ids must be unique'),
-})
+}).strict()
 
 export const geometry = z.discriminatedUnion('kind', [potentialSectorGeometry, wienSectorGeometry, multiCollectorGeometry], {
   error: 'kind must be one of potential-sector, wien-sector, multi-collector',

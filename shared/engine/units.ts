@@ -17,7 +17,9 @@ export type UnitOf<Q extends Quantity> = keyof (typeof unitFactors)[Q] & string
 /** The SI factor of `unit` for `quantity`; a missing or unknown unit names `field`. */
 export function siFactor(quantity: Quantity, unit: string | undefined | null, field: string): number {
   if (!unit) throw new EngineError(field, 'unit-missing', `needs a unit (one of ${Object.keys(unitFactors[quantity]).join(', ')})`)
-  const factor = (unitFactors[quantity] as Record<string, number>)[unit.trim()]
+  // Own entries only: a unit named "constructor" is unknown, not Object's constructor.
+  const table = unitFactors[quantity] as Record<string, number>
+  const factor = Object.hasOwn(table, unit.trim()) ? table[unit.trim()] : undefined
   if (factor === undefined) {
     throw new EngineError(field, 'unit-unknown', `unknown ${quantity} unit "${unit}" (use one of ${Object.keys(unitFactors[quantity]).join(', ')})`)
   }
@@ -34,8 +36,8 @@ export function toSI(quantity: Quantity, values: ArrayLike<number>, unit: string
 
 /** Detector signals: a current (Faraday cup) or a count rate (ion counter). */
 export function detectorQuantity(unit: string, field: string): Quantity {
-  if (unit in unitFactors.current) return 'current'
-  if (unit in unitFactors.countRate) return 'countRate'
+  if (Object.hasOwn(unitFactors.current, unit)) return 'current'
+  if (Object.hasOwn(unitFactors.countRate, unit)) return 'countRate'
   throw new EngineError(field, 'unit-unknown', `unknown detector unit "${unit}" (a current such as A, pA, fA, or a count rate cps)`)
 }
 
@@ -46,7 +48,7 @@ export const measured = (quantity: Quantity) => z.object({
   value: z.number({ error: 'must be a number' }).finite('must be a finite number'),
   unit: z.enum(unitNames(quantity), { error: `must be one of ${unitNames(quantity).join(', ')}` }),
   u: z.number({ error: 'must be a number (0 when not known)' }).finite().min(0, 'a standard uncertainty cannot be negative').default(0),
-})
+}).strict()
 export type Measured = { value: number, unit: string, u: number }
 
 /** A measured value in SI with its uncertainty. */

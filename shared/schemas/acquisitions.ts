@@ -6,7 +6,8 @@ import { slug } from './common'
 // the engine's RawReadings; everything Arcwise decides (lab, status, versions) is absent
 // on purpose, and `.strict()` refuses a body that tries to set it.
 
-const MAX_POINTS = 2_000_000
+/** The most points one column may hold (mzML arrays inflate to at most this many 64-bit floats). */
+export const MAX_POINTS = 2_000_000
 
 const finiteNumber = z.number({ error: 'must be a finite number' }).finite('must be a finite number')
 
@@ -21,7 +22,8 @@ export const acquisitionInput = z.object({
   runId: z.string({ error: 'is required' }).trim().min(1, 'is required').max(128),
   acquiredAt: z.iso.datetime({ offset: true, error: 'must be an ISO 8601 date and time with an offset, e.g. 2026-11-30T14:05:00Z' }),
   sampleRef: z.string().trim().max(200).optional(),
-  settings: z.partialRecord(z.enum(['acceleratingVoltage', 'field', 'plateVoltage', 'filterField'], { error: 'must be acceleratingVoltage, field, plateVoltage or filterField' }), setting).default({}),
+  // An object of known names, not a record: a record passes `__proto__` by unnoticed.
+  settings: z.object({ acceleratingVoltage: setting.optional(), field: setting.optional(), plateVoltage: setting.optional(), filterField: setting.optional() }).strict().default({}),
   sweep: z.object({
     reading: z.enum(['field', 'acceleratingVoltage']),
     unit: z.string().min(1).max(16),

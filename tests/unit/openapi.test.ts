@@ -21,7 +21,7 @@ function routeOf(file: string): [string, string] {
   const rel = relative(join(rootDir, 'server'), file).replace(/\\/g, '/')
   const match = /^(.*?)(?:\/index)?\.(get|post|put|patch|delete)\.ts$/.exec(rel)
   if (!match) throw new Error(`route file without a method: ${rel}`)
-  return [match[2]!, `/${match[1]!.replace(/\[([^\]]+)\]/g, '{$1}')}`]
+  return [match[2]!, `/${match[1]!.replace(/\[([^[\]]+)\]/g, '{$1}')}`]
 }
 
 describe('OpenAPI 3.1 document', () => {
