@@ -131,11 +131,11 @@ export function centroidGridBias(e: EngineModule, pointsPerFwhm: number, phases 
   let worst = 0
   for (let k = 0; k < phases; k++) {
     const phase = k / phases
-    const n = Math.round(16 * sigma / step)
+    const n = Math.round(60 * sigma / step)
     const mz: number[] = []
     const y: number[] = []
     for (let i = 0; i < n; i++) {
-      const x = centre - 8 * sigma + (i + phase) * step
+      const x = centre - 30 * sigma + (i + phase) * step
       mz.push(x)
       y.push(1e-13 * Math.exp(-0.5 * ((x - centre) / sigma) ** 2) + 1e-16)
     }
