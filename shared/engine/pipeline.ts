@@ -159,7 +159,7 @@ function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptio
   columns.forEach((col, c) => {
     mzMin = Math.min(mzMin, col.mz[0]!)
     mzMax = Math.max(mzMax, col.mz[col.mz.length - 1]!)
-    const found = findPeaks(col.mz, col.signal, { minSnr: options.minSnr, counting: detectorUnit === 'cps', dwellS: options.dwellS, input: baselineInput(options, col.collector, c, columns.length) })
+    const found = findPeaks(col.mz, col.signal, { minSnr: options.minSnr, counting: detectorUnit === 'cps', dwellS: options.dwellS, input: baselineInput(options, col.collector, c, columns.length, detectorUnit) })
     baseline ??= found.baseline
     for (const p of found.peaks) {
       peaks.push(profilePeak(p, col.collector, p.centroid * col.relU(p.centroid), table, tolerance))
@@ -173,13 +173,18 @@ function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptio
 interface SharedBaseline { column: number, areaPerBaseline: number, levelVariance: number, noise: number }
 
 /** The acquisition's baseline regions, and the zero readings of this column in SI. */
-function baselineInput(options: EngineOptions, collector: string, index: number, columns: number): BaselineInput | undefined {
+function baselineInput(options: EngineOptions, collector: string, index: number, columns: number, unit: 'A' | 'cps'): BaselineInput | undefined {
   const b = options.baseline
   if (!b) return undefined
   const zeros = b.zero ?? []
   const k = zeros.findIndex(z => z.collector === collector)
   const zIndex = k >= 0 ? k : (zeros.length === 1 && !zeros[0]!.collector) || (zeros.length === columns && !zeros[index]?.collector) ? (zeros.length === 1 ? 0 : index) : -1
-  const zero = zIndex >= 0 ? detectorSI(zeros[zIndex]!, `baseline.zero[${zIndex}]`).values : undefined
+  let zero: Float64Array | undefined
+  if (zIndex >= 0) {
+    const z = detectorSI(zeros[zIndex]!, `baseline.zero[${zIndex}]`)
+    if (z.unit !== unit) throw new EngineError(`baseline.zero[${zIndex}].unit`, 'unit-mismatch', `the detector column reads ${unit === 'A' ? 'a current' : 'a count rate'}; give its zero readings in a unit of the same kind`)
+    zero = z.values
+  }
   return { regions: b.regions, zero }
 }
 
@@ -195,7 +200,7 @@ export function processMzSpectrum(mzValues: ArrayLike<number>, signalValues: Arr
   if (sweepDirection(mz, 'mzSpectrum.mz') < 0) { mz.reverse(); signal.reverse() }
   const table = candidateTable(options)
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE
-  const found = findPeaks(mz, signal, { minSnr: options.minSnr, counting: detectorUnit === 'cps', dwellS: options.dwellS, input: baselineInput(options, 'main', 0, 1) })
+  const found = findPeaks(mz, signal, { minSnr: options.minSnr, counting: detectorUnit === 'cps', dwellS: options.dwellS, input: baselineInput(options, 'main', 0, 1, detectorUnit) })
   // The geometry is not applied, so there is no geometry uncertainty to give the centroid.
   const peaks = found.peaks.map(p => profilePeak(p, 'main', 0, table, tolerance))
   const shared = found.peaks.map(p => ({ column: 0, areaPerBaseline: p.areaPerBaseline, levelVariance: found.baseline.levelU ** 2, noise: found.baseline.noise }))

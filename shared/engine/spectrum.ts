@@ -33,7 +33,6 @@ export interface BaselineInput {
   zero?: ArrayLike<number>
 }
 
-const MAD_TO_SIGMA = 1.4826 // for normal noise, σ = 1.4826 · MAD (common practice, no source)
 const FWHM_PER_SIGMA = 2 * Math.sqrt(2 * Math.LN2)
 // Full width at 5 % of the height of a Gaussian, in σ: two equal Gaussians this far apart
 // leave a valley of about 10 % of their height, the "10 % valley" definition of resolving
