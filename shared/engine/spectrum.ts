@@ -229,7 +229,10 @@ export function estimateBaseline(mz: Float64Array, y: Float64Array, options: Bas
     const mean = sum / zero.length
     let ss = 0
     for (let i = 0; i < zero.length; i++) ss += ((zero[i] as number) - mean) ** 2
-    const sd = zero.length > 1 ? Math.sqrt(ss / (zero.length - 1)) : noiseFromDifferences(y)
+    // The detector's noise σ comes from the sweep's many points (a pooled estimate, GUM 4.2.4)
+    // rather than from a handful of zero readings; their own spread serves a sweep too short.
+    const fromSweep = noiseFromDifferences(y)
+    const sd = fromSweep > 0 ? fromSweep : zero.length > 1 ? Math.sqrt(ss / (zero.length - 1)) : 0
     return fromPoints(mean, sd, zero.length, 'zero')
   }
   const regions = options.input?.regions

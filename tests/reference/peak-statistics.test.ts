@@ -10,7 +10,7 @@ import { describe, expect, it } from 'vitest'
 import { assignPeak, CandidateTable, formulaSpecies, geometry, isotope, processReadings, simulateFieldSweep } from '../../shared/engine'
 import * as engine from '../../shared/engine'
 import { acquisitionInput } from '../../shared/schemas/acquisitions'
-import { areaCoverage, argonRatioCoverage, centroidGridBias, countingCoverage, peakCentreScan, type Coverage } from '../support/peak-statistics'
+import { areaCoverage, argonRatioCoverage, centroidGridBias, countingCoverage, peakCentreScan, sharedBaselineCoverage, type Coverage } from '../support/peak-statistics'
 
 const SEEDS = 200
 const BAND = [0.915, 0.99] as const
@@ -42,6 +42,12 @@ describe('40Ar/36Ar of air argon from one sweep (200 seeds each)', () => {
     expect(r.referenceSource).toMatch(/Lee et al\., Geochim\. Cosmochim\. Acta 70 \(2006\) 4507/)
     expect(r.deltaUWithReference).toBeGreaterThan(r.deltaU)
   })
+})
+
+describe('a baseline known from 4 on-peak-zero readings (200 seeds)', () => {
+  const c = sharedBaselineCoverage(engine, SEEDS, 4)
+  it('the area\'s u carries the baseline level\'s uncertainty', () => expectHonest(c.area))
+  it('a ratio of two peaks on that shared baseline carries their covariance (GUM 5.2.2)', () => expectHonest(c.ratio))
 })
 
 describe('ion counting with a low dark rate (Poisson, 200 seeds)', () => {

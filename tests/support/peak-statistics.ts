@@ -170,3 +170,34 @@ export function peakCentreScan(e: EngineModule, halfWidthSigmas: number, snr: nu
     baselineErrorInNoise: result.baseline ? (result.baseline.level - 5e-15) / noise : null,
   }
 }
+
+/**
+ * A baseline known only from a few on-peak-zero readings (drawn with the same noise), so its
+ * uncertainty weighs in every area, and two peaks of one column (36Ar and 38Ar at equal
+ * height) share it: their areas correlate. Returns the 36Ar area's and the 38Ar/36Ar
+ * ratio's coverage (truth: equal heights, ratio 1 per unit ln m/z).
+ */
+export function sharedBaselineCoverage(e: EngineModule, seeds: number, zeroReadings = 4) {
+  const geo = argonGeometry(e)
+  const ar36 = e.isotope('36Ar')
+  const noise = 1e-16
+  const height = 50 * noise
+  const R = 600
+  const centre = ar36.mass - 5.48579909065e-4
+  const truthArea = height * (centre / R) * FWHM_TO_SIGMA * Math.sqrt(2 * Math.PI)
+  const area = { errors: [] as number[], us: [] as number[] }
+  const ratio = { errors: [] as number[], us: [] as number[] }
+  for (let seed = 1; seed <= seeds; seed++) {
+    const raw = e.simulateFieldSweep({ geometry: geo, acceleratingVoltageV: 4500, mzFrom: 35.7, mzTo: 38.3, points: 2600, resolvingPower: R, species: [{ species: ar36, currentA: height }, { species: e.isotope('38Ar'), currentA: height }], baselineA: 3e-16, noiseA: noise, seed, currentUnit: 'A' })
+    const zeroNoise = e.simulateFieldSweep({ geometry: geo, acceleratingVoltageV: 4500, mzFrom: 1, mzTo: 2, points: zeroReadings, resolvingPower: R, species: [], baselineA: 3e-16, noiseA: noise, seed: seed + 100_000, currentUnit: 'A' })
+    const result = e.processReadings(geo, raw, {
+      isotopes: false, formulas: ['[36Ar]', '[38Ar]'], baseline: { zero: [{ unit: 'A', values: zeroNoise.detectors[0]!.values }] },
+      ratios: [{ id: 'AIR:40Ar/36Ar', heavy: '[38Ar]', light: '[36Ar]' }],
+    } as Parameters<EngineModule['processReadings']>[2])
+    const p = result.peaks.find(x => Math.abs(x.centroid - centre) < 0.05)
+    if (p) { area.errors.push(p.area - truthArea); area.us.push(p.areaU) }
+    const r = result.ratios[0]
+    if (r) { ratio.errors.push(r.ratio - 1); ratio.us.push(r.ratioU) }
+  }
+  return { area: summarise(area.errors, area.us, truthArea, seeds), ratio: summarise(ratio.errors, ratio.us, 1, seeds) }
+}
