@@ -46,10 +46,47 @@ const COUNTING_GAP = 3
 /** Half-width of the fitting window in fitted σ. */
 const FIT_WINDOW_SIGMAS = 2.5
 
-function median(sorted: Float64Array): number {
-  const n = sorted.length
+/**
+ * The k-th smallest value (0-based) of `a`, which is reordered: Hoare's selection (Hoare,
+ * Commun. ACM 4 (1961) 321), linear on average. A typed array's sort took 12 µs for 333
+ * values here, a quarter of a 1,000-point spectrum's whole baseline.
+ */
+function select(a: Float64Array, k: number): number {
+  let lo = 0
+  let hi = a.length - 1
+  while (hi > lo) {
+    const pivot = a[(lo + hi) >> 1]!
+    let i = lo
+    let j = hi
+    while (i <= j) {
+      while (a[i]! < pivot) i++
+      while (a[j]! > pivot) j--
+      if (i <= j) { const t = a[i]!; a[i] = a[j]!; a[j] = t; i++; j-- }
+    }
+    if (k <= j) hi = j
+    else if (k >= i) lo = i
+    else break
+  }
+  return a[k]!
+}
+
+/** Median of `a` (reordered). */
+function median(a: Float64Array): number {
+  const n = a.length
   const mid = n >> 1
-  return n % 2 ? sorted[mid]! : (sorted[mid - 1]! + sorted[mid]!) / 2
+  if (n % 2) return select(a, mid)
+  const upper = select(a, mid)
+  let lower = -Infinity
+  for (let i = 0; i < mid; i++) if (a[i]! > lower) lower = a[i]!
+  return (lower + upper) / 2
+}
+
+// One scratch buffer for the estimates' samples: the engine is synchronous and not
+// re-entered, and a fresh array per call was a tenth of a 1,000-point spectrum's cost (GC).
+let scratch = new Float64Array(1024)
+function scratchOf(n: number): Float64Array {
+  if (scratch.length < n) scratch = new Float64Array(Math.max(n, 2 * scratch.length))
+  return scratch.subarray(0, n)
 }
 
 /** A sample of every k-th point (at least 256, at most 2^16), so estimates cost a fixed share. */
@@ -67,11 +104,10 @@ export function noiseFromDifferences(y: Float64Array): number {
   const n = y.length
   if (n < 5) return 0
   const stride = strideOf(n - 4)
-  const sample = new Float64Array(Math.ceil((n - 4) / stride))
+  const sample = scratchOf(Math.ceil((n - 4) / stride))
   let j = 0
   for (let i = 2; i < n - 2; i += stride) sample[j++] = Math.abs(2 * y[i]! - y[i - 2]! - y[i + 2]!)
-  const used = sample.subarray(0, j).sort()
-  return 1.482602 / Math.sqrt(6) * median(used)
+  return 1.482602 / Math.sqrt(6) * median(sample.subarray(0, j))
 }
 
 /**
@@ -82,30 +118,31 @@ export function noiseFromDifferences(y: Float64Array): number {
  */
 function lowerClusterLevel(y: Float64Array, noise: number): number {
   const stride = strideOf(y.length)
-  const sample = new Float64Array(Math.ceil(y.length / stride))
-  for (let i = 0, j = 0; i < y.length; i += stride, j++) sample[j] = y[i]!
-  sample.sort()
-  let level = sample[Math.floor(0.02 * (sample.length - 1))]! + 2.054 * noise
+  const m = Math.ceil(y.length / stride)
+  const buffer = scratchOf(2 * m)
+  const sample = buffer.subarray(0, m)
+  const kept = buffer.subarray(m, 2 * m)
+  for (let i = 0, j = 0; i < y.length; i += stride, j++) { sample[j] = y[i]!; kept[j] = y[i]! }
+  let level = select(kept, Math.floor(0.02 * (m - 1))) + 2.054 * noise
   for (let k = 0; k < 8; k++) {
-    const kept = upperBound(sample, level + 3 * noise)
-    if (kept < 1) break
-    const next = median(sample.subarray(0, kept))
-    if (next === level) break
+    const limit = level + 3 * noise
+    let count = 0
+    for (let i = 0; i < m; i++) if (sample[i]! <= limit) kept[count++] = sample[i]!
+    if (count < 1) break
+    const next = median(kept.subarray(0, count))
+    const settled = Math.abs(next - level) <= 0.01 * noise
     level = next
+    if (settled) break
   }
   return level
 }
 
-/** The number of values of a sorted array that are at most `limit`. */
-function upperBound(sorted: Float64Array, limit: number): number {
-  let lo = 0
-  let hi = sorted.length
-  while (lo < hi) {
-    const mid = (lo + hi) >> 1
-    if (sorted[mid]! <= limit) lo = mid + 1
-    else hi = mid
-  }
-  return lo
+/** Median of a strided sample of the values: the first level when peaks are a minority. */
+function sampleMedian(y: Float64Array): number {
+  const stride = strideOf(y.length)
+  const sample = scratchOf(Math.ceil(y.length / stride))
+  for (let i = 0, j = 0; i < y.length; i += stride, j++) sample[j] = y[i]!
+  return median(sample)
 }
 
 /**
@@ -186,15 +223,13 @@ function levelOutside(y: Float64Array, regions: [number, number][]): { mean: num
   let count = 0
   let next = 0
   const shift = y[0]!
-  const add = (from: number, to: number) => {
-    for (let i = from; i < to; i++) { const d = y[i]! - shift; sum += d; sum2 += d * d; count++ }
+  for (let r = 0; r <= regions.length; r++) {
+    const region = regions[r]
+    const end = region ? Math.max(next, region[0] - (region[1] - region[0] + 1)) : y.length
+    for (let i = next; i < end; i++) { const d = y[i]! - shift; sum += d; sum2 += d * d }
+    count += end - next
+    if (region) next = Math.max(next, Math.min(y.length, region[1] + (region[1] - region[0] + 1) + 1))
   }
-  for (const [lo, hi] of regions) {
-    const margin = hi - lo + 1
-    add(next, Math.max(next, lo - margin))
-    next = Math.max(next, Math.min(y.length, hi + margin + 1))
-  }
-  add(next, y.length)
   const mean = count ? sum / count : NaN
   return { mean: mean + shift, sd: count > 1 ? Math.sqrt(Math.max(0, (sum2 - count * mean * mean) / (count - 1))) : NaN, count }
 }
@@ -249,18 +284,28 @@ export function estimateBaseline(mz: Float64Array, y: Float64Array, options: Bas
     const mean = sum / count
     return fromPoints(mean + shift, Math.sqrt(Math.max(0, (sum2 - count * mean * mean) / (count - 1))), count, 'regions')
   }
-  // Estimated: a first level and noise, then the points outside the peaks they reveal.
+  // Estimated: a first level and noise, then the points outside the peaks they reveal. The
+  // median of the values serves as the first level while the points outside the peaks are
+  // the majority; when they are not (a peak-centre scan), the lower cluster replaces it.
   let noise = poisson ? 0 : noiseFromDifferences(y)
-  let level = poisson ? 0 : lowerClusterLevel(y, noise)
+  let level = poisson ? 0 : sampleMedian(y)
+  if (!poisson) {
+    const { threshold, floor } = thresholds({ poisson, dwell, noise, level }, y.length, options.minSnr ?? 10)
+    if (levelOutside(y, regionsAbove(y, threshold, floor)).count < y.length / 2) level = lowerClusterLevel(y, noise)
+  }
   let estimate = fromPoints(level, noise, 0, 'estimated')
   for (let iteration = 0; iteration < 2; iteration++) {
     const model: NoiseModel = { poisson, dwell, noise: estimate.noise, level: estimate.level }
     const { threshold, floor } = thresholds(model, y.length, options.minSnr ?? 10)
     const outside = levelOutside(y, regionsAbove(y, threshold, floor, poisson ? COUNTING_GAP : 0))
     if (outside.count < 2) break
+    const moved = Math.abs(outside.mean - level)
     level = outside.mean
     noise = poisson ? 0 : Math.max(outside.sd, 0)
+    const previousNoise = estimate.noise
     estimate = fromPoints(level, noise, outside.count, 'estimated')
+    // A second pass only when the first moved the level or the noise by more than 5 %σ.
+    if (moved <= 0.05 * estimate.noise && Math.abs(estimate.noise - previousNoise) <= 0.05 * estimate.noise) break
   }
   return estimate
 }
