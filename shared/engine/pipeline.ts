@@ -217,7 +217,7 @@ function profilePeak(p: Peak, collector: string, geometryU: number, table: Candi
     resolvingPower10Valley: p.resolvingPower10Valley, resolvingPower10ValleyU: p.resolvingPower10ValleyU, fitted: p.fitted,
     overlapping: p.overlapping, ...assignmentFields(a, p.centroid, centroidU),
   }
-  pendingAssignments.set(peak, a)
+  if (a.rivals?.length || a.first) pendingAssignments.set(peak, a)
   return peak
 }
 
@@ -238,6 +238,7 @@ function assignmentFields(a: Assignment, mz: number, mzU: number) {
  * the peak ambiguous.
  */
 function weighRivals(peaks: ResultPeak[], shared: SharedBaseline[], sweep: { mzMin: number, mzMax: number }, minSnr: number) {
+  if (!peaks.some(p => p.ambiguous)) return
   const observed: (ObservedLine & { peak: number })[] = []
   peaks.forEach((p, i) => {
     const a = pendingAssignments.get(p)

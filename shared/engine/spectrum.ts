@@ -243,6 +243,20 @@ export interface BaselineOptions {
   minSnr?: number
 }
 
+/** A baseline from the mean and spread of `count` points (Poisson: the spread follows the mean). */
+function baselineFrom(mean: number, sd: number, count: number, source: BaselineSource, dwell: number): Baseline {
+  const poisson = dwell > 0
+  const noise = poisson ? Math.sqrt(Math.max(mean, 0) / dwell) : sd
+  const levelU = count > 0 ? (poisson ? Math.sqrt(Math.max(mean, 0) / dwell / count) : noise / Math.sqrt(count)) : noise
+  return { level: mean, levelU, noise, source, noiseModel: poisson ? 'poisson' : 'gaussian', dwellS: poisson ? dwell : null, points: count }
+}
+
+/** The points outside the peak regions a level and noise reveal. */
+function outsidePeaks(y: Float64Array, poisson: boolean, dwell: number, level: number, noise: number, minSnr: number) {
+  const { threshold, floor } = thresholds({ poisson, dwell, noise, level }, y.length, minSnr)
+  return levelOutside(y, regionsAbove(y, threshold, floor, poisson ? COUNTING_GAP : 0))
+}
+
 /**
  * Baseline level, its uncertainty and the noise. From explicit baseline m/z regions or
  * on-peak-zero readings when the acquisition gives them; otherwise estimated: the lower
@@ -253,10 +267,6 @@ export function estimateBaseline(mz: Float64Array, y: Float64Array, options: Bas
   const quantum = options.counting ? (options.dwellS ? 1 / options.dwellS : countQuantum(y)) : 0
   const poisson = quantum > 0
   const dwell = poisson ? 1 / quantum : 0
-  const fromPoints = (mean: number, sd: number, count: number, source: BaselineSource): Baseline => {
-    const noise = poisson ? Math.sqrt(Math.max(mean, 0) / dwell) : sd
-    return { level: mean, levelU: count > 0 ? (poisson ? Math.sqrt(Math.max(mean, 0) / dwell / count) : noise / Math.sqrt(count)) : noise, noise, source, noiseModel: poisson ? 'poisson' : 'gaussian', dwellS: poisson ? dwell : null, points: count }
-  }
   const zero = options.input?.zero
   if (zero && zero.length) {
     let sum = 0
@@ -268,7 +278,7 @@ export function estimateBaseline(mz: Float64Array, y: Float64Array, options: Bas
     // rather than from a handful of zero readings; their own spread serves a sweep too short.
     const fromSweep = noiseFromDifferences(y)
     const sd = fromSweep > 0 ? fromSweep : zero.length > 1 ? Math.sqrt(ss / (zero.length - 1)) : 0
-    return fromPoints(mean, sd, zero.length, 'zero')
+    return baselineFrom(mean, sd, zero.length, 'zero', dwell)
   }
   const regions = options.input?.regions
   if (regions?.length) {
@@ -282,28 +292,28 @@ export function estimateBaseline(mz: Float64Array, y: Float64Array, options: Bas
     }
     if (count < 2) throw new EngineError('baseline.regions', 'too-few-points', `the baseline regions hold ${count} point(s) of this sweep; at least 2 are needed`)
     const mean = sum / count
-    return fromPoints(mean + shift, Math.sqrt(Math.max(0, (sum2 - count * mean * mean) / (count - 1))), count, 'regions')
+    return baselineFrom(mean + shift, Math.sqrt(Math.max(0, (sum2 - count * mean * mean) / (count - 1))), count, 'regions', dwell)
   }
   // Estimated: a first level and noise, then the points outside the peaks they reveal. The
   // median of the values serves as the first level while the points outside the peaks are
   // the majority; when they are not (a peak-centre scan), the lower cluster replaces it.
   let noise = poisson ? 0 : noiseFromDifferences(y)
   let level = poisson ? 0 : sampleMedian(y)
-  if (!poisson) {
-    const { threshold, floor } = thresholds({ poisson, dwell, noise, level }, y.length, options.minSnr ?? 10)
-    if (levelOutside(y, regionsAbove(y, threshold, floor)).count < y.length / 2) level = lowerClusterLevel(y, noise)
+  const minSnr = options.minSnr ?? 10
+  let outside = outsidePeaks(y, poisson, dwell, level, noise, minSnr)
+  if (!poisson && outside.count < y.length / 2) {
+    level = lowerClusterLevel(y, noise)
+    outside = outsidePeaks(y, poisson, dwell, level, noise, minSnr)
   }
-  let estimate = fromPoints(level, noise, 0, 'estimated')
+  let estimate = baselineFrom(level, noise, 0, 'estimated', dwell)
   for (let iteration = 0; iteration < 2; iteration++) {
-    const model: NoiseModel = { poisson, dwell, noise: estimate.noise, level: estimate.level }
-    const { threshold, floor } = thresholds(model, y.length, options.minSnr ?? 10)
-    const outside = levelOutside(y, regionsAbove(y, threshold, floor, poisson ? COUNTING_GAP : 0))
+    if (iteration > 0) outside = outsidePeaks(y, poisson, dwell, estimate.level, estimate.noise, minSnr)
     if (outside.count < 2) break
     const moved = Math.abs(outside.mean - level)
     level = outside.mean
     noise = poisson ? 0 : Math.max(outside.sd, 0)
     const previousNoise = estimate.noise
-    estimate = fromPoints(level, noise, outside.count, 'estimated')
+    estimate = baselineFrom(level, noise, outside.count, 'estimated', dwell)
     // A second pass only when the first moved the level or the noise by more than 5 %σ.
     if (moved <= 0.05 * estimate.noise && Math.abs(estimate.noise - previousNoise) <= 0.05 * estimate.noise) break
   }

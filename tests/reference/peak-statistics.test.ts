@@ -175,3 +175,18 @@ describe('acquisition input: baseline regions and zero readings', () => {
     expect(r.error!.issues.map(i => i.path.join('.'))).toContain(path)
   })
 })
+
+describe('the simulator counts ions (Poisson, Knuth 1997 and Hörmann 1993)', () => {
+  it.each([0.05, 3, 40, 900])('mean and variance of counts at %f counts a point match λ', (lambda) => {
+    const geo = geometry.parse({ kind: 'potential-sector', analyzerRadius: { value: 12, unit: 'cm', u: 0 } })
+    const raw = simulateFieldSweep({ geometry: geo, acceleratingVoltageV: 4500, mzFrom: 35, mzTo: 37, points: 20000, resolvingPower: 600, species: [], baselineA: lambda / 0.1, seed: 9, counting: { dwellS: 0.1 } })
+    const counts = Array.from(raw.detectors[0]!.values, v => v * 0.1)
+    const mean = counts.reduce((a, b) => a + b, 0) / counts.length
+    const variance = counts.reduce((a, b) => a + (b - mean) ** 2, 0) / (counts.length - 1)
+    expect(raw.detectors[0]!.unit).toBe('cps')
+    expect(counts.every(c => Number.isInteger(Math.round(c * 1e9) / 1e9))).toBe(true)
+    // 5 standard errors of the mean (√(λ/n)) and of the variance (≈ λ·√(2/n)).
+    expect(Math.abs(mean - lambda)).toBeLessThan(5 * Math.sqrt(lambda / counts.length))
+    expect(Math.abs(variance - lambda)).toBeLessThan(5 * lambda * Math.sqrt(2 / counts.length) + 5 * Math.sqrt(lambda / counts.length))
+  })
+})
