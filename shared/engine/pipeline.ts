@@ -153,6 +153,7 @@ function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptio
 
   const peaks: ResultPeak[] = []
   const shared: SharedBaseline[] = []
+  let guessed = false
   let baseline: Baseline | null = null
   let mzMin = Infinity
   let mzMax = -Infinity
@@ -163,14 +164,15 @@ function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptio
     baseline ??= found.baseline
     for (const p of found.peaks) {
       peaks.push(profilePeak(p, col.collector, p.centroid * col.relU(p.centroid), table, tolerance))
-      shared.push({ column: c, areaPerBaseline: p.areaPerBaseline, levelVariance: found.baseline.levelU ** 2, noise: found.baseline.noise })
+      shared.push({ column: c, areaPerBaseline: p.areaPerBaseline, levelVariance: found.baseline.levelU ** 2, noise: found.baseline.noise, windowFraction: p.windowFraction })
+      guessed ||= found.baseline.source === 'estimated' && found.baseline.points < 2
     }
   })
-  return finish(peaks, options, { mode: 'sweep', points: n, mzMin, mzMax, detectorUnit, baseline }, {}, shared)
+  return finish(peaks, options, { mode: 'sweep', points: n, mzMin, mzMax, detectorUnit, baseline }, { baselineGuessed: guessed }, shared)
 }
 
 /** What peaks of one column share through its baseline: for correlations and detection limits. */
-interface SharedBaseline { column: number, areaPerBaseline: number, levelVariance: number, noise: number }
+interface SharedBaseline { column: number, areaPerBaseline: number, levelVariance: number, noise: number, windowFraction?: number }
 
 /** The acquisition's baseline regions, and the zero readings of this column in SI. */
 function baselineInput(options: EngineOptions, collector: string, index: number, columns: number, unit: 'A' | 'cps'): BaselineInput | undefined {
@@ -203,8 +205,8 @@ export function processMzSpectrum(mzValues: ArrayLike<number>, signalValues: Arr
   const found = findPeaks(mz, signal, { minSnr: options.minSnr, counting: detectorUnit === 'cps', dwellS: options.dwellS, input: baselineInput(options, 'main', 0, 1, detectorUnit) })
   // The geometry is not applied, so there is no geometry uncertainty to give the centroid.
   const peaks = found.peaks.map(p => profilePeak(p, 'main', 0, table, tolerance))
-  const shared = found.peaks.map(p => ({ column: 0, areaPerBaseline: p.areaPerBaseline, levelVariance: found.baseline.levelU ** 2, noise: found.baseline.noise }))
-  return finish(peaks, { ...options, calibration: null }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit, baseline: found.baseline }, { externalMz: true }, shared)
+  const shared = found.peaks.map(p => ({ column: 0, areaPerBaseline: p.areaPerBaseline, levelVariance: found.baseline.levelU ** 2, noise: found.baseline.noise, windowFraction: p.windowFraction }))
+  return finish(peaks, { ...options, calibration: null }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit, baseline: found.baseline }, { externalMz: true, baselineGuessed: found.baseline.source === 'estimated' && found.baseline.points < 2 }, shared)
 }
 
 /** A profile peak with its assignment, as the result reports it. */
@@ -289,7 +291,7 @@ function processStatic(geo: Geometry, readings: RawReadings, options: EngineOpti
   return finish(peaks, options, { mode: 'static', points: readings.detectors[0]!.values.length, mzMin: Math.min(...mzs), mzMax: Math.max(...mzs), detectorUnit, baseline: null })
 }
 
-function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineResult, 'mode' | 'points' | 'mzMin' | 'mzMax' | 'detectorUnit' | 'baseline'>, source: { externalMz?: boolean } = {}, shared: SharedBaseline[] = []): EngineResult {
+function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineResult, 'mode' | 'points' | 'mzMin' | 'mzMax' | 'detectorUnit' | 'baseline'>, source: { externalMz?: boolean, baselineGuessed?: boolean } = {}, shared: SharedBaseline[] = []): EngineResult {
   if (head.mode === 'sweep') weighRivals(peaks, shared, head, options.minSnr ?? 10)
   for (const [i, j] of linkChargeStates(peaks.map(p => (p.assignment ? { candidates: [], ambiguous: false, best: p.assignment } : null)))) {
     peaks[i]!.linkedPeak = j
@@ -303,6 +305,10 @@ function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineRe
     if (p.overlapping) qc.push({ code: 'overlapping', peak: i, message: `Peak at m/z ${p.centroid.toFixed(4)} overlaps a neighbour; its area is shared.` })
     if (head.mode === 'sweep' && p.snr < 20) qc.push({ code: 'low-signal', peak: i, message: `Peak at m/z ${p.centroid.toFixed(4)} has S/N ${p.snr.toFixed(1)} (< 20).` })
     if (head.mode === 'sweep' && !p.fitted) qc.push({ code: 'fit-failed', peak: i, message: `Peak at m/z ${p.centroid.toFixed(4)}: no Gaussian fit converged; centroid, height and width are read from the points and their uncertainties are not estimated.` })
+  })
+  if (source.baselineGuessed) qc.push({ code: 'baseline-guessed', message: 'No point of the sweep lies clear of the peaks, so the baseline level is a guess from the lowest points and areas may be off by more than their u; send baseline regions or on-peak-zero readings.' })
+  shared.forEach((sh, i) => {
+    if (sh.windowFraction !== undefined && sh.windowFraction < 0.99) qc.push({ code: 'area-window-cut', peak: i, message: `Peak at m/z ${peaks[i]!.centroid.toFixed(4)}: the sweep's end or a neighbour cuts its area window; ${((1 - sh.windowFraction) * 100).toFixed(1)} % of the fitted shape lies outside and is added from the fit.` })
   })
   if (source.externalMz) qc.push({ code: 'external-mz', message: 'm/z was computed by the instrument\'s own software; the registered geometry and calibration were not applied.' })
   else if (!options.calibration) qc.push({ code: 'uncalibrated', message: 'No calibration applied: m/z comes from the registered geometry alone.' })

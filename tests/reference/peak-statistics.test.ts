@@ -83,6 +83,11 @@ describe('peak-centre scans (the peak fills most of the sweep)', () => {
     expect(Math.abs(scan.areaRelError!)).toBeLessThan(0.01)
   })
 
+  it('a ±3σ scan with no baseline point at all says its baseline is a guess', () => {
+    expect(peakCentreScan(engine, 3, 1000).flags).toContain('baseline-guessed')
+    expect(peakCentreScan(engine, 8, 1000).flags).not.toContain('baseline-guessed')
+  })
+
   it('a ±3σ scan with no baseline point at all: on-peak-zero readings give the level, area within 0.5 %', () => {
     const geo = geometry.parse({ kind: 'potential-sector', analyzerRadius: { value: 12, unit: 'cm', u: 0 } })
     const ar40 = isotope('40Ar')
@@ -92,6 +97,7 @@ describe('peak-centre scans (the peak fills most of the sweep)', () => {
     const zero = Array.from({ length: 50 }, (_, i) => 5e-15 + 1e-16 * Math.sin(i * 2.1))
     const result = processReadings(geo, raw, { isotopes: false, formulas: ['[40Ar]'], baseline: { zero: [{ unit: 'A', values: zero }] } })
     expect(result.baseline).toMatchObject({ source: 'zero', points: 50 })
+    expect(result.qc.map(q => q.code)).not.toContain('baseline-guessed')
     expect(result.peaks).toHaveLength(1)
     expect(Math.abs(result.peaks[0]!.area / (1e-13 * sigma * Math.sqrt(2 * Math.PI)) - 1)).toBeLessThan(0.005)
   })
