@@ -215,7 +215,8 @@ function regionsAbove(y: Float64Array, threshold: number, floor: number, gap = 0
 
 /**
  * Mean and standard deviation of the points outside the peak regions, each region widened by
- * its own width on both sides (wings of a peak stay out of the baseline).
+ * a quarter of its width on both sides (a Gaussian's wing a σ beyond where it sank into the
+ * noise is under a hundredth of the noise; common practice, no source).
  */
 function levelOutside(y: Float64Array, regions: [number, number][]): { mean: number, sd: number, count: number } {
   let sum = 0
@@ -225,10 +226,11 @@ function levelOutside(y: Float64Array, regions: [number, number][]): { mean: num
   const shift = y[0]!
   for (let r = 0; r <= regions.length; r++) {
     const region = regions[r]
-    const end = region ? Math.max(next, region[0] - (region[1] - region[0] + 1)) : y.length
+    const margin = region ? Math.ceil((region[1] - region[0] + 1) / 4) : 0
+    const end = region ? Math.max(next, region[0] - margin) : y.length
     for (let i = next; i < end; i++) { const d = y[i]! - shift; sum += d; sum2 += d * d }
     count += end - next
-    if (region) next = Math.max(next, Math.min(y.length, region[1] + (region[1] - region[0] + 1) + 1))
+    if (region) next = Math.max(next, Math.min(y.length, region[1] + margin + 1))
   }
   const mean = count ? sum / count : NaN
   return { mean: mean + shift, sd: count > 1 ? Math.sqrt(Math.max(0, (sum2 - count * mean * mean) / (count - 1))) : NaN, count }
