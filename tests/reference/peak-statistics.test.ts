@@ -196,3 +196,29 @@ describe('the simulator counts ions (Poisson, Knuth 1997 and Hörmann 1993)', ()
     expect(Math.abs(variance - lambda)).toBeLessThan(5 * lambda * Math.sqrt(2 / counts.length) + 5 * Math.sqrt(lambda / counts.length))
   })
 })
+
+describe('reference ratios carry their published uncertainties (values from memory of each source unless stated)', () => {
+  it.each([
+    ['AIR:40Ar/36Ar', 298.56, 0.31, /Lee et al\., Geochim\. Cosmochim\. Acta 70 \(2006\) 4507/],
+    ['VSMOW:18O/16O', 2005.20e-6, 0.43e-6, /Baertschi, Earth Planet\. Sci\. Lett\. 31 \(1976\) 341/],
+    ['VSMOW:2H/1H', 155.76e-6, 0.05e-6, /Hagemann et al\., Tellus 22 \(1970\) 712/],
+    ['VPDB:13C/12C', 0.0111802, 0.0000028, /Werner & Brand, Rapid Commun\. Mass Spectrom\. 15 \(2001\) 501/],
+    ['AIR:15N/14N', 0.0036765, 0.0000041, /Junk & Svec, Geochim\. Cosmochim\. Acta 14 \(1958\) 234/],
+  ] as const)('%s = %f ± %f', (id, ratio, u, source) => {
+    expect(engine.referenceRatios[id]).toMatchObject({ ratio, ratioU: u })
+    expect(engine.referenceRatios[id].source).toMatch(source)
+  })
+
+  it('δ against a reference: its u from the measured ratio alone, and with the reference\'s u (GUM 5.1.2)', () => {
+    const r = engine.ratioAndDelta('AIR:40Ar/36Ar', { area: 298.56, areaU: 0.1 }, { area: 1, areaU: 0 })
+    expect(r.deltaU).toBeCloseTo(1000 * 0.1 / 298.56, 9)
+    expect(r.deltaUWithReference).toBeCloseTo(Math.hypot(1000 * 0.1 / 298.56, 1000 * 0.31 / 298.56), 9)
+  })
+
+  it('a positive covariance of the two areas lowers the ratio\'s u: u²(R) = u²|uncorrelated − 2·cov·h/l³', () => {
+    const plain = engine.ratioAndDelta('AIR:40Ar/36Ar', { area: 2, areaU: 0.02 }, { area: 1, areaU: 0.01 })
+    const shared = engine.ratioAndDelta('AIR:40Ar/36Ar', { area: 2, areaU: 0.02 }, { area: 1, areaU: 0.01 }, 0.02 * 0.01)
+    expect(plain.ratioU).toBeCloseTo(2 * Math.hypot(0.01, 0.01), 6)
+    expect(shared.ratioU).toBeCloseTo(0, 6)
+  })
+})
