@@ -255,7 +255,7 @@ function baselineFrom(mean: number, sd: number, count: number, source: BaselineS
 
 /** The points outside the peak regions a level and noise reveal. */
 function outsidePeaks(y: Float64Array, poisson: boolean, dwell: number, level: number, noise: number, minSnr: number) {
-  const { threshold, floor } = thresholds({ poisson, dwell, noise, level }, y.length, minSnr)
+  const { threshold, floor } = thresholds({ poisson, dwell, level, noise }, y.length, minSnr)
   return levelOutside(y, regionsAbove(y, threshold, floor, poisson ? COUNTING_GAP : 0))
 }
 
