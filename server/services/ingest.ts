@@ -100,6 +100,8 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
       isotopes: input.processing?.isotopes,
       maxCharge: input.processing?.maxCharge,
       ratios: input.processing?.ratios,
+      measuredSpecies: input.processing?.measuredSpecies,
+      baseline: input.baseline,
       calibration: calibration ? calibration.fit as { center: number, halfRange: number, coefficients: number[] } : null,
     }
     engine = input.mzSpectrum

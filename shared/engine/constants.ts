@@ -14,4 +14,4 @@ export const ELECTRON_MASS_U = 5.48579909065e-4
 export const KG_PER_C_TO_U_PER_E = ELEMENTARY_CHARGE_C / ATOMIC_MASS_CONSTANT_KG
 
 /** Version of the engine, recorded with every result it computes. */
-export const ENGINE_VERSION = '1.0.0'
+export const ENGINE_VERSION = '1.1.0'

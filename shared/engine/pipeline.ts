@@ -1,11 +1,11 @@
-import { assignPeak, CandidateTable, linkChargeStates, type Candidate, type Tolerance } from './assign'
+import { assignPeak, CandidateTable, expectedSignal, linkChargeStates, type Assignment, type Candidate, type ObservedLine, type Tolerance } from './assign'
 import { applyCalibrationColumn, type CalibrationFit } from './calibrate'
 import { CODATA_EDITION, ENGINE_VERSION } from './constants'
 import { EngineError, assertFiniteColumn } from './errors'
 import { rankMatches, type ReferenceSpectrum } from './fingerprint'
 import { staticCollectorMz, sweepToMz, type Geometry, type RawReadings } from './geometry'
 import { ratioAndDelta, referenceRatios, type RatioResult, type ReferenceRatioId } from './ratios'
-import { findPeaks, sweepDirection, type Baseline, type Peak } from './spectrum'
+import { findPeaks, sweepDirection, type Baseline, type BaselineInput, type Peak } from './spectrum'
 import { formulaSpecies, naturalIsotopes, neutralMassFromMz, type Species } from './species'
 import { detectorQuantity, siFactor } from './units'
 
@@ -25,20 +25,42 @@ export interface EngineOptions {
   ratios?: { id: ReferenceRatioId, heavy?: string, light?: string }[]
   minSnr?: number
   references?: ReferenceSpectrum[]
+  /**
+   * The species this instrument measures (labels, or element symbols for all of an
+   * element's isotopes): candidates outside the list are not considered.
+   */
+  measuredSpecies?: string[]
+  /**
+   * Baseline regions (m/z) or on-peak-zero readings per detector column (in the column's
+   * unit, matched by collector; a single entry without collector serves every column).
+   */
+  baseline?: { regions?: { mzFrom: number, mzTo: number }[], zero?: { collector?: string, unit: string, values: ArrayLike<number> }[] }
+  /** Dwell time per point (s) of counted data; otherwise found from the count quantum. */
+  dwellS?: number
 }
 
 export interface ResultPeak {
   collector: string
   centroid: number
+  /** Combined standard uncertainty: the fit's (noise) and the geometry's, in quadrature. */
   centroidU: number
+  /** The fit's share alone (null: not estimated, the fit failed). */
+  centroidUFit: number | null
   height: number
+  heightU: number | null
   area: number
   areaU: number
   fwhm: number
+  fwhmU: number | null
   snr: number
   resolvingPower: number
+  resolvingPowerU: number | null
+  resolvingPower10Valley: number | null
+  resolvingPower10ValleyU: number | null
+  /** Centroid and width come from a Gaussian fit (false: from the points; u not estimated). */
+  fitted: boolean
   overlapping: boolean
-  assignment: (Candidate & { impliedNeutralMass: number }) | null
+  assignment: (Candidate & { impliedNeutralMass: number, impliedNeutralMassU: number }) | null
   ambiguous: boolean
   candidates: Candidate[]
   /** Index of the peak holding the other charge state (z=1 <-> z=2) of the same species. */
@@ -76,10 +98,10 @@ function candidateSpecies(options: EngineOptions): Species[] {
 // Candidate tables are rebuilt only when the candidate set changes (a few recent sets kept).
 const tableCache = new Map<string, CandidateTable>()
 function candidateTable(options: EngineOptions): CandidateTable {
-  const key = JSON.stringify([options.isotopes ?? !options.formulas?.length, options.formulas ?? [], options.maxCharge ?? 3])
+  const key = JSON.stringify([options.isotopes ?? !options.formulas?.length, options.formulas ?? [], options.maxCharge ?? 3, options.measuredSpecies ?? []])
   let table = tableCache.get(key)
   if (!table) {
-    table = new CandidateTable(candidateSpecies(options), options.maxCharge ?? 3)
+    table = new CandidateTable(candidateSpecies(options), options.maxCharge ?? 3, options.measuredSpecies)
     if (tableCache.size >= 16) tableCache.delete(tableCache.keys().next().value!)
     tableCache.set(key, table)
   }
@@ -130,17 +152,42 @@ function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptio
   })
 
   const peaks: ResultPeak[] = []
+  const shared: SharedBaseline[] = []
+  let guessed = false
   let baseline: Baseline | null = null
   let mzMin = Infinity
   let mzMax = -Infinity
-  for (const col of columns) {
+  columns.forEach((col, c) => {
     mzMin = Math.min(mzMin, col.mz[0]!)
     mzMax = Math.max(mzMax, col.mz[col.mz.length - 1]!)
-    const found = findPeaks(col.mz, col.signal, { minSnr: options.minSnr })
+    const found = findPeaks(col.mz, col.signal, { minSnr: options.minSnr, counting: detectorUnit === 'cps', dwellS: options.dwellS, input: baselineInput(options, col.collector, c, columns.length, detectorUnit) })
     baseline ??= found.baseline
-    for (const p of found.peaks) peaks.push(profilePeak(p, col.collector, p.centroid * col.relU(p.centroid), table, tolerance))
+    for (const p of found.peaks) {
+      peaks.push(profilePeak(p, col.collector, p.centroid * col.relU(p.centroid), table, tolerance))
+      shared.push({ column: c, areaPerBaseline: p.areaPerBaseline, levelVariance: found.baseline.levelU ** 2, noise: found.baseline.noise, windowFraction: p.windowFraction })
+      guessed ||= found.baseline.source === 'estimated' && found.baseline.points < 2
+    }
+  })
+  return finish(peaks, options, { mode: 'sweep', points: n, mzMin, mzMax, detectorUnit, baseline }, { baselineGuessed: guessed }, shared)
+}
+
+/** What peaks of one column share through its baseline: for correlations and detection limits. */
+interface SharedBaseline { column: number, areaPerBaseline: number, levelVariance: number, noise: number, windowFraction?: number }
+
+/** The acquisition's baseline regions, and the zero readings of this column in SI. */
+function baselineInput(options: EngineOptions, collector: string, index: number, columns: number, unit: 'A' | 'cps'): BaselineInput | undefined {
+  const b = options.baseline
+  if (!b) return undefined
+  const zeros = b.zero ?? []
+  const k = zeros.findIndex(z => z.collector === collector)
+  const zIndex = k >= 0 ? k : (zeros.length === 1 && !zeros[0]!.collector) || (zeros.length === columns && !zeros[index]?.collector) ? (zeros.length === 1 ? 0 : index) : -1
+  let zero: Float64Array | undefined
+  if (zIndex >= 0) {
+    const z = detectorSI(zeros[zIndex]!, `baseline.zero[${zIndex}]`)
+    if (z.unit !== unit) throw new EngineError(`baseline.zero[${zIndex}].unit`, 'unit-mismatch', `the detector column reads ${unit === 'A' ? 'a current' : 'a count rate'}; give its zero readings in a unit of the same kind`)
+    zero = z.values
   }
-  return finish(peaks, options, { mode: 'sweep', points: n, mzMin, mzMax, detectorUnit, baseline })
+  return { regions: b.regions, zero }
 }
 
 /**
@@ -155,26 +202,60 @@ export function processMzSpectrum(mzValues: ArrayLike<number>, signalValues: Arr
   if (sweepDirection(mz, 'mzSpectrum.mz') < 0) { mz.reverse(); signal.reverse() }
   const table = candidateTable(options)
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE
-  const found = findPeaks(mz, signal, { minSnr: options.minSnr })
+  const found = findPeaks(mz, signal, { minSnr: options.minSnr, counting: detectorUnit === 'cps', dwellS: options.dwellS, input: baselineInput(options, 'main', 0, 1, detectorUnit) })
   // The geometry is not applied, so there is no geometry uncertainty to give the centroid.
   const peaks = found.peaks.map(p => profilePeak(p, 'main', 0, table, tolerance))
-  return finish(peaks, { ...options, calibration: null }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit, baseline: found.baseline }, { externalMz: true })
+  const shared = found.peaks.map(p => ({ column: 0, areaPerBaseline: p.areaPerBaseline, levelVariance: found.baseline.levelU ** 2, noise: found.baseline.noise, windowFraction: p.windowFraction }))
+  return finish(peaks, { ...options, calibration: null }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit, baseline: found.baseline }, { externalMz: true, baselineGuessed: found.baseline.source === 'estimated' && found.baseline.points < 2 }, shared)
 }
 
 /** A profile peak with its assignment, as the result reports it. */
-function profilePeak(p: Peak, collector: string, centroidU: number, table: CandidateTable, tolerance: Tolerance): ResultPeak {
-  const a = assignPeak(table, p.centroid, p.fwhm, tolerance)
+function profilePeak(p: Peak, collector: string, geometryU: number, table: CandidateTable, tolerance: Tolerance): ResultPeak {
+  const a = assignPeak(table, p.centroid, p.fwhm, tolerance, p.centroidU ?? 0)
+  const centroidU = Math.hypot(geometryU, p.centroidU ?? 0)
+  const peak: ResultPeak = {
+    collector, centroid: p.centroid, centroidU, centroidUFit: p.centroidU, height: p.height, heightU: p.heightU, area: p.area, areaU: p.areaU,
+    fwhm: p.fwhm, fwhmU: p.fwhmU, snr: p.snr, resolvingPower: p.resolvingPower, resolvingPowerU: p.resolvingPowerU,
+    resolvingPower10Valley: p.resolvingPower10Valley, resolvingPower10ValleyU: p.resolvingPower10ValleyU, fitted: p.fitted,
+    overlapping: p.overlapping, ...assignmentFields(a, p.centroid, centroidU),
+  }
+  if (a.rivals?.length || a.first) pendingAssignments.set(peak, a)
+  return peak
+}
+
+// The assignment of each profile peak before its rivals are weighed against the spectrum.
+const pendingAssignments = new WeakMap<ResultPeak, Assignment>()
+
+function assignmentFields(a: Assignment, mz: number, mzU: number) {
   return {
-    collector, centroid: p.centroid, centroidU, height: p.height, area: p.area, areaU: p.areaU, fwhm: p.fwhm, snr: p.snr,
-    resolvingPower: p.resolvingPower, overlapping: p.overlapping, ...assignmentFields(a, p.centroid),
+    // Neutral mass z·(m/z) + z·m_e: its u is z·u(m/z) (m_e's own u is 10^-10 of it).
+    assignment: a.best ? { ...a.best, impliedNeutralMass: neutralMassFromMz(mz, a.best.z), impliedNeutralMassU: a.best.z * mzU } : null,
+    ambiguous: a.ambiguous, candidates: a.candidates.slice(0, 5), linkedPeak: null,
   }
 }
 
-function assignmentFields(a: ReturnType<typeof assignPeak>, mz: number) {
-  return {
-    assignment: a.best ? { ...a.best, impliedNeutralMass: neutralMassFromMz(mz, a.best.z) } : null,
-    ambiguous: a.ambiguous, candidates: a.candidates.slice(0, 5), linkedPeak: null,
-  }
+/**
+ * Rivals weighed by expected signal: a rival line whose expected signal, from the co-isotopes
+ * this spectrum shows, is below the noise cannot be what was measured, so it does not make
+ * the peak ambiguous.
+ */
+function weighRivals(peaks: ResultPeak[], shared: SharedBaseline[], sweep: { mzMin: number, mzMax: number }, minSnr: number) {
+  if (!peaks.some(p => p.ambiguous)) return
+  const observed: (ObservedLine & { peak: number })[] = []
+  peaks.forEach((p, i) => {
+    const a = pendingAssignments.get(p)
+    if (a?.first) observed.push({ species: a.first.species, z: a.first.z, height: p.height, peak: i })
+  })
+  peaks.forEach((p, i) => {
+    const a = pendingAssignments.get(p)
+    if (!a?.first || !a.rivals?.length) return
+    const noise = shared[i]?.noise ?? 0
+    const others = observed.filter(o => o.peak !== i)
+    const rivals = a.rivals.filter(r => expectedSignal(r, others, { ...sweep, detectionLimit: minSnr * noise }) >= noise)
+    if (rivals.length) return
+    const settled: Assignment = { ...a, best: a.first, ambiguous: false, candidates: a.candidates.filter(c => c === a.first || !a.rivals!.includes(c)) }
+    Object.assign(p, assignmentFields(settled, p.centroid, p.centroidU))
+  })
 }
 
 function processStatic(geo: Geometry, readings: RawReadings, options: EngineOptions, table: CandidateTable, tolerance: Tolerance): EngineResult {
@@ -199,16 +280,19 @@ function processStatic(geo: Geometry, readings: RawReadings, options: EngineOpti
     // A collector's width is not known from one reading: ambiguity uses the tolerance window.
     const window = Math.max(tolerance.abs ?? 0, mz * (tolerance.ppm ?? 0) * 1e-6)
     const a = assignPeak(table, mz, window, tolerance)
+    // A static reading has no profile: width, resolving power and a centroid fit are not estimated.
     return {
-      collector: pos.collector, centroid: mz, centroidU: mz * pos.relU, height: mean, area: mean, areaU: u,
-      fwhm: 0, snr: u > 0 ? mean / u : Number.MAX_VALUE, resolvingPower: 0, overlapping: false, ...assignmentFields(a, mz),
+      collector: pos.collector, centroid: mz, centroidU: mz * pos.relU, centroidUFit: null, height: mean, heightU: u, area: mean, areaU: u,
+      fwhm: 0, fwhmU: null, snr: u > 0 ? mean / u : Number.MAX_VALUE, resolvingPower: 0, resolvingPowerU: null,
+      resolvingPower10Valley: null, resolvingPower10ValleyU: null, fitted: false, overlapping: false, ...assignmentFields(a, mz, mz * pos.relU),
     }
   })
   const mzs = peaks.map(p => p.centroid)
   return finish(peaks, options, { mode: 'static', points: readings.detectors[0]!.values.length, mzMin: Math.min(...mzs), mzMax: Math.max(...mzs), detectorUnit, baseline: null })
 }
 
-function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineResult, 'mode' | 'points' | 'mzMin' | 'mzMax' | 'detectorUnit' | 'baseline'>, source: { externalMz?: boolean } = {}): EngineResult {
+function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineResult, 'mode' | 'points' | 'mzMin' | 'mzMax' | 'detectorUnit' | 'baseline'>, source: { externalMz?: boolean, baselineGuessed?: boolean } = {}, shared: SharedBaseline[] = []): EngineResult {
+  if (head.mode === 'sweep') weighRivals(peaks, shared, head, options.minSnr ?? 10)
   for (const [i, j] of linkChargeStates(peaks.map(p => (p.assignment ? { candidates: [], ambiguous: false, best: p.assignment } : null)))) {
     peaks[i]!.linkedPeak = j
     peaks[j]!.linkedPeak = i
@@ -220,6 +304,11 @@ function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineRe
     else if (!p.assignment) qc.push({ code: 'unassigned', peak: i, message: `Peak at m/z ${p.centroid.toFixed(4)} matches no candidate within tolerance.` })
     if (p.overlapping) qc.push({ code: 'overlapping', peak: i, message: `Peak at m/z ${p.centroid.toFixed(4)} overlaps a neighbour; its area is shared.` })
     if (head.mode === 'sweep' && p.snr < 20) qc.push({ code: 'low-signal', peak: i, message: `Peak at m/z ${p.centroid.toFixed(4)} has S/N ${p.snr.toFixed(1)} (< 20).` })
+    if (head.mode === 'sweep' && !p.fitted) qc.push({ code: 'fit-failed', peak: i, message: `Peak at m/z ${p.centroid.toFixed(4)}: no Gaussian fit converged; centroid, height and width are read from the points and their uncertainties are not estimated.` })
+  })
+  if (source.baselineGuessed) qc.push({ code: 'baseline-guessed', message: 'No point of the sweep lies clear of the peaks, so the baseline level is a guess from the lowest points and areas may be off by more than their u; send baseline regions or on-peak-zero readings.' })
+  shared.forEach((sh, i) => {
+    if (sh.windowFraction !== undefined && sh.windowFraction < 0.99) qc.push({ code: 'area-window-cut', peak: i, message: `Peak at m/z ${peaks[i]!.centroid.toFixed(4)}: the sweep's end or a neighbour cuts its area window; ${((1 - sh.windowFraction) * 100).toFixed(1)} % of the fitted shape lies outside and is added from the fit.` })
   })
   if (source.externalMz) qc.push({ code: 'external-mz', message: 'm/z was computed by the instrument\'s own software; the registered geometry and calibration were not applied.' })
   else if (!options.calibration) qc.push({ code: 'uncalibrated', message: 'No calibration applied: m/z comes from the registered geometry alone.' })
@@ -239,8 +328,18 @@ function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineRe
     // At constant resolving power a peak's width in m/z grows with m/z, so areas are taken
     // over ln(m/z) (area / m/z), which is proportional to each species' ion current.
     const perLogMz = (p: ResultPeak) => (head.mode === 'sweep' ? { area: p.area / p.centroid, areaU: p.areaU / p.centroid } : p)
-    ratios.push(ratioAndDelta(request.id, perLogMz(heavy), perLogMz(light)))
+    // Peaks of one column share its baseline level: cov(A_h, A_l) = (∂A_h/∂L)(∂A_l/∂L) u²(L)
+    // (GUM JCGM 100:2008, 5.2.2); the centroids' relative u (10^-5) is left out.
+    const hi = peaks.indexOf(heavy)
+    const li = peaks.indexOf(light)
+    const sh = shared[hi]
+    const sl = shared[li]
+    const covariance = head.mode === 'sweep' && sh && sl && sh.column === sl.column ? sh.areaPerBaseline * sl.areaPerBaseline * sh.levelVariance / (heavy.centroid * light.centroid) : 0
+    ratios.push(ratioAndDelta(request.id, perLogMz(heavy), perLogMz(light), covariance))
   }
-  const matches = options.references?.length ? rankMatches(peaks.map(p => ({ mz: p.centroid, intensity: Math.max(0, p.area) })), options.references) : []
+  // Fingerprints compare heights (normalised to the tallest peak): areas of a field sweep grow
+  // with m/z at constant resolving power, heights do not.
+  const tallest = Math.max(0, ...peaks.map(p => p.height))
+  const matches = options.references?.length ? rankMatches(peaks.map(p => ({ mz: p.centroid, intensity: tallest > 0 ? Math.max(0, p.height) / tallest : 0 })), options.references) : []
   return { engineVersion: ENGINE_VERSION, constants: CODATA_EDITION, ...head, calibrated: !!options.calibration, peaks, ratios, qc, matches }
 }

@@ -1,7 +1,7 @@
 import { KG_PER_C_TO_U_PER_E } from './constants'
 import { EngineError } from './errors'
 import type { Geometry, RawReadings } from './geometry'
-import { seededNormal } from './random'
+import { seededNormal, seededPoisson } from './random'
 import { ionMz, type Species } from './species'
 import { measuredSI } from './units'
 
@@ -29,6 +29,12 @@ export interface SimulationInput {
   fieldUnit?: 'T' | 'mT' | 'G' | 'kG'
   /** Unit the detector column is written in (default fA). */
   currentUnit?: 'A' | 'pA' | 'fA' | 'nA'
+  /**
+   * An ion counter instead of a Faraday cup: `currentA` and `baselineA` are read as count
+   * rates (cps), each point's count is a Poisson deviate of rate × dwell, and the column is
+   * written in cps (noiseA is ignored: counting is the noise).
+   */
+  counting?: { dwellS: number }
 }
 
 const FWHM_TO_SIGMA = 1 / (2 * Math.sqrt(2 * Math.LN2))
@@ -79,14 +85,22 @@ export function simulateFieldSweep(input: SimulationInput): RawReadings {
     const hi = lowerBound(mz, centre + 8 * sigma)
     for (; lo < hi; lo++) current[lo]! += s.currentA * Math.exp(-0.5 * ((mz[lo]! - centre) / sigma) ** 2)
   }
-  const noise = input.noiseA ?? 0
-  const normal = seededNormal(input.seed ?? 1)
   const detector = new Float64Array(n)
-  for (let i = 0; i < n; i++) detector[i] = (current[i]! + noise * normal()) / currentUnits[currentUnit]
+  if (input.counting) {
+    const dwell = input.counting.dwellS
+    if (!(dwell > 0)) throw new EngineError('counting.dwellS', 'not-positive', 'the dwell time must be greater than zero')
+    const poisson = seededPoisson(input.seed ?? 1)
+    for (let i = 0; i < n; i++) detector[i] = poisson(Math.max(0, current[i]!) * dwell) / dwell
+  }
+  else {
+    const noise = input.noiseA ?? 0
+    const normal = seededNormal(input.seed ?? 1)
+    for (let i = 0; i < n; i++) detector[i] = (current[i]! + noise * normal()) / currentUnits[currentUnit]
+  }
   const settings: RawReadings['settings'] = geo.kind === 'wien-sector'
     ? { plateVoltage: { value: input.plateVoltageV!, unit: 'V' }, filterField: { value: input.filterFieldT!, unit: 'T' } }
     : { acceleratingVoltage: { value: input.acceleratingVoltageV!, unit: 'V' } }
-  return { settings, sweep: { reading: 'field', values: field, unit: fieldUnit }, detectors: [{ values: detector, unit: currentUnit }] }
+  return { settings, sweep: { reading: 'field', values: field, unit: fieldUnit }, detectors: [{ values: detector, unit: input.counting ? 'cps' : currentUnit }] }
 }
 
 function lowerBound(a: Float64Array, x: number): number {

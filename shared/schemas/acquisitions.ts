@@ -41,7 +41,25 @@ export const acquisitionInput = z.object({
     mz: z.array(finiteNumber).min(2, 'a spectrum needs at least 2 points').max(MAX_POINTS),
     values: z.array(finiteNumber).min(2).max(MAX_POINTS),
   }).strict().optional(),
+  /**
+   * What the acquisition knows of its baseline: m/z ranges free of peaks, or on-peak-zero
+   * readings (beam off or deflected) per detector, in that detector's unit. Without either,
+   * the engine estimates the baseline from the points outside the peaks it finds.
+   */
+  baseline: z.object({
+    regions: z.array(z.object({
+      mzFrom: finiteNumber.positive('must be greater than zero'),
+      mzTo: finiteNumber.positive('must be greater than zero'),
+    }).strict().refine(r => r.mzTo > r.mzFrom, { message: 'mzTo must be greater than mzFrom', path: ['mzTo'] })).min(1).max(32).optional(),
+    zero: z.array(z.object({
+      collector: z.string().max(32).optional(),
+      unit: z.string({ error: 'is required' }).min(1).max(16),
+      values: z.array(finiteNumber).min(1, 'needs at least one reading').max(100_000),
+    }).strict()).min(1).max(32).optional(),
+  }).strict().optional(),
   processing: z.object({
+    /** Species this instrument measures (labels, or element symbols): other candidates are not considered. */
+    measuredSpecies: z.array(z.string().min(1).max(64)).max(100).optional(),
     tolerancePpm: z.number().positive().max(10_000).optional(),
     isotopes: z.boolean().optional(),
     maxCharge: z.number().int().min(1).max(3).optional(),
@@ -58,6 +76,13 @@ export const acquisitionInput = z.object({
     if (v.mzSpectrum.values.length !== v.mzSpectrum.mz.length) ctx.addIssue({ code: 'custom', path: ['mzSpectrum', 'values'], message: `has ${v.mzSpectrum.values.length} points, mz has ${v.mzSpectrum.mz.length}` })
   }
   else if (!v.detectors.length) ctx.addIssue({ code: 'custom', path: ['detectors'], message: 'at least one detector column is required' })
+  if (v.baseline?.zero && v.baseline.zero.length > 1) {
+    const collectors = new Set(v.detectors.map((d, i) => d.collector ?? String(i)))
+    v.baseline.zero.forEach((z, i) => {
+      if (!z.collector) ctx.addIssue({ code: 'custom', path: ['baseline', 'zero', i, 'collector'], message: 'is required when several zero columns are given' })
+      else if (!collectors.has(z.collector)) ctx.addIssue({ code: 'custom', path: ['baseline', 'zero', i, 'collector'], message: `no detector column has collector "${z.collector}"` })
+    })
+  }
   const n = v.sweep?.values.length
   v.detectors.forEach((d, i) => {
     if (n !== undefined && d.values.length !== n) {

@@ -9,22 +9,44 @@ const candidate = z.object({
   mz: z.number(), neutralMass: z.number(), errorMz: z.number(), errorPpm: z.number(),
 }).strict()
 
+const notEstimated = (what: string) => z.number().nullable().describe(`${what}; null: not estimated (no converged fit, or a static reading with no profile)`)
+
 export const resultPeak = z.object({
   collector: z.string(),
-  centroid: z.number().describe('m/z (u per elementary charge), intensity-weighted over the points above half maximum'),
-  centroidU: z.number().describe('standard uncertainty of the centroid from the registered geometry (GUM first order)'),
-  height: z.number(), area: z.number(), areaU: z.number(),
-  fwhm: z.number(), snr: z.number(), resolvingPower: z.number().describe('m/Δm with Δm the FWHM'),
+  centroid: z.number().describe('m/z (u per elementary charge): centre of a weighted least-squares Gaussian fit near the apex'),
+  centroidU: z.number().describe('standard uncertainty of the centroid: the fit (noise) and the registered geometry in quadrature (GUM first order)'),
+  centroidUFit: notEstimated('the fit\'s share of the centroid\'s standard uncertainty'),
+  height: z.number().describe('fitted height above the baseline, in the detector unit (A or cps)'),
+  heightU: notEstimated('standard uncertainty of the height, including the baseline level\'s'),
+  area: z.number().describe('area above the baseline (signal · m/z) over ±4 fitted σ, divided by the Gaussian share of that window'),
+  areaU: z.number().describe('standard uncertainty of the area: each point\'s noise through trapezoid weights shared by neighbours, Poisson variance for counts, and the baseline level\'s uncertainty'),
+  fwhm: z.number().describe('full width at half maximum in m/z, from the fitted σ'),
+  fwhmU: notEstimated('standard uncertainty of the FWHM'),
+  snr: z.number().describe('height over the noise σ (at the baseline; for counted data, at the apex)'),
+  resolvingPower: z.number().describe('m/Δm with Δm the FWHM'),
+  resolvingPowerU: notEstimated('standard uncertainty of m/Δm (FWHM)'),
+  resolvingPower10Valley: notEstimated('m/Δm in the 10 % valley definition: Δm the full width at 5 % of the height'),
+  resolvingPower10ValleyU: notEstimated('standard uncertainty of the 10 % valley resolving power'),
+  fitted: z.boolean().describe('false: no Gaussian fit converged; centroid and width read from the points, their uncertainties not estimated'),
   overlapping: z.boolean(),
-  assignment: candidate.extend({ impliedNeutralMass: z.number() }).nullable(),
-  ambiguous: z.boolean().describe('two or more candidates closer than the instrument resolves: left unassigned'),
+  assignment: candidate.extend({
+    impliedNeutralMass: z.number(),
+    impliedNeutralMassU: z.number().describe('standard uncertainty of the implied neutral mass: z · u(m/z)'),
+  }).nullable(),
+  ambiguous: z.boolean().describe('another candidate line closer than the instrument resolves, whose expected signal is not below the noise: left unassigned'),
   candidates: z.array(candidate),
   linkedPeak: z.number().int().nullable().describe('index of the peak with the other charge state (z=1 ↔ z=2) of the same species'),
 }).strict()
 
 export const ratioResult = z.object({
-  id: z.string(), numerator: z.string(), denominator: z.string(), ratio: z.number(), ratioU: z.number(),
-  standard: z.string(), deltaName: z.string(), deltaPermil: z.number(), deltaU: z.number(),
+  id: z.string(), numerator: z.string(), denominator: z.string(), ratio: z.number(),
+  ratioU: z.number().describe('standard uncertainty of the ratio, with the covariance of two areas that share one baseline'),
+  standard: z.string(), deltaName: z.string(), deltaPermil: z.number(),
+  deltaU: z.number().describe('standard uncertainty of δ from the measured ratio alone'),
+  referenceRatio: z.number().describe('the standard\'s accepted ratio'),
+  referenceRatioU: z.number().describe('its standard uncertainty as published'),
+  referenceSource: z.string().describe('where the accepted ratio is published'),
+  deltaUWithReference: z.number().describe('u(δ) with the accepted ratio\'s own uncertainty added'),
 }).strict()
 
 export const qcFlag = z.object({ code: z.string(), message: z.string(), peak: z.number().int().optional() }).strict()
@@ -35,7 +57,12 @@ export const engineResultView = z.object({
   points: z.number().int(),
   mzRange: z.tuple([z.number(), z.number()]),
   detectorUnit: z.enum(['A', 'cps']),
-  baseline: z.object({ level: z.number(), noise: z.number() }).strict().nullable(),
+  baseline: z.object({
+    level: z.number(), levelU: z.number().describe('standard uncertainty of the baseline level'), noise: z.number(),
+    source: z.enum(['estimated', 'regions', 'zero']).describe('estimated from the points outside the peaks, the acquisition\'s baseline regions, or its on-peak-zero readings'),
+    noiseModel: z.enum(['gaussian', 'poisson']), dwellS: z.number().nullable().describe('dwell time per point of counted data, from the count quantum'),
+    points: z.number().int().describe('points the level was taken from'),
+  }).strict().nullable(),
   calibrated: z.boolean(),
   peaks: z.array(resultPeak),
   ratios: z.array(ratioResult),

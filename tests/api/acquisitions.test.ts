@@ -29,13 +29,31 @@ describe('POST /api/v1/acquisitions', () => {
     expect(r.ratios[0]).toMatchObject({ deltaName: 'δ13C', standard: 'VPDB' })
     expect(r.ratios[0].deltaPermil).toBeCloseTo(-10, 0)
     expect(r.ratios[0].deltaU).toBeGreaterThan(0)
-    expect(r.versions).toEqual({ engine: '1.0.0', constants: 'CODATA 2018', geometry: 1, calibration: null })
+    expect(r.versions).toEqual({ engine: '1.1.0', constants: 'CODATA 2018', geometry: 1, calibration: null })
     expect(r.qc.map((q: any) => q.code)).toContain('uncalibrated')
     expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
     const [peakRows] = await sql<[{ n: number }]>`select count(*)::int as n from peaks where lab_id = ${lab.id}`
     expect(peakRows.n).toBe(r.peaks.length)
     const [event] = await sql`select sequence::int as sequence, type from events where lab_id = ${lab.id}`
     expect(event).toEqual({ sequence: 1, type: 'result.created' })
+  })
+
+  it('takes on-peak-zero readings or baseline regions, and every peak number comes with its uncertainty', async () => {
+    const { key } = await labWithInstrument()
+    const body = co2Acquisition()
+    const zero = await post(key.secret, { ...body, baseline: { zero: [{ unit: 'fA', values: [5.1, 4.9, 5.0, 5.2, 4.8] }] } })
+    expect(zero.status, JSON.stringify(zero.body).slice(0, 300)).toBe(201)
+    acquisitionView.parse(zero.body)
+    expect(zero.body.result.baseline).toMatchObject({ source: 'zero', points: 5, noiseModel: 'gaussian' })
+    expect(zero.body.result.baseline.level).toBeCloseTo(5e-15, 17)
+    const regions = await post(key.secret, { ...co2Acquisition(), baseline: { regions: [{ mzFrom: 43, mzTo: 43.8 }, { mzFrom: 45.2, mzTo: 46.5 }] } })
+    expect(regions.body.result.baseline.source).toBe('regions')
+    const co2 = regions.body.result.peaks.find((p: any) => p.assignment?.species === 'CO2')
+    for (const field of ['centroidU', 'heightU', 'areaU', 'fwhmU', 'resolvingPowerU', 'resolvingPower10ValleyU']) expect(co2[field], field).toBeGreaterThan(0)
+    expect(co2.assignment.impliedNeutralMassU).toBeGreaterThan(0)
+    // A Gaussian's 10 % valley resolving power is m/FWHM / 2.079 (width at 5 % height).
+    expect(co2.resolvingPower / co2.resolvingPower10Valley).toBeCloseTo(2.079, 2)
+    expect(regions.body.result.ratios[0]).toMatchObject({ referenceRatio: 0.0111802, referenceRatioU: 0.0000028 })
   })
 
   it('uses the geometry version valid at acquiredAt', async () => {
@@ -140,6 +158,9 @@ describe('POST /api/v1/acquisitions', () => {
     ['an attempt to set labId', (b: any) => ({ ...b, labId: '7f1c9a52-0c1e-4b8e-9a4e-2f0d3c1b5a61' }), ''],
     ['an attempt to set status', (b: any) => ({ ...b, status: 'processed' }), ''],
     ['an unknown instrument', (b: any) => ({ ...b, instrument: 'not-ours' }), 'instrument'],
+    ['a baseline region that ends before it starts', (b: any) => ({ ...b, baseline: { regions: [{ mzFrom: 46, mzTo: 45 }] } }), 'baseline.regions.0.mzTo'],
+    ['baseline regions that hold no point of the sweep', (b: any) => ({ ...b, baseline: { regions: [{ mzFrom: 100, mzTo: 101 }] } }), 'baseline.regions'],
+    ['zero readings in a unit of another kind', (b: any) => ({ ...b, baseline: { zero: [{ unit: 'cps', values: [1, 2] }] } }), 'baseline.zero.0.unit'],
   ])('refuses %s naming the field, and stores nothing', async (_what, spoil, path) => {
     const { key, lab, sql } = await labWithInstrument()
     const res = await post(key.secret, spoil(co2Acquisition()))

@@ -67,6 +67,12 @@ describe('a lab manager\'s main flow in the console', () => {
     await page.locator('.aw-chart canvas').first().waitFor()
     const peakTable = page.getByRole('table', { name: 'Picked peaks with their assignments' })
     await expect.poll(async () => (await peakTable.locator('tbody tr td:nth-child(4) > span:first-child').allTextContents()).map(t => t.trim())).toEqual(species)
+    // Both resolving powers, labelled, and each peak number with its uncertainty.
+    const headers = (await peakTable.locator('thead th').allTextContents()).map(t => t.trim())
+    expect(headers).toEqual(expect.arrayContaining(['R, FWHM', 'R, 10 % valley', 'Height (± u)', 'FWHM (± u)']))
+    const co2Row = peakTable.locator('tbody tr').nth(2)
+    for (const column of [3, 6, 7, 8, 9, 10]) expect(await co2Row.locator(`td:nth-child(${column})`).textContent()).toMatch(/\d ± \d/)
+    expect(await co2Row.locator('td:nth-child(4)').textContent()).toMatch(/neutral mass 43\.98\d+ ± /)
     expect(await page.getByRole('complementary', { name: 'Caution' }).textContent()).toContain('quality system')
     expect(await page.getByRole('region', { name: 'Isotope ratios and δ-values' }).textContent()).toContain('δ13C')
     await shot(page, 'flow-04-acquisition')
