@@ -1,4 +1,5 @@
 import { EngineError } from './errors'
+import type { CycleStatistics } from './static'
 import { propagate } from './uncertainty'
 
 // Reference materials and their accepted isotope ratios. Values from memory of the cited
@@ -31,6 +32,8 @@ export interface RatioResult {
   /** δ in per mil against the standard, with its standard uncertainty. */
   deltaPermil: number
   deltaU: number
+  /** Static readings: the cycle statistics the ratio comes from. */
+  cycles?: CycleStatistics
 }
 
 /**
