@@ -23,7 +23,7 @@ export interface SimCup {
   /** True mean signal relative to the first cup's (the ratio to the light isotope). */
   relative: number
   detector:
-    | { type: 'faraday', resistorOhm: number, offsetA: number, readAs?: 'A' | 'V' }
+    | { type: 'faraday', resistorOhm: number, offsetA: number, readAs?: 'A' | 'V', /** True relative gain of the cup's amplifier: V = I·R·g. */ gain?: number }
     | { type: 'ion-counter', deadTimeS: number, model: 'non-paralysable' | 'paralysable', darkCps?: number }
 }
 
@@ -83,7 +83,7 @@ export function simulateStatic(sim: StaticSimulation): SimulatedStatic {
       const baseline: number[] = []
       if (d.type === 'faraday') {
         const johnson = Math.sqrt(2 * BOLTZMANN_J_PER_K * T / (d.resistorOhm * t))
-        const read = (currentA: number) => (d.readAs === 'V' ? currentA * d.resistorOhm : currentA)
+        const read = (currentA: number) => (d.readAs === 'V' ? currentA * d.resistorOhm * (d.gain ?? 1) : currentA)
         for (let i = 0; i < sim.cycles; i++) {
           let I = sim.lightSignal * cup.relative * beam[i]!
           if (sim.spikeRate && uniform() < sim.spikeRate) I *= 1 + (sim.spikeSize ?? 0.05)
