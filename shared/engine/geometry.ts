@@ -58,7 +58,15 @@ export interface RawReadings {
   /** The swept reading, absent for static (peak-jumping) readings. */
   sweep?: { reading: 'field' | 'acceleratingVoltage', values: ArrayLike<number>, unit: string, u?: number }
   /** One detector column per collector (a single-collector instrument has one). */
-  detectors: { collector?: string, values: ArrayLike<number>, unit: string }[]
+  detectors: {
+    collector?: string
+    values: ArrayLike<number>
+    unit: string
+    /** Dwell time per point, for raw counts. */
+    dwell?: { value: number, unit: string }
+    /** On-peak-zero or off-peak readings in the column's unit (static: one per cycle, or a block). */
+    baseline?: ArrayLike<number>
+  }[]
 }
 
 function setting(readings: RawReadings, name: string, quantity: 'field' | 'voltage'): { value: number, u: number } {

@@ -26,6 +26,9 @@ export const calibrationInput = z.object({
     measuredMz: z.number().positive(),
     referenceMz: z.number().positive(),
     label: z.string().max(40).optional(),
+    /** Standard uncertainties (m/z): given for every point, the fit is weighted by 1/u². */
+    measuredU: z.number().min(0).finite().optional(),
+    referenceU: z.number().min(0).finite().optional(),
   }).strict()).min(1).max(200),
   validFrom: z.coerce.date({ error: 'must be a date and time' }),
 }).strict()
