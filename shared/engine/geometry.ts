@@ -94,6 +94,14 @@ export interface MzColumn {
 }
 
 /**
+ * m/z = c·B² − k over a field sweep. A function of its own so that c and k are locals of the
+ * loop, not slots of the closure context that `relU` captures (V8 reloads those each turn).
+ */
+function fieldSweepLoop(values: ArrayLike<number>, out: Float64Array, c: number, k: number) {
+  for (let i = 0; i < out.length; i++) { const b = values[i]; if (typeof b !== 'number' || b - b !== 0) notFinite(i, b); out[i] = c * b * b - k }
+}
+
+/**
  * Converts the swept reading to m/z for a collector of radius `radius` (SI). The factor in
  * front of each point's formula is computed once; the relativistic correction costs one
  * subtraction per point (field sweep) or is part of the factor (Wien filter).
@@ -132,7 +140,7 @@ export function sweepToMz(geo: Geometry, readings: RawReadings, collectorRadius?
     // m/z = ((r B)² / (2U) − U/(2c²)) · e/m_u
     const c = r.value * r.value / (2 * U.value) * K * unitFactor * unitFactor
     const k = physics.relativistic ? U.value / (2 * c2) * K : 0
-    for (let i = 0; i < n; i++) { const b = values[i]; if (typeof b !== 'number' || b - b !== 0) notFinite(i, b); out[i] = c * b * b - k }
+    fieldSweepLoop(values, out, c, k)
     // GUM 5.1.2 with mz₀ = c b² (the non-relativistic part): ∂mz/∂r = 2mz₀/r, ∂mz/∂B = 2mz₀/B,
     // ∂mz/∂U = −(mz₀ + k)/U.
     const rr = r.u / r.value

@@ -113,8 +113,11 @@ describe('POST /api/v1/acquisitions', () => {
     const after = await post(key.secret, { ...co2Acquisition(), acquiredAt: '2026-11-30T00:00:00Z' })
     expect(before.body.result.versions.geometry).toBe(1)
     expect(after.body.result.versions.geometry).toBe(2)
-    // m/z ∝ r²: the larger radius reads (27.5/27)² higher.
-    expect(after.body.result.mzRange[0] / before.body.result.mzRange[0]).toBeCloseTo((27.5 / 27) ** 2, 9)
+    // m/z + U/2c²·e/m_u ∝ r² (the exact relation, Jackson 1999 §12.1): the larger radius reads (27.5/27)² higher.
+    // e exact; c exact; m_u CODATA 2022 (Mohr et al., Rev. Mod. Phys. 97 (2025) 025002).
+    const k = 3000 / (2 * 299792458 ** 2) * 1.602176634e-19 / 1.66053906892e-27
+    const m1 = before.body.result.mzRange[0]
+    expect(after.body.result.mzRange[0] / m1).toBeCloseTo(((27.5 / 27) ** 2 * (m1 + k) - k) / m1, 12)
     const early = await post(key.secret, { ...co2Acquisition(), acquiredAt: '2025-06-01T00:00:00Z' })
     expect(early.status).toBe(422)
     expect(early.body.errors[0].path).toBe('acquiredAt')
