@@ -76,10 +76,14 @@ export async function addGeometryVersion(event: H3Event, actor: SessionUser, lab
 
 /** Fits a calibration with the engine and stores it as the next version; a refused fit is a 422 naming why. */
 export async function addCalibration(event: H3Event, actor: SessionUser, labId: string, instrumentId: string, input: z.output<typeof calibrationInput>) {
-  await getInstrument(labId, instrumentId)
-  // Bound to the geometry version in force when it becomes valid: its reference peaks were measured under it.
-  const geo = await geometryAt(instrumentId, input.validFrom)
-  if (!geo) throw fieldProblem('validFrom', 'is before the instrument\'s first geometry version')
+  const instrument = await getInstrument(labId, instrumentId)
+  // Bound to the geometry version its reference peaks were measured under: the one named, or
+  // the one in force when it becomes valid, or (valid before any) the first.
+  const versions = instrument.geometryVersions
+  const geo = input.geometryVersion !== undefined
+    ? versions.find(v => v.version === input.geometryVersion)
+    : (await geometryAt(instrumentId, input.validFrom)) ?? versions.at(-1)
+  if (!geo) throw fieldProblem('geometryVersion', 'this instrument has no such geometry version')
   let fit
   try { fit = fitCalibration(input.points, input.degree, geo.version) }
   catch (error) { engineProblem(error) }

@@ -130,6 +130,9 @@ describe('acquisitions in the console', () => {
     const [{ n: before }] = await sql<[{ n: number }]>`select count(*)::int as n from calibrations where instrument_id = ${instrument.id}`
     expect(before).toBe(0)
 
+    const noSuchGeometry = await admin.post(base, { degree: 1, points: preview.body.points, validFrom: '2026-11-30T12:00:00Z', geometryVersion: 9 })
+    expect(noSuchGeometry.status).toBe(422)
+    expect(noSuchGeometry.body.errors[0].path).toBe('geometryVersion')
     const saved = await admin.post(base, { degree: 1, points: preview.body.points, validFrom: '2026-11-30T12:00:00Z' })
     expect(saved.status).toBe(201)
     const later = await postWithKey(key.secret, { ...co2Acquisition(unique('after-cal'), 2000), acquiredAt: '2026-11-30T13:00:00Z' })
