@@ -1,13 +1,23 @@
+import type { DetectorSpec } from '#shared/engine/detectors'
 import type { Geometry, GeometryKind } from '#shared/engine/geometry'
 
 type LengthDraft = { value: number | null, unit: string, u: number | null }
+/** A collector's detector being typed in (undefined: none registered). */
+export type DetectorDraft =
+  | { type: 'faraday', resistor: LengthDraft, gain: { value: number | null, u: number | null, calibratedOn?: string } }
+  | { type: 'ion-counter', deadTime: LengthDraft, model: 'non-paralysable' | 'paralysable' }
 /** A geometry being typed in: numbers may still be empty. zod checks it before it is sent. */
 export type GeometryDraft =
-  | { kind: 'potential-sector', analyzerRadius: LengthDraft }
-  | { kind: 'wien-sector', analyzerRadius: LengthDraft, plateGap: LengthDraft }
-  | { kind: 'multi-collector', collectors: { id: string, effectiveRadius: LengthDraft }[] }
+  | { kind: 'potential-sector', analyzerRadius: LengthDraft, detector?: DetectorDraft }
+  | { kind: 'wien-sector', analyzerRadius: LengthDraft, plateGap: LengthDraft, detector?: DetectorDraft }
+  | { kind: 'multi-collector', collectors: { id: string, effectiveRadius: LengthDraft, detector?: DetectorDraft }[] }
 
 export const emptyLength = (): LengthDraft => ({ value: null, unit: 'cm', u: 0 })
+
+export function emptyDetector(type: DetectorDraft['type']): DetectorDraft {
+  if (type === 'faraday') return { type, resistor: { value: null, unit: 'GΩ', u: 0 }, gain: { value: 1, u: 0 } }
+  return { type, deadTime: { value: null, unit: 'ns', u: 0 }, model: 'non-paralysable' }
+}
 
 export function emptyGeometry(kind: GeometryKind): GeometryDraft {
   if (kind === 'wien-sector') return { kind, analyzerRadius: emptyLength(), plateGap: { value: null, unit: 'mm', u: 0 } }
@@ -20,10 +30,19 @@ export function draftOf(g: Geometry): GeometryDraft {
   return JSON.parse(JSON.stringify(g)) as GeometryDraft
 }
 
+type Measured = { value: number, unit: string, u: number }
+const m = (x: Measured) => `${x.value}${x.u ? ` ± ${x.u}` : ''} ${x.unit}`
+
+/** A registered detector in words. */
+export function describeDetector(d: DetectorSpec | undefined): string {
+  if (!d) return ''
+  if (d.type === 'faraday') return ` (Faraday, R ${m(d.resistor)}${d.gain.value !== 1 || d.gain.u ? `, gain ${d.gain.value}${d.gain.u ? ` ± ${d.gain.u}` : ''}${d.gain.calibratedOn ? ` of ${d.gain.calibratedOn}` : ''}` : ''})`
+  return ` (ion counter, τ ${m(d.deadTime)}, ${d.model})`
+}
+
 /** A geometry in words: what a history row shows. */
 export function describeGeometry(g: Geometry): string {
-  const m = (x: { value: number, unit: string, u: number }) => `${x.value}${x.u ? ` ± ${x.u}` : ''} ${x.unit}`
-  if (g.kind === 'potential-sector') return `analyzer radius ${m(g.analyzerRadius)}`
-  if (g.kind === 'wien-sector') return `analyzer radius ${m(g.analyzerRadius)}, plate gap ${m(g.plateGap)}`
-  return g.collectors.map(c => `${c.id}: ${m(c.effectiveRadius)}`).join(', ')
+  if (g.kind === 'potential-sector') return `analyzer radius ${m(g.analyzerRadius)}${describeDetector(g.detector)}`
+  if (g.kind === 'wien-sector') return `analyzer radius ${m(g.analyzerRadius)}, plate gap ${m(g.plateGap)}${describeDetector(g.detector)}`
+  return g.collectors.map(c => `${c.id}: ${m(c.effectiveRadius)}${describeDetector(c.detector)}`).join(', ')
 }

@@ -1,6 +1,6 @@
 import { createHash, randomUUID } from 'node:crypto'
 import { and, eq, getTableColumns } from 'drizzle-orm'
-import { geometry as geometrySchema, processMzSpectrum, processReadings, type EngineResult, type RawReadings } from '#shared/engine'
+import { geometry as geometrySchema, processMzSpectrum, processReadings, type AppliedCalibration, type EngineResult, type RawReadings } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import { acquisitions, results } from '../database/schema'
 import type { LabKey } from './apiKeys'
@@ -50,6 +50,11 @@ export function resultView(acq: AcquisitionHead, res: typeof results.$inferSelec
       detectorUnit: summary.detectorUnit,
       baseline: summary.baseline,
       calibrated: summary.calibrated,
+      // Results of engine 1 carry none of these: say so rather than invent them.
+      calibration: summary.calibration ?? null,
+      physics: summary.physics ?? { relativistic: false, compatibility: '1.x' as const },
+      detectors: summary.detectors ?? [],
+      cycles: summary.cycles ?? null,
       peaks: summary.peaks,
       ratios: summary.ratios,
       qc: summary.qc,
@@ -102,7 +107,9 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
       ratios: input.processing?.ratios,
       measuredSpecies: input.processing?.measuredSpecies,
       baseline: input.baseline,
-      calibration: calibration ? calibration.fit as { center: number, halfRange: number, coefficients: number[] } : null,
+      calibration: calibration ? { ...calibration.fit as unknown as AppliedCalibration, geometryVersion: calibration.geometryVersion } : null,
+      geometryVersion: geo.version,
+      compatibility: input.processing?.engine,
     }
     engine = input.mzSpectrum
       ? processMzSpectrum(input.mzSpectrum.mz, input.mzSpectrum.values, input.mzSpectrum.unit, options)
@@ -110,13 +117,15 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
   }
   catch (error) { engineProblem(error) }
 
-  const summary = { ...engine, geometryVersion: geo.version, calibrationVersion: calibration?.version ?? null }
+  // A retired calibration (fitted under another geometry version) was not applied: the result does not cite it.
+  const applied = engine.calibration.state === 'applied' ? calibration : null
+  const summary = { ...engine, geometryVersion: geo.version, calibrationVersion: applied?.version ?? null }
   const acq: AcquisitionHead = {
     id: randomUUID(), labId: key.labId, instrumentId: instrument.id, externalId: input.runId, acquiredAt, sampleRef: input.sampleRef ?? null,
     status: 'processed', bodyHash: hash, pointCount: engine.points, createdAt: new Date(),
   }
   const res: typeof results.$inferSelect = {
-    id: randomUUID(), acquisitionId: acq.id, labId: key.labId, geometryVersionId: geo.id, calibrationId: calibration?.id ?? null,
+    id: randomUUID(), acquisitionId: acq.id, labId: key.labId, geometryVersionId: geo.id, calibrationId: applied?.id ?? null,
     engineVersion: engine.engineVersion, summary: summary as unknown as Record<string, unknown>, supersededBy: null, createdAt: acq.createdAt,
   }
   const view = resultView(acq, res, instrument.slug)

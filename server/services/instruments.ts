@@ -20,7 +20,20 @@ export async function getInstrument(labId: string, id: string) {
   if (!row) throw problem(404, 'instrument-not-found', 'No such instrument in this lab.')
   const versions = await db.select().from(geometryVersions).where(eq(geometryVersions.instrumentId, id)).orderBy(desc(geometryVersions.version))
   const cals = await db.select().from(calibrations).where(eq(calibrations.instrumentId, id)).orderBy(desc(calibrations.version))
-  return { ...row, geometryVersions: versions, calibrations: cals }
+  // A calibration belongs to the geometry version it was fitted under (stored in its fit;
+  // for fits from before engine 2, the version in force at its validFrom). Once another
+  // geometry version is in force, it is retired: ingest does not apply it.
+  const now = new Date()
+  const inForce = versions.filter(v => v.validFrom <= now).sort((a, b) => b.validFrom.getTime() - a.validFrom.getTime() || b.version - a.version)[0]
+  const versionAt = (at: Date) => versions.filter(v => v.validFrom <= at).sort((a, b) => b.validFrom.getTime() - a.validFrom.getTime() || b.version - a.version)[0]?.version ?? null
+  return {
+    ...row,
+    geometryVersions: versions,
+    calibrations: cals.map((c) => {
+      const geometryVersion = (c.fit as { geometryVersion?: number | null }).geometryVersion ?? versionAt(c.validFrom)
+      return { ...c, geometryVersion, retired: !!inForce && geometryVersion !== inForce.version }
+    }),
+  }
 }
 
 export async function createInstrument(event: H3Event, actor: SessionUser, labId: string, input: InstrumentInput) {
@@ -63,9 +76,16 @@ export async function addGeometryVersion(event: H3Event, actor: SessionUser, lab
 
 /** Fits a calibration with the engine and stores it as the next version; a refused fit is a 422 naming why. */
 export async function addCalibration(event: H3Event, actor: SessionUser, labId: string, instrumentId: string, input: z.output<typeof calibrationInput>) {
-  await getInstrument(labId, instrumentId)
+  const instrument = await getInstrument(labId, instrumentId)
+  // Bound to the geometry version its reference peaks were measured under: the one named, or
+  // the one in force when it becomes valid, or (valid before any) the first.
+  const versions = instrument.geometryVersions
+  const geo = input.geometryVersion !== undefined
+    ? versions.find(v => v.version === input.geometryVersion)
+    : (await geometryAt(instrumentId, input.validFrom)) ?? versions.at(-1)
+  if (!geo) throw fieldProblem('geometryVersion', 'this instrument has no such geometry version')
   let fit
-  try { fit = fitCalibration(input.points, input.degree) }
+  try { fit = fitCalibration(input.points, input.degree, geo.version) }
   catch (error) { engineProblem(error) }
   return useDb().transaction(async (tx) => {
     const [last] = await tx.select({ version: calibrations.version }).from(calibrations)
@@ -95,11 +115,14 @@ export async function calibrationFromReference(labId: string, instrumentId: stri
   try {
     const engine = processReadings(geometrySchema.parse(geo.params), { settings: payload.settings, sweep: payload.sweep, detectors: payload.detectors }, {
       tolerance: { ppm: input.tolerancePpm }, formulas: payload.processing?.formulas, isotopes: payload.processing?.isotopes, maxCharge: payload.processing?.maxCharge, calibration: null,
+      compatibility: payload.processing?.engine,
     })
     const points = engine.peaks.filter(p => p.assignment && !p.ambiguous).map(p => ({
       measuredMz: p.centroid, referenceMz: p.assignment!.mz, label: p.assignment!.z > 1 ? `${p.assignment!.species} (z=${p.assignment!.z})` : p.assignment!.species,
     }))
-    return { acquisitionId: input.acquisitionId, runId: row.runId, geometryVersion: geo.version, points, fit: fitCalibration(points, input.degree) }
+    // Unweighted: the centroid uncertainty the engine reports here is the geometry's, common
+    // to every peak, not each peak's own scatter; it would weight the points by m/z only.
+    return { acquisitionId: input.acquisitionId, runId: row.runId, geometryVersion: geo.version, points, fit: fitCalibration(points, input.degree, geo.version) }
   }
   catch (error) { engineProblem(error, 'reference.') }
 }
@@ -108,7 +131,8 @@ export interface InstrumentContext {
   id: string
   slug: string
   geometry: { id: string, version: number, params: Record<string, unknown> } | null
-  calibration: { id: string, version: number, fit: Record<string, unknown> } | null
+  /** The latest calibration valid at the time, with the geometry version it was fitted under. */
+  calibration: { id: string, version: number, fit: Record<string, unknown>, geometryVersion: number | null } | null
   runSeen: boolean
 }
 
@@ -120,7 +144,9 @@ const lookUpTogether = batchPerTurn<ContextQuery, InstrumentContext | undefined>
     select q.ord, i.id, i.slug,
       (select json_build_object('id', g.id, 'version', g.version, 'params', g.params) from ${geometryVersions} g
         where g.instrument_id = i.id and g.valid_from <= q.at order by g.valid_from desc, g.version desc limit 1) as geometry,
-      (select json_build_object('id', c.id, 'version', c.version, 'fit', c.fit) from ${calibrations} c
+      (select json_build_object('id', c.id, 'version', c.version, 'fit', c.fit, 'geometryVersion', coalesce((c.fit->>'geometryVersion')::int,
+          (select g2.version from ${geometryVersions} g2 where g2.instrument_id = i.id and g2.valid_from <= c.valid_from order by g2.valid_from desc, g2.version desc limit 1)))
+        from ${calibrations} c
         where c.instrument_id = i.id and c.valid_from <= q.at order by c.valid_from desc, c.version desc limit 1) as calibration,
       exists (select 1 from ${acquisitions} a where a.lab_id = q.lab_id and a.external_id = q.run_id) as run_seen
     from jsonb_to_recordset(${JSON.stringify(queries.map((q, ord) => ({ ord, lab_id: q.labId, slug: q.slug, at: q.at, run_id: q.runId })))}::jsonb)

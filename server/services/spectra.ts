@@ -1,5 +1,5 @@
 import { and, eq } from 'drizzle-orm'
-import { applyCalibrationColumn, geometry as geometrySchema, staticCollectorMz, sweepToMz, siFactor, detectorQuantity } from '#shared/engine'
+import { applyCalibrationColumn, collectorDetector, detectorParams, detectorSignal, geometry as geometrySchema, physicsFor, staticCollectorMz, staticColumn, sweepToMz } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import { acquisitions, calibrations, geometryVersions, instruments, labs, results } from '../database/schema'
 
@@ -18,29 +18,38 @@ export async function spectrumOf(labId: string, id: string): Promise<Spectrum> {
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
   const input = row.acq.payload as unknown as AcquisitionInput
   const geo = geometrySchema.parse(row.geo.params)
-  // The signal's unit is the m/z spectrum's, or the first detector's.
-  const signalUnit = input.mzSpectrum?.unit ?? input.detectors[0]!.unit
-  const quantity = detectorQuantity(signalUnit, 'unit')
-  const factor = siFactor(quantity, signalUnit, 'unit')
+  // Each column through the detector registered for its collector (volts through the
+  // resistor, counts over the dwell, dead time), with the physics the result was computed with.
+  const physics = physicsFor(input.processing?.engine)
+  const params = (collector: string | undefined) => detectorParams(collectorDetector(geo, collector), 'geometry.detector')
   let mz: Float64Array
   let signal: Float64Array
+  let unit: 'A' | 'cps'
   if (input.mzSpectrum) {
     // m/z as the instrument's software gave it: neither geometry nor calibration applies.
     mz = Float64Array.from(input.mzSpectrum.mz)
-    signal = Float64Array.from(input.mzSpectrum.values, v => v * factor)
+    const s = detectorSignal(params(undefined), { unit: input.mzSpectrum.unit, values: input.mzSpectrum.values }, 'mzSpectrum')
+    signal = s.values
+    unit = s.unit
   }
   else if (input.sweep) {
-    mz = sweepToMz(geo, { settings: input.settings, sweep: input.sweep, detectors: input.detectors }).mz
-    signal = Float64Array.from(input.detectors[0]!.values, v => v * factor)
+    mz = sweepToMz(geo, { settings: input.settings, sweep: input.sweep, detectors: input.detectors }, undefined, physics).mz
+    const d = input.detectors[0]!
+    const s = detectorSignal(params(d.collector), d, 'detectors[0]')
+    signal = s.values
+    unit = s.unit
   }
   else {
-    const positions = staticCollectorMz(geo, { settings: input.settings, detectors: input.detectors })
+    const positions = staticCollectorMz(geo, { settings: input.settings, detectors: input.detectors }, physics)
     mz = Float64Array.from(input.detectors, (d, k) => (positions.find(p => p.collector === d.collector) ?? positions[k])!.mz)
-    signal = Float64Array.from(input.detectors, d => d.values.reduce((a, b) => a + b, 0) / d.values.length * factor)
+    const columns = input.detectors.map((d, k) => staticColumn(params(d.collector), d, `detectors[${k}]`))
+    signal = Float64Array.from(columns, c => c.mean)
+    unit = columns[0]!.unit
   }
+  // The calibration the result applied (a retired one is not recorded on the result, so not joined here).
   if (row.cal && !input.mzSpectrum) applyCalibrationColumn(row.cal.fit as { center: number, halfRange: number, coefficients: number[] }, mz)
   if (mz.length > 1 && mz[1]! < mz[0]!) { mz.reverse(); signal.reverse() }
-  return { runId: row.acq.externalId, lab: row.lab, instrument: row.slug, acquiredAt: row.acq.acquiredAt, mz, signal, unit: quantity === 'current' ? 'A' : 'cps' }
+  return { runId: row.acq.externalId, lab: row.lab, instrument: row.slug, acquiredAt: row.acq.acquiredAt, mz, signal, unit }
 }
 
 export function spectrumCsv(s: Spectrum): string {

@@ -1,13 +1,20 @@
 import { z } from 'zod'
-import { KG_PER_C_TO_U_PER_E } from './constants'
+import { kgPerCToUPerE, PHYSICS_2X, type Physics } from './constants'
+import { detectorSpec } from './detectors'
 import { EngineError, assertPositive } from './errors'
 import { measured, measuredSI, siFactor, type Measured } from './units'
 
 // The instrument geometries Arcwise knows, each with its registered parameters and their
-// standard uncertainties. Relations (DESIGN.md, "Physics"):
-//  - accelerating-potential sector: qU = mv²/2 and r = mv/(qB)  =>  m/q = (rB)² / (2U)
-//  - Wien filter before the sector: E = V/d, v = E/B_f; in the sector qvB = mv²/r  =>  m/q = rB/v
+// standard uncertainties. Relations (DESIGN.md, "Physics"), exact in special relativity
+// (Jackson, Classical Electrodynamics, 3rd ed., Wiley 1999, §12.1: p = γmv, E_kin = (γ−1)mc²,
+// and the Lorentz force q(E + v×B) holds at any speed):
+//  - accelerating-potential sector: E_kin = qU, so (pc)² = (qU)² + 2qU·mc², and r = p/(qB)
+//      =>  m/q = (rB)² / (2U) − U / (2c²)     (the second term is the relativistic correction)
+//  - Wien filter before the sector: qE = qvB_f, so v = E/B_f = V/(d B_f) exactly; in the
+//    sector r = γmv/(qB)  =>  m/q = rB / (γv), γ = 1/√(1 − v²/c²)
 //  - multi-collector: one field and potential, one effective radius per collector.
+// Engine 1.x used the non-relativistic forms ((rB)²/(2U) and rB/v) with CODATA 2018;
+// `Physics` selects either, so a 1.x result can be reproduced.
 
 const positiveMeasured = (q: Parameters<typeof measured>[0], what: string) =>
   measured(q).refine(m => m.value > 0, { message: `${what} must be greater than zero`, path: ['value'] })
@@ -15,12 +22,14 @@ const positiveMeasured = (q: Parameters<typeof measured>[0], what: string) =>
 export const potentialSectorGeometry = z.object({
   kind: z.literal('potential-sector'),
   analyzerRadius: positiveMeasured('length', 'the analyzer radius'),
+  detector: detectorSpec.optional(),
 }).strict()
 
 export const wienSectorGeometry = z.object({
   kind: z.literal('wien-sector'),
   analyzerRadius: positiveMeasured('length', 'the analyzer radius'),
   plateGap: positiveMeasured('length', 'the plate gap'),
+  detector: detectorSpec.optional(),
 }).strict()
 
 export const multiCollectorGeometry = z.object({
@@ -28,6 +37,8 @@ export const multiCollectorGeometry = z.object({
   collectors: z.array(z.object({
     id: z.string().trim().min(1).max(32),
     effectiveRadius: positiveMeasured('length', 'an effective radius'),
+    /** The collector's detector (Faraday cup with its amplifier, or ion counter); optional. */
+    detector: detectorSpec.optional(),
   }).strict()).min(1, 'needs at least one collector').max(32)
     .refine(cs => new Set(cs.map(c => c.id)).size === cs.length, 'collector ids must be unique'),
 }).strict()
@@ -47,7 +58,15 @@ export interface RawReadings {
   /** The swept reading, absent for static (peak-jumping) readings. */
   sweep?: { reading: 'field' | 'acceleratingVoltage', values: ArrayLike<number>, unit: string, u?: number }
   /** One detector column per collector (a single-collector instrument has one). */
-  detectors: { collector?: string, values: ArrayLike<number>, unit: string }[]
+  detectors: {
+    collector?: string
+    values: ArrayLike<number>
+    unit: string
+    /** Dwell time per point, for raw counts. */
+    dwell?: { value: number, unit: string }
+    /** On-peak-zero or off-peak readings in the column's unit (static: one per cycle, or a block). */
+    baseline?: ArrayLike<number>
+  }[]
 }
 
 function setting(readings: RawReadings, name: string, quantity: 'field' | 'voltage'): { value: number, u: number } {
@@ -75,10 +94,19 @@ export interface MzColumn {
 }
 
 /**
- * Converts the swept reading to m/z for a collector of radius `radius` (SI). The factor in
- * front of each point's formula is computed once.
+ * m/z = c·B² − k over a field sweep. A function of its own so that c and k are locals of the
+ * loop, not slots of the closure context that `relU` captures (V8 reloads those each turn).
  */
-export function sweepToMz(geo: Geometry, readings: RawReadings, collectorRadius?: { value: number, u: number }): MzColumn {
+function fieldSweepLoop(values: ArrayLike<number>, out: Float64Array, c: number, k: number) {
+  for (let i = 0; i < out.length; i++) { const b = values[i]; if (typeof b !== 'number' || b - b !== 0) notFinite(i, b); out[i] = c * b * b - k }
+}
+
+/**
+ * Converts the swept reading to m/z for a collector of radius `radius` (SI). The factor in
+ * front of each point's formula is computed once; the relativistic correction costs one
+ * subtraction per point (field sweep) or is part of the factor (Wien filter).
+ */
+export function sweepToMz(geo: Geometry, readings: RawReadings, collectorRadius?: { value: number, u: number }, physics: Physics = PHYSICS_2X): MzColumn {
   const sweep = readings.sweep
   if (!sweep) throw new EngineError('sweep', 'missing', 'a profile spectrum needs a swept reading')
   const n = sweep.values.length
@@ -88,6 +116,8 @@ export function sweepToMz(geo: Geometry, readings: RawReadings, collectorRadius?
   const uSweep = (sweep.u ?? 0) * unitFactor
   const values = sweep.values
   const out = new Float64Array(n)
+  const K = kgPerCToUPerE(physics.constants)
+  const c2 = physics.constants.speedOfLightMps ** 2
 
   const r = collectorRadius ?? radiusOf((geo as { analyzerRadius: Measured }).analyzerRadius, 'geometry.analyzerRadius')
   if (geo.kind === 'wien-sector') {
@@ -95,48 +125,76 @@ export function sweepToMz(geo: Geometry, readings: RawReadings, collectorRadius?
     const d = radiusOf(geo.plateGap, 'geometry.plateGap')
     const V = setting(readings, 'plateVoltage', 'voltage')
     const Bf = setting(readings, 'filterField', 'field')
-    // m/z = r B B_f d / V · e/m_u
-    const c = r.value * Bf.value * d.value / V.value * KG_PER_C_TO_U_PER_E * unitFactor
+    const v = V.value / (d.value * Bf.value)
+    if (physics.relativistic && v >= physics.constants.speedOfLightMps) throw new EngineError('settings.plateVoltage', 'faster-than-light', `V/(d·B_f) = ${v.toExponential(3)} m/s is not below c`)
+    // m/z = r B / (γ v) · e/m_u, with v = V/(d B_f) and 1/γ = √(1 − v²/c²)
+    const invGamma = physics.relativistic ? Math.sqrt(1 - v * v / c2) : 1
+    const c = r.value / v * invGamma * K * unitFactor
     for (let i = 0; i < n; i++) { const b = values[i]; if (typeof b !== 'number' || b - b !== 0) notFinite(i, b); out[i] = c * b }
+    // γ's share of the sensitivities is of order v²/c² (< 1e-4 of u): neglected.
     const fixed = (r.u / r.value) ** 2 + (Bf.u / Bf.value) ** 2 + (d.u / d.value) ** 2 + (V.u / V.value) ** 2
-    return { mz: out, relU: (mz) => Math.sqrt(fixed + (uSweep / (mz / c * unitFactor)) ** 2) }
+    return { mz: out, relU: mz => Math.sqrt(fixed + (uSweep / (mz / c * unitFactor)) ** 2) }
   }
   if (sweep.reading === 'field') {
     const U = setting(readings, 'acceleratingVoltage', 'voltage')
-    // m/z = (r B)² / (2U) · e/m_u
-    const c = r.value * r.value / (2 * U.value) * KG_PER_C_TO_U_PER_E * unitFactor * unitFactor
-    for (let i = 0; i < n; i++) { const b = values[i]; if (typeof b !== 'number' || b - b !== 0) notFinite(i, b); out[i] = c * b * b }
-    const fixed = (2 * r.u / r.value) ** 2 + (U.u / U.value) ** 2
-    return { mz: out, relU: (mz) => { const B = Math.sqrt(mz / c) * unitFactor; return Math.sqrt(fixed + (2 * uSweep / B) ** 2) } }
+    // m/z = ((r B)² / (2U) − U/(2c²)) · e/m_u
+    const c = r.value * r.value / (2 * U.value) * K * unitFactor * unitFactor
+    const k = physics.relativistic ? U.value / (2 * c2) * K : 0
+    fieldSweepLoop(values, out, c, k)
+    // GUM 5.1.2 with mz₀ = c b² (the non-relativistic part): ∂mz/∂r = 2mz₀/r, ∂mz/∂B = 2mz₀/B,
+    // ∂mz/∂U = −(mz₀ + k)/U.
+    const rr = r.u / r.value
+    const rU = U.u / U.value
+    return {
+      mz: out,
+      relU: (mz) => {
+        const mz0 = mz + k
+        const B = Math.sqrt(mz0 / c) * unitFactor
+        return Math.sqrt((2 * mz0 * rr) ** 2 + ((mz0 + k) * rU) ** 2 + (2 * mz0 * uSweep / B) ** 2) / mz
+      },
+    }
   }
   const B = setting(readings, 'field', 'field')
-  const c = (r.value * B.value) ** 2 / 2 * KG_PER_C_TO_U_PER_E / unitFactor
+  const c = (r.value * B.value) ** 2 / 2 * K / unitFactor
+  // m/z = (r B)² / (2U) · e/m_u − U/(2c²) · e/m_u, U = u · unitFactor
+  const k = physics.relativistic ? unitFactor / (2 * c2) * K : 0
   for (let i = 0; i < n; i++) {
     const u = values[i]
     if (typeof u !== 'number' || u - u !== 0) notFinite(i, u)
     if (u <= 0) throw new EngineError(`sweep.values[${i}]`, 'not-positive', 'an accelerating voltage must be positive')
-    out[i] = c / u
+    out[i] = c / u - k * u
   }
+  // The relativistic term's share of the sensitivities (≈ U/(2c²)/(m/q) < 1e-5 of u) is neglected.
   const fixed = (2 * r.u / r.value) ** 2 + (2 * B.u / B.value) ** 2
   return { mz: out, relU: (mz) => { const U = c / mz * unitFactor; return Math.sqrt(fixed + (uSweep / U) ** 2) } }
 }
 
 /** m/z at each collector of a multi-collector for one static reading of field and potential. */
-export function staticCollectorMz(geo: Geometry, readings: RawReadings): { collector: string, mz: number, relU: number }[] {
+export function staticCollectorMz(geo: Geometry, readings: RawReadings, physics: Physics = PHYSICS_2X): { collector: string, mz: number, relU: number }[] {
   const B = setting(readings, 'field', 'field')
   const U = setting(readings, 'acceleratingVoltage', 'voltage')
   const collectors = geo.kind === 'multi-collector'
     ? geo.collectors.map(c => ({ id: c.id, r: radiusOf(c.effectiveRadius, `geometry.collectors.${c.id}.effectiveRadius`) }))
     : geo.kind === 'potential-sector' ? [{ id: 'main', r: radiusOf(geo.analyzerRadius, 'geometry.analyzerRadius') }] : []
   if (!collectors.length) throw new EngineError('geometry.kind', 'unsupported', 'static readings need a potential sector or a multi-collector')
-  return collectors.map(({ id, r }) => ({
-    collector: id,
-    mz: (r.value * B.value) ** 2 / (2 * U.value) * KG_PER_C_TO_U_PER_E,
-    relU: Math.sqrt((2 * r.u / r.value) ** 2 + (2 * B.u / B.value) ** 2 + (U.u / U.value) ** 2),
-  }))
+  const K = kgPerCToUPerE(physics.constants)
+  const k = physics.relativistic ? U.value / (2 * physics.constants.speedOfLightMps ** 2) * K : 0
+  return collectors.map(({ id, r }) => {
+    const mz0 = (r.value * B.value) ** 2 / (2 * U.value) * K
+    const mz = mz0 - k
+    return {
+      collector: id,
+      mz,
+      relU: Math.sqrt((2 * mz0 * r.u / r.value) ** 2 + (2 * mz0 * B.u / B.value) ** 2 + ((mz0 + k) * U.u / U.value) ** 2) / mz,
+    }
+  })
 }
 
-/** Inverse of the potential-sector relation: the field that brings m/z onto radius r at potential U. */
-export function fieldForMz(mz: number, radiusM: number, voltageV: number): number {
-  return Math.sqrt(2 * voltageV * mz / KG_PER_C_TO_U_PER_E) / radiusM
+/**
+ * Inverse of the potential-sector relation: the field that brings m/z onto radius r at
+ * potential U, (rB)² = 2U·(m/q) + (U/c)² (relativistic unless engine 1.x physics is asked for).
+ */
+export function fieldForMz(mz: number, radiusM: number, voltageV: number, physics: Physics = PHYSICS_2X): number {
+  const rel = physics.relativistic ? (voltageV / physics.constants.speedOfLightMps) ** 2 : 0
+  return Math.sqrt(2 * voltageV * mz / kgPerCToUPerE(physics.constants) + rel) / radiusM
 }

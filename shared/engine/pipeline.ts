@@ -1,13 +1,15 @@
 import { assignPeak, CandidateTable, expectedSignal, linkChargeStates, type Assignment, type Candidate, type ObservedLine, type Tolerance } from './assign'
-import { applyCalibrationColumn, type CalibrationFit } from './calibrate'
-import { CODATA_EDITION, ENGINE_VERSION } from './constants'
+import { applyCalibrationColumn, CALIBRATION_MARGIN, calibratedRange, calibrationU, type AppliedCalibration } from './calibrate'
+import { ENGINE_VERSION, physicsFor, type Physics } from './constants'
+import { detectorParams, detectorSignal, type DetectorParams, type DetectorSpec } from './detectors'
 import { EngineError, assertFiniteColumn } from './errors'
 import { rankMatches, type ReferenceSpectrum } from './fingerprint'
 import { staticCollectorMz, sweepToMz, type Geometry, type RawReadings } from './geometry'
 import { ratioAndDelta, referenceRatios, type RatioResult, type ReferenceRatioId } from './ratios'
+import { REJECTION_RULE, staticColumn, staticRatio, type BaselineSummary, type StaticColumnInput } from './static'
 import { findPeaks, sweepDirection, type Baseline, type BaselineInput, type Peak } from './spectrum'
 import { formulaSpecies, naturalIsotopes, neutralMassFromMz, type Species } from './species'
-import { detectorQuantity, siFactor } from './units'
+import { siFactor } from './units'
 
 export interface EngineOptions {
   tolerance?: Tolerance
@@ -20,7 +22,17 @@ export interface EngineOptions {
    * want every multiply charged isotope line near them flagged as a rival.
    */
   isotopes?: boolean
-  calibration?: Pick<CalibrationFit, 'center' | 'halfRange' | 'coefficients'> | null
+  calibration?: AppliedCalibration | null
+  /**
+   * The geometry version the readings are converted with: a calibration fitted under another
+   * version is retired and not applied (a QC flag says so).
+   */
+  geometryVersion?: number
+  /**
+   * '2.x' (default): CODATA 2022 and the relativistic momentum. '1.x': CODATA 2018 and the
+   * non-relativistic relations of engine 1.0.0, to reproduce its results.
+   */
+  compatibility?: '1.x' | '2.x'
   /** Ratios to report: a reference ratio and the species whose peaks carry it. */
   ratios?: { id: ReferenceRatioId, heavy?: string, light?: string }[]
   minSnr?: number
@@ -69,9 +81,34 @@ export interface ResultPeak {
 
 export interface QcFlag { code: string, message: string, peak?: number }
 
+/** How each detector column was turned into a signal. */
+export interface DetectorReport {
+  collector: string
+  type: 'faraday' | 'ion-counter' | 'unregistered'
+  unit: 'A' | 'cps'
+  corrections: string[]
+  /** Relative standard uncertainty common to the column (resistor, gain); null: not estimated. */
+  commonRelU: number | null
+  baseline: BaselineSummary | null
+}
+
+/** The calibration as applied: or why not. */
+export interface CalibrationStatus {
+  state: 'applied' | 'retired' | 'none' | 'not-applicable'
+  geometryVersion: number | null
+  /** Measured m/z span the fit covers, with its margin, when applied. */
+  range: [number, number] | null
+  /** Peaks outside that span (extrapolated). */
+  outside: number[]
+  /** Whether the fit's covariance reached the m/z uncertainties (fits before engine 2 carry none). */
+  uncertaintyPropagated: boolean
+}
+
 export interface EngineResult {
   engineVersion: string
   constants: string
+  /** The conversion's physics: relativistic momentum or not, and the compatibility mode. */
+  physics: { relativistic: boolean, compatibility: '1.x' | '2.x' }
   mode: 'sweep' | 'static'
   points: number
   mzMin: number
@@ -79,6 +116,10 @@ export interface EngineResult {
   detectorUnit: 'A' | 'cps'
   baseline: Baseline | null
   calibrated: boolean
+  calibration: CalibrationStatus
+  detectors: DetectorReport[]
+  /** Static readings: the cycle count and the outlier rule their ratios use. */
+  cycles: { count: number, rule: string } | null
   peaks: ResultPeak[]
   ratios: RatioResult[]
   qc: QcFlag[]
@@ -111,13 +152,26 @@ function candidateTable(options: EngineOptions): CandidateTable {
 /** One sweep's m/z column, oriented to rise; the matching detector columns follow it. */
 interface Column { collector: string, mz: Float64Array, signal: Float64Array, relU: (mz: number) => number }
 
-function detectorSI(d: { unit: string, values: ArrayLike<number> }, field: string): { values: Float64Array, unit: 'A' | 'cps' } {
-  const quantity = detectorQuantity(d.unit, `${field}.unit`)
-  const factor = siFactor(quantity, d.unit, `${field}.unit`)
+/** The detector registered for a collector in the geometry (single-collector kinds: `detector`). */
+export function collectorDetector(geo: Geometry, collector: string | undefined): DetectorSpec | undefined {
+  if (geo.kind === 'multi-collector') return (collector ? geo.collectors.find(c => c.id === collector) : geo.collectors[0])?.detector
+  return geo.detector
+}
+
+function detectorSI(d: { unit: string, values: ArrayLike<number>, dwell?: { value: number, unit: string } }, field: string, params: DetectorParams = detectorParams(undefined, field), reports?: DetectorReport[], collector = 'main'): { values: Float64Array, unit: 'A' | 'cps' } {
   assertFiniteColumn(`${field}.values`, d.values)
-  const values = new Float64Array(d.values.length)
-  for (let i = 0; i < values.length; i++) values[i] = (d.values[i] as number) * factor
-  return { values, unit: quantity === 'current' ? 'A' : 'cps' }
+  const signal = detectorSignal(params, d, field)
+  reports?.push({ collector, type: params.type, unit: signal.unit, corrections: signal.corrections, commonRelU: params.type === 'unregistered' ? null : signal.commonRelU, baseline: null })
+  return { values: signal.values, unit: signal.unit }
+}
+
+/** The calibration to apply, or null with the reason when the geometry version moved on. */
+function calibrationInForce(options: EngineOptions): { fit: AppliedCalibration | null, state: CalibrationStatus['state'], fittedUnder: number | null } {
+  const fit = options.calibration
+  if (!fit) return { fit: null, state: 'none', fittedUnder: null }
+  const fittedUnder = fit.geometryVersion ?? null
+  if (options.geometryVersion !== undefined && fittedUnder !== null && fittedUnder !== options.geometryVersion) return { fit: null, state: 'retired', fittedUnder }
+  return { fit, state: 'applied', fittedUnder }
 }
 
 /** Raw readings to peaks, assignments, ratios and QC flags: the whole engine in one call. */
@@ -125,17 +179,23 @@ export function processReadings(geo: Geometry, readings: RawReadings, options: E
   if (!readings.detectors?.length) throw new EngineError('detectors', 'missing', 'at least one detector column is required')
   const table = candidateTable(options)
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE
-  return readings.sweep ? processSweep(geo, readings, options, table, tolerance) : processStatic(geo, readings, options, table, tolerance)
+  const { fit, state, fittedUnder } = calibrationInForce(options)
+  const opts = { ...options, calibration: fit, calibrationState: state, calibrationFittedUnder: fittedUnder }
+  return readings.sweep ? processSweep(geo, readings, opts, table, tolerance) : processStatic(geo, readings, opts, table, tolerance)
 }
 
-function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptions, table: CandidateTable, tolerance: Tolerance): EngineResult {
+type ResolvedOptions = EngineOptions & { calibrationState: CalibrationStatus['state'], calibrationFittedUnder?: number | null }
+
+function processSweep(geo: Geometry, readings: RawReadings, options: ResolvedOptions, table: CandidateTable, tolerance: Tolerance): EngineResult {
   const n = readings.sweep!.values.length
   const columns: Column[] = []
+  const reports: DetectorReport[] = []
+  const physics = physicsFor(options.compatibility)
   let detectorUnit: 'A' | 'cps' = 'A'
   readings.detectors.forEach((d, k) => {
     const field = `detectors[${k}]`
     if (d.values.length !== n) throw new EngineError(`${field}.values`, 'length-mismatch', `has ${d.values.length} points, the sweep has ${n}`)
-    const { values, unit } = detectorSI(d, field)
+    const { values, unit } = detectorSI(d, field, detectorParams(collectorDetector(geo, d.collector), `geometry.detector`), reports, d.collector ?? 'main')
     detectorUnit = unit
     let radius: { value: number, u: number } | undefined
     let collector = d.collector ?? 'main'
@@ -145,8 +205,11 @@ function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptio
       radius = { value: c.effectiveRadius.value * siFactor('length', c.effectiveRadius.unit, 'geometry'), u: c.effectiveRadius.u * siFactor('length', c.effectiveRadius.unit, 'geometry') }
       collector = c.id
     }
-    const conv = sweepToMz(geo, readings, radius)
-    if (options.calibration) applyCalibrationColumn(options.calibration, conv.mz)
+    const conv = sweepToMz(geo, readings, radius, physics)
+    if (options.calibration) {
+      applyCalibrationColumn(options.calibration, conv.mz)
+      conv.relU = calibratedRelU(options.calibration, conv.relU)
+    }
     if (sweepDirection(conv.mz) < 0) { conv.mz.reverse(); values.reverse() }
     columns.push({ collector, mz: conv.mz, signal: values, relU: conv.relU })
   })
@@ -168,7 +231,7 @@ function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptio
       guessed ||= found.baseline.source === 'estimated' && found.baseline.points < 2
     }
   })
-  return finish(peaks, options, { mode: 'sweep', points: n, mzMin, mzMax, detectorUnit, baseline }, { baselineGuessed: guessed }, shared)
+  return finish(peaks, options, { mode: 'sweep', points: n, mzMin, mzMax, detectorUnit, baseline, detectors: reports, cycles: null }, { baselineGuessed: guessed }, shared)
 }
 
 /** What peaks of one column share through its baseline: for correlations and detection limits. */
@@ -191,6 +254,18 @@ function baselineInput(options: EngineOptions, collector: string, index: number,
 }
 
 /**
+ * Once calibrated against reference peaks measured under the same geometry and settings, the
+ * geometry's registered uncertainties cancel between reference and sample: the m/z
+ * uncertainty is the correction's, √(gᵀCg). The fit's x is the uncalibrated m/z; it is
+ * evaluated at the calibrated m/z, which differs by the correction (ppm), a negligible change
+ * of u. A stored fit without a covariance (engine 1) keeps the geometry's uncertainty.
+ */
+function calibratedRelU(fit: AppliedCalibration, geometryRelU: (mz: number) => number): (mz: number) => number {
+  if (!fit.covariance) return geometryRelU
+  return mz => calibrationU(fit, mz)! / mz
+}
+
+/**
  * A spectrum that arrives in m/z already (computed by the instrument's software, as mzML
  * carries it): peaks, assignment and ratios only; the registered geometry is not applied.
  */
@@ -206,7 +281,7 @@ export function processMzSpectrum(mzValues: ArrayLike<number>, signalValues: Arr
   // The geometry is not applied, so there is no geometry uncertainty to give the centroid.
   const peaks = found.peaks.map(p => profilePeak(p, 'main', 0, table, tolerance))
   const shared = found.peaks.map(p => ({ column: 0, areaPerBaseline: p.areaPerBaseline, levelVariance: found.baseline.levelU ** 2, noise: found.baseline.noise, windowFraction: p.windowFraction }))
-  return finish(peaks, { ...options, calibration: null }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit, baseline: found.baseline }, { externalMz: true, baselineGuessed: found.baseline.source === 'estimated' && found.baseline.points < 2 }, shared)
+  return finish(peaks, { ...options, calibration: null, calibrationState: 'not-applicable' }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit, baseline: found.baseline, detectors: [], cycles: null }, { externalMz: true, baselineGuessed: found.baseline.source === 'estimated' && found.baseline.points < 2 }, shared)
 }
 
 /** A profile peak with its assignment, as the result reports it. */
@@ -258,40 +333,52 @@ function weighRivals(peaks: ResultPeak[], shared: SharedBaseline[], sweep: { mzM
   })
 }
 
-function processStatic(geo: Geometry, readings: RawReadings, options: EngineOptions, table: CandidateTable, tolerance: Tolerance): EngineResult {
-  const positions = staticCollectorMz(geo, readings)
+/** A static reading: each collector's cycles through its detector and baseline, ratios cycle by cycle. */
+function processStatic(geo: Geometry, readings: RawReadings, options: ResolvedOptions, table: CandidateTable, tolerance: Tolerance): EngineResult {
+  const positions = staticCollectorMz(geo, readings, physicsFor(options.compatibility))
   let detectorUnit: 'A' | 'cps' = 'A'
+  const reports: DetectorReport[] = []
+  const inputs: { p: DetectorParams, column: StaticColumnInput, field: string }[] = []
   const peaks: ResultPeak[] = readings.detectors.map((d, k) => {
     const field = `detectors[${k}]`
     const pos = d.collector ? positions.find(p => p.collector === d.collector) : positions[k]
     if (!pos) throw new EngineError(`${field}.collector`, 'unknown', `no collector "${d.collector ?? k}" in this instrument's geometry`)
     if (d.values.length < 1) throw new EngineError(`${field}.values`, 'too-short', 'needs at least one reading')
-    const { values, unit } = detectorSI(d, field)
-    detectorUnit = unit
-    let mean = 0
-    for (const v of values) mean += v
-    mean /= values.length
-    let ss = 0
-    for (const v of values) ss += (v - mean) ** 2
-    // Standard uncertainty of the mean of repeated readings (GUM 4.2.3).
-    const u = values.length > 1 ? Math.sqrt(ss / (values.length - 1) / values.length) : 0
+    assertFiniteColumn(`${field}.values`, d.values)
+    const p = detectorParams(collectorDetector(geo, pos.collector === 'main' ? undefined : pos.collector), `geometry.detector`)
+    const column = d as StaticColumnInput
+    const col = staticColumn(p, column, field)
+    inputs.push({ p, column, field })
+    detectorUnit = col.unit
+    reports.push({ collector: pos.collector, type: p.type, unit: col.unit, corrections: col.corrections, commonRelU: p.type === 'unregistered' ? null : Math.hypot(p.resistorU / (p.resistorOhm || 1), p.gainU / p.gain), baseline: col.baseline })
     let mz = pos.mz
-    if (options.calibration) mz = applyCalibrationColumn(options.calibration, new Float64Array([mz]))[0]!
+    let centroidU = mz * pos.relU
+    if (options.calibration) {
+      mz = applyCalibrationColumn(options.calibration, new Float64Array([mz]))[0]!
+      centroidU = mz * calibratedRelU(options.calibration, () => pos.relU)(mz)
+    }
     // A collector's width is not known from one reading: ambiguity uses the tolerance window.
     const window = Math.max(tolerance.abs ?? 0, mz * (tolerance.ppm ?? 0) * 1e-6)
     const a = assignPeak(table, mz, window, tolerance)
     // A static reading has no profile: width, resolving power and a centroid fit are not estimated.
     return {
-      collector: pos.collector, centroid: mz, centroidU: mz * pos.relU, centroidUFit: null, height: mean, heightU: u, area: mean, areaU: u,
-      fwhm: 0, fwhmU: null, snr: u > 0 ? mean / u : Number.MAX_VALUE, resolvingPower: 0, resolvingPowerU: null,
-      resolvingPower10Valley: null, resolvingPower10ValleyU: null, fitted: false, overlapping: false, ...assignmentFields(a, mz, mz * pos.relU),
+      collector: pos.collector, centroid: mz, centroidU, centroidUFit: null, height: col.mean, heightU: col.meanU, area: col.mean, areaU: col.meanU,
+      fwhm: 0, fwhmU: null, snr: col.meanU > 0 ? col.mean / col.meanU : Number.MAX_VALUE, resolvingPower: 0, resolvingPowerU: null,
+      resolvingPower10Valley: null, resolvingPower10ValleyU: null, fitted: false, overlapping: false, ...assignmentFields(a, mz, centroidU),
     }
   })
   const mzs = peaks.map(p => p.centroid)
-  return finish(peaks, options, { mode: 'static', points: readings.detectors[0]!.values.length, mzMin: Math.min(...mzs), mzMax: Math.max(...mzs), detectorUnit, baseline: null })
+  const cycleRatio = (heavy: number, light: number) => staticRatio(inputs[heavy]!, inputs[light]!)
+  return finish(peaks, options, {
+    mode: 'static', points: readings.detectors[0]!.values.length, mzMin: Math.min(...mzs), mzMax: Math.max(...mzs), detectorUnit, baseline: null,
+    detectors: reports, cycles: { count: readings.detectors[0]!.values.length, rule: REJECTION_RULE },
+  }, {}, [], cycleRatio)
 }
 
-function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineResult, 'mode' | 'points' | 'mzMin' | 'mzMax' | 'detectorUnit' | 'baseline'>, source: { externalMz?: boolean, baselineGuessed?: boolean } = {}, shared: SharedBaseline[] = []): EngineResult {
+function finish(
+  peaks: ResultPeak[], options: ResolvedOptions, head: Pick<EngineResult, 'mode' | 'points' | 'mzMin' | 'mzMax' | 'detectorUnit' | 'baseline' | 'detectors' | 'cycles'>,
+  source: { externalMz?: boolean, baselineGuessed?: boolean } = {}, shared: SharedBaseline[] = [], cycleRatio?: (heavy: number, light: number) => ReturnType<typeof staticRatio>,
+): EngineResult {
   if (head.mode === 'sweep') weighRivals(peaks, shared, head, options.minSnr ?? 10)
   for (const [i, j] of linkChargeStates(peaks.map(p => (p.assignment ? { candidates: [], ambiguous: false, best: p.assignment } : null)))) {
     peaks[i]!.linkedPeak = j
@@ -311,7 +398,15 @@ function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineRe
     if (sh.windowFraction !== undefined && sh.windowFraction < 0.99) qc.push({ code: 'area-window-cut', peak: i, message: `Peak at m/z ${peaks[i]!.centroid.toFixed(4)}: the sweep's end or a neighbour cuts its area window; ${((1 - sh.windowFraction) * 100).toFixed(1)} % of the fitted shape lies outside and is added from the fit.` })
   })
   if (source.externalMz) qc.push({ code: 'external-mz', message: 'm/z was computed by the instrument\'s own software; the registered geometry and calibration were not applied.' })
+  else if (options.calibrationState === 'retired') qc.push({ code: 'calibration-retired', message: `The latest calibration was fitted under geometry version ${options.calibrationFittedUnder}, not version ${options.geometryVersion} now in force: it is retired and was not applied, so m/z comes from the registered geometry alone.` })
   else if (!options.calibration) qc.push({ code: 'uncalibrated', message: 'No calibration applied: m/z comes from the registered geometry alone.' })
+  const calibration = calibrationStatus(options, peaks)
+  for (const i of calibration.outside) {
+    qc.push({ code: 'outside-calibration', peak: i, message: `Peak at m/z ${peaks[i]!.centroid.toFixed(4)} lies outside the calibrated range m/z ${calibration.range![0].toFixed(3)}–${calibration.range![1].toFixed(3)} (reference span + ${CALIBRATION_MARGIN * 100} %): extrapolated.` })
+  }
+  for (const d of head.detectors) {
+    if (d.unit === 'cps' && d.type === 'unregistered') qc.push({ code: 'dead-time-not-corrected', message: `Collector ${d.collector} counts ions but has no ion counter registered: no dead-time correction.` })
+  }
 
   const ratios: RatioResult[] = []
   for (const request of options.ratios ?? []) {
@@ -328,6 +423,12 @@ function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineRe
     // At constant resolving power a peak's width in m/z grows with m/z, so areas are taken
     // over ln(m/z) (area / m/z), which is proportional to each species' ion current.
     const perLogMz = (p: ResultPeak) => (head.mode === 'sweep' ? { area: p.area / p.centroid, areaU: p.areaU / p.centroid } : p)
+    if (cycleRatio) {
+      const r = cycleRatio(peaks.indexOf(heavy), peaks.indexOf(light))
+      ratios.push({ ...ratioAndDelta(request.id, { area: r.ratio, areaU: r.u }, { area: 1, areaU: 0 }), cycles: r.stats })
+      if (r.stats.rejected) qc.push({ code: 'cycles-rejected', message: `${ref.delta}: ${r.stats.rejected} of ${r.stats.cycles} cycles set aside by ${r.stats.rule}.` })
+      continue
+    }
     // Peaks of one column share its baseline level: cov(A_h, A_l) = (∂A_h/∂L)(∂A_l/∂L) u²(L)
     // (GUM JCGM 100:2008, 5.2.2); the centroids' relative u (10^-5) is left out.
     const hi = peaks.indexOf(heavy)
@@ -341,5 +442,18 @@ function finish(peaks: ResultPeak[], options: EngineOptions, head: Pick<EngineRe
   // with m/z at constant resolving power, heights do not.
   const tallest = Math.max(0, ...peaks.map(p => p.height))
   const matches = options.references?.length ? rankMatches(peaks.map(p => ({ mz: p.centroid, intensity: tallest > 0 ? Math.max(0, p.height) / tallest : 0 })), options.references) : []
-  return { engineVersion: ENGINE_VERSION, constants: CODATA_EDITION, ...head, calibrated: !!options.calibration, peaks, ratios, qc, matches }
+  const physics: Physics = physicsFor(options.compatibility)
+  return {
+    engineVersion: ENGINE_VERSION, constants: physics.constants.name, physics: { relativistic: physics.relativistic, compatibility: physics.compatibility },
+    ...head, calibrated: !!options.calibration, calibration, peaks, ratios, qc, matches,
+  }
+}
+
+function calibrationStatus(options: ResolvedOptions, peaks: ResultPeak[]): CalibrationStatus {
+  const fit = options.calibration
+  if (!fit) return { state: options.calibrationState === 'applied' ? 'none' : options.calibrationState, geometryVersion: options.calibrationFittedUnder ?? null, range: null, outside: [], uncertaintyPropagated: false }
+  const { from, to } = calibratedRange(fit)
+  const outside: number[] = []
+  peaks.forEach((p, i) => { if (p.centroid < from || p.centroid > to) outside.push(i) })
+  return { state: 'applied', geometryVersion: fit.geometryVersion ?? null, range: [from, to], outside, uncertaintyPropagated: !!fit.covariance }
 }

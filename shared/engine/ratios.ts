@@ -1,4 +1,5 @@
 import { EngineError } from './errors'
+import type { CycleStatistics } from './static'
 import { propagate } from './uncertainty'
 
 // Reference materials and their accepted isotope ratios with the standard uncertainty the
@@ -41,6 +42,8 @@ export interface RatioResult {
    * the reference value's own uncertainty adds in.
    */
   deltaUWithReference: number
+  /** Static readings: the cycle statistics the ratio comes from. */
+  cycles?: CycleStatistics
 }
 
 /**

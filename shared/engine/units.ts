@@ -9,6 +9,12 @@ export const unitFactors = {
   length: { m: 1, cm: 1e-2, mm: 1e-3 },
   current: { A: 1, mA: 1e-3, uA: 1e-6, µA: 1e-6, nA: 1e-9, pA: 1e-12, fA: 1e-15 },
   countRate: { cps: 1, 'counts/s': 1, Hz: 1 },
+  /** Raw counts in a dwell time: divided by the dwell to give a rate. */
+  counts: { counts: 1 },
+  /** A Faraday amplifier's output: divided by its feedback resistor to give a current (I = V/R). */
+  detectorVoltage: { V: 1, mV: 1e-3, uV: 1e-6, µV: 1e-6 },
+  resistance: { 'Ω': 1, 'ohm': 1, 'kΩ': 1e3, 'MΩ': 1e6, 'GΩ': 1e9, 'TΩ': 1e12, 'kohm': 1e3, 'Mohm': 1e6, 'Gohm': 1e9, 'Tohm': 1e12 },
+  time: { s: 1, ms: 1e-3, us: 1e-6, µs: 1e-6, ns: 1e-9 },
 } as const
 
 export type Quantity = keyof typeof unitFactors
@@ -34,11 +40,16 @@ export function toSI(quantity: Quantity, values: ArrayLike<number>, unit: string
   return out
 }
 
-/** Detector signals: a current (Faraday cup) or a count rate (ion counter). */
-export function detectorQuantity(unit: string, field: string): Quantity {
+/**
+ * Detector signals: a current or the amplifier's volts (Faraday cup), a count rate or raw
+ * counts in a dwell time (ion counter).
+ */
+export function detectorQuantity(unit: string, field: string): 'current' | 'countRate' | 'counts' | 'detectorVoltage' {
   if (Object.hasOwn(unitFactors.current, unit)) return 'current'
   if (Object.hasOwn(unitFactors.countRate, unit)) return 'countRate'
-  throw new EngineError(field, 'unit-unknown', `unknown detector unit "${unit}" (a current such as A, pA, fA, or a count rate cps)`)
+  if (Object.hasOwn(unitFactors.counts, unit)) return 'counts'
+  if (Object.hasOwn(unitFactors.detectorVoltage, unit)) return 'detectorVoltage'
+  throw new EngineError(field, 'unit-unknown', `unknown detector unit "${unit}" (a current such as A, pA, fA; volts V, mV through a registered resistor; a count rate cps; or counts with a dwell time)`)
 }
 
 const unitNames = (q: Quantity) => Object.keys(unitFactors[q]) as [string, ...string[]]

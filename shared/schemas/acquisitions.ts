@@ -32,8 +32,15 @@ export const acquisitionInput = z.object({
   }).strict().optional(),
   detectors: z.array(z.object({
     collector: z.string().max(32).optional(),
-    unit: z.string({ error: 'is required' }).min(1).max(16),
+    unit: z.string({ error: 'is required' }).min(1).max(16)
+      .describe('A, mA, µA, nA, pA, fA (current); V, mV, µV (a Faraday amplifier\'s output, through the resistor registered for the collector); cps (count rate); counts (with `dwell`)'),
     values: z.array(finiteNumber).min(1).max(MAX_POINTS),
+    dwell: z.object({
+      value: finiteNumber.positive('must be greater than zero'),
+      unit: z.enum(['s', 'ms', 'us', 'µs', 'ns'], { error: 'must be s, ms, us, µs or ns' }),
+    }).strict().optional().describe('dwell time per point: required when `unit` is counts'),
+    baseline: z.array(finiteNumber).min(1).max(MAX_POINTS).optional()
+      .describe('static readings: on-peak-zero or off-peak readings in the same unit, one per cycle (subtracted cycle by cycle) or a block (its mean subtracted, its standard error propagated)'),
   }).strict()).max(32).default([]),
   /** A spectrum already in m/z from the instrument's own software (as mzML carries it). */
   mzSpectrum: z.object({
@@ -64,6 +71,8 @@ export const acquisitionInput = z.object({
     isotopes: z.boolean().optional(),
     maxCharge: z.number().int().min(1).max(3).optional(),
     formulas: z.array(z.string().min(1).max(64)).max(100).optional(),
+    engine: z.enum(['1.x', '2.x'], { error: 'must be 1.x or 2.x' }).optional()
+      .describe('2.x (default): CODATA 2022 and relativistic momentum; 1.x: CODATA 2018, non-relativistic, as engine 1.0.0 computed'),
     ratios: z.array(z.object({
       id: z.enum(Object.keys(referenceRatios) as [keyof typeof referenceRatios, ...(keyof typeof referenceRatios)[]]),
       heavy: z.string().max(64).optional(),
@@ -85,6 +94,7 @@ export const acquisitionInput = z.object({
   }
   const n = v.sweep?.values.length
   v.detectors.forEach((d, i) => {
+    if (d.unit.trim() === 'counts' && !d.dwell) ctx.addIssue({ code: 'custom', path: ['detectors', i, 'dwell'], message: 'raw counts need the dwell time per point' })
     if (n !== undefined && d.values.length !== n) {
       ctx.addIssue({ code: 'custom', path: ['detectors', i, 'values'], message: `has ${d.values.length} points, the sweep has ${n}` })
     }

@@ -26,8 +26,16 @@ export const calibrationInput = z.object({
     measuredMz: z.number().positive(),
     referenceMz: z.number().positive(),
     label: z.string().max(40).optional(),
+    /** Standard uncertainties (m/z): given for every point, the fit is weighted by 1/u². */
+    measuredU: z.number().min(0).finite().optional(),
+    referenceU: z.number().min(0).finite().optional(),
   }).strict()).min(1).max(200),
   validFrom: z.coerce.date({ error: 'must be a date and time' }),
+  /**
+   * The geometry version the reference peaks were measured under (a preview names it);
+   * omitted, the version in force at `validFrom` (or the first, if none was yet).
+   */
+  geometryVersion: z.number().int().positive().optional(),
 }).strict()
 
 export const keyScopes = ['acquisitions:write', 'results:read'] as const

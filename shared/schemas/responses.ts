@@ -38,6 +38,17 @@ export const resultPeak = z.object({
   linkedPeak: z.number().int().nullable().describe('index of the peak with the other charge state (z=1 ↔ z=2) of the same species'),
 }).strict()
 
+export const cycleStatistics = z.object({
+  cycles: z.number().int(), used: z.number().int(), rejected: z.number().int(),
+  rejectedCycles: z.array(z.number().int()).describe('0-based indices of the cycles set aside'),
+  rule: z.string().describe('the outlier rule, named with its source'),
+  sd: z.number().describe('standard deviation of the kept cycle ratios'),
+  se: z.number().describe('standard error of their mean, s/√n (GUM 4.2.3): the Type A component of ratioU'),
+  dof: z.number().int(),
+  systematicU: z.number().describe('Type B component common to every cycle (block baselines, resistors, gain factors, dead times), propagated by sensitivity'),
+  effectiveDof: z.number().describe('effective degrees of freedom of ratioU, Welch–Satterthwaite (GUM G.4.1)'),
+}).strict()
+
 export const ratioResult = z.object({
   id: z.string(), numerator: z.string(), denominator: z.string(), ratio: z.number(),
   ratioU: z.number().describe('standard uncertainty of the ratio, with the covariance of two areas that share one baseline'),
@@ -47,6 +58,28 @@ export const ratioResult = z.object({
   referenceRatioU: z.number().describe('its standard uncertainty as published'),
   referenceSource: z.string().describe('where the accepted ratio is published'),
   deltaUWithReference: z.number().describe('u(δ) with the accepted ratio\'s own uncertainty added'),
+  cycles: cycleStatistics.optional().describe('static readings: the ratio is the mean of cycle ratios'),
+}).strict()
+
+const baselineSummary = z.object({
+  mode: z.enum(['per-cycle', 'block', 'none']), level: z.number(), levelU: z.number(), readings: z.number().int(),
+}).strict()
+
+export const detectorReport = z.object({
+  collector: z.string(),
+  type: z.enum(['faraday', 'ion-counter', 'unregistered']),
+  unit: z.enum(['A', 'cps']),
+  corrections: z.array(z.string()).describe('what was done to the column, in order (I = V/R, gain factor, rate = counts / dwell, dead-time model)'),
+  commonRelU: z.number().nullable().describe('relative standard uncertainty common to the column from the registered resistor and gain; null: no detector registered, not estimated'),
+  baseline: baselineSummary.nullable(),
+}).strict()
+
+export const calibrationStatus = z.object({
+  state: z.enum(['applied', 'retired', 'none', 'not-applicable']).describe('retired: the latest calibration was fitted under another geometry version and was not applied'),
+  geometryVersion: z.number().int().nullable().describe('the geometry version the calibration was fitted under'),
+  range: z.tuple([z.number(), z.number()]).nullable().describe('calibrated m/z span with its 2 % margin'),
+  outside: z.array(z.number().int()).describe('indices of peaks outside that span (extrapolated, flagged)'),
+  uncertaintyPropagated: z.boolean().describe('the fit\'s covariance reached the m/z uncertainties (fits from before engine 2 carry none)'),
 }).strict()
 
 export const qcFlag = z.object({ code: z.string(), message: z.string(), peak: z.number().int().optional() }).strict()
@@ -64,6 +97,10 @@ export const engineResultView = z.object({
     points: z.number().int().describe('points the level was taken from'),
   }).strict().nullable(),
   calibrated: z.boolean(),
+  calibration: calibrationStatus.nullable().describe('null for results of engine 1'),
+  physics: z.object({ relativistic: z.boolean(), compatibility: z.enum(['1.x', '2.x']) }).strict(),
+  detectors: z.array(detectorReport),
+  cycles: z.object({ count: z.number().int(), rule: z.string() }).strict().nullable().describe('static readings: cycles and the outlier rule'),
   peaks: z.array(resultPeak),
   ratios: z.array(ratioResult),
   qc: z.array(qcFlag),

@@ -59,6 +59,8 @@ export interface GeometryVersionView { id: string, version: number, kind: Geomet
 export interface CalibrationView {
   id: string, version: number, validFrom: string, createdAt: string
   fit: CalibrationFit, points: { measuredMz: number, referenceMz: number, label?: string }[]
+  /** The geometry version it was fitted under; retired once another version is in force. */
+  geometryVersion: number | null, retired: boolean
 }
 export interface InstrumentDetail {
   id: string, labId: string, slug: string, name: string, createdAt: string

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest'
 import { acquisitionListView, acquisitionView, engineResultView, problemDocument } from '../../shared/schemas/responses'
+import { fieldForMz, ionMz, isotope, simulateStatic } from '../../shared/engine'
 import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
 import { ConsoleClient, unique, useArcwise } from '../support/server'
 
@@ -23,13 +24,14 @@ describe('POST /api/v1/acquisitions', () => {
     const species = r.peaks.map((p: any) => p.assignment?.species)
     expect(species).toEqual(expect.arrayContaining(['CO2', '[13C]O2']))
     const co2 = r.peaks.find((p: any) => p.assignment?.species === 'CO2')
-    // CO2⁺ at (43.98982924 − m_e) u/e: AME2020 masses, CODATA 2018 m_e (from memory).
+    // CO2⁺ at (43.98982924 − m_e) u/e: AME2020 masses (from memory), CODATA 2022 m_e.
     expect(Math.abs(co2.centroid - (43.98982924 - 0.00054858))).toBeLessThan(43.99 * 20e-6)
     expect(co2.assignment.errorPpm).toBeLessThan(20)
     expect(r.ratios[0]).toMatchObject({ deltaName: 'δ13C', standard: 'VPDB' })
     expect(r.ratios[0].deltaPermil).toBeCloseTo(-10, 0)
     expect(r.ratios[0].deltaU).toBeGreaterThan(0)
-    expect(r.versions).toEqual({ engine: '1.1.0', constants: 'CODATA 2018', geometry: 1, calibration: null })
+    expect(r.versions).toEqual({ engine: '2.0.0', constants: 'CODATA 2022', geometry: 1, calibration: null })
+    expect(r.physics).toEqual({ relativistic: true, compatibility: '2.x' })
     expect(r.qc.map((q: any) => q.code)).toContain('uncalibrated')
     expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
     const [peakRows] = await sql<[{ n: number }]>`select count(*)::int as n from peaks where lab_id = ${lab.id}`
@@ -56,6 +58,70 @@ describe('POST /api/v1/acquisitions', () => {
     expect(regions.body.result.ratios[0]).toMatchObject({ referenceRatio: 0.0111802, referenceRatioU: 0.0000028 })
   })
 
+  it('engine 1.x on request: CODATA 2018 and the non-relativistic relation, as engine 1.0.0 computed', async () => {
+    const { key } = await labWithInstrument()
+    const now = await post(key.secret, co2Acquisition(unique('v2'), 2000))
+    const body = co2Acquisition(unique('v1'), 2000)
+    const old = await post(key.secret, { ...body, processing: { ...body.processing, engine: '1.x' } })
+    expect(old.status, JSON.stringify(old.body)).toBe(201)
+    expect(old.body.result.versions.constants).toBe('CODATA 2018')
+    expect(old.body.result.physics).toEqual({ relativistic: false, compatibility: '1.x' })
+    // At 3 kV the relativistic term and the 2022 m_u move CO2⁺ by about 0.04 ppm: engine 1.x reads higher.
+    const shift = old.body.result.mzRange[0] / now.body.result.mzRange[0] - 1
+    expect(shift).toBeGreaterThan(0.02e-6)
+    expect(shift).toBeLessThan(0.1e-6)
+    const bad = await post(key.secret, { ...body, runId: unique('v0'), processing: { ...body.processing, engine: '0.x' } })
+    expect(bad.status).toBe(422)
+    expect(bad.body.errors[0].path).toBe('processing.engine')
+  })
+
+  it('static multi-collector in volts through registered resistors, with on-peak zeros: ratios cycle by cycle, detectors reported; bad detector input names its field and stores nothing', async () => {
+    const { admin, lab, key, sql } = await labWithInstrument()
+    // Collectors at 36Ar⁺ and 40Ar⁺ for B = 0.48 T at 5 kV, r ∝ √(m/z) (radii computed with the engine's own inverse).
+    const mzL = ionMz(isotope('36Ar').mass, 1)
+    const mzH = ionMz(isotope('40Ar').mass, 1)
+    const B = fieldForMz(mzL, 0.3, 5000)
+    const slug = unique('mc').slice(0, 30)
+    const created = await admin.post(`/api/console/labs/${lab.id}/instruments`, { slug, name: 'Multi one', validFrom: '2026-01-01T00:00:00Z', geometry: {
+      kind: 'multi-collector', collectors: [
+        { id: 'L', effectiveRadius: { value: 0.3, unit: 'm' }, detector: { type: 'faraday', resistor: { value: 100, unit: 'GΩ', u: 0.02 } } },
+        { id: 'H', effectiveRadius: { value: 0.3 * Math.sqrt(mzH / mzL), unit: 'm' }, detector: { type: 'faraday', resistor: { value: 10, unit: 'GΩ', u: 0.002 }, gain: { value: 1.001, u: 0.0001, calibratedOn: '2026-11-01' } } },
+      ] } })
+    expect(created.status, JSON.stringify(created.body)).toBe(201)
+    const sim = simulateStatic({ seed: 9, cycles: 40, integrationS: 4, lightSignal: 1e-12, commonFluctuation: 0.02, baseline: { mode: 'per-cycle' }, cups: [
+      { id: 'L', relative: 1, detector: { type: 'faraday', resistorOhm: 1e11, offsetA: 2e-15, readAs: 'V' } },
+      { id: 'H', relative: 298.56, detector: { type: 'faraday', resistorOhm: 1e10, offsetA: 2e-15, readAs: 'V', gain: 1.001 } },
+    ] })
+    const body = {
+      instrument: slug, runId: unique('static'), acquiredAt: '2026-11-30T10:00:00Z',
+      settings: { field: { value: B, unit: 'T' }, acceleratingVoltage: { value: 5, unit: 'kV' } },
+      detectors: sim.detectors,
+      processing: { formulas: ['[36Ar]', '[40Ar]'], ratios: [{ id: 'AIR:40Ar/36Ar', heavy: '[40Ar]', light: '[36Ar]' }] },
+    }
+    const res = await post(key.secret, body)
+    expect(res.status, JSON.stringify(res.body)).toBe(201)
+    acquisitionView.parse(res.body)
+    const r = res.body.result
+    expect(r.mode).toBe('static')
+    expect(r.cycles).toMatchObject({ count: 40 })
+    expect(r.detectors.map((d: any) => [d.collector, d.type, d.baseline.mode])).toEqual([['L', 'faraday', 'per-cycle'], ['H', 'faraday', 'per-cycle']])
+    const ratio = r.ratios[0]
+    expect(ratio.cycles).toMatchObject({ cycles: 40, used: 40, rejected: 0, dof: 39 })
+    // The 2 % beam fluctuation cancels cycle by cycle: u is the cycle SE with the resistors' and gain's u, far below 2 % of the ratio.
+    expect(ratio.ratioU).toBeLessThan(298.56 * 0.002)
+    expect(Math.abs(ratio.ratio - 298.56)).toBeLessThan(3 * ratio.ratioU)
+    expect(ratio.cycles.systematicU).toBeGreaterThan(0)
+
+    const before = (await countRows(sql, lab.id)).a
+    const noResistor = await post(key.secret, { ...body, runId: unique('static-bad'), instrument: 'ms-1', settings: { ...body.settings }, detectors: [{ unit: 'V', values: [0.1, 0.1] }] })
+    expect(noResistor.status).toBe(422)
+    expect(noResistor.body.errors[0].path).toBe('detectors.0.unit')
+    const noDwell = await post(key.secret, { ...body, runId: unique('static-bad'), detectors: [{ collector: 'L', unit: 'counts', values: [10, 12] }] })
+    expect(noDwell.status).toBe(422)
+    expect(noDwell.body.errors[0].path).toBe('detectors.0.dwell')
+    expect((await countRows(sql, lab.id)).a).toBe(before)
+  })
+
   it('uses the geometry version valid at acquiredAt', async () => {
     const { admin, lab, instrument, key } = await labWithInstrument()
     await admin.post(`/api/console/labs/${lab.id}/instruments/${instrument.id}/geometry-versions`, {
@@ -65,8 +131,11 @@ describe('POST /api/v1/acquisitions', () => {
     const after = await post(key.secret, { ...co2Acquisition(), acquiredAt: '2026-11-30T00:00:00Z' })
     expect(before.body.result.versions.geometry).toBe(1)
     expect(after.body.result.versions.geometry).toBe(2)
-    // m/z ∝ r²: the larger radius reads (27.5/27)² higher.
-    expect(after.body.result.mzRange[0] / before.body.result.mzRange[0]).toBeCloseTo((27.5 / 27) ** 2, 9)
+    // m/z + U/2c²·e/m_u ∝ r² (the exact relation, Jackson 1999 §12.1): the larger radius reads (27.5/27)² higher.
+    // e exact; c exact; m_u CODATA 2022 (Mohr et al., Rev. Mod. Phys. 97 (2025) 025002).
+    const k = 3000 / (2 * 299792458 ** 2) * 1.602176634e-19 / 1.66053906892e-27
+    const m1 = before.body.result.mzRange[0]
+    expect(after.body.result.mzRange[0] / m1).toBeCloseTo(((27.5 / 27) ** 2 * (m1 + k) - k) / m1, 12)
     const early = await post(key.secret, { ...co2Acquisition(), acquiredAt: '2025-06-01T00:00:00Z' })
     expect(early.status).toBe(422)
     expect(early.body.errors[0].path).toBe('acquiredAt')

@@ -10,12 +10,14 @@ await useArcwise()
 const postWithKey = (secret: string, body: unknown) => new ConsoleClient().request('POST', '/api/v1/acquisitions', body, bearer(secret))
 const as = (role: 'admin' | 'lab_manager' | 'integrator' | 'viewer') => new ConsoleClient().signIn(demoUser(role).email, demoUser(role).password)
 
-// Constants for checks made here, not by the engine: the elementary charge is exact since the
-// 2019 SI; m_u = 1.66053906660e-27 kg and m_e = 5.48579909065e-4 u are CODATA 2018 (from memory);
-// the 12C, 14N, 16O and 40Ar masses are AME2020 (from memory).
+// Constants for checks made here, not by the engine: the elementary charge and c are exact
+// since the 2019 SI; m_u = 1.66053906892e-27 kg and m_e = 5.485799090441e-4 u are CODATA 2022
+// (Mohr et al., Rev. Mod. Phys. 97 (2025) 025002); the 12C, 14N, 16O and 40Ar masses are
+// AME2020 (from memory).
 const E = 1.602176634e-19
-const MU = 1.66053906660e-27
-const ME = 5.48579909065e-4
+const C = 299792458
+const MU = 1.66053906892e-27
+const ME = 5.485799090441e-4
 const MASS = { C12: 12, N14: 14.00307400425, O16: 15.99491461926, Ar40: 39.9623831237 }
 
 describe('acquisitions in the console', () => {
@@ -62,11 +64,12 @@ describe('acquisitions in the console', () => {
     expect(buffer.byteLength).toBe(3000 * 16)
     const mz = new Float64Array(buffer, 0, 3000)
     const signal = new Float64Array(buffer, 3000 * 8, 3000)
-    // m/z = (rB)² / 2U · e/m_u for a magnetic sector at accelerating potential U (common practice, no source).
+    // m/z = ((rB)² / 2U − U/2c²) · e/m_u for a magnetic sector at accelerating potential U, the
+    // exact relativistic relation (Jackson, Classical Electrodynamics, 3rd ed., 1999, §12.1).
     const r = sectorGeometry.analyzerRadius.value / 100
-    const expected = (B: number) => (r * B) ** 2 / (2 * 3000) * E / MU
-    expect(mz[0]! / expected(body.sweep.values[0]!) - 1).toBeLessThan(1e-12)
-    expect(mz[2999]! / expected(body.sweep.values[2999]!) - 1).toBeLessThan(1e-12)
+    const expected = (B: number) => ((r * B) ** 2 / (2 * 3000) - 3000 / (2 * C * C)) * E / MU
+    expect(Math.abs(mz[0]! / expected(body.sweep.values[0]!) - 1)).toBeLessThan(1e-12)
+    expect(Math.abs(mz[2999]! / expected(body.sweep.values[2999]!) - 1)).toBeLessThan(1e-12)
     expect(signal[10]).toBeCloseTo(body.detectors[0]!.values[10]! * 1e-15, 25)
 
     const csv = await fetch(url(`${base}/spectrum.csv`), { headers: { cookie: admin.cookie } })
@@ -127,11 +130,28 @@ describe('acquisitions in the console', () => {
     const [{ n: before }] = await sql<[{ n: number }]>`select count(*)::int as n from calibrations where instrument_id = ${instrument.id}`
     expect(before).toBe(0)
 
+    const noSuchGeometry = await admin.post(base, { degree: 1, points: preview.body.points, validFrom: '2026-11-30T12:00:00Z', geometryVersion: 9 })
+    expect(noSuchGeometry.status).toBe(422)
+    expect(noSuchGeometry.body.errors[0].path).toBe('geometryVersion')
     const saved = await admin.post(base, { degree: 1, points: preview.body.points, validFrom: '2026-11-30T12:00:00Z' })
     expect(saved.status).toBe(201)
     const later = await postWithKey(key.secret, { ...co2Acquisition(unique('after-cal'), 2000), acquiredAt: '2026-11-30T13:00:00Z' })
     expect(later.body.result.versions.calibration).toBe(1)
     expect(later.body.result.qc.map((q: any) => q.code)).not.toContain('uncalibrated')
+    expect(later.body.result.calibration).toMatchObject({ state: 'applied', geometryVersion: 1, uncertaintyPropagated: true })
+    // The calibration's own uncertainty is the peaks' m/z uncertainty now: √(gᵀCg) from the stored covariance.
+    expect(later.body.result.peaks[0].centroidU).toBeGreaterThan(0)
+
+    // A new geometry version retires the calibration fitted under the old one: not applied, flagged, marked in the console.
+    await admin.post(`/api/console/labs/${lab.id}/instruments/${instrument.id}/geometry-versions`, { geometry: sectorGeometry, validFrom: '2026-11-30T14:00:00Z', note: 'realigned' })
+    const retired = await postWithKey(key.secret, { ...co2Acquisition(unique('after-geo'), 2000), acquiredAt: '2026-11-30T15:00:00Z' })
+    expect(retired.status).toBe(201)
+    acquisitionView.parse(retired.body)
+    expect(retired.body.result.versions).toMatchObject({ geometry: 2, calibration: null })
+    expect(retired.body.result.calibration).toMatchObject({ state: 'retired', geometryVersion: 1 })
+    expect(retired.body.result.qc.map((q: any) => q.code)).toContain('calibration-retired')
+    const detail = await admin.get(`/api/console/labs/${lab.id}/instruments/${instrument.id}`)
+    expect(detail.body.calibrations[0]).toMatchObject({ version: 1, geometryVersion: 1, retired: true })
   })
 
   it('refuses a calibration from an acquisition it cannot use, naming the field', async () => {

@@ -3,29 +3,36 @@
 import { ELECTRON_MASS as CE_ELECTRON_MASS } from 'chemical-elements'
 import { describe, expect, it } from 'vitest'
 import {
-  ATOMIC_MASS_CONSTANT_KG, CODATA_EDITION, ELECTRON_MASS_U, ELEMENTARY_CHARGE_C, KG_PER_C_TO_U_PER_E,
+  ATOMIC_MASS_CONSTANT_KG, CODATA_2018, CODATA_EDITION, ELECTRON_MASS_U, ELEMENTARY_CHARGE_C, KG_PER_C_TO_U_PER_E, SPEED_OF_LIGHT_M_PER_S,
   formulaSpecies, ionMz, isotope, naturalIsotopes, neutralMassFromMz,
 } from '../../shared/engine'
 
+// CODATA 2022: Mohr, Newell, Taylor, Tiesinga, Rev. Mod. Phys. 97 (2025) 025002 (values
+// checked against the 2022 table as carried by the mp-units codata2022.h header).
+// CODATA 2018: Tiesinga et al., Rev. Mod. Phys. 93 (2021) 025010 (engine 1.x compatibility).
 describe('CODATA constants', () => {
-  it('names its edition', () => expect(CODATA_EDITION).toBe('CODATA 2018'))
+  it('names its edition', () => expect(CODATA_EDITION).toBe('CODATA 2022'))
+
+  it('c = 299 792 458 m/s (exact, SI Brochure, 9th ed.)', () => expect(SPEED_OF_LIGHT_M_PER_S).toBe(299792458))
 
   it('e is exact in the 2019 SI: 1.602 176 634 × 10⁻¹⁹ C (SI Brochure, 9th ed.)', () => {
     expect(ELEMENTARY_CHARGE_C).toBe(1.602176634e-19)
   })
 
-  it('m_u = 1.660 539 066 60(50) × 10⁻²⁷ kg (CODATA 2018)', () => {
-    expect(ATOMIC_MASS_CONSTANT_KG).toBe(1.6605390666e-27)
+  it('m_u = 1.660 539 068 92(52) × 10⁻²⁷ kg (CODATA 2022); 1.660 539 066 60(50) × 10⁻²⁷ kg (CODATA 2018)', () => {
+    expect(ATOMIC_MASS_CONSTANT_KG).toBe(1.66053906892e-27)
+    expect(CODATA_2018.atomicMassConstantKg).toBe(1.6605390666e-27)
   })
 
-  it('e/m_u equals F / M_u: 96 485.332 12 C/mol over 0.999 999 999 65 × 10⁻³ kg/mol (CODATA 2018)', () => {
-    const faraday = 96485.33212
-    const molarMassConstant = 0.99999999965e-3
+  it('e/m_u equals N_A·e / (N_A·m_u): F = 96 485.332 12 C/mol (exact N_A, e) over M_u = 1.000 000 001 05(31) × 10⁻³ kg/mol (CODATA 2022, from memory)', () => {
+    const faraday = 6.02214076e23 * 1.602176634e-19
+    const molarMassConstant = 1.00000000105e-3
     expect(KG_PER_C_TO_U_PER_E / (faraday / molarMassConstant) - 1).toBeCloseTo(0, 9)
   })
 
-  it('m_e = 5.485 799 090 65(16) × 10⁻⁴ u (CODATA 2018), and chemical-elements agrees to 10⁻¹⁰ u', () => {
-    expect(ELECTRON_MASS_U).toBe(5.48579909065e-4)
+  it('m_e = 5.485 799 090 441(97) × 10⁻⁴ u (CODATA 2022), and chemical-elements agrees to 10⁻¹⁰ u', () => {
+    expect(ELECTRON_MASS_U).toBe(5.485799090441e-4)
+    expect(CODATA_2018.electronMassU).toBe(5.48579909065e-4)
     expect(Math.abs(ELECTRON_MASS_U - CE_ELECTRON_MASS)).toBeLessThan(1e-10)
   })
 })
