@@ -154,12 +154,16 @@ describe('retries, classes and dead letters', () => {
     await ctx.post()
     const dead = await ctx.delivery('dead')
     await until('both dead', async () => (await ctx.admin.get(`/api/console/partners/${ctx.partner.id}/deliveries?status=dead`)).body.items.length === 2)
+    const hitsOfDead = () => hitsTo(path).filter(h => h.headers['webhook-id'] === dead.id).length
+    const before = hitsOfDead()
     script.set(path, [() => ({ status: 200 })])
     expect((await ctx.admin.post(`/api/console/partners/${ctx.partner.id}/deliveries/${dead.id}/replay`)).body).toEqual({ replayed: 1 })
     await until('the replay to succeed', async () => (await ctx.detail(dead.id)).status === 'succeeded')
     const attempts = (await ctx.detail(dead.id)).attempts
     expect(attempts.at(-1)).toMatchObject({ class: 'success', replay: true })
-    expect(new Set(hitsTo(path).filter(h => h.headers['webhook-id'] === dead.id).map(h => h.headers['webhook-id'])).size).toBe(1)
+    // The replay reached the receiver once more under the same webhook-id, and only once.
+    expect(before).toBeGreaterThan(0)
+    expect(hitsOfDead()).toBe(before + 1)
     // A succeeded delivery is not replayable; the other dead one goes in bulk.
     expect((await ctx.admin.post(`/api/console/partners/${ctx.partner.id}/deliveries/${dead.id}/replay`)).status).toBe(409)
     expect((await ctx.admin.post(`/api/console/partners/${ctx.partner.id}/deliveries/replay`, { endpoint: ctx.endpoint.id })).body).toEqual({ replayed: 1 })
