@@ -13,7 +13,8 @@ import { EngineError } from './errors'
 //    u were too small); unweighted, C = s²(AᵀA)⁻¹ with s² = Σr²/ν. ν = n − p.
 //  - RMS of the residuals in ppm over ν = n − p (the fit spends p degrees of freedom).
 //  - The correction's uncertainty at x: u² = gᵀCg, g = (1, t, …, tᵈ) (GUM 5.2.2 with the
-//    coefficients' covariances), combined with the point's own u times the slope.
+//    coefficients' covariances); the pipeline adds the peak's own centroid u in quadrature
+//    (the correction's slope is 1 within ppm, so it is not carried).
 //  - The calibrated range is the reference peaks' measured span; m/z more than
 //    CALIBRATION_MARGIN of that span beyond it is flagged (extrapolation).
 
@@ -138,14 +139,6 @@ export function calibrationU(fit: AppliedCalibration, mz: number): number | null
   let s = 0
   for (let i = 0; i < g.length; i++) for (let j = 0; j < g.length; j++) s += g[i]! * C[i]![j]! * g[j]!
   return Math.sqrt(Math.max(0, s))
-}
-
-/** Slope d(calibrated)/d(measured) at x, to carry a point's own u through the correction. */
-export function calibrationSlope(fit: AppliedCalibration, mz: number): number {
-  const t = (mz - fit.center) / fit.halfRange
-  let d = 0
-  for (let k = fit.coefficients.length - 1; k >= 1; k--) d = d * t + k * fit.coefficients[k]!
-  return d / fit.halfRange
 }
 
 /** The measured m/z span the fit covers, with the margin; stored fits of engine 1 span center ± halfRange. */

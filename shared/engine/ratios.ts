@@ -16,7 +16,7 @@ export const referenceRatios = {
   'VSMOW:18O/16O': { standard: 'VSMOW', heavy: '18O', light: '16O', ratio: 2005.20e-6, ratioU: 0.43e-6, delta: 'δ18O', source: 'Baertschi, Earth Planet. Sci. Lett. 31 (1976) 341' },
   // Air N2: 14N/15N = 272.0(3), so 15N/14N = 0.0036765(41) (Junk & Svec, Geochim. Cosmochim. Acta 14 (1958) 234; from memory)
   'AIR:15N/14N': { standard: 'AIR', heavy: '15N', light: '14N', ratio: 0.0036765, ratioU: 0.0000041, delta: 'δ15N', source: 'Junk & Svec, Geochim. Cosmochim. Acta 14 (1958) 234' },
-  // Air argon: 40Ar/36Ar = 298.56(31) (Lee et al., Geochim. Cosmochim. Acta 70 (2006) 4507)
+  // Air argon: 40Ar/36Ar = 298.56(31) (Lee et al., Geochim. Cosmochim. Acta 70 (2006) 4507); from memory
   'AIR:40Ar/36Ar': { standard: 'AIR', heavy: '40Ar', light: '36Ar', ratio: 298.56, ratioU: 0.31, delta: 'δ40Ar', source: 'Lee et al., Geochim. Cosmochim. Acta 70 (2006) 4507' },
 } as const
 

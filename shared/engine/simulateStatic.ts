@@ -37,11 +37,13 @@ export interface StaticSimulation {
   /** Relative standard deviation of the beam from cycle to cycle, common to every cup. */
   commonFluctuation: number
   cups: SimCup[]
+  /** Resistor temperature for Johnson–Nyquist noise; default 293.15 K, room temperature (common practice, no source). */
   temperatureK?: number
   /** Baseline readings: one per cycle (on-peak zero), a block of n after the cycles, or none. */
   baseline?: { mode: 'per-cycle' } | { mode: 'block', readings: number } | { mode: 'none' }
   /** Probability that a cycle carries a spike (a discharge) of +spikeSize relative on one cup. */
   spikeRate?: number
+  /** Default 0.05 (5 %): a made-up discharge size for the tests (common practice, no source). */
   spikeSize?: number
 }
 

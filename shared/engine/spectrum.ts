@@ -39,11 +39,11 @@ const FWHM_PER_SIGMA = 2 * Math.sqrt(2 * Math.LN2)
 // power (IUPAC Recommendations 2013, Murray et al., Pure Appl. Chem. 85 (2013) 1515; the
 // equivalence with the width at 5 % height is common practice, no source).
 const WIDTH5_PER_SIGMA = 2 * Math.sqrt(2 * Math.log(20))
-/** Half-width of the area window in fitted σ: 4σ leaves 6·10^-5 of a Gaussian outside. */
+/** Half-width of the area window in fitted σ: 4σ leaves 6·10^-5 of a Gaussian outside (the choice of 4: common practice, no source). */
 const AREA_WINDOW_SIGMAS = 4
-/** Points at the floor a counted peak's region may bridge (a tail of 2 counts a point holds zeros). */
+/** Points at the floor a counted peak's region may bridge (a tail of 2 counts a point holds zeros; common practice, no source). */
 const COUNTING_GAP = 3
-/** Half-width of the fitting window in fitted σ. */
+/** Half-width of the fitting window in fitted σ (common practice, no source). */
 const FIT_WINDOW_SIGMAS = 2.5
 
 /**
@@ -114,7 +114,8 @@ export function noiseFromDifferences(y: Float64Array): number {
  * A first level below the peaks: the lower cluster of the values. Starting from the 2 %
  * quantile plus 2.05σ (where the 2 % quantile of pure normal noise lies), the median of the
  * values within 3σ above the level is taken until it settles, so peaks that fill most of
- * the sweep do not pull the level up.
+ * the sweep do not pull the level up. The 2 % start, the 3σ limit and the 8 passes are
+ * common practice, no source.
  */
 function lowerClusterLevel(y: Float64Array, noise: number): number {
   const stride = strideOf(y.length)
@@ -179,7 +180,10 @@ interface NoiseModel {
   level: number
 }
 
-/** σ² of one point whose expected value is `expected` (above zero). */
+/**
+ * σ² of one point whose expected value is `expected` (above zero); at least a thousandth of
+ * a count per dwell, so an empty stretch never has zero variance (common practice, no source).
+ */
 function pointVariance(model: NoiseModel, expected: number): number {
   return model.poisson ? Math.max(expected, model.level, 1 / model.dwell / 1e3) / model.dwell : model.noise * model.noise
 }
@@ -316,7 +320,8 @@ export function estimateBaseline(mz: Float64Array, y: Float64Array, options: Bas
     noise = poisson ? 0 : Math.max(outside.sd, 0)
     const previousNoise = estimate.noise
     estimate = baselineFrom(level, noise, outside.count, 'estimated', dwell)
-    // A second pass only when the first moved the level or the noise by more than 5 %σ.
+    // A second pass only when the first moved the level or the noise by more than 5 %σ
+    // (common practice, no source).
     if (moved <= 0.05 * estimate.noise && Math.abs(estimate.noise - previousNoise) <= 0.05 * estimate.noise) break
   }
   return estimate
@@ -327,7 +332,8 @@ function thresholds(model: NoiseModel, n: number, minSnr: number): { threshold: 
   if (model.poisson) {
     // Counted data: a point is a peak candidate when its count is improbable under the
     // baseline rate, P(X ≥ k) ≤ 10^-3 / n over the sweep (a family-wise 10^-3 false alarm),
-    // and above minSnr·√λ as for normal noise. λ is at least one count in 10^4 points.
+    // and above minSnr·√λ as for normal noise. λ is at least one count in 10^4 points. The
+    // 10^-3 family-wise rate and the 10^-4 floor are common practice, no source.
     const lambda = Math.max(model.level * model.dwell, 1e-4)
     const k = Math.max(poissonThreshold(lambda, 1e-3 / Math.max(1, n)), lambda + minSnr * Math.sqrt(lambda))
     return { threshold: (k - 0.5) / model.dwell, floor: (lambda + Math.sqrt(lambda)) / model.dwell }
