@@ -36,5 +36,4 @@ export default defineEventHandler((event) => {
   })
   // HSTS only means something over HTTPS (RFC 6797 §7.2: not sent over plain HTTP).
   if (https) setResponseHeader(event, 'strict-transport-security', 'max-age=31536000; includeSubDomains')
-  removeResponseHeader(event, 'x-powered-by')
 })

@@ -28,10 +28,26 @@ export function consumeRateLimit(kind: 'lab-key' | 'partner', id: string): Promi
   return countTogether(`${kind}:${id}`)
 }
 
+// Limits counted per minute by one key, in the same table: a limiter per key prefix and
+// allowance (a changed allowance gets a fresh limiter), refused with 429 and Retry-After.
+const perMinuteLimiters = new Map<string, RateLimiterDrizzle>()
+
+/** Counts one action under `keyPrefix` for `key`; 429 with Retry-After, and `message(seconds)`, past `perMinute`. */
+export async function consumePerMinute(keyPrefix: string, key: string, perMinute: number, message: (seconds: number) => string): Promise<void> {
+  const id = `${keyPrefix}:${perMinute}`
+  let limiter = perMinuteLimiters.get(id)
+  if (!limiter) perMinuteLimiters.set(id, limiter = new RateLimiterDrizzle({ storeClient: useDb(), schema: rateLimits, keyPrefix, points: perMinute, duration: 60 }))
+  try { await limiter.consume(key) }
+  catch (refusal) {
+    if (!(refusal instanceof RateLimiterRes)) throw refusal
+    const seconds = Math.max(1, Math.ceil(refusal.msBeforeNext / 1000))
+    throw problem(429, 'rate-limited', message(seconds), { headers: { 'retry-after': String(seconds) } })
+  }
+}
+
 // Test sends and replays make the hub send on a person's click: counted per partner per
-// minute (webhooks.testSendsPerMinute, webhooks.replaysPerMinute), in the same table, so a
-// script cannot turn the hub into a request cannon aimed at a receiver.
-const partnerActionLimiters = new Map<string, RateLimiterDrizzle>()
+// minute (webhooks.testSendsPerMinute, webhooks.replaysPerMinute), so a script cannot turn
+// the hub into a request cannon aimed at a receiver.
 const actionSettings = { 'test-send': 'testSendsPerMinute', 'replay': 'replaysPerMinute' } as const
 const actionWords = { 'test-send': 'test sends', 'replay': 'replays' } as const
 
@@ -39,12 +55,5 @@ const actionWords = { 'test-send': 'test sends', 'replay': 'replays' } as const
 export async function consumePartnerAction(action: keyof typeof actionSettings, partnerId: string): Promise<void> {
   const perMinute = Number(useRuntimeConfig().webhooks[actionSettings[action]])
   if (perMinute === 0) return
-  let limiter = partnerActionLimiters.get(action)
-  if (!limiter) partnerActionLimiters.set(action, limiter = new RateLimiterDrizzle({ storeClient: useDb(), schema: rateLimits, keyPrefix: `partner-${action}`, points: perMinute, duration: 60 }))
-  try { await limiter.consume(partnerId) }
-  catch (refusal) {
-    if (!(refusal instanceof RateLimiterRes)) throw refusal
-    const seconds = Math.max(1, Math.ceil(refusal.msBeforeNext / 1000))
-    throw problem(429, 'rate-limited', `At most ${perMinute} ${actionWords[action]} a minute per partner; retry in ${seconds} s.`, { headers: { 'retry-after': String(seconds) } })
-  }
+  await consumePerMinute(`partner-${action}`, partnerId, perMinute, seconds => `At most ${perMinute} ${actionWords[action]} a minute per partner; retry in ${seconds} s.`)
 }

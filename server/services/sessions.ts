@@ -1,7 +1,7 @@
 import type { H3Event } from 'h3'
 import { and, eq, gt, isNull, sql } from 'drizzle-orm'
-import { RateLimiterDrizzle, RateLimiterRes } from 'rate-limiter-flexible'
-import { rateLimits, userSessions, users } from '../database/schema'
+import { userSessions, users } from '../database/schema'
+import { consumePerMinute } from './rateLimits'
 import type { SessionUser } from '#shared/types/roles'
 
 // Console sessions: the sealed cookie (nuxt-auth-utils) names the user, the session version a
@@ -63,20 +63,10 @@ export function openSessionCount() {
 // Console changes (POST, PATCH, PUT, DELETE under /api/console) per user per minute, counted
 // in PostgreSQL so the limit holds across app processes. A person clicking through the
 // console makes a few a minute; a script driving a stolen session, thousands.
-let consoleLimiter: { points: number, limiter: RateLimiterDrizzle } | undefined
-
 /** Counts one console change by `userId`; 429 with Retry-After past the limit. */
 export async function consumeConsoleChange(userId: string) {
   const { perMinute, consolePerMinute } = useRuntimeConfig().rateLimit
   const points = Number(consolePerMinute)
   if (Number(perMinute) === 0 || points === 0) return
-  if (consoleLimiter?.points !== points) {
-    consoleLimiter = { points, limiter: new RateLimiterDrizzle({ storeClient: useDb(), schema: rateLimits, keyPrefix: 'console', points, duration: 60 }) }
-  }
-  try { await consoleLimiter.limiter.consume(userId) }
-  catch (refused) {
-    if (!(refused instanceof RateLimiterRes)) throw refused
-    const seconds = Math.max(1, Math.ceil(refused.msBeforeNext / 1000))
-    throw problem(429, 'rate-limited', `Too many console changes; retry in ${seconds} s.`, { headers: { 'retry-after': String(seconds) } })
-  }
+  await consumePerMinute('console', userId, points, seconds => `Too many console changes; retry in ${seconds} s.`)
 }

@@ -5,7 +5,7 @@ import { afterAll, describe, expect, it } from 'vitest'
 import { acquisitionView } from '../../shared/schemas/responses'
 import { demoUser } from '../support/demo'
 import { bearer, co2Acquisition } from '../support/lab'
-import { ConsoleClient, testDb, unique, useArcwise, waitForMail } from '../support/server'
+import { ConsoleClient, expectRateLimited, testDb, unique, useArcwise, waitForMail } from '../support/server'
 import { grantedPartnerWithEndpoint, until } from '../support/webhooks'
 
 // Limits of webhook delivery, with the server configured small: messages over 1 KiB are sent
@@ -74,16 +74,6 @@ describe('webhook limits', () => {
     expect(dead).toHaveLength(1)
   })
 })
-
-/** A problem document for 429 with a Retry-After of 1..60 seconds. */
-function expectRateLimited(res: { status: number, headers: Headers, body: any }) {
-  expect(res.status).toBe(429)
-  expect(res.headers.get('content-type')).toContain('application/problem+json')
-  expect(res.body).toMatchObject({ status: 429, type: 'urn:arcwise:problem:rate-limited' })
-  const retryAfter = Number(res.headers.get('retry-after'))
-  expect(retryAfter).toBeGreaterThanOrEqual(1)
-  expect(retryAfter).toBeLessThanOrEqual(60)
-}
 
 describe('limits a partner cannot push past', () => {
   it('refuses a fourth endpoint with 409, even when five are added at once, and takes one again after a delete', async () => {

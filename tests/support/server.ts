@@ -2,7 +2,7 @@ import { spawn, type ChildProcess } from 'node:child_process'
 import { join } from 'node:path'
 import { setup, url } from '@nuxt/test-utils/e2e'
 import postgres from 'postgres'
-import { afterAll } from 'vitest'
+import { afterAll, expect } from 'vitest'
 import { rootDir, testEnv } from './env'
 
 const chromiumArgs = ['--no-sandbox', '--headless', '--disable-gpu', '--disable-quic', '--disable-background-networking', '--disable-component-update', '--disable-sync', '--no-first-run']
@@ -50,6 +50,16 @@ export function testDb(): postgres.Sql {
 }
 
 export interface ApiResponse<T = any> { status: number, body: T, headers: Headers }
+
+/** A problem document for 429 with a Retry-After of 1..60 seconds. */
+export function expectRateLimited(res: ApiResponse) {
+  expect(res.status).toBe(429)
+  expect(res.headers.get('content-type')).toContain('application/problem+json')
+  expect(res.body).toMatchObject({ status: 429, type: 'urn:arcwise:problem:rate-limited' })
+  const retryAfter = Number(res.headers.get('retry-after'))
+  expect(retryAfter).toBeGreaterThanOrEqual(1)
+  expect(retryAfter).toBeLessThanOrEqual(60)
+}
 
 /** A console client: keeps the session cookie it is given, like a browser would. */
 export class ConsoleClient {
