@@ -1,0 +1,51 @@
+import { z } from 'zod'
+
+// A measurement method as a lab registers it per instrument (versioned by the server): the gas,
+// the corrections in the order they run, the standards that anchor the scale and the rules a
+// sequence must pass. The engine (shared/engine/isotopes) reads exactly this shape.
+
+const finite = z.number({ error: 'must be a finite number' }).finite('must be a finite number')
+const materialId = z.string({ error: 'is required' }).trim().min(1, 'is required').max(64)
+
+export const methodStep = z.discriminatedUnion('step', [
+  /** Subtract the mean of the sequence's blanks from every beam (procedural blank). */
+  z.object({ step: z.literal('blank') }).strict(),
+  /** δ of each acquisition against the reference gas measured beside it. */
+  z.object({ step: z.literal('reference-gas'), bracketing: z.enum(['nearest', 'neighbours-mean']).default('neighbours-mean') }).strict(),
+  /** H2: the H3+ factor from reference-gas acquisitions of different intensity. */
+  z.object({ step: z.literal('h3-factor') }).strict(),
+  /** CO2: 17O correction of the 45 and 46 ratios with a named parameter set. */
+  z.object({ step: z.literal('oxygen-17'), parameters: z.enum(['brand-2010']).default('brand-2010') }).strict(),
+  /** Drift from a repeated standard, linear in time or in position. */
+  z.object({ step: z.literal('drift'), model: z.enum(['linear-time', 'linear-position']), material: materialId }).strict(),
+  /** Normalisation to the international scale by regression on the anchor standards (one anchor: a shift only). */
+  z.object({ step: z.literal('normalise'), anchors: z.array(materialId).min(1, 'needs at least one anchor standard').max(10) }).strict(),
+  /** Static vacuum: each beam regressed to the time the gas was let in. */
+  z.object({ step: z.literal('time-zero'), model: z.enum(['linear', 'exponential']).default('linear') }).strict(),
+  /** Mass bias by a law, against an air standard in the sequence or an internal ratio of known value. */
+  z.object({
+    step: z.literal('mass-bias'),
+    law: z.enum(['linear', 'power', 'exponential']),
+    against: z.enum(['standard', 'internal']),
+    material: materialId.optional(),
+    /** Internal normalisation: the ratio ("38/36") whose true value is the material's. */
+    ratio: z.string().max(16).optional(),
+  }).strict(),
+], { error: 'must name a known step' })
+export type MethodStep = z.infer<typeof methodStep>
+
+export const methodDefinition = z.object({
+  gas: z.enum(['CO2', 'N2', 'O2', 'H2', 'Ar'], { error: 'must be CO2, N2, O2, H2 or Ar' }),
+  /** δ of the laboratory reference gas on the international scale(s), by quantity ("δ13C"). */
+  referenceGas: z.record(z.string().max(16), z.object({ value: finite, u: finite.min(0) }).strict()).optional(),
+  /** CO2: δ18O reported on VPDB (carbonates' convention) or VSMOW. */
+  oxygenScale: z.enum(['VPDB', 'VSMOW']).optional(),
+  steps: z.array(methodStep).min(1, 'needs at least one step').max(16),
+  acceptance: z.object({
+    /** The largest |residual| a standard may have after normalisation, ‰ (or relative ‰ for ratios). */
+    maxStandardResidual: finite.positive().optional(),
+    /** Fewest anchor standards (distinct materials) the normalisation needs. */
+    minAnchors: z.number().int().min(1).max(10).default(2),
+  }).strict().default({ minAnchors: 2 }),
+}).strict()
+export type MethodDefinition = z.infer<typeof methodDefinition>
