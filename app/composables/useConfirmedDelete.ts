@@ -9,7 +9,7 @@ export function useConfirmedDelete(refresh: () => Promise<unknown>) {
   async function confirmAndDelete(url: string, question: string, fallback: string) {
     if (!confirm(question)) return
     error.value = null
-    await $fetch(url as string, { method: 'DELETE' }).catch((e: { data?: ProblemDocument }) => { error.value = e.data?.detail ?? fallback })
+    await $fetch(url, { method: 'DELETE' }).catch((e: { data?: ProblemDocument }) => { error.value = e.data?.detail ?? fallback })
     await refresh()
   }
   return { error, confirmAndDelete }

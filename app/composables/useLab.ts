@@ -1,5 +1,3 @@
-import type { LabView } from '#shared/types/views'
-
 /**
  * What every tab of a lab needs: its id from the route, the lab (or the 404 page when it is
  * not there or not the user's), and whether the user may manage it.
@@ -8,6 +6,6 @@ export async function useLab() {
   const account = useAccountStore()
   const id = useRoute().params.id as string
   const canWrite = computed(() => account.allows('labs:manage'))
-  const { data: lab, refresh } = await useRecordOr404<LabView>(`/api/console/labs/${id}`, 'lab')
+  const { data: lab, refresh } = await useRecordOr404(useFetch(`/api/console/labs/${id}`), 'lab')
   return { id, lab, refresh, canWrite, account }
 }

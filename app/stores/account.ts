@@ -9,7 +9,7 @@ export const useAccountStore = defineStore('account', () => {
   async function load(force = false) {
     if (loaded.value && !force) return user.value
     const headers = import.meta.server ? useRequestHeaders(['cookie']) : undefined
-    user.value = await $fetch<SessionUser>('/api/console/me', { headers }).catch(() => null)
+    user.value = await $fetch('/api/console/me', { headers }).catch(() => null)
     loaded.value = true
     return user.value
   }

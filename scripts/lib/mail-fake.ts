@@ -7,16 +7,9 @@ import { dirname } from 'node:path'
 import { randomUUID } from 'node:crypto'
 import { SMTPServer } from 'smtp-server'
 import { simpleParser } from 'mailparser'
+import type { CapturedMail as CapturedMessage } from '../../shared/schemas/responses'
 
-export interface CapturedMessage {
-  id: string
-  receivedAt: string
-  from: string
-  to: string[]
-  subject: string
-  text: string
-  html: string
-}
+export type { CapturedMessage }
 
 export interface MailFake {
   smtpPort: number

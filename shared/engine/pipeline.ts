@@ -51,27 +51,19 @@ export interface EngineOptions {
   dwellS?: number
 }
 
-export interface ResultPeak {
+/**
+ * A peak as a result reports it: the profile fit's own figures (`Peak`, see spectrum.ts), the
+ * centroid's uncertainty combined with the geometry's, and the assignment.
+ */
+export type ResultPeak = Pick<Peak, 'centroid' | 'height' | 'heightU' | 'area' | 'areaU' | 'fwhm' | 'fwhmU' | 'snr'
+  | 'resolvingPower' | 'resolvingPowerU' | 'resolvingPower10ValleyU' | 'fitted' | 'overlapping'> & {
   collector: string
-  centroid: number
   /** Combined standard uncertainty: the fit's (noise) and the geometry's, in quadrature. */
   centroidU: number
-  /** The fit's share alone (null: not estimated, the fit failed). */
-  centroidUFit: number | null
-  height: number
-  heightU: number | null
-  area: number
-  areaU: number
-  fwhm: number
-  fwhmU: number | null
-  snr: number
-  resolvingPower: number
-  resolvingPowerU: number | null
-  resolvingPower10Valley: number | null
-  resolvingPower10ValleyU: number | null
-  /** Centroid and width come from a Gaussian fit (false: from the points; u not estimated). */
-  fitted: boolean
-  overlapping: boolean
+  /** The fit's share alone (`Peak.centroidU`; null: not estimated, the fit failed). */
+  centroidUFit: Peak['centroidU']
+  /** null: not estimated (a static reading has no profile). */
+  resolvingPower10Valley: Peak['resolvingPower10Valley'] | null
   assignment: (Candidate & { impliedNeutralMass: number, impliedNeutralMassU: number }) | null
   ambiguous: boolean
   candidates: Candidate[]

@@ -162,6 +162,12 @@ export const uploadStatusView = z.object({
   finishedAt: z.iso.datetime({ offset: true }).nullable(), acquisitionUrl: z.string().nullable(), problem: problemDocument.nullable(),
 }).strict()
 
+/** A message the local SMTP fake kept (scripts/lib/mail-fake.ts), as the console's captured-mail page lists it. */
+export const capturedMail = z.object({
+  id: z.string(), receivedAt: z.iso.datetime({ offset: true }), from: z.string(), to: z.array(z.string()), subject: z.string(), text: z.string(), html: z.string(),
+}).strict()
+export type CapturedMail = z.infer<typeof capturedMail>
+
 export const jwksView = z.object({ keys: z.array(z.record(z.string(), z.unknown())) })
 
 export { problemDocument }
