@@ -1,3 +1,4 @@
+import { createNodeResolver, importX } from 'eslint-plugin-import-x'
 import regexp from 'eslint-plugin-regexp'
 import withNuxt from './.nuxt/eslint.config.mjs'
 
@@ -29,5 +30,18 @@ export default withNuxt(
         { selector: 'CallExpression[callee.name=/^(readMultipartFormData|readFormData)$/]', message: 'Multipart bodies are streamed with busboy through readBodyStream (server/services/uploads.ts).' },
       ],
     },
+  },
+  // No import cycles in the server or in shared/: a capability imports another's index and
+  // is never imported back by it (server/services/<capability>/index.ts). Auto-imports are
+  // not seen here, so services import what they use from other capabilities explicitly.
+  {
+    files: ['server/**/*.ts', 'shared/**/*.ts'],
+    plugins: { 'import-x': importX },
+    settings: {
+      'import-x/resolver-next': [createNodeResolver({ extensions: ['.ts', '.mjs', '.js', '.json'] })],
+      'import-x/extensions': ['.ts', '.mjs', '.js'],
+      'import-x/parsers': { '@typescript-eslint/parser': ['.ts'] },
+    },
+    rules: { 'import-x/no-cycle': ['error', { ignoreExternal: true }] },
   },
 )
