@@ -3,8 +3,10 @@ import { and, desc, eq, inArray, sql, type SQL } from 'drizzle-orm'
 import { TEST_EVENT, type EndpointInput, type EndpointUpdate } from '#shared/schemas/webhooks'
 import { deliveries, deliveryAttempts, grants, partners, webhookEndpoints } from '../../database/schema'
 import { consumePartnerAction } from '../access'
-import { checkOutboundUrlResolved, GuardRefusal } from './outbound'
-import { deliveryMessage, secretsOf, sendOnce, signedHeaders } from './worker'
+import { GuardRefusal } from './addressGuard'
+import { checkOutboundUrlResolved } from './outbound'
+import { deliveryMessage, signedHeaders } from './message'
+import { secretsOf, sendOnce } from './send'
 
 // A partner's webhook endpoints. The signing secret is Standard Webhooks' `whsec_` + base64
 // of 32 random bytes, sealed at rest, shown when made and on an explicit reveal.
@@ -145,7 +147,7 @@ export async function sendTestEvent(audit: AuditContext, partnerId: string, endp
   const partner = await useDb().query.partners.findFirst({ where: eq(partners.id, partnerId), columns: { slug: true } })
   const testPayload = { message: 'A test message from Arcwise: your endpoint received and can verify it.', partner: partner?.slug, endpointId, sentBy: audit.actor.label }
   const delivery = firstRow(await useDb().insert(deliveries).values({ endpointId, eventType: TEST_EVENT, testPayload, status: 'pending', nextAttemptAt: sql`'infinity'::timestamptz` }).returning({ id: deliveries.id }))
-  const { body } = deliveryMessage({ event_type: TEST_EVENT, test_payload: testPayload, payload_text: null, sequence: null, lab: null, event_at: null, event_id: null }, Infinity)
+  const { body } = deliveryMessage({ event_type: TEST_EVENT, test_payload: testPayload, payload_text: null, sequence: null, lab: null, event_at: null, event_id: null }, Infinity, '')
   const headers = signedHeaders(delivery.id, body, secretsOf({ sealed_secret: ep.sealedSecret, previous_sealed_secret: ep.previousSealedSecret, previous_secret_until: ep.previousSecretUntil?.toISOString() ?? null }))
   const outcome = await sendOnce(ep.url, headers, body)
   const ok = outcome.class === 'success'

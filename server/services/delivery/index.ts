@@ -2,4 +2,6 @@
 // worker (claim, sign and send through the SSRF guard, record), and the delivery log.
 export { fanOut, listEndpoints, getEndpoint, createEndpoint, updateEndpoint, deleteEndpoint, revealSecret, rotateSecret, sendTestEvent } from './endpoints'
 export { listDeliveries, deliveryLogCsv, getDelivery, replayDelivery, replayMatching } from './log'
-export { signedHeaders, sendOnce, kickDeliveries, startDeliveryWorker, stopDeliveryWorker } from './worker'
+export { signedHeaders } from './message'
+export { sendOnce } from './send'
+export { kickDeliveries, startDeliveryWorker, stopDeliveryWorker } from './worker'

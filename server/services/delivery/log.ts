@@ -4,7 +4,8 @@ import type { z } from 'zod'
 import type { deliveryFilter, deliveryListQuery, replayFilter } from '#shared/schemas/webhooks'
 import { deliveries, deliveryAttempts, events, labs, webhookEndpoints } from '../../database/schema'
 import { consumePartnerAction } from '../access'
-import { eventMessageBody, kickDeliveries } from './worker'
+import { deliveryMessage, type BodySource } from './message'
+import { kickDeliveries } from './worker'
 
 // The delivery log of a partner: every delivery to its endpoints with its attempts, and
 // replays. "failing" is a delivery still pending after at least one failed attempt.
@@ -66,6 +67,14 @@ export async function deliveryLogCsv(partnerId: string, filter: z.output<typeof 
     r.id, r.createdAt.toISOString(), r.eventType, r.lab ?? '', r.sequence ?? '', r.url, r.state, r.attempts, r.lastClass ?? '', r.lastStatusCode ?? '',
     r.nextAttemptAt?.toISOString() ?? '', r.finishedAt?.toISOString() ?? '',
   ]), { header: true, columns: ['webhook_id', 'created_at', 'event_type', 'lab', 'sequence', 'url', 'status', 'attempts', 'last_class', 'last_status_code', 'next_attempt_at', 'finished_at'] })
+}
+
+/** An event's whole message as the worker sent it, for an attempt that did not store its body. */
+async function eventMessageBody(eventId: string): Promise<string | null> {
+  const [row] = await useDb().execute<BodySource>(sql`
+    select ev.id as event_id, ev.type as event_type, null as test_payload, ev.payload::text as payload_text, ev.sequence, l.slug as lab, ev.created_at::text as event_at
+    from ${events} ev join ${labs} l on l.id = ev.lab_id where ev.id = ${eventId}`)
+  return row ? deliveryMessage(row, Infinity, '').body : null
 }
 
 /** One delivery of the partner with every attempt, oldest first. */

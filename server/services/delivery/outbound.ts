@@ -2,6 +2,7 @@ import { lookup as dnsLookup, promises as dns, type LookupAddress } from 'node:d
 import { EventEmitter } from 'node:events'
 import ipaddr from 'ipaddr.js'
 import { Agent, request } from 'undici'
+import { checkUrlAgainst, GuardRefusal, isAllowlisted as isAllowlistedBy, literalHost, refusedAddress, type OutboundPolicy } from './addressGuard'
 
 // Outbound HTTP for webhooks, behind a guard against server-side request forgery: only
 // http(s), allowed ports, no credentials in the URL, and every address the request would
@@ -10,56 +11,20 @@ import { Agent, request } from 'undici'
 // resolves to 127.0.0.1 is refused as well). Outside the configured allowlist, the only way
 // past it, webhooks use https: a signed result sent in clear text is readable on the way.
 
-export class GuardRefusal extends Error {
-  code = 'GUARD_REFUSED'
-}
-
-let parsed: { allowHosts: Set<string>, ports: Set<number> } | undefined
-function settings() {
+let parsed: OutboundPolicy | undefined
+function settings(): OutboundPolicy {
   if (parsed) return parsed
   const { webhooks } = useRuntimeConfig()
   const list = (v: unknown) => String(v ?? '').split(',').map(s => s.trim().toLowerCase()).filter(Boolean)
   return (parsed = { allowHosts: new Set(list(webhooks.allowHosts)), ports: new Set(list(webhooks.allowedPorts).map(Number)) })
 }
 
-/** Why an address may not be reached, or null for a global unicast address. */
-export function refusedAddress(address: string): string | null {
-  if (!ipaddr.isValid(address)) return 'not an IP address'
-  // process() turns IPv4-mapped IPv6 (::ffff:127.0.0.1) into the IPv4 address it carries.
-  const range = ipaddr.process(address).range()
-  return range === 'unicast' ? null : `${address} is a ${range} address`
-}
+const isAllowlisted = (url: URL) => isAllowlistedBy(url, settings())
 
-function isAllowlisted(url: URL): boolean {
-  const { allowHosts } = settings()
-  const host = url.hostname.toLowerCase()
-  const port = url.port || (url.protocol === 'https:' ? '443' : '80')
-  return allowHosts.has(host) || allowHosts.has(`${host}:${port}`)
-}
-
-/**
- * Checks a webhook URL before it is stored or sent to. WHATWG URL parsing has already
- * normalised IPv4 literals written in decimal, hex, octal or shortened form.
- */
+/** Checks a webhook URL before it is stored or sent to (checkUrlAgainst, with the configured allowlist and ports). */
 export function checkOutboundUrl(raw: string): URL {
-  let url: URL
-  try { url = new URL(raw) }
-  catch { throw new GuardRefusal('is not a URL') }
-  if (url.protocol !== 'http:' && url.protocol !== 'https:') throw new GuardRefusal('must use http or https')
-  if (url.username || url.password) throw new GuardRefusal('may not carry a user name or password')
-  if (isAllowlisted(url)) return url
-  const port = Number(url.port || (url.protocol === 'https:' ? 443 : 80))
-  if (!settings().ports.has(port)) throw new GuardRefusal(`port ${port} is not allowed for webhooks`)
-  const literal = literalHost(url)
-  if (ipaddr.isValid(literal)) {
-    const why = refusedAddress(literal)
-    if (why) throw new GuardRefusal(`${why}, which webhooks may not reach`)
-  }
-  if (url.protocol !== 'https:') throw new GuardRefusal('must use https (plain http is only for hosts the hub\'s operator allowlisted)')
-  return url
+  return checkUrlAgainst(raw, settings())
 }
-
-const literalHost = (url: URL) => url.hostname.replace(/^\[(.*)\]$/, '$1')
 
 /** Why a name may not be reached, from the addresses it resolves to, or null when all are global unicast. */
 function refusedResolution(hostname: string, addresses: LookupAddress[]): string | null {
