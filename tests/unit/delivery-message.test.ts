@@ -62,7 +62,7 @@ describe('signedHeaders', () => {
 
   it('signs with both secrets during a rotation, each verifiable on its own', () => {
     const headers = signedHeaders('msg_rot', body, [secret, previous], at)
-    expect(headers['webhook-signature'].split(' ')).toHaveLength(2)
+    expect(headers['webhook-signature']!.split(' ')).toHaveLength(2)
     expect(() => new Webhook(secret).verify(body, headers)).not.toThrow()
     expect(() => new Webhook(previous).verify(body, headers)).not.toThrow()
   })

@@ -1,26 +1,19 @@
 import { sql } from 'drizzle-orm'
 import { deliveries, events, labs, webhookEndpoints } from '../../database/schema'
+import type { BodySource } from './message'
 import { workerId } from './settings'
 
 // Phase one of the worker: claiming due deliveries with FOR UPDATE SKIP LOCKED and a lease.
 
-export type Claimed = {
+export type Claimed = BodySource & {
   id: string
   endpoint_id: string
-  event_id: string | null
-  event_type: string
-  test_payload: Record<string, unknown> | null
   attempts: number
   replay_requested: boolean
   url: string
   sealed_secret: string
   previous_sealed_secret: string | null
   previous_secret_until: string | null
-  // The event's payload as PostgreSQL's JSON text: spliced into the body, never re-serialised.
-  payload_text: string | null
-  sequence: number | null
-  lab: string | null
-  event_at: string | null
 }
 
 // The least an endpoint offers to a claim. A claim that brings fewer rows than this found

@@ -1,10 +1,19 @@
 import { createHmac } from 'node:crypto'
-import type { Claimed } from './claim'
 
 // The message a delivery sends and its Standard Webhooks signature. Pure: no database, no
 // configuration (tests/unit/delivery-message.test.ts imports it as it is).
 
-export type BodySource = Pick<Claimed, 'event_type' | 'test_payload' | 'payload_text' | 'sequence' | 'lab' | 'event_at' | 'event_id'>
+/** What a message is built from: a claimed delivery's event (or test payload), as PostgreSQL gives it. */
+export type BodySource = {
+  event_id: string | null
+  event_type: string
+  test_payload: Record<string, unknown> | null
+  // The event's payload as PostgreSQL's JSON text: spliced into the body, never re-serialised.
+  payload_text: string | null
+  sequence: number | null
+  lab: string | null
+  event_at: string | null
+}
 
 /**
  * A delivery's message: its body and what kind it is. An event's message is the whole event
