@@ -21,22 +21,10 @@ function filterConditions(partnerId: string, f: z.output<typeof deliveryFilter>)
   return c
 }
 
-function encodeCursor(at: string, id: string) {
-  return Buffer.from(`${at}|${id}`).toString('base64url')
-}
-function decodeCursor(cursor: string) {
-  const [at, id] = Buffer.from(cursor, 'base64url').toString().split('|')
-  if (!at || !id || Number.isNaN(Date.parse(at)) || !/^[0-9a-f-]{36}$/.test(id)) throw fieldProblem('cursor', 'is not a cursor this API gave out', 400)
-  return { at, id }
-}
-
 /** Newest first, in cursor pages. */
 export async function listDeliveries(partnerId: string, query: z.output<typeof deliveryListQuery>) {
   const conditions = filterConditions(partnerId, query)
-  if (query.cursor) {
-    const c = decodeCursor(query.cursor)
-    conditions.push(sql`(${deliveries.createdAt}, ${deliveries.id}) < (${c.at}::timestamptz, ${c.id}::uuid)`)
-  }
+  if (query.cursor) conditions.push(afterCursor(query.cursor, deliveries.createdAt, deliveries.id))
   const rows = await useDb().select({
     id: deliveries.id, endpointId: deliveries.endpointId, url: webhookEndpoints.url, eventType: deliveries.eventType, eventId: deliveries.eventId,
     lab: labs.slug, sequence: events.sequence, status: deliveries.status, attempts: deliveries.attempts, lastClass: deliveries.lastClass,
@@ -45,10 +33,10 @@ export async function listDeliveries(partnerId: string, query: z.output<typeof d
   }).from(deliveries).innerJoin(webhookEndpoints, eq(webhookEndpoints.id, deliveries.endpointId))
     .leftJoin(events, eq(events.id, deliveries.eventId)).leftJoin(labs, eq(labs.id, events.labId))
     .where(and(...conditions)).orderBy(desc(deliveries.createdAt), desc(deliveries.id)).limit(query.limit + 1)
-  const items = rows.slice(0, query.limit)
+  const { items, nextCursor } = cursorPage(rows, query.limit)
   return {
     items: items.map(({ at: _at, ...r }) => ({ ...r, state: r.status === 'pending' && r.attempts > 0 ? 'failing' as const : r.status, sequence: r.sequence === null ? null : Number(r.sequence), nextAttemptAt: r.status === 'pending' ? r.nextAttemptAt : null })),
-    nextCursor: rows.length > query.limit ? encodeCursor(items.at(-1)!.at, items.at(-1)!.id) : null,
+    nextCursor,
   }
 }
 

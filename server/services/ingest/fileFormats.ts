@@ -28,9 +28,7 @@ export function fileKindOf(contentType: string): FileKind | 'json' | undefined {
 export type QueryMeta = Partial<Record<'instrument' | 'runId' | 'acquiredAt' | 'sampleRef', string>>
 
 async function readAll(stream: Readable): Promise<string> {
-  const chunks: Buffer[] = []
-  for await (const chunk of stream) chunks.push(chunk as Buffer)
-  const text = Buffer.concat(chunks).toString('utf8')
+  const text = (await readStreamBytes(stream)).toString('utf8')
   return text.startsWith('\uFEFF') ? text.slice(1) : text
 }
 

@@ -99,19 +99,13 @@ async function readMultipartAcquisition({ contentType, meta, stream }: Acquisiti
   if (!file) throw failure ?? fieldProblem('file', 'a multipart upload needs a part named "file"')
   const kind = fileKindOf(file.info.mimeType ?? '') ?? kindByName(file.info.filename)
   let value: unknown
-  try { value = !kind || kind === 'json' ? jsonPart(await readPart(file.stream)) : await parsers[kind](file.stream, meta) }
+  try { value = !kind || kind === 'json' ? jsonPart(await readStreamBytes(file.stream)) : await parsers[kind](file.stream, meta) }
   // The part's stream fails with busboy's own error when the form breaks: answer the form's problem.
   catch (error) { throw failure ?? error }
   // A parser that stopped before the end of its part has refused it already; one that read
   // it whole waits for the parts after it, so an unexpected one is refused, not dropped.
   await closed
   return validAcquisition(value)
-}
-
-async function readPart(stream: Readable): Promise<Buffer> {
-  const chunks: Buffer[] = []
-  for await (const chunk of stream) chunks.push(chunk as Buffer)
-  return Buffer.concat(chunks)
 }
 
 function jsonPart(data: Buffer): unknown {

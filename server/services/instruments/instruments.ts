@@ -12,18 +12,38 @@ export async function listInstruments(labId: string) {
   return rows.map((r, i) => ({ ...r, geometry: current[i] ? { version: current[i]!.version, kind: current[i]!.kind, validFrom: current[i]!.validFrom } : null }))
 }
 
+async function instrumentOf(labId: string, id: string) {
+  const row = await useDb().query.instruments.findFirst({ where: and(eq(instruments.id, id), eq(instruments.labId, labId)) })
+  if (!row) throw problem(404, 'instrument-not-found', 'No such instrument in this lab.')
+  return row
+}
+
+type GeometryVersion = typeof geometryVersions.$inferSelect
+
+/** The geometry version in force at `at` among `versions`: the latest valid from at or before it. */
+function inForceAt(versions: GeometryVersion[], at: Date): GeometryVersion | undefined {
+  return versions.filter(v => v.validFrom <= at).sort((a, b) => b.validFrom.getTime() - a.validFrom.getTime() || b.version - a.version)[0]
+}
+
+function geometryVersionsOf(instrumentId: string) {
+  return useDb().select().from(geometryVersions).where(eq(geometryVersions.instrumentId, instrumentId)).orderBy(desc(geometryVersions.version))
+}
+
+/** 404 unless lab `labId` has instrument `id`. */
+export async function assertInstrument(labId: string, id: string) {
+  await instrumentOf(labId, id)
+}
+
 export async function getInstrument(labId: string, id: string) {
   const db = useDb()
-  const row = await db.query.instruments.findFirst({ where: and(eq(instruments.id, id), eq(instruments.labId, labId)) })
-  if (!row) throw problem(404, 'instrument-not-found', 'No such instrument in this lab.')
-  const versions = await db.select().from(geometryVersions).where(eq(geometryVersions.instrumentId, id)).orderBy(desc(geometryVersions.version))
+  const row = await instrumentOf(labId, id)
+  const versions = await geometryVersionsOf(id)
   const cals = await db.select().from(calibrations).where(eq(calibrations.instrumentId, id)).orderBy(desc(calibrations.version))
   // A calibration belongs to the geometry version it was fitted under (stored in its fit;
   // for fits from before engine 2, the version in force at its validFrom). Once another
   // geometry version is in force, it is retired: ingest does not apply it.
-  const now = new Date()
-  const inForce = versions.filter(v => v.validFrom <= now).sort((a, b) => b.validFrom.getTime() - a.validFrom.getTime() || b.version - a.version)[0]
-  const versionAt = (at: Date) => versions.filter(v => v.validFrom <= at).sort((a, b) => b.validFrom.getTime() - a.validFrom.getTime() || b.version - a.version)[0]?.version ?? null
+  const versionAt = (at: Date) => inForceAt(versions, at)?.version ?? null
+  const inForce = inForceAt(versions, new Date())
   return {
     ...row,
     geometryVersions: versions,
@@ -59,7 +79,7 @@ export async function renameInstrument(audit: AuditContext, labId: string, id: s
 }
 
 export async function addGeometryVersion(audit: AuditContext, labId: string, instrumentId: string, input: { geometry: Geometry, validFrom: Date, note?: string }) {
-  await getInstrument(labId, instrumentId)
+  await instrumentOf(labId, instrumentId)
   return useDb().transaction(async (tx) => {
     const [last] = await tx.select({ version: geometryVersions.version }).from(geometryVersions)
       .where(eq(geometryVersions.instrumentId, instrumentId)).orderBy(desc(geometryVersions.version)).limit(1).for('update')
@@ -74,13 +94,13 @@ export async function addGeometryVersion(audit: AuditContext, labId: string, ins
 
 /** Fits a calibration with the engine and stores it as the next version; a refused fit is a 422 naming why. */
 export async function addCalibration(audit: AuditContext, labId: string, instrumentId: string, input: z.output<typeof calibrationInput>) {
-  const instrument = await getInstrument(labId, instrumentId)
+  await instrumentOf(labId, instrumentId)
   // Bound to the geometry version its reference peaks were measured under: the one named, or
   // the one in force when it becomes valid, or (valid before any) the first.
-  const versions = instrument.geometryVersions
+  const versions = await geometryVersionsOf(instrumentId)
   const geo = input.geometryVersion !== undefined
     ? versions.find(v => v.version === input.geometryVersion)
-    : (await geometryAt(instrumentId, input.validFrom)) ?? versions.at(-1)
+    : inForceAt(versions, input.validFrom) ?? versions.at(-1)
   if (!geo) throw fieldProblem('geometryVersion', 'this instrument has no such geometry version')
   let fit
   try { fit = fitCalibration(input.points, input.degree, geo.version) }

@@ -4,18 +4,6 @@ import type { acquisitionListQuery } from '#shared/schemas/acquisitions'
 import { acquisitions, geometryVersions, instruments, results } from '../../database/schema'
 import { acquisitionHead, resultView } from './view'
 
-// Cursor pages in a stable order: newest first (received, or acquired), ties broken by id. The cursor
-// keeps PostgreSQL's microsecond timestamp as text: a JavaScript Date would round it to
-// the millisecond and skip rows received within the same millisecond.
-function encodeCursor(row: { at: string, id: string }) {
-  return Buffer.from(`${row.at}|${row.id}`).toString('base64url')
-}
-function decodeCursor(cursor: string): { at: string, id: string } {
-  const [at, id] = Buffer.from(cursor, 'base64url').toString().split('|')
-  if (!id || !at || Number.isNaN(Date.parse(at)) || !/^[0-9a-f-]{36}$/.test(id)) throw fieldProblem('cursor', 'is not a cursor this API gave out', 400)
-  return { at, id }
-}
-
 export async function listAcquisitions(labId: string, query: z.output<typeof acquisitionListQuery>) {
   const conditions: (SQL | undefined)[] = [eq(acquisitions.labId, labId)]
   if (query.instrument) conditions.push(eq(instruments.slug, query.instrument))
@@ -23,20 +11,17 @@ export async function listAcquisitions(labId: string, query: z.output<typeof acq
   if (query.from) conditions.push(gte(acquisitions.acquiredAt, new Date(query.from)))
   if (query.to) conditions.push(lte(acquisitions.acquiredAt, new Date(query.to)))
   const sortColumn = query.sort === 'acquired' ? acquisitions.acquiredAt : acquisitions.createdAt
-  if (query.cursor) {
-    const c = decodeCursor(query.cursor)
-    conditions.push(sql`(${sortColumn}, ${acquisitions.id}) < (${c.at}::timestamptz, ${c.id}::uuid)`)
-  }
+  if (query.cursor) conditions.push(afterCursor(query.cursor, sortColumn, acquisitions.id))
   const rows = await useDb().select({
     id: acquisitions.id, runId: acquisitions.externalId, instrument: instruments.slug, acquiredAt: acquisitions.acquiredAt,
     sampleRef: acquisitions.sampleRef, status: acquisitions.status, points: acquisitions.pointCount, createdAt: acquisitions.createdAt,
     at: sql<string>`${sortColumn}::text`,
   }).from(acquisitions).innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .where(and(...conditions)).orderBy(desc(sortColumn), desc(acquisitions.id)).limit(query.limit + 1)
-  const items = rows.slice(0, query.limit)
+  const { items, nextCursor } = cursorPage(rows, query.limit)
   return {
     items: items.map(({ createdAt, at: _at, ...r }) => ({ ...r, acquiredAt: r.acquiredAt.toISOString(), receivedAt: createdAt.toISOString() })),
-    nextCursor: rows.length > query.limit ? encodeCursor(items.at(-1)!) : null,
+    nextCursor,
   }
 }
 

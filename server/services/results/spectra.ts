@@ -122,6 +122,19 @@ export function spectrumBinary(s: Spectrum): Buffer {
   return out
 }
 
+const exportFormats = {
+  csv: { contentType: 'text/csv; charset=utf-8', write: spectrumCsv },
+  jdx: { contentType: 'chemical/x-jcamp-dx; charset=utf-8', write: spectrumJcamp },
+}
+export type SpectrumFormat = keyof typeof exportFormats
+
+/** An acquisition's spectrum as a file to download: CSV or JCAMP-DX, with its type and attachment name. */
+export async function spectrumExport(labId: string, id: string, format: SpectrumFormat) {
+  const spectrum = await spectrumOf(labId, id)
+  const { contentType, write } = exportFormats[format]
+  return { contentType, disposition: attachmentName(spectrum.runId, format), body: write(spectrum) }
+}
+
 /** A file name for an export: the run id with anything a Content-Disposition header cannot carry replaced. */
 export function attachmentName(runId: string, extension: string): string {
   return `attachment; filename="${runId.replace(/[^\w.-]+/g, '_').slice(0, 100) || 'acquisition'}.${extension}"`
