@@ -1,9 +1,5 @@
 import type { Readable } from 'node:stream'
 import { createInterface } from 'node:readline'
-import { inflateSync } from 'node:zlib'
-import { XMLParser } from 'fast-xml-parser'
-import { convert } from 'jcampconverter'
-import { MAX_POINTS } from '#shared/schemas/acquisitions'
 
 // Acquisitions arrive as files too: CSV with a header row of units, JCAMP-DX (IUPAC) and
 // mzML 1.1 (HUPO-PSI). Each parser turns a file into the same acquisition body the JSON
@@ -11,7 +7,8 @@ import { MAX_POINTS } from '#shared/schemas/acquisitions'
 // that is already capped (the request's counter, or busboy's per-part limit), and every
 // text it splits is split by hand or by patterns without nested or overlapping quantifiers:
 // a line costs time in proportion to its length whatever it holds (eslint-plugin-regexp's
-// backtracking rules hold this in lint).
+// backtracking rules hold this in lint). CSV and what the formats share are here; JCAMP-DX
+// in jcamp.ts, mzML in mzml.ts.
 
 export type FileKind = 'csv' | 'jcamp' | 'mzml'
 
@@ -27,7 +24,7 @@ export function fileKindOf(contentType: string): FileKind | 'json' | undefined {
 /** Metadata given beside the file (the query string), which wins over the file's own. */
 export type QueryMeta = Partial<Record<'instrument' | 'runId' | 'acquiredAt' | 'sampleRef', string>>
 
-async function readAll(stream: Readable): Promise<string> {
+export async function readAll(stream: Readable): Promise<string> {
   const text = (await readStreamBytes(stream)).toString('utf8')
   return text.startsWith('\uFEFF') ? text.slice(1) : text
 }
@@ -171,7 +168,7 @@ interface MetaRules {
  * rather than dropped; JCAMP-DX labels and mzML user parameters carry the formats' and
  * instrument software's own names, of which Arcwise reads the ones it knows.
  */
-function withMeta(query: QueryMeta, entries: MetaEntry[], body: Record<string, unknown>, rules: MetaRules = {}) {
+export function withMeta(query: QueryMeta, entries: MetaEntry[], body: Record<string, unknown>, rules: MetaRules = {}) {
   const settings: Record<string, unknown> = {}
   const processing: Record<string, unknown> = {}
   const fields: Record<string, string> = {}
@@ -197,111 +194,4 @@ function withMeta(query: QueryMeta, entries: MetaEntry[], body: Record<string, u
     }
   }
   return { ...fields, ...query, settings, ...body, ...(Object.keys(processing).length ? { processing } : {}) }
-}
-
-const JCAMP_X_READINGS = new Map<string, { reading: 'field' | 'acceleratingVoltage', unit: string }>([
-  ['T', { reading: 'field', unit: 'T' }], ['TESLA', { reading: 'field', unit: 'T' }], ['MT', { reading: 'field', unit: 'mT' }],
-  ['G', { reading: 'field', unit: 'G' }], ['GAUSS', { reading: 'field', unit: 'G' }], ['KG', { reading: 'field', unit: 'kG' }],
-  ['V', { reading: 'acceleratingVoltage', unit: 'V' }], ['VOLTS', { reading: 'acceleratingVoltage', unit: 'V' }], ['KV', { reading: 'acceleratingVoltage', unit: 'kV' }],
-])
-const JCAMP_Y_UNITS = new Map([['A', 'A'], ['AMPERES', 'A'], ['AMPERE', 'A'], ['NA', 'nA'], ['PA', 'pA'], ['FA', 'fA'], ['CPS', 'cps'], ['COUNTS/S', 'cps']])
-
-/** "##LABEL=value" and "##$USER LABEL=value" lines, split by hand. */
-function jcampLabels(text: string): MetaEntry[] {
-  const out: MetaEntry[] = []
-  for (const line of text.split('\n')) {
-    if (!line.startsWith('##')) continue
-    const from = line[2] === '$' ? 3 : 2
-    const eq = line.indexOf('=', from)
-    if (eq <= from) continue
-    out.push({ key: line.slice(from, eq).trim(), value: line.slice(eq + 1).trim() })
-  }
-  return out
-}
-
-/**
- * JCAMP-DX (McDonald & Wilks 1988; IUPAC): the swept reading as X (a field or voltage unit),
- * the detector as Y. Settings and metadata in user labels: ##$ACCELERATING VOLTAGE=3 kV,
- * ##$INSTRUMENT=, ##$RUN ID=, ##LONGDATE=. A block cut short is refused.
- */
-export async function parseJcampUpload(stream: Readable, query: QueryMeta): Promise<Record<string, unknown>> {
-  const text = await readAll(stream)
-  if (!text.includes('##END=')) throw fieldProblem('jcamp', 'is cut short: the block has no ##END=')
-  const labels = jcampLabels(text)
-  const meta = new Map(labels.map(l => [l.key, l.value]))
-  let parsed
-  try { parsed = convert(text, { keepRecordsRegExp: /.*/ }).flatten[0] }
-  catch (error) { throw fieldProblem('jcamp', `cannot be read: ${(error as Error).message}`) }
-  const spectrum = parsed?.spectra?.[0]
-  if (!spectrum?.data?.x?.length) throw fieldProblem('jcamp', 'holds no XYDATA or PEAK TABLE')
-  const xUnit = String(spectrum.xUnits ?? meta.get('XUNITS') ?? '').toUpperCase().trim()
-  const yUnit = String(spectrum.yUnits ?? meta.get('YUNITS') ?? '').toUpperCase().trim()
-  const x = JCAMP_X_READINGS.get(xUnit)
-  if (!x) throw fieldProblem('jcamp.XUNITS', `"${xUnit.slice(0, 40)}" is not a field or voltage unit; Arcwise takes the instrument's raw swept reading`)
-  const y = JCAMP_Y_UNITS.get(yUnit)
-  if (!y) throw fieldProblem('jcamp.YUNITS', `"${yUnit.slice(0, 40)}" is not a detector current or count rate`)
-  const declared = meta.get('NPOINTS')
-  if (spectrum.data.x.length !== (spectrum.data.y?.length ?? 0) || spectrum.data.x.length !== Number(declared ?? spectrum.data.x.length)) {
-    throw fieldProblem('jcamp', `is cut short: ${spectrum.data.x.length} points where ##NPOINTS says ${declared?.slice(0, 20)}`)
-  }
-  return withMeta(query, labels, {
-    sweep: { reading: x.reading, unit: x.unit, values: Array.from(spectrum.data.x as ArrayLike<number>) },
-    detectors: [{ unit: y, values: Array.from((spectrum.data.y ?? []) as ArrayLike<number>) }],
-  })
-}
-
-// mzML 1.1 controlled-vocabulary accessions (PSI-MS CV): what each binary array holds.
-const CV = { mzArray: 'MS:1000514', intensityArray: 'MS:1000515', float64: 'MS:1000523', float32: 'MS:1000521', zlib: 'MS:1000574' }
-
-/**
- * The most one binary array may inflate to: the point limit of the acquisition schema in
- * 64-bit floats. zlib stops there, so a compressed bomb costs at most this much memory.
- */
-export const MAX_ARRAY_BYTES = MAX_POINTS * 8
-
-function decodeArray(a: { cvParam?: { accession: string }[], binary?: string }, path: string) {
-  const acc = new Set((a.cvParam ?? []).map(p => p.accession))
-  let bytes: Buffer = Buffer.from(String(a.binary ?? '').trim(), 'base64')
-  if (acc.has(CV.zlib)) {
-    try { bytes = inflateSync(bytes, { maxOutputLength: MAX_ARRAY_BYTES }) }
-    catch (error) {
-      if ((error as { code?: string }).code === 'ERR_BUFFER_TOO_LARGE') {
-        throw fieldProblem(path, `inflates past ${MAX_ARRAY_BYTES} bytes, more than ${MAX_POINTS} points of 64-bit floats`, 413, 'payload-too-large')
-      }
-      throw fieldProblem(path, `is not zlib data: ${(error as Error).message}`)
-    }
-  }
-  const size = acc.has(CV.float32) ? 4 : 8
-  if (bytes.length % size) throw fieldProblem(path, `holds ${bytes.length} bytes, not a whole number of ${size * 8}-bit floats`)
-  // A copy, so the view starts on a float's boundary whatever the decoder's buffer offset.
-  const aligned = new Uint8Array(bytes).buffer
-  return { acc, values: Array.from(size === 4 ? new Float32Array(aligned) : new Float64Array(aligned)) }
-}
-
-/**
- * mzML 1.1: the first spectrum's m/z and intensity arrays (base64, 32- or 64-bit floats,
- * optionally zlib). m/z here was computed by the instrument's own software, so Arcwise
- * takes it as is. The XML parser never resolves entities, external or internal.
- */
-export async function parseMzmlUpload(stream: Readable, query: QueryMeta): Promise<Record<string, unknown>> {
-  const text = await readAll(stream)
-  if (/<!ENTITY/i.test(text)) throw fieldProblem('mzml', 'declares entities; Arcwise does not read XML with entity declarations')
-  const xml = new XMLParser({ ignoreAttributes: false, attributeNamePrefix: '', processEntities: false, isArray: name => ['cvParam', 'binaryDataArray', 'spectrum', 'userParam'].includes(name) })
-  let doc
-  try { doc = xml.parse(text) }
-  catch (error) { throw fieldProblem('mzml', `is not well-formed XML: ${(error as Error).message}`) }
-  const root = doc.indexedmzML?.mzML ?? doc.mzML
-  const spectrum = root?.run?.spectrumList?.spectrum?.[0]
-  if (!spectrum) throw fieldProblem('mzml', 'holds no spectrum')
-  const arrays = spectrum.binaryDataArrayList?.binaryDataArray ?? []
-  if (!Array.isArray(arrays)) throw fieldProblem('mzml', 'holds no binary data arrays')
-  const decoded = arrays.map((a: Parameters<typeof decodeArray>[0], i: number) => decodeArray(a, `mzml.spectrum.binaryDataArray.${i}`))
-  const mz = decoded.find((d: { acc: Set<string> }) => d.acc.has(CV.mzArray))
-  const intensity = decoded.find((d: { acc: Set<string> }) => d.acc.has(CV.intensityArray))
-  if (!mz || !intensity) throw fieldProblem('mzml', 'needs an m/z array (MS:1000514) and an intensity array (MS:1000515)')
-  const params: MetaEntry[] = []
-  for (const p of [...(spectrum.userParam ?? []), ...(root?.run?.userParam ?? [])]) if (p.name) params.push({ key: String(p.name), value: String(p.value ?? '') })
-  const byName = new Map(params.map(p => [p.key, p.value]))
-  if (root?.run?.startTimeStamp && !byName.has('acquiredAt')) params.push({ key: 'acquiredAt', value: String(root.run.startTimeStamp) })
-  return withMeta(query, params, { mzSpectrum: { unit: byName.get('intensityUnit') ?? 'cps', mz: mz.values, values: intensity.values }, detectors: [] })
 }
