@@ -27,7 +27,7 @@ export default withNuxt(
     rules: {
       'no-restricted-syntax': ['error',
         { selector: 'MemberExpression[object.property.name="node"][property.name="req"]', message: 'Read request bodies with readBodyStream / readBodyText / readValidBody (server/utils/requestBody.ts).' },
-        { selector: 'CallExpression[callee.name=/^(readMultipartFormData|readFormData)$/]', message: 'Multipart bodies are streamed with busboy through readBodyStream (server/services/uploads.ts).' },
+        { selector: 'CallExpression[callee.name=/^(readMultipartFormData|readFormData)$/]', message: 'Multipart bodies are streamed with busboy through readBodyStream (server/services/ingest/uploads.ts).' },
       ],
     },
   },

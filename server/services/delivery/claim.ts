@@ -24,7 +24,7 @@ export const SHARE_MIN = 32
 export async function claimDueDeliveries(limit: number, leaseSeconds: number): Promise<Claimed[]> {
   // The plan must not depend on the table's statistics: just after a bulk of events they say
   // no row is leased, and PostgreSQL then joined the claimed rows by scanning the whole table
-  // (most of 66 ms per claim of 256 in bench:delivery). Rows are therefore found by their ids
+  // (most of a claim's time in bench:delivery; DEVELOPERS.md, Measured). Rows are therefore found by their ids
   // (`= any(array(...))`, always the primary key), never by a join the planner may choose.
   const rows = await useDb().execute<Claimed>(sql`
     with candidates as (

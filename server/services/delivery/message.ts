@@ -57,8 +57,9 @@ const hmacKey = remembered(secret => Buffer.from(secret.replace(/^whsec_/, ''), 
 /**
  * Standard Webhooks headers; during a rotation the previous secret signs too. The signature
  * is the spec's `v1,` + base64(HMAC-SHA256(secret, "{id}.{timestamp}.{body}")), computed with
- * node:crypto: the standardwebhooks package's pure-JavaScript HMAC was about 7 % of the
- * worker's time in bench:delivery. The tests verify every signature with that package.
+ * node:crypto: the standardwebhooks package's pure-JavaScript HMAC was a visible share of the
+ * worker's time in bench:delivery (DEVELOPERS.md, Measured). The tests verify every
+ * signature with that package.
  */
 export function signedHeaders(id: string, body: string | Buffer, secrets: string[], at = new Date()): Record<string, string> {
   const timestamp = Math.floor(at.getTime() / 1000)

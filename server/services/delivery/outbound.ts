@@ -84,8 +84,8 @@ export interface OutboundResponse { statusCode: number, headers: Record<string, 
 export async function postGuarded(rawUrl: string, headers: Record<string, string>, body: string | Buffer, opts: { timeoutMs: number, excerptBytes?: number }): Promise<OutboundResponse> {
   const url = checkOutboundUrl(rawUrl)
   // The deadline of the whole exchange, given to undici as an EventEmitter signal (it aborts
-  // with an AbortError): AbortSignal.timeout cost about 25 µs more per request, a sixth of
-  // the send path in a microbenchmark beside bench:delivery.
+  // with an AbortError): AbortSignal.timeout cost more per request in a microbenchmark
+  // beside bench:delivery (DEVELOPERS.md, Measured).
   const deadline = new EventEmitter()
   const timer = setTimeout(() => deadline.emit('abort'), opts.timeoutMs)
   try {

@@ -35,7 +35,7 @@ export async function recordAttempts(sent: Sent[]) {
   const succeeded = [...new Set(rows.filter(r => r.cls === 'success').map(r => r.endpoint))]
   // Each row's outcome is looked up by its id in one JSON object, and the deliveries are found
   // by their ids: a join with the outcomes let the planner scan the whole table, once per
-  // outcome, when its statistics said no row was leased (70 ms for 220 in bench:delivery).
+  // outcome, when its statistics said no row was leased (bench:delivery; DEVELOPERS.md, Measured).
   const write = (db: Queryable) => db.execute(sql`
     with o as (select ${JSON.stringify(outcomes)}::jsonb as by_id),
     upd as (

@@ -22,9 +22,9 @@ import { deliverySettings, workerId } from './settings'
  *
  * Claims and records are large: every statement wakes PostgreSQL, and the worker when it
  * answers, on cores that the app, PostgreSQL and the receivers share. Recording whatever had
- * finished (about 20 attempts a statement) and claiming 64 at a time cost 814–1,008 µs of
- * CPU per delivery in bench:delivery, all processes together; groups of at least 128 and
- * claims of 128 cost 628–800 µs (six runs each).
+ * finished (about 20 attempts a statement) and claiming 64 at a time cost more CPU per
+ * delivery in bench:delivery than groups and claims of at least 128 (figures in
+ * DEVELOPERS.md, Measured).
  */
 class DeliveryPipeline {
   private queue: Queued[] = []
