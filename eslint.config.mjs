@@ -1,3 +1,4 @@
+import { createNodeResolver, importX } from 'eslint-plugin-import-x'
 import regexp from 'eslint-plugin-regexp'
 import withNuxt from './.nuxt/eslint.config.mjs'
 
@@ -26,8 +27,21 @@ export default withNuxt(
     rules: {
       'no-restricted-syntax': ['error',
         { selector: 'MemberExpression[object.property.name="node"][property.name="req"]', message: 'Read request bodies with readBodyStream / readBodyText / readValidBody (server/utils/requestBody.ts).' },
-        { selector: 'CallExpression[callee.name=/^(readMultipartFormData|readFormData)$/]', message: 'Multipart bodies are streamed with busboy through readBodyStream (server/services/uploads.ts).' },
+        { selector: 'CallExpression[callee.name=/^(readMultipartFormData|readFormData)$/]', message: 'Multipart bodies are streamed with busboy through readBodyStream (server/services/ingest/uploads.ts).' },
       ],
     },
+  },
+  // No import cycles in the server or in shared/: a capability imports another's index and
+  // is never imported back by it (server/services/<capability>/index.ts). Auto-imports are
+  // not seen here, so services import what they use from other capabilities explicitly.
+  {
+    files: ['server/**/*.ts', 'shared/**/*.ts'],
+    plugins: { 'import-x': importX },
+    settings: {
+      'import-x/resolver-next': [createNodeResolver({ extensions: ['.ts', '.mjs', '.js', '.json'] })],
+      'import-x/extensions': ['.ts', '.mjs', '.js'],
+      'import-x/parsers': { '@typescript-eslint/parser': ['.ts'] },
+    },
+    rules: { 'import-x/no-cycle': ['error', { ignoreExternal: true }] },
   },
 )

@@ -80,7 +80,9 @@ export default defineNuxtConfig({
     public: { mailCapture: false },
   },
   nitro: {
-    imports: { dirs: ['./server/services'] },
+    // One index per capability folder (server/services/<name>/index.ts): its public names are
+    // auto-imported, the rest of the folder stays private to it.
+    imports: { dirs: ['./server/services/*/index.ts'] },
     experimental: { tasks: false },
   },
   hooks: {

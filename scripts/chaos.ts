@@ -48,7 +48,7 @@ const BAIT_SPACES = Number(process.env.CHAOS_BAIT_SPACES ?? 5000)
 // Pass/fail targets of the fuzz phase.
 const MAX_STALL_MS = 200
 const MAX_RSS_BYTES = 1024 ** 3
-// The caps the server is expected to hold: MAX_UPLOAD_BYTES of server/services/uploads.ts
+// The caps the server is expected to hold: MAX_UPLOAD_BYTES of server/services/ingest/uploads.ts
 // and 1 MB for console, token and other JSON bodies (issue 16).
 const UPLOAD_CAP_BYTES = 64 * 1024 * 1024
 const JSON_CAP_BYTES = 1024 * 1024

@@ -1,4 +1,8 @@
 import type { H3Event } from 'h3'
+import type { KeyScope } from '#shared/schemas/instruments'
+import type { PartnerScope } from '#shared/schemas/partners'
+import type { LabKey } from '../services/access'
+import type { PartnerToken } from '../services/partners'
 import { eq } from 'drizzle-orm'
 import { labs, partners } from '../database/schema'
 import { can, permissions, type Permission, type Role, type SessionUser } from '#shared/types/roles'
@@ -61,4 +65,14 @@ export async function requirePartnerAccess(event: H3Event, partnerId: string, ac
   const partner = await useDb().query.partners.findFirst({ where: eq(partners.id, partnerId), columns: { id: true } })
   if (!partner) throw problem(404, 'partner-not-found', 'No such partner.')
   return user
+}
+
+/** The lab key of the request (`Authorization: Bearer awk_…`) holding `scope`: 401, or 403 for a missing scope. */
+export function requireLabKey(event: H3Event, scope: KeyScope): Promise<LabKey> {
+  return verifyLabKey(getRequestHeader(event, 'authorization'), scope)
+}
+
+/** The partner of the request's access token holding `scope`: 401 (a presented token refused is audited), or 403 for a missing scope. */
+export function requirePartnerToken(event: H3Event, scope: PartnerScope): Promise<PartnerToken> {
+  return verifyPartnerToken({ authorization: getRequestHeader(event, 'authorization'), audit: auditContext(event), path: event.path }, scope)
 }

@@ -114,12 +114,18 @@ function closeUnreadBody(event: H3Event) {
 }
 const LINGER_MS = 2000
 
-/** The whole body as text, read through the counter (at most the route's cap). */
+/**
+ * The whole body as text, read through the counter (at most the route's cap): h3's readRawBody
+ * reads the counted stream that guardRequestBody put in its way (in-process requests, which are
+ * not guarded, carry their body in memory already).
+ */
 export async function readBodyText(event: H3Event): Promise<string> {
-  // In-process requests (not guarded) carry their body in memory already.
-  if (!(event as GuardedEvent)[counted]) return (await readRawBody(event, 'utf8')) ?? ''
-  if (!hasBody(event)) return ''
+  return (await readRawBody(event, 'utf8')) ?? ''
+}
+
+/** Everything a stream gives, as one buffer (the stream is capped by whoever made it). */
+export async function readStreamBytes(stream: AsyncIterable<Buffer | Uint8Array>): Promise<Buffer> {
   const chunks: Buffer[] = []
-  for await (const chunk of readBodyStream(event)) chunks.push(chunk as Buffer)
-  return Buffer.concat(chunks).toString('utf8')
+  for await (const chunk of stream) chunks.push(chunk as Buffer)
+  return Buffer.concat(chunks)
 }

@@ -16,7 +16,8 @@ export function fieldErrors(error: z.ZodError): FieldError[] {
   })
 }
 
-function parseOrProblem<S extends z.ZodType>(schema: S, value: unknown, where: string): z.output<S> {
+/** `value` parsed by `schema`: a problem naming each bad field otherwise (422 for a body, 400 for a query). */
+export function parseOrProblem<S extends z.ZodType>(schema: S, value: unknown, where: 'body' | 'query'): z.output<S> {
   const result = schema.safeParse(value)
   if (result.success) return result.data
   const errors = fieldErrors(result.error)

@@ -11,6 +11,11 @@ import { findPeaks, sweepDirection, type Baseline, type BaselineInput, type Peak
 import { formulaSpecies, naturalIsotopes, neutralMassFromMz, type Species } from './species'
 import { siFactor } from './units'
 
+// The chain from raw readings to a result: sweeps, static collectors and m/z spectra share
+// the resolved options, the candidate table and the finishing step (assignment, calibration
+// status, QC), so it is one file of over 300 lines, read top to bottom; the steps themselves
+// live in their own modules (spectrum, static, assign, calibrate).
+
 export interface EngineOptions {
   tolerance?: Tolerance
   maxCharge?: number

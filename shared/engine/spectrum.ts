@@ -5,7 +5,11 @@ import { EngineError } from './errors'
 // each peak is then described by a weighted least-squares Gaussian fit near its apex
 // (centroid, height, width with their covariance) and its area is integrated over a window
 // set by the fitted width, with the tail outside the window accounted for. (ml-gsd, tried
-// first, took about 1 s on a 10^6-point sweep and reported thousands of flank maxima.)
+// first, was slow on 10^6-point sweeps and reported thousands of flank maxima: DEVELOPERS.md,
+// Measured.)
+// Over 300 lines on purpose: the baseline, the thresholds and the peak description share one
+// noise model (NoiseModel, pointVariance, the scratch buffers) and read as one chain; split,
+// each half would export its internals to the other.
 
 /** How the baseline level and the noise were obtained. */
 export type BaselineSource = 'estimated' | 'regions' | 'zero'
@@ -48,8 +52,8 @@ const FIT_WINDOW_SIGMAS = 2.5
 
 /**
  * The k-th smallest value (0-based) of `a`, which is reordered: Hoare's selection (Hoare,
- * Commun. ACM 4 (1961) 321), linear on average. A typed array's sort took 12 µs for 333
- * values here, a quarter of a 1,000-point spectrum's whole baseline.
+ * Commun. ACM 4 (1961) 321), linear on average. A typed array's sort was a large share of a
+ * small spectrum's whole baseline (DEVELOPERS.md, Measured).
  */
 function select(a: Float64Array, k: number): number {
   let lo = 0

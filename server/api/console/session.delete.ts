@@ -4,7 +4,7 @@ export default defineEventHandler(async (event) => {
   const session = await getUserSession(event)
   const userId = (session.user as { id?: unknown } | undefined)?.id
   await clearUserSession(event)
-  if (typeof userId === 'string') await recordAudit(useDb(), { actor: { id: userId, label: userId }, action: 'sign-out', targetType: 'user', targetId: userId, event })
+  if (typeof userId === 'string') await recordAudit(useDb(), { ...auditContext(event), actor: { id: userId, label: userId }, action: 'sign-out', targetType: 'user', targetId: userId })
   setResponseStatus(event, 204)
   return null
 })

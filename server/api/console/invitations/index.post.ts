@@ -4,5 +4,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requirePermission(event, 'users:write')
   const input = await readValidBody(event, invitationInput)
   setResponseStatus(event, 201)
-  return createInvitation(event, actor, input)
+  return createInvitation(auditContext(event, actor), actor, input)
 })

@@ -5,5 +5,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requirePermission(event, 'labs:update')
   const { id } = getValidParams(event, idParams)
   const change = await readValidBody(event, labUpdate)
-  return updateOrg(event, actor, 'lab', id, change)
+  return updateOrg(auditContext(event, actor), actor, 'lab', id, change)
 })

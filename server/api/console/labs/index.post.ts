@@ -4,5 +4,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requirePermission(event, 'labs:create')
   const input = await readValidBody(event, labInput)
   setResponseStatus(event, 201)
-  return createOrg(event, actor, 'lab', input)
+  return createOrg(auditContext(event, actor), 'lab', input)
 })

@@ -5,5 +5,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requirePermission(event, 'partners:update')
   const { id } = getValidParams(event, idParams)
   const change = await readValidBody(event, partnerUpdate)
-  return updateOrg(event, actor, 'partner', id, change)
+  return updateOrg(auditContext(event, actor), actor, 'partner', id, change)
 })

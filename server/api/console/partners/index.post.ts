@@ -4,5 +4,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requirePermission(event, 'partners:create')
   const input = await readValidBody(event, partnerInput)
   setResponseStatus(event, 201)
-  return createOrg(event, actor, 'partner', input)
+  return createOrg(auditContext(event, actor), 'partner', input)
 })

@@ -3,5 +3,5 @@ import { passwordResetCompletion, tokenParams } from '#shared/schemas/auth'
 export default defineEventHandler(async (event) => {
   const { token } = getValidParams(event, tokenParams)
   const { password } = await readValidBody(event, passwordResetCompletion)
-  return completePasswordReset(event, token, password)
+  return completePasswordReset(auditContext(event), token, password)
 })

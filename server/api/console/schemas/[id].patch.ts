@@ -5,5 +5,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requireRole(event, 'admin')
   const { id } = getValidParams(event, idParams)
   const change = await readValidBody(event, schemaDeprecation)
-  return setSchemaStatus(event, actor, id, change)
+  return setSchemaStatus(auditContext(event, actor), id, change)
 })

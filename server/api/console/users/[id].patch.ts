@@ -5,6 +5,6 @@ export default defineEventHandler(async (event) => {
   const actor = await requirePermission(event, 'users:write')
   const { id } = getValidParams(event, idParams)
   const change = await readValidBody(event, userUpdate)
-  const { passwordHash: _hidden, ...user } = await updateUser(event, actor, id, change)
+  const { passwordHash: _hidden, ...user } = await updateUser(auditContext(event, actor), id, change)
   return user
 })

@@ -1,7 +1,7 @@
 // JSON, or a file: CSV, JCAMP-DX, mzML, as the raw body or one multipart part.
 export default defineEventHandler(async (event) => {
   const key = await requireLabKey(event, 'acquisitions:write')
-  const schema = await checkExchangeSchema(event, 'acquisition', requestedSchemaVersion(event))
+  const schema = await requireExchangeSchema(event, 'acquisition')
   const idempotencyKey = getIdempotencyKey(event)
   const body = await readAcquisitionBody(event)
   return withIdempotency<unknown>(event, key.id, idempotencyKey, bodyHash(body), () =>

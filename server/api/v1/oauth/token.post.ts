@@ -7,7 +7,7 @@ export default defineEventHandler(async (event) => {
   if (!form.success) throw problem(400, 'oauth-invalid_request', 'grant_type is required.', { errors: fieldErrors(form.error) })
   const basic = basicCredentials(getRequestHeader(event, 'authorization'))
   setResponseHeader(event, 'cache-control', 'no-store')
-  return issueAccessToken(event, { grantType: form.data.grant_type, clientId: basic?.id ?? form.data.client_id, clientSecret: basic?.secret ?? form.data.client_secret, scope: form.data.scope })
+  return issueAccessToken(auditContext(event), { grantType: form.data.grant_type, clientId: basic?.id ?? form.data.client_id, clientSecret: basic?.secret ?? form.data.client_secret, scope: form.data.scope })
 })
 
 async function readFormOrJson(event: Parameters<typeof readRawBody>[0]): Promise<Record<string, string>> {

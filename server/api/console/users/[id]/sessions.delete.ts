@@ -4,5 +4,5 @@ import { idParams } from '#shared/schemas/common'
 export default defineEventHandler(async (event) => {
   const actor = await requirePermission(event, 'users:write')
   const { id } = getValidParams(event, idParams)
-  return endUserSessions(event, actor, id)
+  return endUserSessions(auditContext(event, actor), id)
 })

@@ -3,8 +3,5 @@ import { idParams } from '#shared/schemas/common'
 export default defineEventHandler(async (event) => {
   const key = await requireLabKey(event, 'results:read')
   const { id } = getValidParams(event, idParams)
-  const spectrum = await spectrumOf(key.labId, id)
-  setResponseHeader(event, 'content-type', 'text/csv; charset=utf-8')
-  setResponseHeader(event, 'content-disposition', attachmentName(spectrum.runId, 'csv'))
-  return spectrumCsv(spectrum)
+  return sendDownload(event, await spectrumExport(key.labId, id, 'csv'))
 })

@@ -4,7 +4,7 @@ import { labParams } from '#shared/schemas/instruments'
 export default defineEventHandler(async (event) => {
   const { id } = getValidParams(event, labParams)
   const actor = await requireLabAccess(event, id, 'write')
-  const { status, body } = await uploadFromConsole(event, actor, id, await readAcquisitionBody(event))
+  const { status, body } = await uploadFromConsole(auditContext(event, actor), id, await readAcquisitionBody(event))
   setResponseStatus(event, status)
   return body
 })

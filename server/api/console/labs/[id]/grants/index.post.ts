@@ -6,5 +6,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requireLabAccess(event, id, 'write')
   const input = await readValidBody(event, grantInput)
   setResponseStatus(event, 201)
-  return grantPartner(event, actor, id, input)
+  return grantPartner(auditContext(event, actor), id, input)
 })

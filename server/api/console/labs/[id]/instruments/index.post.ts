@@ -5,5 +5,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requireLabAccess(event, id, 'write')
   const input = await readValidBody(event, instrumentInput)
   setResponseStatus(event, 201)
-  return createInstrument(event, actor, id, input)
+  return createInstrument(auditContext(event, actor), id, input)
 })

@@ -6,5 +6,5 @@ export default defineEventHandler(async (event) => {
   const input = await readValidBody(event, apiKeyInput)
   setResponseStatus(event, 201)
   // The secret is in this answer only; it is never shown again.
-  return issueKey(event, actor, id, input)
+  return issueKey(auditContext(event, actor), id, input)
 })

@@ -7,5 +7,5 @@ export default defineEventHandler(async (event) => {
   const input = await readValidBody(event, partnerClientInput)
   setResponseStatus(event, 201)
   // The client secret is in this answer only.
-  return createPartnerClient(event, actor, id, input)
+  return createPartnerClient(auditContext(event, actor), id, input)
 })

@@ -6,5 +6,5 @@ export default defineEventHandler(async (event) => {
   const { id } = getValidParams(event, idParams)
   const actor = await requirePartnerAccess(event, id, 'write')
   const filter = await readValidBody(event, replayFilter)
-  return replayMatching(event, actor, id, filter)
+  return replayMatching(auditContext(event, actor), id, filter)
 })

@@ -6,5 +6,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requirePartnerAccess(event, id, 'write')
   const input = await readValidBody(event, endpointInput)
   setResponseStatus(event, 201)
-  return createEndpoint(event, actor, id, input)
+  return createEndpoint(auditContext(event, actor), id, input)
 })

@@ -5,6 +5,5 @@ export default defineEventHandler(async (event) => {
   const { id, acquisitionId } = getValidParams(event, labAcquisitionParams)
   await requireLabAccess(event, id, 'read')
   const { runId, json } = await acquisitionPayload(id, acquisitionId)
-  setResponseHeaders(event, { 'content-type': 'application/json', 'content-disposition': attachmentName(`${runId}-payload`, 'json') })
-  return json
+  return sendDownload(event, { contentType: 'application/json', disposition: attachmentName(`${runId}-payload`, 'json'), body: json })
 })

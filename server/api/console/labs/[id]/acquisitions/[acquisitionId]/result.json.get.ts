@@ -5,6 +5,5 @@ export default defineEventHandler(async (event) => {
   const { id, acquisitionId } = getValidParams(event, labAcquisitionParams)
   await requireLabAccess(event, id, 'read')
   const view = await getAcquisition(id, acquisitionId)
-  setResponseHeaders(event, { 'content-type': 'application/json', 'content-disposition': attachmentName(`${view.runId}-result`, 'json') })
-  return JSON.stringify(view, null, 2)
+  return sendDownload(event, { contentType: 'application/json', disposition: attachmentName(`${view.runId}-result`, 'json'), body: JSON.stringify(view, null, 2) })
 })

@@ -5,5 +5,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requireLabAccess(event, id, 'write')
   const input = await readValidBody(event, geometryVersionInput)
   setResponseStatus(event, 201)
-  return addGeometryVersion(event, actor, id, instrumentId, input)
+  return addGeometryVersion(auditContext(event, actor), id, instrumentId, input)
 })

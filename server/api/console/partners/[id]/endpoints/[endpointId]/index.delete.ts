@@ -3,7 +3,7 @@ import { endpointParams } from '#shared/schemas/webhooks'
 export default defineEventHandler(async (event) => {
   const { id, endpointId } = getValidParams(event, endpointParams)
   const actor = await requirePartnerAccess(event, id, 'write')
-  await deleteEndpoint(event, actor, id, endpointId)
+  await deleteEndpoint(auditContext(event, actor), id, endpointId)
   setResponseStatus(event, 204)
   return null
 })

@@ -5,5 +5,5 @@ export default defineEventHandler(async (event) => {
   const { id, endpointId } = getValidParams(event, endpointParams)
   const actor = await requirePartnerAccess(event, id, 'write')
   const input = await readValidBody(event, endpointUpdate)
-  return updateEndpoint(event, actor, id, endpointId, input)
+  return updateEndpoint(auditContext(event, actor), id, endpointId, input)
 })

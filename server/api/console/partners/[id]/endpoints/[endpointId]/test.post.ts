@@ -3,5 +3,5 @@ import { endpointParams } from '#shared/schemas/webhooks'
 export default defineEventHandler(async (event) => {
   const { id, endpointId } = getValidParams(event, endpointParams)
   const actor = await requirePartnerAccess(event, id, 'write')
-  return sendTestEvent(event, actor, id, endpointId)
+  return sendTestEvent(auditContext(event, actor), id, endpointId)
 })

@@ -5,5 +5,5 @@ export default defineEventHandler(async (event) => {
   const actor = await requireLabAccess(event, id, 'write')
   const input = await readValidBody(event, calibrationInput)
   setResponseStatus(event, 201)
-  return addCalibration(event, actor, id, instrumentId, input)
+  return addCalibration(auditContext(event, actor), id, instrumentId, input)
 })

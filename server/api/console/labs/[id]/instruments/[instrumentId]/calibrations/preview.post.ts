@@ -4,6 +4,6 @@ import { calibrationFromReferenceInput, labInstrumentParams } from '#shared/sche
 export default defineEventHandler(async (event) => {
   const { id, instrumentId } = getValidParams(event, labInstrumentParams)
   await requireLabAccess(event, id, 'write')
-  await getInstrument(id, instrumentId)
+  await assertInstrument(id, instrumentId)
   return calibrationFromReference(id, instrumentId, await readValidBody(event, calibrationFromReferenceInput))
 })

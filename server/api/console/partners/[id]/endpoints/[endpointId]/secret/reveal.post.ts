@@ -4,5 +4,5 @@ import { endpointParams } from '#shared/schemas/webhooks'
 export default defineEventHandler(async (event) => {
   const { id, endpointId } = getValidParams(event, endpointParams)
   const actor = await requirePartnerAccess(event, id, 'write')
-  return revealSecret(event, actor, id, endpointId)
+  return revealSecret(auditContext(event, actor), id, endpointId)
 })

@@ -4,5 +4,5 @@ export default defineEventHandler(async (event) => {
   const { id, endpointId } = getValidParams(event, endpointParams)
   const actor = await requirePartnerAccess(event, id, 'write')
   const { overlapHours } = await readValidBody(event, secretRotation)
-  return rotateSecret(event, actor, id, endpointId, overlapHours)
+  return rotateSecret(auditContext(event, actor), id, endpointId, overlapHours)
 })

@@ -1,0 +1,84 @@
+import { sql } from 'drizzle-orm'
+import { bigserial, boolean, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
+import { createdAt, updatedAt } from './columns'
+import { users } from './access'
+import { partners } from './orgs'
+import { events } from './results'
+
+export const endpointStatusEnum = pgEnum('endpoint_status', ['active', 'paused', 'disabled'])
+
+/** A partner's webhook endpoint; its signing secret (`whsec_…`) is sealed at rest. */
+
+export const webhookEndpoints = pgTable('webhook_endpoints', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  partnerId: uuid('partner_id').notNull().references(() => partners.id),
+  url: text('url').notNull(),
+  description: text('description').notNull().default(''),
+  eventTypes: text('event_types').array().notNull(),
+  // Labs whose events go here; empty means every lab that grants the partner.
+  labIds: uuid('lab_ids').array().notNull().default(sql`'{}'::uuid[]`),
+  schemaVersion: integer('schema_version').notNull().default(1),
+  status: endpointStatusEnum('status').notNull().default('active'),
+  disabledReason: text('disabled_reason'),
+  sealedSecret: text('sealed_secret').notNull(),
+  // During a rotation the previous secret signs beside the new one until this time.
+  previousSealedSecret: text('previous_sealed_secret'),
+  previousSecretUntil: timestamp('previous_secret_until', { withTimezone: true }),
+  // Start of the current run of failures (null after a success).
+  failingSince: timestamp('failing_since', { withTimezone: true }),
+  createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
+  createdAt: createdAt(),
+  updatedAt: updatedAt(),
+}, t => [index('webhook_endpoints_partner_idx').on(t.partnerId)])
+
+export const deliveryStatusEnum = pgEnum('delivery_status', ['pending', 'succeeded', 'dead'])
+
+/**
+ * The durable delivery queue: one row per event and endpoint, written in the transaction
+ * that records the event. Workers claim due rows with SKIP LOCKED and a lease.
+ */
+
+export const deliveries = pgTable('deliveries', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  endpointId: uuid('endpoint_id').notNull().references(() => webhookEndpoints.id, { onDelete: 'cascade' }),
+  // Null for a test message, whose payload is kept here instead.
+  eventId: uuid('event_id').references(() => events.id),
+  eventType: text('event_type').notNull(),
+  testPayload: jsonb('test_payload').$type<Record<string, unknown>>(),
+  status: deliveryStatusEnum('status').notNull().default('pending'),
+  // Set when someone asks for a replay: the next attempt is marked as one.
+  replayRequested: boolean('replay_requested').notNull().default(false),
+  attempts: integer('attempts').notNull().default(0),
+  nextAttemptAt: timestamp('next_attempt_at', { withTimezone: true }).notNull().defaultNow(),
+  leaseOwner: text('lease_owner'),
+  leaseUntil: timestamp('lease_until', { withTimezone: true }),
+  lastClass: text('last_class'),
+  lastStatusCode: integer('last_status_code'),
+  createdAt: createdAt(),
+  finishedAt: timestamp('finished_at', { withTimezone: true }),
+}, t => [
+  // The claim walks each active endpoint's due deliveries in time order, so its cost follows
+  // the number of endpoints rather than the backlog (a paused endpoint's pile is never read).
+  index('deliveries_endpoint_due_idx').on(t.endpointId, t.nextAttemptAt).where(sql`status = 'pending'`),
+  index('deliveries_endpoint_idx').on(t.endpointId, t.createdAt),
+  uniqueIndex('deliveries_event_endpoint_idx').on(t.eventId, t.endpointId),
+])
+
+/** Every attempt of a delivery, as the log and the console show it. */
+
+export const deliveryAttempts = pgTable('delivery_attempts', {
+  id: bigserial('id', { mode: 'number' }).primaryKey(),
+  deliveryId: uuid('delivery_id').notNull().references(() => deliveries.id, { onDelete: 'cascade' }),
+  number: integer('number').notNull(),
+  at: timestamp('at', { withTimezone: true }).notNull().defaultNow(),
+  durationMs: integer('duration_ms').notNull(),
+  class: text('class').notNull(),
+  statusCode: integer('status_code'),
+  error: text('error'),
+  responseExcerpt: text('response_excerpt'),
+  requestHeaders: jsonb('request_headers').$type<Record<string, string>>().notNull(),
+  // Null when the attempt sent its event's whole message, which is rebuilt from the event when
+  // shown rather than stored again with every attempt (a thin or test message is stored).
+  requestBody: text('request_body'),
+  replay: boolean('replay').notNull().default(false),
+}, t => [index('delivery_attempts_delivery_idx').on(t.deliveryId, t.number)])

@@ -1,0 +1,62 @@
+import { bigint, bigserial, doublePrecision, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
+import { createdAt } from './columns'
+import { calibrations, geometryVersions, instruments } from './instruments'
+import { labs } from './orgs'
+
+export const acquisitionStatusEnum = pgEnum('acquisition_status', ['processed', 'failed'])
+
+export const acquisitions = pgTable('acquisitions', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  instrumentId: uuid('instrument_id').notNull().references(() => instruments.id),
+  externalId: text('external_id').notNull(),
+  acquiredAt: timestamp('acquired_at', { withTimezone: true }).notNull(),
+  sampleRef: text('sample_ref'),
+  status: acquisitionStatusEnum('status').notNull(),
+  // SHA-256 of the canonical body, to tell a replay from a different body under one run id.
+  bodyHash: text('body_hash').notNull(),
+  payload: jsonb('payload').$type<Record<string, unknown>>().notNull(),
+  pointCount: integer('point_count').notNull(),
+  createdAt: createdAt(),
+}, t => [
+  uniqueIndex('acquisitions_lab_external_idx').on(t.labId, t.externalId),
+  index('acquisitions_lab_created_idx').on(t.labId, t.createdAt, t.id),
+  index('acquisitions_lab_acquired_idx').on(t.labId, t.acquiredAt, t.id),
+])
+
+export const results = pgTable('results', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  acquisitionId: uuid('acquisition_id').notNull().references(() => acquisitions.id, { onDelete: 'cascade' }),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  geometryVersionId: uuid('geometry_version_id').notNull().references(() => geometryVersions.id),
+  calibrationId: uuid('calibration_id').references(() => calibrations.id),
+  engineVersion: text('engine_version').notNull(),
+  summary: jsonb('summary').$type<Record<string, unknown>>().notNull(),
+  supersededBy: uuid('superseded_by'),
+  createdAt: createdAt(),
+}, t => [index('results_acquisition_idx').on(t.acquisitionId)])
+
+/** Peaks, one row each, indexed by m/z for queries across labs. */
+
+export const peaks = pgTable('peaks', {
+  id: bigserial('id', { mode: 'number' }).primaryKey(),
+  resultId: uuid('result_id').notNull().references(() => results.id, { onDelete: 'cascade' }),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  mz: doublePrecision('mz').notNull(),
+  area: doublePrecision('area').notNull(),
+  species: text('species'),
+  charge: integer('charge'),
+}, t => [index('peaks_mz_idx').on(t.mz), index('peaks_result_idx').on(t.resultId)])
+
+/** The outbox: one event per accepted result, numbered per lab for ordering. */
+
+export const events = pgTable('events', {
+  id: uuid('id').primaryKey().defaultRandom(),
+  labId: uuid('lab_id').notNull().references(() => labs.id),
+  sequence: bigint('sequence', { mode: 'number' }).notNull(),
+  type: text('type').notNull(),
+  payload: jsonb('payload').$type<Record<string, unknown>>().notNull(),
+  createdAt: createdAt(),
+}, t => [uniqueIndex('events_lab_sequence_idx').on(t.labId, t.sequence), index('events_created_idx').on(t.createdAt, t.id)])
+
+/** Stored answers for Idempotency-Key (IETF draft-ietf-httpapi-idempotency-key-header). */

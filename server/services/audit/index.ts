@@ -1,0 +1,2 @@
+// The audit log as the console reads it (rows are written by recordAudit, server/utils/audit.ts).
+export { listAudit, auditActions } from './trail'

@@ -1,0 +1,98 @@
+import { and, eq, inArray, sql } from 'drizzle-orm'
+import { deliveries, deliveryAttempts, partners, users, webhookEndpoints } from '../../database/schema'
+import { linkMail, queueMail } from '../mail'
+import { nextDelaySeconds } from './retry'
+import type { Sent } from './send'
+import { deliverySettings, workerId } from './settings'
+
+// Phase three of the worker: the attempts recorded, what follows each scheduled, and
+// endpoints that keep failing (or answer 410) disabled with their owners told.
+
+/** Ids as one uuid[] parameter (a list in Drizzle's `sql` would become one parameter per id). */
+const uuidArray = (ids: string[]) => sql`${`{${ids.join(',')}}`}::uuid[]`
+
+/**
+ * Records a group of attempts and what follows each. One statement writes the deliveries
+ * (only those this worker still leases), their attempts and the success of their endpoints;
+ * when some failed, the same transaction then starts the endpoints' failure clocks and
+ * disables where due.
+ */
+export async function recordAttempts(sent: Sent[]) {
+  if (!sent.length) return
+  const { disableAfterMs, schedule } = deliverySettings()
+  const outcomes: Record<string, object> = {}
+  const rows = sent.map(({ row, storedBody, headers, outcome }) => {
+    const attempts = row.attempts + 1
+    const gone = outcome.statusCode === 410
+    const delay = outcome.class === 'success' || outcome.class === 'guard-refused' || gone ? null : nextDelaySeconds(attempts, outcome.retryAfterS, schedule)
+    const status = outcome.class === 'success' ? 'succeeded' : delay === null ? 'dead' : 'pending'
+    outcomes[row.id] = { attempts, status, delay, cls: outcome.class, code: outcome.statusCode, error: outcome.error, excerpt: outcome.excerpt, headers,
+      // An event's whole message is not stored with every attempt: it is rebuilt from the event
+      // when shown (eventMessageBody). Storing it was most of what recording an attempt cost.
+      body: storedBody, duration: outcome.durationMs, replay: row.replay_requested }
+    return { id: row.id, endpoint: row.endpoint_id, gone, cls: outcome.class }
+  })
+  const succeeded = [...new Set(rows.filter(r => r.cls === 'success').map(r => r.endpoint))]
+  // Each row's outcome is looked up by its id in one JSON object, and the deliveries are found
+  // by their ids: a join with the outcomes let the planner scan the whole table, once per
+  // outcome, when its statistics said no row was leased (bench:delivery; DEVELOPERS.md, Measured).
+  const write = (db: Queryable) => db.execute(sql`
+    with o as (select ${JSON.stringify(outcomes)}::jsonb as by_id),
+    upd as (
+      update ${deliveries} d set (attempts, status, last_class, last_status_code, next_attempt_at, finished_at) = (
+          select r.attempts, r.status, r.cls, r.code, case when r.delay is null then d.next_attempt_at else now() + make_interval(secs => r.delay) end,
+            case when r.status = 'pending' then null else now() end
+          from o, jsonb_to_record(o.by_id -> d.id::text) as r(attempts int, status delivery_status, delay float8, cls text, code int)),
+        replay_requested = false, lease_owner = null, lease_until = null
+      where d.id = any(${uuidArray(rows.map(r => r.id))}) and d.lease_owner = ${workerId}
+      returning d.id, d.attempts),
+    logged as (
+      insert into ${deliveryAttempts} (delivery_id, number, duration_ms, class, status_code, error, response_excerpt, request_headers, request_body, replay)
+      select upd.id, upd.attempts, r.duration, r.cls, r.code, r.error, r.excerpt, r.headers, r.body, r.replay
+      from upd, o, jsonb_to_record(o.by_id -> upd.id::text) as r(cls text, code int, error text, excerpt text, headers jsonb, body text, duration int, replay boolean))
+    update ${webhookEndpoints} e set failing_since = null
+    where e.failing_since is not null and e.id = any(${uuidArray(succeeded)})`)
+  const failing = [...new Set(rows.filter(r => r.cls !== 'success' && !r.gone).map(r => r.endpoint))]
+  const gone = [...new Set(rows.filter(r => r.gone).map(r => r.endpoint))]
+  if (!failing.length && !gone.length) {
+    await write(useDb())
+    return
+  }
+  await useDb().transaction(async (tx) => {
+    await write(tx)
+    if (failing.length) {
+      const clocks = await tx.update(webhookEndpoints).set({ failingSince: sql`coalesce(${webhookEndpoints.failingSince}, now())` })
+        .where(inArray(webhookEndpoints.id, failing)).returning({ id: webhookEndpoints.id, failingSince: webhookEndpoints.failingSince })
+      for (const ep of clocks) {
+        if (ep.failingSince && Date.now() - ep.failingSince.getTime() >= disableAfterMs) {
+          await disableEndpoint(tx, ep.id, `no delivery succeeded for ${Math.round(disableAfterMs / 3600_000)} hours`)
+        }
+      }
+    }
+    for (const endpoint of gone) await disableEndpoint(tx, endpoint, 'the receiver answered 410 Gone')
+  })
+}
+
+/**
+ * Disables an endpoint: its waiting deliveries become dead (they can be replayed once it is
+ * back), and its partner's integrators and the admins are e-mailed.
+ */
+export async function disableEndpoint(tx: Queryable, endpointId: string, reason: string) {
+  const [ep] = await tx.update(webhookEndpoints).set({ status: 'disabled', disabledReason: reason, updatedAt: new Date() })
+    .where(and(eq(webhookEndpoints.id, endpointId), sql`${webhookEndpoints.status} <> 'disabled'`)).returning()
+  if (!ep) return
+  await tx.update(deliveries).set({ status: 'dead', finishedAt: new Date(), leaseOwner: null, leaseUntil: null })
+    .where(and(eq(deliveries.endpointId, endpointId), eq(deliveries.status, 'pending')))
+  const partner = await tx.query.partners.findFirst({ where: eq(partners.id, ep.partnerId) })
+  const owners = await tx.select({ email: users.email }).from(users)
+    .where(and(eq(users.status, 'active'), sql`(${users.role} = 'admin' or (${users.role} = 'integrator' and ${users.partnerId} = ${ep.partnerId}))`))
+  const link = `${useRuntimeConfig().appUrl}/console/partners/${ep.partnerId}`
+  for (const o of owners) {
+    await queueMail(tx, linkMail(o.email, `Webhook endpoint disabled: ${ep.url}`, [
+      `Arcwise disabled the webhook endpoint ${ep.url} of ${partner?.name ?? 'a partner'}: ${reason}.`,
+      'Its waiting deliveries are kept as dead deliveries. Fix the receiver, resume the endpoint, and replay them from the delivery log.',
+    ], { label: 'Open the partner in the console', url: link }))
+  }
+  await recordAudit(tx, { actor: { id: null, label: 'delivery worker' }, action: 'endpoint.disabled', targetType: 'webhook-endpoint', targetId: endpointId, detail: { url: ep.url, reason } })
+}
+

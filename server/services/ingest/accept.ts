@@ -1,0 +1,135 @@
+import { createHash, randomUUID } from 'node:crypto'
+import { and, eq } from 'drizzle-orm'
+import { geometry as geometrySchema, processMzSpectrum, processReadings, type AppliedCalibration, type EngineResult, type RawReadings } from '#shared/engine'
+import type { AcquisitionInput } from '#shared/schemas/acquisitions'
+import { acquisitions, results } from '../../database/schema'
+import type { LabKey } from '../access'
+import { kickDeliveries } from '../delivery'
+import { instrumentContextAt } from '../instruments'
+import { acquisitionHead, resultView, type AcquisitionHead, type AcquisitionResultView } from '../results'
+import { countSchemaUse } from '../schemas'
+import { recordAccepted } from './acceptedWrites'
+
+// The body is serialised once per request: the Idempotency-Key check, the run-id check and
+// the stored payload all use the same text.
+const canonicalBodies = new WeakMap<object, { json: string, hash: string }>()
+export function canonicalBody(body: object) {
+  let c = canonicalBodies.get(body)
+  if (!c) {
+    const json = JSON.stringify(body)
+    c = { json, hash: createHash('sha256').update(json).digest('hex') }
+    canonicalBodies.set(body, c)
+  }
+  return c
+}
+
+/** SHA-256 of the body's JSON text, to tell a replay from a different body. */
+export function bodyHash(body: object): string {
+  return canonicalBody(body).hash
+}
+
+
+function readingsOf(input: AcquisitionInput): RawReadings {
+  return { settings: input.settings, sweep: input.sweep, detectors: input.detectors }
+}
+
+export interface AcceptOptions {
+  /** The exchange-schema version the body was sent under, counted as a use. */
+  schemaId?: string
+  /**
+   * A deferred upload being processed: its body is copied into the acquisition inside
+   * PostgreSQL rather than serialised and sent again (10^6 points are about 20 MB of JSON),
+   * and its hash is the one taken when the lab sent it.
+   */
+  upload?: { id: string, bodyHash: string }
+}
+
+/**
+ * Accepts one acquisition for the key's lab: normalises it with the geometry and calibration
+ * in force at `acquiredAt`, and stores the acquisition, its result, its peaks and the outbox
+ * event in one transaction. The same run id with the same body answers the stored result;
+ * with another body, 409.
+ */
+export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: AcquisitionInput, opts: AcceptOptions = {}): Promise<{ status: 200 | 201, body: AcquisitionResultView }> {
+  const hash = opts.upload?.bodyHash ?? bodyHash(input)
+  const acquiredAt = new Date(input.acquiredAt)
+  const instrument = await instrumentContextAt(key.labId, input.instrument, acquiredAt, input.runId)
+  if (!instrument) throw fieldProblem('instrument', 'no instrument with this slug in your lab')
+  if (instrument.runSeen) {
+    const existing = await findByRunId(key.labId, input.runId)
+    if (existing) return replayOrConflict(existing, hash, instrument.slug)
+  }
+  const geo = instrument.geometry
+  if (!geo) throw fieldProblem('acquiredAt', 'is before the first geometry registered for this instrument')
+  const calibration = instrument.calibration
+  let engine: EngineResult
+  try {
+    const options = {
+      tolerance: { ppm: input.processing?.tolerancePpm ?? 50 },
+      formulas: input.processing?.formulas,
+      isotopes: input.processing?.isotopes,
+      maxCharge: input.processing?.maxCharge,
+      ratios: input.processing?.ratios,
+      measuredSpecies: input.processing?.measuredSpecies,
+      baseline: input.baseline,
+      calibration: calibration ? { ...calibration.fit as unknown as AppliedCalibration, geometryVersion: calibration.geometryVersion } : null,
+      geometryVersion: geo.version,
+      compatibility: input.processing?.engine,
+    }
+    engine = input.mzSpectrum
+      ? processMzSpectrum(input.mzSpectrum.mz, input.mzSpectrum.values, input.mzSpectrum.unit, options)
+      : processReadings(geometrySchema.parse(geo.params), readingsOf(input), options)
+  }
+  catch (error) { engineProblem(error) }
+
+  // A retired calibration (fitted under another geometry version) was not applied: the result does not cite it.
+  const applied = engine.calibration.state === 'applied' ? calibration : null
+  const summary = { ...engine, geometryVersion: geo.version, calibrationVersion: applied?.version ?? null }
+  const acq: AcquisitionHead = {
+    id: randomUUID(), labId: key.labId, instrumentId: instrument.id, externalId: input.runId, acquiredAt, sampleRef: input.sampleRef ?? null,
+    status: 'processed', bodyHash: hash, pointCount: engine.points, createdAt: new Date(),
+  }
+  const res: typeof results.$inferSelect = {
+    id: randomUUID(), acquisitionId: acq.id, labId: key.labId, geometryVersionId: geo.id, calibrationId: applied?.id ?? null,
+    engineVersion: engine.engineVersion, summary: summary as unknown as Record<string, unknown>, supersededBy: null, createdAt: acq.createdAt,
+  }
+  const view = resultView(acq, res, instrument.slug)
+  try {
+    await recordAccepted({ acq, res, payload: opts.upload ? { uploadId: opts.upload.id } : { json: canonicalBody(input).json }, peaks: engine.peaks, view })
+    if (opts.schemaId) countSchemaUse(opts.schemaId, key.labId)
+    kickDeliveries()
+    return { status: 201, body: view }
+  }
+  catch (error) {
+    // Two requests with one run id at once: the unique index lets one in; the other replays or conflicts.
+    if (pgErrorCode(error) === '23505') {
+      const winner = await findByRunId(key.labId, input.runId)
+      if (winner) return replayOrConflict(winner, hash, instrument.slug)
+    }
+    throw error
+  }
+}
+
+async function findByRunId(labId: string, runId: string) {
+  const [row] = await useDb().select({ acq: acquisitionHead, res: results }).from(acquisitions)
+    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+    .where(and(eq(acquisitions.labId, labId), eq(acquisitions.externalId, runId))).limit(1)
+  return row
+}
+
+function replayOrConflict(existing: { acq: AcquisitionHead, res: typeof results.$inferSelect }, hash: string, slug: string) {
+  if (existing.acq.bodyHash !== hash) throw fieldProblem('runId', 'this run id was accepted before with a different body', 409, 'run-id-conflict')
+  return { status: 200 as const, body: resultView(existing.acq, existing.res, slug) }
+}
+
+/**
+ * An acquisition uploaded as a file in the console by a lab manager or admin: processed at
+ * once, whatever its size (the console waits for it), and recorded in the audit log.
+ */
+export async function uploadFromConsole(audit: AuditContext, labId: string, input: AcquisitionInput) {
+  const result = await acceptAcquisition({ labId }, input)
+  if (result.status === 201) {
+    await recordAudit(useDb(), { ...audit, action: 'acquisition.uploaded', targetType: 'acquisition', targetId: result.body.id, detail: { labId, runId: input.runId, points: result.body.result.points } })
+  }
+  return result
+}

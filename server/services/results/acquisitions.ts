@@ -1,0 +1,68 @@
+import { and, desc, eq, gte, lte, sql, type SQL } from 'drizzle-orm'
+import type { z } from 'zod'
+import type { acquisitionListQuery } from '#shared/schemas/acquisitions'
+import { acquisitions, geometryVersions, instruments, results } from '../../database/schema'
+import { acquisitionHead, resultView } from './view'
+
+export async function listAcquisitions(labId: string, query: z.output<typeof acquisitionListQuery>) {
+  const conditions: (SQL | undefined)[] = [eq(acquisitions.labId, labId)]
+  if (query.instrument) conditions.push(eq(instruments.slug, query.instrument))
+  if (query.status) conditions.push(eq(acquisitions.status, query.status))
+  if (query.from) conditions.push(gte(acquisitions.acquiredAt, new Date(query.from)))
+  if (query.to) conditions.push(lte(acquisitions.acquiredAt, new Date(query.to)))
+  const sortColumn = query.sort === 'acquired' ? acquisitions.acquiredAt : acquisitions.createdAt
+  if (query.cursor) conditions.push(afterCursor(query.cursor, sortColumn, acquisitions.id))
+  const rows = await useDb().select({
+    id: acquisitions.id, runId: acquisitions.externalId, instrument: instruments.slug, acquiredAt: acquisitions.acquiredAt,
+    sampleRef: acquisitions.sampleRef, status: acquisitions.status, points: acquisitions.pointCount, createdAt: acquisitions.createdAt,
+    at: sql<string>`${sortColumn}::text`,
+  }).from(acquisitions).innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
+    .where(and(...conditions)).orderBy(desc(sortColumn), desc(acquisitions.id)).limit(query.limit + 1)
+  const { items, nextCursor } = cursorPage(rows, query.limit)
+  return {
+    items: items.map(({ createdAt, at: _at, ...r }) => ({ ...r, acquiredAt: r.acquiredAt.toISOString(), receivedAt: createdAt.toISOString() })),
+    nextCursor,
+  }
+}
+
+/** One acquisition of the lab with its current result; another lab's is 404 like a missing one. */
+export async function getAcquisition(labId: string, id: string) {
+  const [row] = await useDb().select({ acq: acquisitionHead, res: results, slug: instruments.slug }).from(acquisitions)
+    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+    .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
+    .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
+  if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
+  return resultView(row.acq, row.res, row.slug)
+}
+
+const PAYLOAD_PREVIEW_CHARS = 6000
+
+/**
+ * What the console shows of one acquisition: the API's view, where it came from (instrument,
+ * geometry kind) and the first characters of the raw payload as stored. The payload itself
+ * can be tens of megabytes, so PostgreSQL cuts it rather than sending it to the app.
+ */
+export async function acquisitionDetail(labId: string, id: string) {
+  const [row] = await useDb().select({
+    acq: acquisitionHead, res: results, slug: instruments.slug, instrumentName: instruments.name, geometryKind: geometryVersions.kind,
+    head: sql<string>`left(jsonb_pretty(${acquisitions.payload}), ${PAYLOAD_PREVIEW_CHARS})`, chars: sql<number>`length(${acquisitions.payload}::text)`,
+  }).from(acquisitions)
+    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+    .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
+    .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
+    .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
+  if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
+  return {
+    ...resultView(row.acq, row.res, row.slug),
+    instrumentId: row.acq.instrumentId, instrumentName: row.instrumentName, geometryKind: row.geometryKind,
+    payload: { head: row.head, chars: Number(row.chars), truncated: row.head.length >= PAYLOAD_PREVIEW_CHARS },
+  }
+}
+
+/** The acquisition's stored payload as JSON text, for download. */
+export async function acquisitionPayload(labId: string, id: string) {
+  const [row] = await useDb().execute<{ run_id: string, payload: string }>(sql`
+    select external_id as run_id, payload::text as payload from ${acquisitions} where id = ${id}::uuid and lab_id = ${labId}::uuid`)
+  if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
+  return { runId: row.run_id, json: row.payload }
+}

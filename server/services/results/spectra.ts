@@ -1,0 +1,141 @@
+import { and, eq } from 'drizzle-orm'
+import { applyCalibrationColumn, collectorDetector, detectorParams, detectorSignal, geometry as geometrySchema, physicsFor, staticCollectorMz, staticColumn, sweepToMz } from '#shared/engine'
+import type { AcquisitionInput } from '#shared/schemas/acquisitions'
+import { acquisitions, calibrations, geometryVersions, instruments, labs, results } from '../../database/schema'
+
+export interface Spectrum { runId: string, lab: string, instrument: string, acquiredAt: Date, mz: Float64Array, signal: Float64Array, unit: 'A' | 'cps' }
+
+/** The profile (or the collector readings) of an acquisition, recomputed from its raw payload with the versions its result used. */
+export async function spectrumOf(labId: string, id: string): Promise<Spectrum> {
+  const [row] = await useDb().select({ acq: acquisitions, geo: geometryVersions, cal: calibrations, slug: instruments.slug, lab: labs.name })
+    .from(acquisitions)
+    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+    .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
+    .leftJoin(calibrations, eq(calibrations.id, results.calibrationId))
+    .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
+    .innerJoin(labs, eq(labs.id, acquisitions.labId))
+    .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
+  if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
+  const input = row.acq.payload as unknown as AcquisitionInput
+  const geo = geometrySchema.parse(row.geo.params)
+  // Each column through the detector registered for its collector (volts through the
+  // resistor, counts over the dwell, dead time), with the physics the result was computed with.
+  const physics = physicsFor(input.processing?.engine)
+  const params = (collector: string | undefined) => detectorParams(collectorDetector(geo, collector), 'geometry.detector')
+  let mz: Float64Array
+  let signal: Float64Array
+  let unit: 'A' | 'cps'
+  if (input.mzSpectrum) {
+    // m/z as the instrument's software gave it: neither geometry nor calibration applies.
+    mz = Float64Array.from(input.mzSpectrum.mz)
+    const s = detectorSignal(params(undefined), { unit: input.mzSpectrum.unit, values: input.mzSpectrum.values }, 'mzSpectrum')
+    signal = s.values
+    unit = s.unit
+  }
+  else if (input.sweep) {
+    mz = sweepToMz(geo, { settings: input.settings, sweep: input.sweep, detectors: input.detectors }, undefined, physics).mz
+    const d = input.detectors[0]!
+    const s = detectorSignal(params(d.collector), d, 'detectors[0]')
+    signal = s.values
+    unit = s.unit
+  }
+  else {
+    const positions = staticCollectorMz(geo, { settings: input.settings, detectors: input.detectors }, physics)
+    mz = Float64Array.from(input.detectors, (d, k) => (positions.find(p => p.collector === d.collector) ?? positions[k])!.mz)
+    const columns = input.detectors.map((d, k) => staticColumn(params(d.collector), d, `detectors[${k}]`))
+    signal = Float64Array.from(columns, c => c.mean)
+    unit = columns[0]!.unit
+  }
+  // The calibration the result applied (a retired one is not recorded on the result, so not joined here).
+  if (row.cal && !input.mzSpectrum) applyCalibrationColumn(row.cal.fit as { center: number, halfRange: number, coefficients: number[] }, mz)
+  if (mz.length > 1 && mz[1]! < mz[0]!) { mz.reverse(); signal.reverse() }
+  return { runId: row.acq.externalId, lab: row.lab, instrument: row.slug, acquiredAt: row.acq.acquiredAt, mz, signal, unit }
+}
+
+export function spectrumCsv(s: Spectrum): string {
+  const lines = [`mz,signal_${s.unit === 'A' ? 'A' : 'cps'}`]
+  for (let i = 0; i < s.mz.length; i++) lines.push(`${s.mz[i]!.toPrecision(10)},${s.signal[i]!.toPrecision(8)}`)
+  return `${lines.join('\n')}\n`
+}
+
+/**
+ * JCAMP-DX 5.01 (McDonald & Wilks, Appl. Spectrosc. 42 (1988) 151): the profile resampled by
+ * linear interpolation onto evenly spaced m/z, written as ##XYDATA=(X++(Y..Y)), the form
+ * readers take for continuous spectra (m/z of a field sweep is not evenly spaced).
+ */
+export function spectrumJcamp(s: Spectrum): string {
+  const n = s.mz.length
+  const first = s.mz[0]!
+  const last = s.mz[n - 1]!
+  const delta = n > 1 ? (last - first) / (n - 1) : 0
+  const y = new Float64Array(n)
+  for (let i = 0, j = 0; i < n; i++) {
+    const x = first + i * delta
+    while (j < n - 2 && s.mz[j + 1]! < x) j++
+    const x0 = s.mz[j]!
+    const x1 = s.mz[Math.min(j + 1, n - 1)]!
+    const t = x1 === x0 ? 0 : Math.min(1, Math.max(0, (x - x0) / (x1 - x0)))
+    y[i] = s.signal[j]! + t * (s.signal[Math.min(j + 1, n - 1)]! - s.signal[j]!)
+  }
+  // Y as integers times YFACTOR (readers handle these best): 7 significant digits at the top.
+  let top = 0
+  for (let i = 0; i < n; i++) top = Math.max(top, Math.abs(y[i]!))
+  const yFactor = top > 0 ? top / 1e7 : 1
+  const head = [
+    `##TITLE=${s.runId}`,
+    '##JCAMP-DX=5.01',
+    '##DATA TYPE=MASS SPECTRUM',
+    '##DATA CLASS=XYDATA',
+    `##ORIGIN=${s.lab} (Arcwise)`,
+    `##OWNER=${s.lab}`,
+    `##SPECTROMETER/DATA SYSTEM=${s.instrument}`,
+    `##LONGDATE=${s.acquiredAt.toISOString()}`,
+    '##XUNITS=M/Z',
+    `##YUNITS=${s.unit === 'A' ? 'AMPERES' : 'COUNTS/S'}`,
+    '##XFACTOR=1',
+    `##YFACTOR=${yFactor.toExponential(6)}`,
+    `##FIRSTX=${first}`,
+    `##LASTX=${last}`,
+    `##DELTAX=${delta}`,
+    `##NPOINTS=${n}`,
+    `##FIRSTY=${Math.round(y[0]! / yFactor) * yFactor}`,
+    '##XYDATA=(X++(Y..Y))',
+  ]
+  const body: string[] = []
+  for (let i = 0; i < n; i += 8) {
+    const ys: string[] = []
+    for (let k = i; k < Math.min(n, i + 8); k++) ys.push(String(Math.round(y[k]! / yFactor)))
+    body.push(`${(first + i * delta).toPrecision(10)} ${ys.join(' ')}`)
+  }
+  return `${[...head, ...body, '##END='].join('\n')}\n`
+}
+
+/**
+ * The spectrum for the console's plot as raw little-endian float64: n m/z values, then n
+ * signal values. A 10^6-point profile is 16 MB this way against some 40 MB as JSON, and
+ * the browser reads it straight into typed arrays.
+ */
+export function spectrumBinary(s: Spectrum): Buffer {
+  const out = Buffer.allocUnsafe(s.mz.length * 16)
+  Buffer.from(s.mz.buffer, s.mz.byteOffset, s.mz.byteLength).copy(out, 0)
+  Buffer.from(s.signal.buffer, s.signal.byteOffset, s.signal.byteLength).copy(out, s.mz.byteLength)
+  return out
+}
+
+const exportFormats = {
+  csv: { contentType: 'text/csv; charset=utf-8', write: spectrumCsv },
+  jdx: { contentType: 'chemical/x-jcamp-dx; charset=utf-8', write: spectrumJcamp },
+}
+export type SpectrumFormat = keyof typeof exportFormats
+
+/** An acquisition's spectrum as a file to download: CSV or JCAMP-DX, with its type and attachment name. */
+export async function spectrumExport(labId: string, id: string, format: SpectrumFormat) {
+  const spectrum = await spectrumOf(labId, id)
+  const { contentType, write } = exportFormats[format]
+  return { contentType, disposition: attachmentName(spectrum.runId, format), body: write(spectrum) }
+}
+
+/** A file name for an export: the run id with anything a Content-Disposition header cannot carry replaced. */
+export function attachmentName(runId: string, extension: string): string {
+  return `attachment; filename="${runId.replace(/[^\w.-]+/g, '_').slice(0, 100) || 'acquisition'}.${extension}"`
+}

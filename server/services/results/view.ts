@@ -1,0 +1,44 @@
+import { getTableColumns } from 'drizzle-orm'
+import type { EngineResult } from '#shared/engine'
+import { acquisitions, type results } from '../../database/schema'
+
+/**
+ * An acquisition's columns without its payload: the payload can be tens of megabytes, and
+ * nothing that answers with a result needs it.
+ */
+const { payload: _payload, ...acquisitionHead } = getTableColumns(acquisitions)
+export { acquisitionHead }
+export type AcquisitionHead = Omit<typeof acquisitions.$inferSelect, 'payload'>
+
+/** What the API answers for one acquisition and its result. */
+export function resultView(acq: AcquisitionHead, res: typeof results.$inferSelect, instrumentSlug: string) {
+  const summary = res.summary as unknown as EngineResult & { geometryVersion: number, calibrationVersion: number | null }
+  return {
+    id: acq.id,
+    runId: acq.externalId,
+    instrument: instrumentSlug,
+    acquiredAt: acq.acquiredAt.toISOString(),
+    sampleRef: acq.sampleRef,
+    status: acq.status,
+    receivedAt: acq.createdAt.toISOString(),
+    result: {
+      id: res.id,
+      mode: summary.mode,
+      points: summary.points,
+      mzRange: [summary.mzMin, summary.mzMax] as [number, number],
+      detectorUnit: summary.detectorUnit,
+      baseline: summary.baseline,
+      calibrated: summary.calibrated,
+      // Results of engine 1 carry none of these: say so rather than invent them.
+      calibration: summary.calibration ?? null,
+      physics: summary.physics ?? { relativistic: false, compatibility: '1.x' as const },
+      detectors: summary.detectors ?? [],
+      cycles: summary.cycles ?? null,
+      peaks: summary.peaks,
+      ratios: summary.ratios,
+      qc: summary.qc,
+      versions: { engine: res.engineVersion, constants: summary.constants, geometry: summary.geometryVersion, calibration: summary.calibrationVersion },
+    },
+  }
+}
+export type AcquisitionResultView = ReturnType<typeof resultView>
