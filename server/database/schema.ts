@@ -401,3 +401,5 @@ export const deliveryAttempts = pgTable('delivery_attempts', {
   requestBody: text('request_body'),
   replay: boolean('replay').notNull().default(false),
 }, t => [index('delivery_attempts_delivery_idx').on(t.deliveryId, t.number)])
+
+export * from './isotopes'
