@@ -1,5 +1,6 @@
 import { z } from 'zod'
 import { methodDefinition } from './methods'
+import { methodView, workingStandardView } from './sequences'
 
 // What the console's isotope routes answer (sequences, control charts, methods, standards and
 // reference materials), as the browser sees them: dates arrive as ISO strings. The console's
@@ -10,7 +11,7 @@ const flag = z.object({ code: z.string(), message: z.string(), position: z.numbe
 const role = z.enum(['sample', 'working-standard', 'reference-gas', 'blank', 'monitoring-standard'])
 const isoDate = z.string()
 
-export const sequenceStatus = z.enum(['open', 'processed', 'rejected', 'failed'])
+export const sequenceStatus = z.enum(['open', 'closed', 'processed', 'failed'])
 
 /** One line of a lab's sequence list. */
 export const sequenceListItem = z.object({
@@ -24,6 +25,8 @@ export const sequenceListItem = z.object({
   samples: z.number().int(),
   startedAt: isoDate.nullable(),
   closedAt: isoDate.nullable(),
+  /** False when an acceptance rule of the method failed (not to be released); null before processing. */
+  accepted: z.boolean().nullable(),
   flags: z.array(flag),
   violations: z.number().int().describe('control-chart rule violations this sequence raised'),
 })
@@ -83,7 +86,7 @@ export const sequenceDetail = sequenceListItem.extend({
   labId: z.string(),
   method: z.object({ version: z.number().int(), definition: methodDefinition }).nullable(),
   quantities: z.array(z.string()),
-  accepted: z.boolean().nullable(),
+  failure: z.object({ code: z.string(), message: z.string(), field: z.string().optional() }).nullable(),
   rows: z.array(sequenceItemView),
   standards: z.array(standardComparison),
   normalisation: z.array(normalisationView),
@@ -135,40 +138,19 @@ export const controlChartView = controlChartKey.extend({
   violationList: z.array(controlViolation),
 })
 
+// Methods and working standards answer in the sequences API's own shapes (MethodView and
+// WorkingStandardView in shared/schemas/sequences.ts).
+
 /** What needs a lab manager's eye today: rule violations and sequences that did not pass. */
 export const isotopeAttention = z.object({
   violations: z.array(controlViolation.extend({ labId: z.string(), lab: z.string(), instrumentId: z.string(), material: z.string(), quantity: z.string() })),
   failedSequences: z.array(z.object({ id: z.string(), labId: z.string(), lab: z.string(), externalId: z.string(), status: sequenceStatus, closedAt: isoDate.nullable(), flags: z.array(flag) })),
 })
 
-export const methodVersionView = z.object({
-  id: z.string(),
-  version: z.number().int(),
-  definition: methodDefinition,
-  note: z.string().nullable(),
-  createdAt: isoDate,
-  sequences: z.number().int().describe('sequences processed under this version'),
-})
-export const methodVersionList = z.object({ items: z.array(methodVersionView) })
-
-export const workingStandardView = z.object({
-  id: z.string(),
-  material: z.string(),
-  name: z.string(),
-  version: z.number().int(),
-  values: z.record(z.string(), measured),
-  calibratedAgainst: z.array(z.string()),
-  validFrom: isoDate,
-  validTo: isoDate.nullable(),
-  note: z.string().nullable(),
-})
-export const workingStandardList = z.object({ items: z.array(workingStandardView) })
-
 export const referenceMaterialView = z.object({
   id: z.string(),
   name: z.string(),
-  kind: z.string(),
-  values: z.record(z.string(), measured.extend({ scale: z.string().nullable() })),
+  values: z.record(z.string(), measured.extend({ scale: z.string().optional() })),
   source: z.string(),
   fromMemory: z.boolean(),
 })
@@ -184,6 +166,27 @@ export type StandardComparison = z.infer<typeof standardComparison>
 export type ControlChartView = z.infer<typeof controlChartView>
 export type ControlChartList = z.infer<typeof controlChartList>
 export type IsotopeAttention = z.infer<typeof isotopeAttention>
-export type MethodVersionView = z.infer<typeof methodVersionView>
-export type WorkingStandardView = z.infer<typeof workingStandardView>
 export type ReferenceMaterialView = z.infer<typeof referenceMaterialView>
+export type ReferenceMaterialList = z.infer<typeof referenceMaterialList>
+
+// What the console's isotope routes take (query strings and route parameters).
+export const consoleSequenceListQuery = z.object({
+  limit: z.coerce.number().int().min(1).max(200).default(50),
+  cursor: z.string().max(200).optional(),
+  instrument: z.uuid({ error: 'must be an instrument id' }).optional(),
+  status: sequenceStatus.optional(),
+})
+export const sequenceRouteParams = z.object({ id: z.uuid(), sequenceId: z.uuid({ error: 'must be a sequence id' }) })
+export const controlChartQuery = z.object({
+  material: z.string().trim().min(1, 'is required').max(64),
+  quantity: z.string().trim().min(1, 'is required').max(16),
+})
+export const instrumentRouteParams = z.object({ id: z.uuid(), instrumentId: z.uuid({ error: 'must be an instrument id' }) })
+
+/** Each instrument of a lab with its method versions (newest first) and the one in force now. */
+export const instrumentMethodsList = z.object({
+  items: z.array(z.object({ instrumentId: z.string(), instrument: z.string(), name: z.string(), current: methodView.nullable(), versions: z.array(methodView) })),
+})
+export type InstrumentMethodsList = z.infer<typeof instrumentMethodsList>
+export const workingStandardList = z.object({ items: z.array(workingStandardView) })
+export type WorkingStandardList = z.infer<typeof workingStandardList>
