@@ -2,7 +2,7 @@ import { and, asc, eq, isNull, min, sql } from 'drizzle-orm'
 import { EngineError, processDeltaSequence, processRatioSequence, sequenceItemFromResult, type EngineResult, type MaterialValues, type SequenceItem, type SequenceOutcome } from '#shared/engine'
 import { CAUTION } from '#shared/caution'
 import { standardRoles, type SequenceEventData } from '#shared/schemas/sequences'
-import { acquisitions, events, instruments, labs, methods, results, sequenceItems, sequences } from '../../database/schema'
+import { acquisitions, deliveries, events, grants, instruments, labs, methods, results, sequenceItems, sequences, webhookEndpoints } from '../../database/schema'
 import { methodInForce, methodVersion } from './methods'
 import { materialsAt, type ResolvedMaterial } from './materials'
 import { appendControlPoints, type NewControlPoint } from './charts'
@@ -152,8 +152,9 @@ function eventData(row: SequenceRow, instrument: string, method: MethodRow, outc
 }
 
 /**
- * The outbox event and one delivery per entitled endpoint, in the caller's transaction; the
- * lab's event number is taken under its row's lock, as acquisitions' events are.
+ * The outbox event and one delivery per entitled endpoint (as `fanOut` writes them for
+ * results, with the schema-version condition), in the caller's transaction; the lab's event
+ * number is taken under its row's lock, as acquisitions' events are.
  */
 async function recordSequenceEvent(tx: Queryable, labId: string, data: SequenceEventData) {
   await tx.execute(sql`
@@ -163,5 +164,11 @@ async function recordSequenceEvent(tx: Queryable, labId: string, data: SequenceE
       insert into ${events} (lab_id, sequence, type, payload)
       select lab_id, last, ${SEQUENCE_EVENT}, ${JSON.stringify(data)}::jsonb from seq
       returning id, lab_id)
-    ${fanOut(SEQUENCE_EVENT, sql`ev.lab_id`)}`)
+    insert into ${deliveries} (endpoint_id, event_id, event_type)
+    select e.id, ev.id, ${SEQUENCE_EVENT} from ev
+    join ${webhookEndpoints} e on e.status in ('active', 'paused') and ${SEQUENCE_EVENT} = any(e.event_types)
+      and (cardinality(e.lab_ids) = 0 or ev.lab_id = any(e.lab_ids))
+      -- result-event v1 does not describe this message: endpoints on v1 keep receiving results only.
+      and e.schema_version >= 2
+    join ${grants} g on g.partner_id = e.partner_id and g.lab_id = ev.lab_id and ${SEQUENCE_EVENT} = any(g.event_types)`)
 }

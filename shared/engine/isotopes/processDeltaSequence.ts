@@ -1,0 +1,170 @@
+import type { MethodDefinition, MethodStep } from '../../schemas/methods'
+import { EngineError } from '../errors'
+import { BRAND_2010 } from './isotopologues'
+import { VPDB_TO_VSMOW_18O, quantityScales } from './referenceMaterials'
+import { bracketReferenceGas, gasRatios, h3Factor, measuredItems, subtractBlank, type DeltaWork } from './deltaSteps'
+import { co2ToScale, correctDrift, gasQuantities, moleculesToScale, type ScaleContext } from './deltaScale'
+import { NORMALISATION_SOURCE, extrapolationFlags, normaliseQuantity, standardResiduals } from './deltaNormalise'
+import type { AppliedStep, DriftFit, MaterialValues, Measured, Normalisation, OutcomeFlag, SequenceItem, SequenceOutcome } from './types'
+
+// A δ sequence (CO2, N2, O2, H2) processed under one method: its steps run in the method's
+// order, each recorded with its source and the parameters it found. A method that cannot run
+// on this sequence is refused with an EngineError naming the method's or the items' field.
+
+type DeltaGas = Exclude<MethodDefinition['gas'], 'Ar'>
+/** Where the data stand: beams and ratios, molecular δ against the reference gas, δ on the scale. */
+type Stage = 'ratios' | 'molecular' | 'scale' | 'normalised'
+
+const SOURCES: Record<MethodStep['step'], string> = {
+  'blank': 'procedural blank, mean of the blanks (GUM JCGM 100:2008 4.2.3); common practice, no source',
+  'h3-factor': 'Sessions, Burgoyne & Hayes, Anal. Chem. 73 (2001) 192 (from memory)',
+  'reference-gas': 'Coplen, Rapid Commun. Mass Spectrom. 25 (2011) 2538 (δ against the reference gas)',
+  'oxygen-17': BRAND_2010.source,
+  'drift': 'weighted least squares (Bevington & Robinson, Data Reduction and Error Analysis, 3rd ed. 2003, §6.4)',
+  'normalise': NORMALISATION_SOURCE,
+  'time-zero': '',
+  'mass-bias': '',
+}
+
+export function processDeltaSequence(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>): SequenceOutcome {
+  if (method.gas === 'Ar') throw new EngineError('gas', 'not-a-delta-system', 'argon sequences are processed by the mass-bias engine, not as δ values')
+  const gas: DeltaGas = method.gas
+  if (!items.length) throw new EngineError('items', 'empty', 'the sequence has no acquisitions')
+  const ratioKeys = [...gasRatios[gas].required, ...gasRatios[gas].optional]
+  const quantities = gasQuantities[gas].filter(q => gas !== 'O2' || q !== 'δ17O' || items.some(i => '33/32' in i.ratios || '33' in i.beams))
+  const scales = Object.fromEntries(quantities.map(q => [q, q === 'δ18O' && gas === 'CO2' ? (method.oxygenScale ?? 'VPDB') : quantityScales[q]!]))
+  const normaliseIndex = method.steps.findIndex(s => s.step === 'normalise')
+  const work: DeltaWork[] = items
+    .map((item, index) => ({ item, index, beams: { ...item.beams }, ratios: { ...item.ratios }, values: {}, raw: {}, flags: [] as OutcomeFlag[] }))
+    .sort((a, b) => a.item.position - b.item.position)
+  const steps: AppliedStep[] = []
+  const flags: OutcomeFlag[] = []
+  const drift: DriftFit[] = []
+  const normalisation: Normalisation[] = []
+  let stage: Stage = 'ratios'
+  let accepted = true
+
+  const ctx = (): ScaleContext => ({ gas, scales, referenceGas: referenceGasValues(method, quantities, normaliseIndex >= 0), includeReferenceU: normaliseIndex < 0 })
+  const toScale = (field: string) => {
+    if (gas === 'CO2') throw new EngineError(field, 'oxygen-17-required', 'CO2 needs the oxygen-17 step after the reference gas: 45/44 holds 12C17O16O as well as 13C16O16O')
+    moleculesToScale(work, ctx())
+    for (const w of work.filter(measuredItems)) for (const q of quantities) if (w.values[q]) w.raw[q] = { ...w.values[q]! }
+  }
+
+  method.steps.forEach((step, i) => {
+    const field = `steps[${i}]`
+    const need = (want: Stage[], what: string) => {
+      if (!want.includes(stage)) throw new EngineError(`${field}.step`, 'out-of-order', `${step.step} must come ${what}`)
+    }
+    let parameters: Record<string, unknown>
+    switch (step.step) {
+      case 'blank':
+        need(['ratios'], 'before the reference-gas step (it acts on beams)')
+        parameters = subtractBlank(work, ratioKeys, field)
+        break
+      case 'h3-factor':
+        if (gas !== 'H2') throw new EngineError(`${field}.step`, 'not-for-gas', `the H3+ factor applies to H2, not ${gas}`)
+        need(['ratios'], 'before the reference-gas step')
+        parameters = h3Factor(work, field)
+        break
+      case 'reference-gas':
+        need(['ratios'], 'once, before the steps on δ values')
+        parameters = bracketReferenceGas(work, ratioKeys, step.bracketing, field)
+        stage = 'molecular'
+        if (gas !== 'CO2') {
+          if (gas === 'H2' && !method.steps.slice(0, i).some(s => s.step === 'h3-factor')) flags.push({ code: 'no-h3-correction', message: 'H2 without the H3+ factor: δ2H carries the H3+ contribution' })
+          toScale(field)
+          stage = 'scale'
+          parameters = { ...parameters, referenceGas: ctx().referenceGas, molecularToAtomic: gas === 'O2' ? '33R = 2·17R, 34R = 2·18R + 17R²' : gas === 'N2' ? '29R = 2·15R' : '3R = 2·2R' }
+        }
+        break
+      case 'oxygen-17':
+        if (gas !== 'CO2') throw new EngineError(`${field}.step`, 'not-for-gas', `the oxygen-17 correction applies to CO2, not ${gas}`)
+        need(['molecular'], 'right after the reference-gas step')
+        co2ToScale(work, ctx())
+        for (const w of work.filter(measuredItems)) for (const q of quantities) w.raw[q] = { ...w.values[q]! }
+        stage = 'scale'
+        parameters = { set: step.parameters, lambda: BRAND_2010.lambda, K: BRAND_2010.K, R13VPDB: BRAND_2010.r13, R18VPDB: BRAND_2010.r18, R17VPDB: BRAND_2010.r17, referenceGas: ctx().referenceGas, oxygenScale: scales['δ18O'], ...(scales['δ18O'] === 'VSMOW' ? { vpdbToVsmow: VPDB_TO_VSMOW_18O } : {}) }
+        break
+      case 'drift': {
+        need(['scale'], 'after the δ values are on the scale and before the normalisation')
+        const fits = correctDrift(work, quantities, step.model, step.material, field)
+        drift.push(...fits)
+        parameters = { model: step.model, material: step.material, slopes: Object.fromEntries(fits.map(f => [f.quantity, f.slope])), unit: step.model === 'linear-time' ? '‰ per hour' : '‰ per position' }
+        break
+      }
+      case 'normalise': {
+        need(['scale'], 'after the δ values are on the scale, once')
+        checkAnchors(step.anchors, method.acceptance.minAnchors, items, materials, field)
+        for (const q of quantities) {
+          const before = new Map(work.filter(measuredItems).flatMap(w => w.values[q] ? [[w, w.values[q]!.value] as const] : []))
+          const { normalisation: n } = normaliseQuantity(work, q, scales[q]!, step.anchors, materials, field)
+          normalisation.push(n)
+          if (new Set(n.anchors.map(a => a.material)).size < method.acceptance.minAnchors) {
+            accepted = false
+            flags.push({ code: 'too-few-anchors', message: `${q}: ${n.anchors.length} anchor(s) measured, the method needs ${method.acceptance.minAnchors}` })
+          }
+          const xs = n.anchors.map(a => a.measuredMean.value)
+          extrapolationFlags(work, q, [Math.min(...xs), Math.max(...xs)], before)
+        }
+        stage = 'normalised'
+        parameters = { anchors: step.anchors, fits: normalisation.map(n => ({ quantity: n.quantity, slope: n.slope, intercept: n.intercept, covariance: n.covariance, rmsResidual: n.rmsResidual })) }
+        break
+      }
+      default:
+        throw new EngineError(`${field}.step`, 'not-for-delta', `${step.step} belongs to noble-gas methods, not to ${gas} δ values`)
+    }
+    steps.push({ step: step.step, source: SOURCES[step.step], parameters })
+  })
+  if (stage === 'ratios' || stage === 'molecular') {
+    throw new EngineError('steps', 'incomplete', gas === 'CO2' ? 'CO2 needs the reference-gas and oxygen-17 steps to reach δ13C and δ18O' : 'the method needs a reference-gas step to reach δ values')
+  }
+
+  const residuals = quantities.map(q => standardResiduals(work, q, scales[q]!, materials, method.acceptance.maxStandardResidual, flags))
+  if (flags.some(f => f.code === 'standard-residual')) accepted = false
+  return {
+    gas,
+    quantities,
+    items: work.map(w => ({
+      position: w.item.position,
+      role: w.item.role,
+      ...(w.item.material ? { material: w.item.material } : {}),
+      raw: measuredItems(w) ? w.raw : w.ratios,
+      final: Object.fromEntries(quantities.filter(q => w.values[q]).map(q => [q, { ...w.values[q]!, scale: scales[q]!, k: 2 }])),
+      ...(residuals.some(r => r.has(w)) ? { residual: Object.fromEntries(quantities.flatMap((q, j) => residuals[j]!.has(w) ? [[q, residuals[j]!.get(w)!]] : [])) } : {}),
+      flags: w.flags,
+    })),
+    normalisation,
+    drift,
+    steps,
+    flags,
+    accepted,
+  }
+}
+
+/** The reference gas's δ on the scale; when a normalisation follows, an unknown one may be taken as 0. */
+function referenceGasValues(method: MethodDefinition, quantities: string[], normalised: boolean): Record<string, Measured> {
+  const out: Record<string, Measured> = {}
+  for (const q of quantities) {
+    const v = method.referenceGas && Object.hasOwn(method.referenceGas, q) ? method.referenceGas[q] : undefined
+    if (v) out[q] = v
+    else if (q === 'δ17O') continue
+    else if (normalised) out[q] = { value: 0, u: 0 }
+    else throw new EngineError(`referenceGas.${q}`, 'required', `without a normalisation the reference gas's ${q} must be given`)
+  }
+  return out
+}
+
+/** The anchors a method names must be known and measured in the sequence, and enough of them. */
+function checkAnchors(anchors: string[], minAnchors: number, items: SequenceItem[], materials: Record<string, MaterialValues>, field: string): void {
+  const distinct = [...new Set(anchors)]
+  if (distinct.length < minAnchors) {
+    throw new EngineError(`${field}.anchors`, 'too-few-anchors', `the method names ${distinct.length} anchor(s) but its acceptance needs ${minAnchors}: it cannot anchor the scale`)
+  }
+  anchors.forEach((id, j) => {
+    if (!Object.hasOwn(materials, id)) throw new EngineError(`${field}.anchors[${j}]`, 'unknown-material', `${id} is not a known reference material or working standard`)
+    if (!items.some(it => it.material === id && it.role !== 'sample' && it.role !== 'reference-gas' && it.role !== 'blank')) {
+      throw new EngineError(`${field}.anchors[${j}]`, 'anchor-not-in-sequence', `the anchor ${id} was not measured in this sequence`)
+    }
+  })
+}
