@@ -1,6 +1,7 @@
 import { and, desc, eq, inArray, sql } from 'drizzle-orm'
 import type { ControlChartList, ControlChartView, IsotopeAttention } from '#shared/schemas/isotopeViews'
 import { controlPoints, instruments, labs, sequences } from '../../database/schema'
+import { controlChart, listControlCharts } from '../sequences'
 import { sequenceMaterialsAt } from './materials'
 
 // Control charts as the console draws them: the sequences service's chart (points, the s it is

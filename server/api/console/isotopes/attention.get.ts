@@ -1,3 +1,5 @@
+import { isotopeAttentionFor } from '../../../services/isotopeViews'
+
 // Rule violations and failed sequences for the overview: a lab manager's own lab, every lab for
 // those who may read labs; nothing for the rest.
 export default defineEventHandler(async (event) => {

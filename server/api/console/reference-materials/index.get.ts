@@ -1,4 +1,5 @@
 import type { ReferenceMaterialView } from '#shared/schemas/isotopeViews'
+import { listReferenceMaterials } from '../../../services/sequences'
 
 // The registry is the same for every lab and holds no lab's data: any signed-in user may read it.
 export default defineEventHandler(async (event) => {

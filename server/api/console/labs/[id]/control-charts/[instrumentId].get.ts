@@ -1,4 +1,5 @@
 import { controlChartQuery, instrumentRouteParams } from '#shared/schemas/isotopeViews'
+import { getControlChartView } from '../../../../../services/isotopeViews'
 
 export default defineEventHandler(async (event) => {
   const { id, instrumentId } = getValidParams(event, instrumentRouteParams)

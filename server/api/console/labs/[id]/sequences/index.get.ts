@@ -1,5 +1,6 @@
 import { labParams } from '#shared/schemas/instruments'
 import { consoleSequenceListQuery } from '#shared/schemas/isotopeViews'
+import { listSequenceViews } from '../../../../../services/isotopeViews'
 
 export default defineEventHandler(async (event) => {
   const { id } = getValidParams(event, labParams)

@@ -1,4 +1,5 @@
 import { labParams } from '#shared/schemas/instruments'
+import { listWorkingStandards } from '../../../../../services/sequences'
 
 export default defineEventHandler(async (event) => {
   const { id } = getValidParams(event, labParams)

@@ -1,5 +1,6 @@
 import { labParams } from '#shared/schemas/instruments'
 import { workingStandardInput } from '#shared/schemas/sequences'
+import { createWorkingStandardVersion } from '../../../../../services/sequences'
 
 export default defineEventHandler(async (event) => {
   const { id } = getValidParams(event, labParams)

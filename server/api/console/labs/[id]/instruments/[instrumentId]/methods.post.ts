@@ -1,5 +1,6 @@
 import { instrumentRouteParams } from '#shared/schemas/isotopeViews'
 import { methodInput } from '#shared/schemas/sequences'
+import { createMethodVersion } from '../../../../../../services/sequences'
 
 export default defineEventHandler(async (event) => {
   const { id, instrumentId } = getValidParams(event, instrumentRouteParams)
