@@ -1,5 +1,6 @@
 import { and, asc, desc, eq, inArray, max, sql } from 'drizzle-orm'
-import { referenceMaterials as referenceMaterialRegistry, type MaterialValues, type Measured } from '#shared/engine'
+import { referenceMaterials as referenceMaterialRegistry } from '#shared/engine'
+import type { MaterialValues, Measured } from '#shared/engine/isotopes/types'
 import type { WorkingStandardInput, WorkingStandardView } from '#shared/schemas/sequences'
 import { referenceMaterials, workingStandards } from '../../database/schema'
 import { auditIsotopes, type AuditContext } from './audit'

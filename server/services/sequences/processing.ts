@@ -1,5 +1,6 @@
 import { and, asc, eq, isNull, min, sql } from 'drizzle-orm'
-import { EngineError, processDeltaSequence, processRatioSequence, sequenceItemFromResult, type EngineResult, type MaterialValues, type SequenceItem, type SequenceOutcome } from '#shared/engine'
+import { EngineError, processDeltaSequence, processRatioSequence, sequenceItemFromResult, type EngineResult } from '#shared/engine'
+import type { MaterialValues, SequenceItem, SequenceOutcome } from '#shared/engine/isotopes/types'
 import { CAUTION } from '#shared/caution'
 import { standardRoles, type SequenceEventData } from '#shared/schemas/sequences'
 import { acquisitions, deliveries, events, grants, instruments, labs, methods, results, sequenceItems, sequences, webhookEndpoints } from '../../database/schema'
