@@ -1,5 +1,6 @@
 import { and, asc, eq, isNull, min, sql } from 'drizzle-orm'
-import { EngineError, processDeltaSequence, processRatioSequence, sequenceItemFromResult, type EngineResult } from '#shared/engine'
+import { EngineError, processDeltaSequence, sequenceItemFromResult, type EngineResult } from '#shared/engine'
+import { processRatioSequence } from '#shared/engine/isotopes/ratioSequence'
 import type { MaterialValues, SequenceItem, SequenceOutcome } from '#shared/engine/isotopes/types'
 import { CAUTION } from '#shared/caution'
 import { standardRoles, type SequenceEventData } from '#shared/schemas/sequences'
@@ -47,7 +48,8 @@ function failureOf(error: EngineError, list: Member[]): Failure {
     const m = list[Number(item[1])]
     return { code: error.code, message, field: m ? `position.${m.position}${item[2]!.replace(/\[(\d+)\]/g, '.$1')}` : 'acquisitions' }
   }
-  return { code: error.code, message, field: `method.${error.field.replace(/\[(\d+)\]/g, '.$1')}` }
+  const field = error.field.replace(/\[(\d+)\]/g, '.$1')
+  return { code: error.code, message, field: field.startsWith('method.') ? field : `method.${field}` }
 }
 
 /**
