@@ -80,7 +80,7 @@ export default defineNuxtConfig({
     public: { mailCapture: false },
   },
   nitro: {
-    imports: { dirs: ['./server/services'] },
+    imports: { dirs: ['./server/services', './server/services/sequences/index.ts'] },
     experimental: { tasks: false },
   },
   hooks: {

@@ -1,5 +1,5 @@
 import { and, asc, count, desc, eq, max, sql } from 'drizzle-orm'
-import { CUSUM_SOURCE, WESTGARD_SOURCE, evaluateControlRules, runCusum, type ControlPoint } from '#shared/engine'
+import { CUSUM_SOURCE, WESTGARD_SOURCE, evaluateControlRules, runCusum, type ControlPoint } from '#shared/engine/isotopes/controlCharts'
 import { controlPoints, instruments } from '../../database/schema'
 
 // Control charts per instrument × material × quantity: each standard measured in a processed

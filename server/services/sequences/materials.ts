@@ -1,5 +1,7 @@
 import { and, asc, desc, eq, inArray, max, sql } from 'drizzle-orm'
-import { referenceMaterials as referenceMaterialRegistry, type MaterialValues, type Measured } from '#shared/engine'
+import { referenceMaterials as referenceMaterialRegistry } from '#shared/engine'
+import { ATMOSPHERIC_ARGON } from '#shared/engine/isotopes/massBias'
+import type { MaterialValues, Measured } from '#shared/engine/isotopes/types'
 import type { WorkingStandardInput, WorkingStandardView } from '#shared/schemas/sequences'
 import { referenceMaterials, workingStandards } from '../../database/schema'
 import { auditIsotopes, type AuditContext } from './audit'
@@ -91,6 +93,8 @@ export async function materialsAt(labId: string, uses: { material: string, at: D
  */
 export async function seedReferenceMaterials() {
   const rows = Object.values(referenceMaterialRegistry).map(m => ({ id: m.id, name: m.name, values: m.values, source: m.source, fromMemory: m.fromMemory, updatedAt: new Date() }))
+  // Air argon, the noble-gas labs' standard, is the mass-bias engine's constant (its source says "from memory").
+  if (!rows.some(r => r.id === ATMOSPHERIC_ARGON.id)) rows.push({ ...ATMOSPHERIC_ARGON, fromMemory: /from memory/.test(ATMOSPHERIC_ARGON.source), updatedAt: new Date() })
   if (!rows.length) return
   await useDb().insert(referenceMaterials).values(rows).onConflictDoUpdate({
     target: referenceMaterials.id,

@@ -1,5 +1,7 @@
 import { and, asc, eq, isNull, min, sql } from 'drizzle-orm'
-import { EngineError, processDeltaSequence, processRatioSequence, sequenceItemFromResult, type EngineResult, type MaterialValues, type SequenceItem, type SequenceOutcome } from '#shared/engine'
+import { EngineError, processDeltaSequence, sequenceItemFromResult, type EngineResult } from '#shared/engine'
+import { processRatioSequence } from '#shared/engine/isotopes/ratioSequence'
+import type { MaterialValues, SequenceItem, SequenceOutcome } from '#shared/engine/isotopes/types'
 import { CAUTION } from '#shared/caution'
 import { standardRoles, type SequenceEventData } from '#shared/schemas/sequences'
 import { acquisitions, deliveries, events, grants, instruments, labs, methods, results, sequenceItems, sequences, webhookEndpoints } from '../../database/schema'
@@ -46,7 +48,8 @@ function failureOf(error: EngineError, list: Member[]): Failure {
     const m = list[Number(item[1])]
     return { code: error.code, message, field: m ? `position.${m.position}${item[2]!.replace(/\[(\d+)\]/g, '.$1')}` : 'acquisitions' }
   }
-  return { code: error.code, message, field: `method.${error.field.replace(/\[(\d+)\]/g, '.$1')}` }
+  const field = error.field.replace(/\[(\d+)\]/g, '.$1')
+  return { code: error.code, message, field: field.startsWith('method.') ? field : `method.${field}` }
 }
 
 /**

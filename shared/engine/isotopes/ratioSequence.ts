@@ -1,0 +1,199 @@
+import type { MethodDefinition, MethodStep } from '../../schemas/methods'
+import { EngineError } from '../errors'
+import { BLANK_SOURCE, blankLevels } from './blank'
+import { correctRatio, isotopeRatio, MASS_BIAS_SOURCES, sharedDenominatorCovariance, type IsotopeRatio } from './massBias'
+import { massBiasFactors } from './massBiasReference'
+import { TIME_ZERO_SOURCE, timeZeroIntercept } from './timeZero'
+import type { AppliedStep, MaterialValues, Measured, OutcomeFlag, OutcomeItem, ScaledValue, SequenceItem, SequenceOutcome } from './types'
+
+// A noble-gas ratio sequence (argon): the method's beam-level steps in their order (procedural
+// blank, time-zero regression), then the mass-bias correction by a law against an air standard
+// measured in the sequence or against an internal ratio of known value. Each step is recorded
+// with its source and parameters; every value carries its standard uncertainty (GUM, JCGM
+// 100:2008), and k = 2 for the expanded uncertainty of the corrected ratios.
+
+/** The quantities of an argon sequence and the nominal-mass ratios they come from. */
+export const ARGON_QUANTITIES: Record<string, string> = { '40Ar/36Ar': '40/36', '38Ar/36Ar': '38/36' }
+const ARGON_STEPS = new Set<MethodStep['step']>(['blank', 'time-zero', 'mass-bias'])
+
+interface ItemState {
+  item: SequenceItem
+  index: number
+  /** Beams after the beam-level steps; null while no beam-level step has run. */
+  beams: Record<string, Measured> | null
+  cycles: { t: number, beams: Record<string, number> }[] | undefined
+  /** Variance of a blank already taken off the cycles, added to the time-zero intercept's. */
+  pendingVar: Record<string, number>
+  flags: OutcomeFlag[]
+}
+
+const quantityOf = (key: string) => Object.keys(ARGON_QUANTITIES).find(q => ARGON_QUANTITIES[q] === key) ?? key
+
+/** Processes an argon sequence under `method`; throws EngineError when the method cannot run on it. */
+export function processRatioSequence(method: MethodDefinition, items: SequenceItem[], materials: readonly MaterialValues[]): SequenceOutcome {
+  if (method.gas !== 'Ar') throw new EngineError('method.gas', 'gas-not-supported', `the ratio engine handles argon; ${method.gas} is a δ system`)
+  if (items.length === 0) throw new EngineError('items', 'empty', 'the sequence has no acquisitions')
+  method.steps.forEach((s, i) => {
+    if (!ARGON_STEPS.has(s.step)) throw new EngineError(`method.steps[${i}].step`, 'step-not-applicable', `"${s.step}" is a step of the δ systems and does not apply to argon`)
+    if (method.steps.findIndex(o => o.step === s.step) !== i) throw new EngineError(`method.steps[${i}].step`, 'duplicate-step', `"${s.step}" appears twice`)
+    if (s.step !== 'mass-bias' && method.steps.slice(0, i).some(o => o.step === 'mass-bias')) {
+      throw new EngineError(`method.steps[${i}].step`, 'step-order', `"${s.step}" acts on beams and must come before the mass-bias correction`)
+    }
+  })
+  const timeZeroLater = (i: number) => method.steps.slice(i + 1).some(s => s.step === 'time-zero')
+  const states: ItemState[] = items.map((item, index) => ({ item, index, beams: null, cycles: item.cycles?.map(c => ({ t: c.t, beams: { ...c.beams } })), pendingVar: {}, flags: [] }))
+  const steps: AppliedStep[] = []
+  const flags: OutcomeFlag[] = []
+  let massBias: Extract<MethodStep, { step: 'mass-bias' }> | undefined
+  let massBiasIndex = -1
+
+  method.steps.forEach((step, i) => {
+    if (step.step === 'blank') steps.push(applyBlank(states, flags, timeZeroLater(i)))
+    else if (step.step === 'time-zero') steps.push(applyTimeZero(states, step.model))
+    else if (step.step === 'mass-bias') { massBias = step; massBiasIndex = i }
+  })
+
+  const keys = Object.values(ARGON_QUANTITIES)
+  const measured = states.map(s => (s.item.role === 'blank' ? null : measuredRatios(s, keys)))
+  const finals: (Record<string, ScaledValue> | null)[] = measured.map(m => (m
+    ? Object.fromEntries(Object.entries(m.ratios).map(([k, r]) => [quantityOf(k), { ...r, scale: 'measured, not corrected for mass bias', k: 2 }]))
+    : null))
+  if (massBias) {
+    const mb = massBias
+    const field = `method.steps[${massBiasIndex}]`
+    const refKey = mb.ratio ?? (mb.against === 'standard' ? '40/36' : undefined)
+    if (!refKey) throw new EngineError(`${field}.ratio`, 'required', 'internal normalisation needs the ratio of known value, e.g. "38/36"')
+    const ref = isotopeRatio(refKey, 'Ar', `${field}.ratio`)
+    const materialId = mb.material ?? 'AIR-Ar'
+    const material = materials.find(m => m.id === materialId)
+    if (!material) throw new EngineError(`${field}.material`, 'unknown-material', `no values for material "${materialId}"`)
+    const known = material.values[quantityOf(refKey)]
+    if (!known) throw new EngineError(`${field}.material`, 'no-reference-value', `material "${materialId}" has no value for ${quantityOf(refKey)}`)
+    const factors = massBiasFactors(mb, states.map(s => s.item), measured.map(m => m?.ratios[refKey] ?? null), known, ref, field)
+    const targets = keys.filter(k => mb.against === 'standard' || k !== refKey).map(k => [k, isotopeRatio(k, 'Ar')] as [string, IsotopeRatio])
+    const scale = mb.against === 'standard'
+      ? `mass-bias corrected (${mb.law} law), referenced to ${material.name}`
+      : `mass-bias corrected (${mb.law} law), internally normalised to ${quantityOf(refKey)} = ${known.value}`
+    states.forEach((s, i) => {
+      const m = measured[i]
+      if (!m) return
+      const f = factors.perItem[i]!
+      finals[i] = Object.fromEntries(targets.map(([k, target]) => {
+        const c = correctRatio({
+          law: mb.law, measured: m.ratios[k]!, target,
+          referenceMeasured: { value: known.value / f.x, u: (known.value / f.x) * f.uRelMeasured }, referenceKnown: known, ref,
+          relativeCovariance: f.selfWeight * (k === refKey ? (m.ratios[k]!.u / m.ratios[k]!.value) ** 2 : m.cov(k, refKey)),
+        })
+        return [quantityOf(k), { value: c.value, u: c.u, scale, k: 2 }]
+      }))
+      s.flags.push(...f.flags)
+    })
+    steps.push({
+      step: 'mass-bias',
+      source: MASS_BIAS_SOURCES[mb.law],
+      parameters: {
+        law: mb.law, against: mb.against, material: material.id, materialSource: material.source, ratio: refKey,
+        referenceValue: known, masses: { [ref.numerator]: ref.mNum, [ref.denominator]: ref.mDen, ...Object.fromEntries(targets.map(([, t]) => [t.numerator, t.mNum])) },
+        massSource: 'AME2020 atomic masses (Wang et al., Chin. Phys. C 45 (2021) 030003) through chemical-elements',
+        ...factors.parameters,
+      },
+    })
+  }
+  const outcomeItems = states.map((s, i) => outcomeItem(s, measured[i]?.ratios ?? null, finals[i] ?? null, materials, method, flags))
+  const quantities = massBias?.against === 'internal' ? Object.keys(ARGON_QUANTITIES).filter(q => ARGON_QUANTITIES[q] !== massBias!.ratio) : Object.keys(ARGON_QUANTITIES)
+  return { gas: 'Ar', quantities, items: outcomeItems, normalisation: [], drift: [], steps, flags, accepted: !flags.some(f => f.code === 'standard-residual-exceeds') }
+}
+
+function applyBlank(states: ItemState[], flags: OutcomeFlag[], beforeTimeZero: boolean): AppliedStep {
+  const blanks = states.filter(s => s.item.role === 'blank')
+  if (blanks.length === 0) throw new EngineError('items', 'no-blank', 'the method subtracts a procedural blank but the sequence has no blank acquisition')
+  const levels = blankLevels(blanks.map(s => s.beams ?? s.item.beams))
+  if (blanks.length === 1) flags.push({ code: 'single-blank', message: 'one blank acquisition: its own uncertainty stands for the blank\'s scatter' })
+  for (const s of states) {
+    if (s.item.role === 'blank') continue
+    for (const [beam, level] of Object.entries(levels)) {
+      if (beforeTimeZero && s.cycles) {
+        // Taken off every cycle now, so the time-zero intercept is the blank-corrected signal; its u joins the intercept's.
+        for (const c of s.cycles) if (Object.hasOwn(c.beams, beam)) c.beams[beam]! -= level.value
+        s.pendingVar[beam] = (s.pendingVar[beam] ?? 0) + level.u ** 2
+        continue
+      }
+      s.beams ??= { ...s.item.beams }
+      const b = s.beams[beam]
+      if (b) s.beams[beam] = { value: b.value - level.value, u: Math.hypot(b.u, level.u) }
+    }
+  }
+  return { step: 'blank', source: BLANK_SOURCE, parameters: { blanks: blanks.map(s => s.item.position), levels, unit: 'A', appliedTo: beforeTimeZero ? 'cycles' : 'beams' } }
+}
+
+function applyTimeZero(states: ItemState[], model: 'linear' | 'exponential'): AppliedStep {
+  const fits: Record<string, unknown>[] = []
+  for (const s of states) {
+    const cycles = s.cycles
+    if (!cycles || cycles.length === 0) throw new EngineError(`items[${s.index}].cycles`, 'missing-cycles', 'the method regresses to time zero but this acquisition has no cycle readings')
+    const beams: Record<string, Measured> = { ...(s.beams ?? {}) }
+    for (const beam of Object.keys(cycles[0]!.beams)) {
+      const fit = timeZeroIntercept(cycles.map(c => c.t), cycles.map(c => c.beams[beam] ?? Number.NaN), model, `items[${s.index}].cycles.${beam}`)
+      beams[beam] = { value: fit.intercept.value, u: Math.sqrt(fit.intercept.u ** 2 + (s.pendingVar[beam] ?? 0)) }
+      for (const code of fit.flags) s.flags.push({ code, message: `beam ${beam}: ${code.replaceAll('-', ' ')}`, position: s.item.position })
+      fits.push({ position: s.item.position, beam, model: fit.model, intercept: fit.intercept, rate: fit.rate, cycles: fit.cycles, dof: fit.dof, k95: fit.k95, flags: fit.flags })
+    }
+    s.pendingVar = {}
+    s.beams = beams
+  }
+  return { step: 'time-zero', source: TIME_ZERO_SOURCE, parameters: { model, fits } }
+}
+
+interface MeasuredRatios { ratios: Record<string, Measured>, cov: (a: string, b: string) => number }
+
+/** The ratios entering the mass-bias step: from the processed beams, or as the item stated them. */
+function measuredRatios(s: ItemState, keys: string[]): MeasuredRatios {
+  const ratios: Record<string, Measured> = {}
+  const beams = s.beams ?? s.item.beams
+  for (const key of keys) {
+    const [n, d] = key.split('/') as [string, string]
+    if (s.beams) {
+      const bn = beams[n]
+      const bd = beams[d]
+      if (!bn || !bd) throw new EngineError(`items[${s.index}].cycles`, 'missing-beam', `needs beams ${n} and ${d} for ${key}`)
+      const value = bn.value / bd.value
+      ratios[key] = { value, u: Math.abs(value) * Math.hypot(bn.u / bn.value, bd.u / bd.value) }
+    }
+    else {
+      const r = s.item.ratios[key]
+      if (!r) throw new EngineError(`items[${s.index}].ratios.${key}`, 'missing-ratio', `the acquisition has no ${key} ratio`)
+      ratios[key] = r
+    }
+  }
+  const rel = (k: string) => ratios[k]!.u / ratios[k]!.value
+  // Shared-denominator covariance, never more than the two ratios' own variances allow.
+  const cov = (a: string, b: string) => Math.min(sharedDenominatorCovariance(a, b, beams), Math.abs(rel(a) * rel(b)))
+  return { ratios, cov }
+}
+
+function outcomeItem(s: ItemState, raw: Record<string, Measured> | null, final: Record<string, ScaledValue> | null, materials: readonly MaterialValues[], method: MethodDefinition, flags: OutcomeFlag[]): OutcomeItem {
+  const { item } = s
+  const out: OutcomeItem = {
+    position: item.position, role: item.role, ...(item.material ? { material: item.material } : {}),
+    raw: raw ? Object.fromEntries(Object.entries(raw).map(([k, v]) => [quantityOf(k), v])) : {},
+    final: final ?? {},
+    flags: s.flags,
+  }
+  const material = item.material && item.role !== 'sample' && item.role !== 'blank' ? materials.find(m => m.id === item.material) : undefined
+  if (material && final) {
+    out.residual = {}
+    for (const [q, v] of Object.entries(final)) {
+      const accepted = material.values[q]
+      if (!accepted) continue
+      out.residual[q] = v.value - accepted.value
+      const relPermil = Math.abs(out.residual[q] / accepted.value) * 1000
+      const max = method.acceptance.maxStandardResidual
+      if (max !== undefined && relPermil > max) {
+        const flag = { code: 'standard-residual-exceeds', message: `${q} of ${material.id} is ${relPermil.toFixed(2)} ‰ from its accepted value (limit ${max} ‰)`, position: item.position }
+        out.flags.push(flag)
+        flags.push(flag)
+      }
+    }
+  }
+  return out
+}
