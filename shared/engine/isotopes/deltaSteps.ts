@@ -69,7 +69,8 @@ export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField:
     const u = n >= 2 ? Math.sqrt(vals.reduce((s, v) => s + (v.value - avg) ** 2, 0) / (n - 1) / n) : vals[0]!.u
     mean[mz] = { value: avg, u }
   }
-  for (const w of work.filter(measuredItems).concat(work.filter(x => x.item.role === 'reference-gas'))) {
+  // The reference gas enters by its own inlet and carries no procedural blank.
+  for (const w of work.filter(measuredItems)) {
     for (const mz of masses) {
       const b = Object.hasOwn(w.beams, mz) ? w.beams[mz] : undefined
       if (!b) throw new EngineError(`items[${w.index}].beams.${mz}`, 'missing', `blank subtraction needs the m/z ${mz} beam of position ${w.item.position}`)
