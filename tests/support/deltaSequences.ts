@@ -20,11 +20,12 @@ export interface DeltaCase {
   oxygenScale?: 'VPDB' | 'VSMOW'
 }
 
+// H2: an H3+ factor of 5e3 per A (5 ppm/nA), the order of magnitude Sessions et al. (2001) report (from memory).
 export const cases: Record<string, DeltaCase> = {
   CO2: { gas: 'CO2', anchors: ['IAEA-603', 'LSVEC'], monitor: 'USGS40', samples: [{ 'δ13C': -25.3, 'δ18O': -8.1 }, { 'δ13C': -12.0, 'δ18O': -15.5 }, { 'δ13C': 0.8, 'δ18O': -1.2 }], referenceGas: { 'δ13C': -36.2, 'δ18O': -12.4 }, majorA: 1e-8, instrument: { background: { 'δ13C': -8, 'δ18O': -20 } } },
   N2: { gas: 'N2', anchors: ['USGS40', 'USGS41a'], monitor: 'IAEA-N-2', samples: [{ 'δ15N': 6.3 }, { 'δ15N': -2.2 }, { 'δ15N': 31.7 }], referenceGas: { 'δ15N': -1.5 }, majorA: 8e-9, instrument: { background: { 'δ15N': 0 } } },
   O2: { gas: 'O2', anchors: ['VSMOW2', 'SLAP2'], samples: [{ 'δ18O': 23.8 }, { 'δ18O': -12.5 }, { 'δ18O': -40.2 }], referenceGas: { 'δ18O': 10.0 }, majorA: 5e-9, instrument: { background: { 'δ18O': 0 } } },
-  H2: { gas: 'H2', anchors: ['VSMOW2', 'SLAP2'], monitor: 'GISP', samples: [{ 'δ2H': -60.4 }, { 'δ2H': -150.2 }, { 'δ2H': -300.9 }], referenceGas: { 'δ2H': -120 }, majorA: 6e-9, instrument: { background: { 'δ2H': -80 }, h3FactorPerA: 1.2e-1 / 1e-8 * 1e-2 } },
+  H2: { gas: 'H2', anchors: ['VSMOW2', 'SLAP2'], monitor: 'GISP', samples: [{ 'δ2H': -60.4 }, { 'δ2H': -150.2 }, { 'δ2H': -300.9 }], referenceGas: { 'δ2H': -120 }, majorA: 6e-9, instrument: { background: { 'δ2H': -80 }, h3FactorPerA: 5e3 } },
 }
 
 export function caseMethod(c: DeltaCase, extra: Partial<MethodDefinition> = {}, steps?: MethodDefinition['steps']): MethodDefinition {
