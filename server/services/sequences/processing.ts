@@ -1,10 +1,10 @@
 import { and, asc, eq, isNull, min, sql } from 'drizzle-orm'
-import { EngineError, processDeltaSequence, sequenceItemFromResult, type EngineResult } from '#shared/engine'
+import { EngineError, acceptedValue, processDeltaSequence, sequenceItemFromResult, type EngineResult } from '#shared/engine'
 import { processRatioSequence } from '#shared/engine/isotopes/ratioSequence'
 import type { MaterialValues, SequenceItem, SequenceOutcome } from '#shared/engine/isotopes/types'
 import { CAUTION } from '#shared/caution'
 import { standardRoles, type SequenceEventData } from '#shared/schemas/sequences'
-import { acquisitions, deliveries, events, grants, instruments, labs, methods, results, sequenceItems, sequences, webhookEndpoints } from '../../database/schema'
+import { acquisitions, deliveries, events, grants, instruments, labs, results, sequenceItems, sequences, webhookEndpoints, type methods } from '../../database/schema'
 import { methodInForce, methodVersion } from './methods'
 import { materialsAt, type ResolvedMaterial } from './materials'
 import { appendControlPoints, type NewControlPoint } from './charts'
@@ -57,6 +57,15 @@ function failureOf(error: EngineError, list: Member[]): Failure {
  * outcome (and the event partners receive), or `failed` with the reason.
  */
 export async function processSequence(row: SequenceRow): Promise<void> {
+  try { await runSequence(row) }
+  catch (error) {
+    // A fault of Arcwise's own, not of the sequence: it is left failed, not closed for ever, and can be reprocessed.
+    logError('[sequences] processing failed', error)
+    await fail(row, null, { code: 'processing-error', message: 'processing stopped on an internal error; the hub\'s operators have the log' })
+  }
+}
+
+async function runSequence(row: SequenceRow): Promise<void> {
   const list = await members(row.id)
   const method = await methodFor(row)
   if (!method) return fail(row, null, { code: 'no-method', field: 'method', message: 'the instrument has no method in force at the sequence\'s first acquisition' })
@@ -124,11 +133,20 @@ function controlPointsOf(row: SequenceRow, outcome: SequenceOutcome, list: Membe
     const material = materials.get(item.material)
     if (!material) return []
     return Object.entries(item.final).flatMap(([quantity, final]) => {
-      const accepted = Object.hasOwn(material.values, quantity) ? material.values[quantity] : undefined
+      // On the final value's scale (δ18O of CO2 converted between VPDB and VSMOW when the material states the other).
+      const accepted = final.scale && !/measured/.test(final.scale) ? safeAccepted(material, quantity, final.scale) : (Object.hasOwn(material.values, quantity) ? material.values[quantity] : undefined)
       if (!accepted) return []
       return [{ labId: row.labId, instrumentId: row.instrumentId, material: item.material!, quantity, at: at.get(item.position)!, value: final.value, accepted: accepted.value, u: Math.hypot(final.u, accepted.u), sequenceId: row.id, position: item.position }]
     })
   })
+}
+
+function safeAccepted(material: MaterialValues, quantity: string, scale: string) {
+  try { return acceptedValue(material, quantity, scale) }
+  catch (error) {
+    if (error instanceof EngineError) return undefined
+    throw error
+  }
 }
 
 function eventData(row: SequenceRow, instrument: string, method: MethodRow, outcome: SequenceOutcome, list: Member[], materials: Map<string, ResolvedMaterial>, flagged: boolean): SequenceEventData {
