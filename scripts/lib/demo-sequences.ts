@@ -1,14 +1,19 @@
-// The demo's isotope history (issue 19), invented for the demo: the Saltmarsh lab's carbonate
+// The demo's isotope history (issue 19), invented for the demo. The Saltmarsh lab's carbonate
 // bench (irms-north) runs a CO2 sequence every four days for four months, each with the
 // reference gas between acquisitions, two international anchors (IAEA-603 and LSVEC), the
 // lab's own marble as a monitoring standard and four core samples. Its partner receives the
 // samples' δ13C and δ18O on VPDB. One sequence, three weeks ago, measured a marble aliquot from
 // a vial left uncapped: its δ13C breaks the 1-3s rule, the one violation the charts hold.
+// Halvard Ridge's noble-gas sector measures argon from rock samples against air aliquots
+// (exponential mass-bias law) twice a week for three weeks; its partner receives the corrected
+// 40Ar/36Ar and 38Ar/36Ar.
 //
 // The acquisitions are built from first principles by the engine's sequence simulator
 // (shared/engine/isotopes/simulateSequence.ts) and posted as 1,000-point field sweeps through
 // the API, exactly as a lab system would post them.
-import { acceptedValue, formulaSpecies, geometry, referenceMaterials, simulateFieldSweep, simulateSequence, type SequenceItem } from '../../shared/engine'
+import { acceptedValue, formulaSpecies, geometry, isotope, referenceMaterials, simulateFieldSweep, simulateSequence, type SequenceItem } from '../../shared/engine'
+import { ATMOSPHERIC_ARGON } from '../../shared/engine/isotopes/massBias'
+import { simulateArgonSequence } from '../../shared/engine/isotopes/simulateNobleGas'
 import { defaultSimulatedInstrument, type SimulatedAcquisition } from '../../shared/engine/isotopes/simulateSequence'
 import type { MethodDefinition } from '../../shared/schemas/methods'
 
@@ -154,6 +159,79 @@ export async function postDemoSequences(appUrl: string, secret: string, now = Da
   if (!(methods.body.items as unknown[] | undefined)?.length) {
     const res = await call(appUrl, secret, 'POST', `/api/v1/instruments/${DEMO_SEQUENCE_INSTRUMENT}/methods`, { name: 'Carbonate CO2, two-point VPDB', validFrom: historyStart, definition: demoCo2Method, note: 'demo method' })
     if (res.status !== 201) throw new Error(`registering the demo method answered ${res.status}: ${JSON.stringify(res.body)}`)
+  }
+  let stored = 0
+  for (const s of sequences) {
+    const res = await call(appUrl, secret, 'POST', '/api/v1/sequences', s.body, s.id)
+    if (res.status >= 300) throw new Error(`posting demo sequence ${s.id} answered ${res.status}: ${JSON.stringify(res.body).slice(0, 600)}`)
+    stored++
+  }
+  return stored
+}
+
+export const DEMO_ARGON_INSTRUMENT = 'noble-gas-1'
+/** Argon sequences: three air aliquots each, so the air chart stays under the 20 points it needs for its own s. */
+export const DEMO_ARGON_SEQUENCE_COUNT = 6
+
+/** The noble-gas sector's method: the exponential law against the air aliquots bracketing the samples. */
+export const demoArgonMethod: MethodDefinition = {
+  gas: 'Ar',
+  steps: [{ step: 'blank' }, { step: 'mass-bias', law: 'exponential', against: 'standard', material: ATMOSPHERIC_ARGON.id }],
+  acceptance: { minAnchors: 1 },
+}
+
+const sector = geometry.parse({ kind: 'potential-sector', analyzerRadius: { value: 12, unit: 'cm', u: 0.002 } })
+
+/** One argon acquisition as the sector's system posts it: a 1,000-point sweep over m/z 35–41 carrying the item's beams. */
+function argonSweepOf(item: SequenceItem, runId: string, sampleRef: string | undefined) {
+  const raw = simulateFieldSweep({
+    geometry: sector, acceleratingVoltageV: 4500, mzFrom: 35, mzTo: 41, points: 1000, resolvingPower: 600, seed: 23,
+    species: (['36', '38', '40'] as const).map(m => ({ species: isotope(`${m}Ar`), currentA: Math.max(item.beams[m]!.value, 1e-18) })),
+    noiseA: 1e-18, baselineA: 3e-16, currentUnit: 'fA',
+  })
+  return {
+    instrument: DEMO_ARGON_INSTRUMENT, runId, acquiredAt: new Date(item.acquiredAt).toISOString(), ...(sampleRef ? { sampleRef } : {}),
+    settings: { acceleratingVoltage: { value: 4.5, unit: 'kV', u: 0.0009 } },
+    sweep: { reading: 'field' as const, unit: 'T', values: Array.from(raw.sweep!.values, v => Number(v.toPrecision(10))) },
+    detectors: [{ unit: 'fA', values: Array.from(raw.detectors[0]!.values, v => Number(v.toPrecision(8))) }],
+    processing: { formulas: ['[36Ar]', '[38Ar]', '[40Ar]'] },
+  }
+}
+
+/** Halvard Ridge's argon history, oldest first: a procedural blank, air, two rocks, air, two rocks, air, a second blank. */
+export function demoArgonSequences(now = Date.now()): DemoSequence[] {
+  const out: DemoSequence[] = []
+  const firstDay = Math.floor((now - 20 * DAY) / DAY) * DAY
+  for (let k = 0; k < DEMO_ARGON_SEQUENCE_COUNT; k++) {
+    const startMs = firstDay + k * 3.5 * DAY + 9 * 3_600_000
+    // Rocks with radiogenic 40Ar in excess of air (invented), and air's 38Ar/36Ar.
+    const rock = (j: number) => ({ role: 'sample' as const, truth: { '40/36': 420 + 95 * ((k + j) % 4), '38/36': 0.1885 }, current40A: 1.5e-11 })
+    const air = { role: 'working-standard' as const, material: ATMOSPHERIC_ARGON.id, current40A: 1e-11 }
+    const specs = [{ role: 'blank' as const }, air, rock(0), rock(1), air, rock(2), rock(3), air, { role: 'blank' as const }]
+    const sim = simulateArgonSequence({ seed: 500 + k, items: specs, beta: 0.35 + 0.04 * Math.sin(k), blank40A: 2e-14, startAt: startMs, spacingMs: 40 * 60_000 })
+    const id = `HR-${new Date(startMs).toISOString().slice(0, 10)}-AR`
+    let sample = 0
+    out.push({
+      id, startMs,
+      body: {
+        instrument: DEMO_ARGON_INSTRUMENT, sequenceId: id,
+        acquisitions: sim.items.map(item => ({
+          position: item.position, role: item.role, ...(item.material ? { material: item.material } : {}),
+          acquisition: argonSweepOf(item, `${id}-${item.position}`, item.role === 'sample' ? `HR-ROCK-${String(k * 4 + ++sample + 40).padStart(3, '0')}` : undefined),
+        })),
+      },
+    })
+  }
+  return out
+}
+
+/** Registers the sector's method (once) and posts its argon history with Halvard Ridge's key; replays are harmless. */
+export async function postDemoArgonSequences(appUrl: string, secret: string, now = Date.now()): Promise<number> {
+  const sequences = demoArgonSequences(now)
+  const methods = await call(appUrl, secret, 'GET', `/api/v1/instruments/${DEMO_ARGON_INSTRUMENT}/methods`)
+  if (!(methods.body.items as unknown[] | undefined)?.length) {
+    const res = await call(appUrl, secret, 'POST', `/api/v1/instruments/${DEMO_ARGON_INSTRUMENT}/methods`, { name: 'Argon against air, exponential law', validFrom: new Date(sequences[0]!.startMs - DAY).toISOString(), definition: demoArgonMethod, note: 'demo method' })
+    if (res.status !== 201) throw new Error(`registering the demo argon method answered ${res.status}: ${JSON.stringify(res.body)}`)
   }
   let stored = 0
   for (const s of sequences) {

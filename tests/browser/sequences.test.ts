@@ -17,7 +17,7 @@ beforeAll(async () => {
   const labs = (await admin.get<{ items: { id: string, slug: string }[] }>('/api/console/labs')).body.items
   labId = labs.find(l => l.slug === 'saltmarsh-isotopes')!.id
   const key = (await admin.post<{ secret: string }>(`/api/console/labs/${labId}/keys`, { name: 'Sequence history (test)', scopes: ['acquisitions:write', 'results:read'] })).body
-  expect(await postDemoSequences(url(''), key.secret, now)).toBe(DEMO_SEQUENCE_COUNT)
+  expect(await postDemoSequences(url('/').replace(/\/$/, ''), key.secret, now)).toBe(DEMO_SEQUENCE_COUNT)
 })
 
 async function signIn(role: 'lab_manager' | 'viewer') {
