@@ -15,6 +15,8 @@ export interface DeltaWork {
   values: Record<string, Measured>
   raw: Record<string, Measured>
   flags: OutcomeFlag[]
+  /** H2 after the H3+ step: the m/z 2 beam and u(K), whose error is carried into δ by bracketing. */
+  h3?: { i2: number, uK: number }
 }
 
 /** The molecular ratios each gas is measured by, the first one required (common practice, no source). */
@@ -69,7 +71,8 @@ export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField:
     const u = n >= 2 ? Math.sqrt(vals.reduce((s, v) => s + (v.value - avg) ** 2, 0) / (n - 1) / n) : vals[0]!.u
     mean[mz] = { value: avg, u }
   }
-  for (const w of work.filter(measuredItems).concat(work.filter(x => x.item.role === 'reference-gas'))) {
+  // The reference gas enters by its own inlet and carries no procedural blank.
+  for (const w of work.filter(measuredItems)) {
     for (const mz of masses) {
       const b = Object.hasOwn(w.beams, mz) ? w.beams[mz] : undefined
       if (!b) throw new EngineError(`items[${w.index}].beams.${mz}`, 'missing', `blank subtraction needs the m/z ${mz} beam of position ${w.item.position}`)
@@ -109,7 +112,10 @@ export function h3Factor(work: DeltaWork[], stepField: string): Record<string, u
   for (const w of work.filter(x => x.item.role !== 'blank')) {
     const r = itemRatio(w, '3/2')
     const b = i2(w)
-    w.ratios['3/2'] = { value: r.value - fit.slope * b.value, u: Math.sqrt(r.u ** 2 + (b.value * fit.uSlope) ** 2 + (fit.slope * b.u) ** 2) }
+    // u(K) is not added here: its error is shared by the sample and its reference gas and
+    // mostly cancels in their δ, so bracketing carries it through ∂δ/∂K (GUM 5.2).
+    w.ratios['3/2'] = { value: r.value - fit.slope * b.value, u: Math.hypot(r.u, fit.slope * b.u) }
+    w.h3 = { i2: b.value, uK: fit.uSlope }
   }
   return { K: { value: fit.slope, u: fit.uSlope }, unit: '1/A', referenceGas: refs.map(r => r.item.position), chi2: fit.chi2 }
 }
@@ -144,7 +150,12 @@ export function bracketReferenceGas(work: DeltaWork[], ratioKeys: string[], mode
       const rr = refRatios.reduce((s, r) => s + r!.value, 0) / refRatios.length
       const urr = Math.sqrt(refRatios.reduce((s, r) => s + r!.u ** 2, 0)) / refRatios.length
       const d = (rs.value / rr - 1) * 1000
-      const u = 1000 * (rs.value / rr) * Math.hypot(rs.u / rs.value, urr / rr)
+      let u = 1000 * (rs.value / rr) * Math.hypot(rs.u / rs.value, urr / rr)
+      if (key === '3/2' && w.h3 && chosen.every(r => r.h3)) {
+        // δ = (R_s − K·i2_s)/(R_r − K·i2_r) − 1: ∂δ/∂K = −(i2_s − (R_s/R_r)·i2_r)/R_r (×1000).
+        const i2r = chosen.reduce((s, r) => s + r.h3!.i2, 0) / chosen.length
+        u = Math.hypot(u, 1000 * (w.h3.i2 - rs.value / rr * i2r) / rr * w.h3.uK)
+      }
       w.values[molecularDelta(key)] = { value: d, u }
       w.raw[molecularDelta(key)] = { value: d, u }
     }

@@ -41,12 +41,11 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   const flags: OutcomeFlag[] = []
   const drift: DriftFit[] = []
   const normalisation: Normalisation[] = []
-  let stage: Stage = 'ratios'
+  let stage = 'ratios' as Stage
   let accepted = true
 
   const ctx = (): ScaleContext => ({ gas, scales, referenceGas: referenceGasValues(method, quantities, normaliseIndex >= 0), includeReferenceU: normaliseIndex < 0 })
-  const toScale = (field: string) => {
-    if (gas === 'CO2') throw new EngineError(field, 'oxygen-17-required', 'CO2 needs the oxygen-17 step after the reference gas: 45/44 holds 12C17O16O as well as 13C16O16O')
+  const toScale = () => {
     moleculesToScale(work, ctx())
     for (const w of work.filter(measuredItems)) for (const q of quantities) if (w.values[q]) w.raw[q] = { ...w.values[q]! }
   }
@@ -54,6 +53,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   method.steps.forEach((step, i) => {
     const field = `steps[${i}]`
     const need = (want: Stage[], what: string) => {
+      if (stage === 'molecular' && want.includes('scale')) throw new EngineError(field, 'oxygen-17-required', 'CO2 needs the oxygen-17 step after the reference gas: 45/44 holds 12C17O16O as well as 13C16O16O')
       if (!want.includes(stage)) throw new EngineError(`${field}.step`, 'out-of-order', `${step.step} must come ${what}`)
     }
     let parameters: Record<string, unknown>
@@ -73,7 +73,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
         stage = 'molecular'
         if (gas !== 'CO2') {
           if (gas === 'H2' && !method.steps.slice(0, i).some(s => s.step === 'h3-factor')) flags.push({ code: 'no-h3-correction', message: 'H2 without the H3+ factor: δ2H carries the H3+ contribution' })
-          toScale(field)
+          toScale()
           stage = 'scale'
           parameters = { ...parameters, referenceGas: ctx().referenceGas, molecularToAtomic: gas === 'O2' ? '33R = 2·17R, 34R = 2·18R + 17R²' : gas === 'N2' ? '29R = 2·15R' : '3R = 2·2R' }
         }
@@ -96,17 +96,31 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
       case 'normalise': {
         need(['scale'], 'after the δ values are on the scale, once')
         checkAnchors(step.anchors, method.acceptance.minAnchors, items, materials, field)
+        const unanchored: EngineError[] = []
         for (const q of quantities) {
           const before = new Map(work.filter(measuredItems).flatMap(w => w.values[q] ? [[w, w.values[q]!.value] as const] : []))
-          const { normalisation: n } = normaliseQuantity(work, q, scales[q]!, step.anchors, materials, field)
+          let n: Normalisation
+          try { n = normaliseQuantity(work, q, scales[q]!, step.anchors, materials, field).normalisation }
+          catch (e) {
+            if (!(e instanceof EngineError) || e.code !== 'no-anchor-for-quantity') throw e
+            // A quantity no anchor states (O2's δ17O) stays on the scale through the reference
+            // gas, whose assigned u now counts: flagged, not refused.
+            unanchored.push(e)
+            const refU = ctx().referenceGas[q]?.u ?? 0
+            for (const w of work.filter(measuredItems)) if (w.values[q]) w.values[q] = { value: w.values[q]!.value, u: Math.hypot(w.values[q]!.u, refU) }
+            flags.push({ code: 'not-normalised', message: `${q}: no anchor states it; reported through the reference gas's assigned value only` })
+            continue
+          }
           normalisation.push(n)
           if (new Set(n.anchors.map(a => a.material)).size < method.acceptance.minAnchors) {
             accepted = false
             flags.push({ code: 'too-few-anchors', message: `${q}: ${n.anchors.length} anchor(s) measured, the method needs ${method.acceptance.minAnchors}` })
           }
+          if (n.anchors.length === 1) flags.push({ code: 'shift-only', message: `${q}: one anchor, so a shift only; the scale's compression is not corrected` })
           const xs = n.anchors.map(a => a.measuredMean.value)
           extrapolationFlags(work, q, [Math.min(...xs), Math.max(...xs)], before)
         }
+        if (unanchored.length === quantities.length) throw unanchored[0]!
         stage = 'normalised'
         parameters = { anchors: step.anchors, fits: normalisation.map(n => ({ quantity: n.quantity, slope: n.slope, intercept: n.intercept, covariance: n.covariance, rmsResidual: n.rmsResidual })) }
         break
@@ -116,9 +130,8 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
     }
     steps.push({ step: step.step, source: SOURCES[step.step], parameters })
   })
-  if (stage === 'ratios' || stage === 'molecular') {
-    throw new EngineError('steps', 'incomplete', gas === 'CO2' ? 'CO2 needs the reference-gas and oxygen-17 steps to reach δ13C and δ18O' : 'the method needs a reference-gas step to reach δ values')
-  }
+  if (stage === 'molecular') throw new EngineError('steps', 'oxygen-17-required', 'CO2 needs the oxygen-17 step after the reference gas to reach δ13C and δ18O')
+  if (stage === 'ratios') throw new EngineError('steps', 'incomplete', 'the method needs a reference-gas step to reach δ values')
 
   const residuals = quantities.map(q => standardResiduals(work, q, scales[q]!, materials, method.acceptance.maxStandardResidual, flags))
   if (flags.some(f => f.code === 'standard-residual')) accepted = false
