@@ -90,9 +90,9 @@ export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField:
 /**
  * H3+ factor: H3+ forms in the source in proportion to [H2+]², so the measured 3/2 ratio grows
  * linearly with the m/z 2 beam, R_meas = R_true + K·i2 (Sessions, Burgoyne & Hayes, Anal. Chem.
- * 73 (2001) 192; Friedrichsen, Int. J. Mass Spectrom. Ion Processes 1992; from memory). K is the
+ * 73 (2001) 192 and 200, the correction and the determination of K; from memory). K is the
  * slope of the reference-gas acquisitions' 3/2 against i2 (weighted least squares); every
- * acquisition's ratio is then R − K·i2, with u(K) propagated.
+ * acquisition's ratio is then R − K·i2, with u(K) carried into δ by the bracketing.
  */
 export function h3Factor(work: DeltaWork[], stepField: string): Record<string, unknown> {
   const refs = work.filter(w => w.item.role === 'reference-gas')

@@ -17,7 +17,7 @@ type Stage = 'ratios' | 'molecular' | 'scale' | 'normalised'
 
 const SOURCES: Record<MethodStep['step'], string> = {
   'blank': 'procedural blank, mean of the blanks (GUM JCGM 100:2008 4.2.3); common practice, no source',
-  'h3-factor': 'Sessions, Burgoyne & Hayes, Anal. Chem. 73 (2001) 192 (from memory)',
+  'h3-factor': 'Sessions, Burgoyne & Hayes, Anal. Chem. 73 (2001) 192 and 200 (from memory)',
   'reference-gas': 'Coplen, Rapid Commun. Mass Spectrom. 25 (2011) 2538 (δ against the reference gas)',
   'oxygen-17': BRAND_2010.source,
   'drift': 'weighted least squares (Bevington & Robinson, Data Reduction and Error Analysis, 3rd ed. 2003, §6.4)',
