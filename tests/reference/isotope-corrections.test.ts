@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest'
 import {
-  BRAND_2010, acceptedValue, co2AtomicRatios, co2DeltasFromMolecular, co2MolecularRatios, composeDelta, isotopologueAbundances,
+  BRAND_2010, acceptedValue, reducedChi2Limit99, co2AtomicRatios, co2DeltasFromMolecular, co2MolecularRatios, composeDelta, isotopologueAbundances,
   o2DeltasFromMolecular, o2MolecularRatios, referenceMaterials, scaleRatios, weightedLine, yorkFit,
 } from '../../shared/engine'
 
@@ -101,6 +101,12 @@ describe('N2, O2 and H2 molecular ratios (combinatorics of the random distributi
     const a = isotopologueAbundances('H2', { 'δ2H': -427.5 })
     expect(a[3]! / a[2]! / 2 / scaleRatios.VSMOW['2R']).toBeCloseTo(0.5725, 12)
     expect(composeDelta(-100, -50)).toBeCloseTo(-145, 12)
+  })
+})
+
+describe('scatter of anchor replicates', () => {
+  it.each([[2, 9.2103], [4, 13.2767], [10, 23.2093]])('χ²_0.99 with ν = %i is %f (Abramowitz & Stegun, Handbook of Mathematical Functions (1964) table 26.8; from memory): the Wilson–Hilferty limit within 1 %', (dof, chi2) => {
+    expect(Math.abs(reducedChi2Limit99(dof) * dof / chi2 - 1)).toBeLessThan(0.01)
   })
 })
 

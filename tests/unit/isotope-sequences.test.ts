@@ -32,6 +32,8 @@ describe('normalised sample δ recovered within 0.05 ‰ (noise off, standards a
     expect(out.normalisation[0]!.slope.value).toBeGreaterThan(1.01)
     expect(out.steps.map(s => s.step)).toEqual(caseMethod(c).steps.map(s => s.step))
     expect(out.steps.every(s => s.source.length > 10)).toBe(true)
+    // O2's δ17O: no reference material states it, so it is reported through the reference gas, flagged.
+    if (gas === 'O2') expect(out.flags.map(f => f.code)).toContain('not-normalised')
   })
 
   it('CO2 with δ18O on VSMOW (Coplen et al. 1983 conversion) and a procedural blank subtracted', () => {
@@ -142,6 +144,26 @@ describe('anchors and acceptance', () => {
     expect(generous.accepted).toBe(true)
     const monitor = generous.items.find(i => i.material === 'USGS40')!
     expect(Math.abs(monitor.residual!['δ13C']!)).toBeLessThan(0.3)
+  })
+})
+
+describe('anchor replicates', () => {
+  it('an anchor whose acquisitions disagree beyond their stated u is flagged; a clean sequence is not', () => {
+    const c = cases.N2!
+    const built = buildSequence(c, 14)
+    expect(processDeltaSequence(caseMethod(c), built.items, referenceMaterials).flags.map(f => f.code)).not.toContain('anchor-scatter')
+    const first = built.items.find(i => i.material === 'USGS41a')!
+    const shifted = built.items.map(i => i === first ? { ...i, ratios: { '29/28': { ...i.ratios['29/28']!, value: i.ratios['29/28']!.value * 1.001 } } } : i)
+    const out = processDeltaSequence(caseMethod(c), shifted, referenceMaterials)
+    expect(out.flags.find(f => f.code === 'anchor-scatter')!.message).toMatch(/USGS41a/)
+    expect(out.normalisation[0]!.anchors.find(a => a.material === 'USGS41a')!.reducedChi2).toBeGreaterThan(10)
+  })
+})
+
+describe('the simulator', () => {
+  it('repeats exactly for a seed and differs for another', () => {
+    expect(buildSequence(cases.CO2!, 21).items).toEqual(buildSequence(cases.CO2!, 21).items)
+    expect(buildSequence(cases.CO2!, 21).items[3]!.beams['45']!.value).not.toBe(buildSequence(cases.CO2!, 22).items[3]!.beams['45']!.value)
   })
 })
 

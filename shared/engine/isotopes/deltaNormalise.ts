@@ -25,7 +25,7 @@ function anchorPoints(work: DeltaWork[], quantity: string, scale: string, anchor
     const items = work.filter(w => measuredItems(w) && w.item.role !== 'sample' && w.item.material === id && w.values[quantity])
     if (!items.length) return []
     const mean = weightedMean(items.map(w => w.values[quantity]!))
-    return [{ material: id, positions: items.map(w => w.item.position), accepted, measuredMean: { value: mean.value, u: mean.u } }]
+    return [{ material: id, positions: items.map(w => w.item.position), accepted, measuredMean: { value: mean.value, u: mean.u }, ...(items.length > 1 ? { reducedChi2: mean.chi2 / (items.length - 1) } : {}) }]
   })
 }
 
@@ -66,6 +66,24 @@ export function normaliseQuantity(work: DeltaWork[], quantity: string, scale: st
       rmsResidual: Math.sqrt(anchorsOut.reduce((s, a) => s + a.residual ** 2, 0) / anchorsOut.length),
       anchors: anchorsOut,
     },
+  }
+}
+
+/**
+ * The 99 % quantile of χ²_ν/ν by the Wilson–Hilferty approximation,
+ * χ²_p ≈ ν(1 − 2/(9ν) + z_p·√(2/(9ν)))³ with z_0.99 = 2.3263 (Wilson & Hilferty, PNAS 17 (1931) 684).
+ */
+export function reducedChi2Limit99(dof: number): number {
+  const a = 2 / (9 * dof)
+  return (1 - a + 2.3263 * Math.sqrt(a)) ** 3
+}
+
+/** An anchor whose acquisitions scatter beyond their stated u (χ²/ν above its 99 % quantile). */
+export function anchorScatterFlags(n: Normalisation, flags: OutcomeFlag[]): void {
+  for (const a of n.anchors) {
+    if (a.reducedChi2 === undefined) continue
+    const limit = reducedChi2Limit99(a.positions.length - 1)
+    if (a.reducedChi2 > limit) flags.push({ code: 'anchor-scatter', message: `${a.material} ${n.quantity}: its ${a.positions.length} acquisitions scatter beyond their stated u (χ²/ν = ${a.reducedChi2.toFixed(2)} > ${limit.toFixed(2)}, 99 %)` })
   }
 }
 

@@ -4,7 +4,7 @@ import { BRAND_2010 } from './isotopologues'
 import { VPDB_TO_VSMOW_18O, quantityScales } from './referenceMaterials'
 import { bracketReferenceGas, gasRatios, h3Factor, measuredItems, subtractBlank, type DeltaWork } from './deltaSteps'
 import { co2ToScale, correctDrift, gasQuantities, moleculesToScale, type ScaleContext } from './deltaScale'
-import { NORMALISATION_SOURCE, extrapolationFlags, normaliseQuantity, standardResiduals } from './deltaNormalise'
+import { NORMALISATION_SOURCE, anchorScatterFlags, extrapolationFlags, normaliseQuantity, standardResiduals } from './deltaNormalise'
 import type { AppliedStep, DriftFit, MaterialValues, Measured, Normalisation, OutcomeFlag, SequenceItem, SequenceOutcome } from './types'
 
 // A δ sequence (CO2, N2, O2, H2) processed under one method: its steps run in the method's
@@ -112,6 +112,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
             continue
           }
           normalisation.push(n)
+          anchorScatterFlags(n, flags)
           if (new Set(n.anchors.map(a => a.material)).size < method.acceptance.minAnchors) {
             accepted = false
             flags.push({ code: 'too-few-anchors', message: `${q}: ${n.anchors.length} anchor(s) measured, the method needs ${method.acceptance.minAnchors}` })

@@ -82,7 +82,11 @@ export interface Normalisation {
   intercept: Measured
   covariance: number
   rmsResidual: number
-  anchors: { material: string, positions: number[], accepted: Measured, measuredMean: Measured, residual: number }[]
+  anchors: {
+    material: string, positions: number[], accepted: Measured, measuredMean: Measured, residual: number
+    /** Scatter of the anchor's acquisitions about their mean against their stated u: χ²/ν (ν = n − 1; absent for one acquisition). */
+    reducedChi2?: number
+  }[]
 }
 
 export interface DriftFit {
