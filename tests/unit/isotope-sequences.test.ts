@@ -203,6 +203,22 @@ describe('methods that cannot run are refused with the field at fault', () => {
     expect(out.items.find(i => i.position === built.samples[0]!.position)!.flags.map(f => f.code)).toContain('extrapolated')
   })
 
+  it('bad numbers and duplicate positions are refused by their field', () => {
+    const at = (k: number, patch: object) => built.items.map((i, j) => j === k ? { ...i, ...patch } : i)
+    expect(run({}, at(3, { ratios: { '29/28': { value: Number.NaN, u: 1e-7 } } })).field).toBe('items[3].ratios.29/28.value')
+    expect(run({}, at(3, { ratios: { '29/28': { value: 0.0073, u: 0 } } })).field).toBe('items[3].ratios.29/28.u')
+    expect(run({}, at(3, { beams: { 28: { value: 1e-9, u: -1 } } })).field).toBe('items[3].beams.28.u')
+    expect([run({}, at(3, { position: 1 })).field, run({}, at(3, { position: 1 })).code]).toEqual(['items[3].position', 'duplicate'])
+  })
+
+  it('a sample no larger than the blank is refused, naming its beam', () => {
+    const withBlank = buildSequence(c, 15, { blanks: true })
+    const k = withBlank.items.findIndex(i => i.role === 'sample')
+    const items = withBlank.items.map((i, j) => j === k ? { ...i, beams: { ...i.beams, 28: { value: 1e-14, u: 1e-15 } } } : i)
+    const e = run({ steps: [{ step: 'blank' }, { step: 'reference-gas', bracketing: 'nearest' }] }, items)
+    expect([e.field, e.code]).toEqual([`items[${k}].beams.28`, 'below-blank'])
+  })
+
   it('a sequence without reference gas, and an acquisition without its ratio', () => {
     expect(run({}, built.items.filter(i => i.role !== 'reference-gas')).code).toBe('no-reference-gas')
     const broken = built.items.map(i => i.position === 2 ? { ...i, ratios: {}, beams: { 28: i.beams['28']! } } : i)

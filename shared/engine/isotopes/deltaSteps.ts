@@ -78,6 +78,8 @@ export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField:
       if (!b) throw new EngineError(`items[${w.index}].beams.${mz}`, 'missing', `blank subtraction needs the m/z ${mz} beam of position ${w.item.position}`)
       w.beams[mz] = { value: b.value - mean[mz]!.value, u: Math.hypot(b.u, mean[mz]!.u) }
     }
+    const light = ratioKeys[0]!.split('/')[1]!
+    if (!(w.beams[light]!.value > 0)) throw new EngineError(`items[${w.index}].beams.${light}`, 'below-blank', `position ${w.item.position}: the m/z ${light} beam is no larger than the blank`)
     w.ratios = {}
     for (const key of ratioKeys) {
       const r = ratioFromBeams(w.beams, key)

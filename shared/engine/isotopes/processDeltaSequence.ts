@@ -30,6 +30,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   if (method.gas === 'Ar') throw new EngineError('gas', 'not-a-delta-system', 'argon sequences are processed by the mass-bias engine, not as δ values')
   const gas: DeltaGas = method.gas
   if (!items.length) throw new EngineError('items', 'empty', 'the sequence has no acquisitions')
+  validateItems(items)
   const ratioKeys = [...gasRatios[gas].required, ...gasRatios[gas].optional]
   const quantities = gasQuantities[gas].filter(q => gas !== 'O2' || q !== 'δ17O' || items.some(i => '33/32' in i.ratios || '33' in i.beams))
   const scales = Object.fromEntries(quantities.map(q => [q, q === 'δ18O' && gas === 'CO2' ? (method.oxygenScale ?? 'VPDB') : quantityScales[q]!]))
@@ -179,6 +180,23 @@ function checkAnchors(anchors: string[], minAnchors: number, items: SequenceItem
     if (!Object.hasOwn(materials, id)) throw new EngineError(`${field}.anchors[${j}]`, 'unknown-material', `${id} is not a known reference material or working standard`)
     if (!items.some(it => it.material === id && it.role !== 'sample' && it.role !== 'reference-gas' && it.role !== 'blank')) {
       throw new EngineError(`${field}.anchors[${j}]`, 'anchor-not-in-sequence', `the anchor ${id} was not measured in this sequence`)
+    }
+  })
+}
+
+/** Every value finite, every u finite and not negative (ratios: positive), positions unique. */
+function validateItems(items: SequenceItem[]): void {
+  const seen = new Map<number, number>()
+  items.forEach((item, i) => {
+    if (!Number.isFinite(item.position)) throw new EngineError(`items[${i}].position`, 'not-finite', 'must be a finite number')
+    if (seen.has(item.position)) throw new EngineError(`items[${i}].position`, 'duplicate', `position ${item.position} is also items[${seen.get(item.position)}]`)
+    seen.set(item.position, i)
+    if (!Number.isFinite(item.acquiredAt)) throw new EngineError(`items[${i}].acquiredAt`, 'not-finite', 'must be a time in ms since the epoch')
+    for (const [kind, record] of [['beams', item.beams], ['ratios', item.ratios]] as const) {
+      for (const [key, m] of Object.entries(record)) {
+        if (!Number.isFinite(m.value)) throw new EngineError(`items[${i}].${kind}.${key}.value`, 'not-finite', 'must be a finite number')
+        if (!Number.isFinite(m.u) || m.u < 0 || (kind === 'ratios' && m.u === 0)) throw new EngineError(`items[${i}].${kind}.${key}.u`, 'bad-uncertainty', kind === 'ratios' ? 'a measured ratio needs a positive standard uncertainty' : 'must be a finite number, not negative')
+      }
     }
   })
 }
