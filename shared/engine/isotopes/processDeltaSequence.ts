@@ -32,7 +32,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   if (!items.length) throw new EngineError('items', 'empty', 'the sequence has no acquisitions')
   validateItems(items)
   const ratioKeys = [...gasRatios[gas].required, ...gasRatios[gas].optional]
-  const quantities = gasQuantities[gas].filter(q => gas !== 'O2' || q !== 'δ17O' || items.some(i => '33/32' in i.ratios || '33' in i.beams))
+  const quantities = gasQuantities[gas].filter(q => gas !== 'O2' || q !== 'δ17O' || items.some(i => Object.hasOwn(i.ratios, '33/32') || Object.hasOwn(i.beams, '33')))
   const scales = Object.fromEntries(quantities.map(q => [q, q === 'δ18O' && gas === 'CO2' ? (method.oxygenScale ?? 'VPDB') : quantityScales[q]!]))
   const normaliseIndex = method.steps.findIndex(s => s.step === 'normalise')
   const work: DeltaWork[] = items
