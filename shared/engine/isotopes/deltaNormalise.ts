@@ -1,7 +1,7 @@
 import { EngineError } from '../errors'
 import { acceptedValue } from './referenceMaterials'
 import { weightedMean, yorkFit, type LineFit } from './regression'
-import { measuredItems, type DeltaWork } from './deltaSteps'
+import { measuredItems, withoutKey, type DeltaWork } from './deltaSteps'
 import type { MaterialValues, Measured, Normalisation, OutcomeFlag } from './types'
 
 // Normalisation to the international scale: accepted = a + b·measured, fitted on the anchor
@@ -25,7 +25,10 @@ function anchorPoints(work: DeltaWork[], quantity: string, scale: string, anchor
     const items = work.filter(w => measuredItems(w) && w.item.role !== 'sample' && w.item.material === id && w.values[quantity])
     if (!items.length) return []
     const mean = weightedMean(items.map(w => w.values[quantity]!))
-    return [{ material: id, positions: items.map(w => w.item.position), accepted, measuredMean: { value: mean.value, u: mean.u }, ...(items.length > 1 ? { reducedChi2: mean.chi2 / (items.length - 1) } : {}) }]
+    const weights = items.map(w => 1 / Math.max(w.values[quantity]!.u, 1e-12) ** 2)
+    // The mean's sensitivity to the drift slope's error, weighted as the mean is.
+    const driftSensitivity = items.reduce((s, w, i) => s + weights[i]! * (w.drift?.[quantity]?.sensitivity ?? 0), 0) / weights.reduce((s, v) => s + v, 0)
+    return [{ material: id, positions: items.map(w => w.item.position), accepted, measuredMean: { value: mean.value, u: mean.u }, driftSensitivity, ...(items.length > 1 ? { reducedChi2: mean.chi2 / (items.length - 1) } : {}) }]
   })
 }
 
@@ -36,25 +39,35 @@ function anchorPoints(work: DeltaWork[], quantity: string, scale: string, anchor
 export function normaliseQuantity(work: DeltaWork[], quantity: string, scale: string, anchors: string[], materials: Record<string, MaterialValues>, stepField: string): NormaliseResult {
   const points = anchorPoints(work, quantity, scale, anchors, materials)
   if (!points.length) throw new EngineError(`${stepField}.anchors`, 'no-anchor-for-quantity', `none of the anchors has an accepted ${quantity} on ${scale} and was measured in this sequence`)
-  let fit: LineFit
-  if (points.length === 1) {
-    const p = points[0]!
-    fit = { intercept: p.accepted.value - p.measuredMean.value, slope: 1, uIntercept: Math.hypot(p.accepted.u, p.measuredMean.u), uSlope: 0, covariance: 0, chi2: 0, dof: 0 }
-  }
-  else {
+  if (points.length > 1) {
     const spread = Math.max(...points.map(p => p.accepted.value)) - Math.min(...points.map(p => p.accepted.value))
     if (!(spread > 0)) throw new EngineError(`${stepField}.anchors`, 'anchors-degenerate', `the anchors of ${quantity} share one accepted value: they cannot fix a slope`)
-    fit = yorkFit(points.map(p => p.measuredMean.value), points.map(p => p.measuredMean.u), points.map(p => p.accepted.value), points.map(p => p.accepted.u))
   }
-  const onScale = (x: Measured): Measured => ({
-    value: fit.intercept + fit.slope * x.value,
-    u: Math.sqrt(Math.max(0, fit.uIntercept ** 2 + (x.value * fit.uSlope) ** 2 + 2 * x.value * fit.covariance + (fit.slope * x.u) ** 2)),
-  })
+  const fitAt = (shift: number): LineFit => {
+    const xs = points.map(p => p.measuredMean.value + shift * p.driftSensitivity)
+    if (points.length === 1) {
+      const p = points[0]!
+      return { intercept: p.accepted.value - xs[0]!, slope: 1, uIntercept: Math.hypot(p.accepted.u, p.measuredMean.u), uSlope: 0, covariance: 0, chi2: 0, dof: 0 }
+    }
+    return yorkFit(xs, points.map(p => p.measuredMean.u), points.map(p => p.accepted.value), points.map(p => p.accepted.u))
+  }
+  const fit = fitAt(0)
+  // The drift slope's error moves the anchors and the acquisition together: its contribution
+  // is the change of a + b·x when b_drift moves by its u (anchors refitted), GUM 5.2.2.
+  const driftU = work.find(w => w.drift?.[quantity])?.drift![quantity]!.u ?? 0
+  const shifted = driftU > 0 ? fitAt(driftU) : fit
+  const onScale = (w: DeltaWork, x: Measured): Measured => {
+    const value = fit.intercept + fit.slope * x.value
+    const sensitivity = w.drift?.[quantity]?.sensitivity ?? 0
+    const driftPart = shifted.intercept + shifted.slope * (x.value + driftU * sensitivity) - value
+    return { value, u: Math.sqrt(Math.max(0, fit.uIntercept ** 2 + (x.value * fit.uSlope) ** 2 + 2 * x.value * fit.covariance + (fit.slope * x.u) ** 2 + driftPart ** 2)) }
+  }
   for (const w of work.filter(measuredItems)) {
     const v = w.values[quantity]
-    if (v) w.values[quantity] = onScale(v)
+    if (v) w.values[quantity] = onScale(w, v)
+    if (w.drift) w.drift = withoutKey(w.drift, quantity)
   }
-  const anchorsOut = points.map(p => ({ ...p, residual: fit.intercept + fit.slope * p.measuredMean.value - p.accepted.value }))
+  const anchorsOut = points.map(({ driftSensitivity: _, ...p }) => ({ ...p, residual: fit.intercept + fit.slope * p.measuredMean.value - p.accepted.value }))
   return {
     fit,
     normalisation: {

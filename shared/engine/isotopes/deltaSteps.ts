@@ -17,6 +17,25 @@ export interface DeltaWork {
   flags: OutcomeFlag[]
   /** H2 after the H3+ step: the m/z 2 beam and u(K), whose error is carried into δ by bracketing. */
   h3?: { i2: number, uK: number }
+  /**
+   * After a drift correction, per quantity: ∂δ/∂b (= −(x − x̄)) and u(b). The slope's error is
+   * common to every acquisition, so it is carried apart from u and through the normalisation
+   * (GUM 5.2, correlated inputs), then folded into u.
+   */
+  drift?: Record<string, { sensitivity: number, u: number }>
+}
+
+/** Folds a pending drift-slope component into u (when no normalisation consumes it). */
+export function foldDrift(w: DeltaWork, quantity: string): void {
+  const d = w.drift?.[quantity]
+  const v = w.values[quantity]
+  if (!d || !v) return
+  w.values[quantity] = { value: v.value, u: Math.hypot(v.u, d.sensitivity * d.u) }
+  w.drift = withoutKey(w.drift!, quantity)
+}
+
+export function withoutKey<T>(record: Record<string, T>, key: string): Record<string, T> {
+  return Object.fromEntries(Object.entries(record).filter(([k]) => k !== key))
 }
 
 /** The molecular ratios each gas is measured by, the first one required (common practice, no source). */

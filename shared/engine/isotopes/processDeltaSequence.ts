@@ -2,7 +2,7 @@ import type { MethodDefinition, MethodStep } from '../../schemas/methods'
 import { EngineError } from '../errors'
 import { BRAND_2010 } from './isotopologues'
 import { VPDB_TO_VSMOW_18O, quantityScales } from './referenceMaterials'
-import { bracketReferenceGas, gasRatios, h3Factor, measuredItems, subtractBlank, type DeltaWork } from './deltaSteps'
+import { bracketReferenceGas, foldDrift, gasRatios, h3Factor, measuredItems, subtractBlank, type DeltaWork } from './deltaSteps'
 import { co2ToScale, correctDrift, gasQuantities, moleculesToScale, type ScaleContext } from './deltaScale'
 import { NORMALISATION_SOURCE, anchorScatterFlags, extrapolationFlags, normaliseQuantity, standardResiduals } from './deltaNormalise'
 import type { AppliedStep, DriftFit, MaterialValues, Measured, Normalisation, OutcomeFlag, SequenceItem, SequenceOutcome } from './types'
@@ -135,6 +135,8 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   if (stage === 'molecular') throw new EngineError('steps', 'oxygen-17-required', 'CO2 needs the oxygen-17 step after the reference gas to reach δ13C and δ18O')
   if (stage === 'ratios') throw new EngineError('steps', 'incomplete', 'the method needs a reference-gas step to reach δ values')
 
+  // A drift no normalisation consumed (none ran, or a quantity had no anchor) counts in u now.
+  for (const w of work) for (const q of quantities) foldDrift(w, q)
   const residuals = quantities.map(q => standardResiduals(work, q, scales[q]!, materials, method.acceptance.maxStandardResidual, flags))
   if (flags.some(f => f.code === 'standard-residual')) accepted = false
   return {
