@@ -160,6 +160,17 @@ describe('anchor replicates', () => {
   })
 })
 
+describe('the outcome', () => {
+  it('survives JSON (it is stored and sent as it is): no NaN, Infinity, Map or function inside', () => {
+    for (const gas of ['CO2', 'N2', 'O2', 'H2']) {
+      const c = cases[gas]!
+      const out = processDeltaSequence(caseMethod(c), buildSequence(c, 16, { blanks: true }).items, referenceMaterials)
+      expect(JSON.parse(JSON.stringify(out))).toEqual(out)
+      expect(JSON.stringify(out)).not.toMatch(/null/)
+    }
+  })
+})
+
 describe('the simulator', () => {
   it('repeats exactly for a seed and differs for another', () => {
     expect(buildSequence(cases.CO2!, 21).items).toEqual(buildSequence(cases.CO2!, 21).items)
