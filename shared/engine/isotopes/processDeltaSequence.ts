@@ -85,7 +85,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
         co2ToScale(work, ctx())
         for (const w of work.filter(measuredItems)) for (const q of quantities) w.raw[q] = { ...w.values[q]! }
         stage = 'scale'
-        parameters = { set: step.parameters, lambda: BRAND_2010.lambda, K: BRAND_2010.K, R13VPDB: BRAND_2010.r13, R18VPDB: BRAND_2010.r18, R17VPDB: BRAND_2010.r17, referenceGas: ctx().referenceGas, oxygenScale: scales['δ18O'], ...(scales['δ18O'] === 'VSMOW' ? { vpdbToVsmow: VPDB_TO_VSMOW_18O } : {}) }
+        parameters = { set: step.parameters, lambda: BRAND_2010.lambda, K: BRAND_2010.K, R13VPDB: BRAND_2010.r13, R18VPDBCO2: BRAND_2010.r18, R17VPDBCO2: BRAND_2010.r17, referenceGas: ctx().referenceGas, oxygenScale: scales['δ18O'], ...(scales['δ18O'] === 'VSMOW' ? { vpdbToVsmow: VPDB_TO_VSMOW_18O } : {}) }
         break
       case 'drift': {
         need(['scale'], 'after the δ values are on the scale and before the normalisation')
