@@ -47,7 +47,7 @@ export function caseMethod(c: DeltaCase, extra: Partial<MethodDefinition> = {}, 
 export interface Built { items: SequenceItem[], samples: { position: number, truth: Record<string, number> }[] }
 
 /** Anchor 1 at the start, middle and end (the drift standard), the others and samples between, reference gas around each. */
-export function buildSequence(c: DeltaCase, seed: number, options: { noise?: boolean, drawStandards?: boolean, blanks?: boolean, instrument?: Partial<SimulatedInstrument>, materials?: Record<string, MaterialValues>, majorScale?: number, layout?: 'interleaved' | 'drift-lever' } = {}): Built {
+export function buildSequence(c: DeltaCase, seed: number, options: { noise?: boolean, drawStandards?: boolean, blanks?: boolean, instrument?: Partial<SimulatedInstrument>, materials?: Record<string, MaterialValues>, majorScale?: number, layout?: 'interleaved' | 'drift-lever', replicates?: number } = {}): Built {
   const draw = seededNormal(seed * 7919 + 13)
   const scaleOf = (q: string) => q === 'δ13C' ? 'VPDB' : q === 'δ15N' ? 'AIR' : q === 'δ18O' && c.gas === 'CO2' ? (c.oxygenScale ?? 'VPDB') : 'VSMOW'
   const truthOf = (id: string): Record<string, number> => Object.fromEntries(Object.keys(c.referenceGas).flatMap((q) => {
@@ -77,7 +77,8 @@ export function buildSequence(c: DeltaCase, seed: number, options: { noise?: boo
     blank()
     return finish()
   }
-  for (const id of standards.slice(1)) { std(id); ref(1.4); std(id); ref(0.8) }
+  // replicates: the other standards' block repeated, as a lab measures its standards through a run.
+  for (let k = 0; k < (options.replicates ?? 1); k++) for (const id of standards.slice(1)) { std(id); ref(1.4); std(id); ref(0.8) }
   for (const s of c.samples) { layout.push({ role: 'sample', truth: s, majorA }); samplePositions.push({ position: layout.length, truth: s }); ref(1.2) }
   std(c.anchors[0]!)
   blank()

@@ -51,7 +51,7 @@ export function normaliseQuantity(work: DeltaWork[], quantity: string, scale: st
     }
     return yorkFit(xs, points.map(p => p.measuredMean.u), points.map(p => p.accepted.value), points.map(p => p.accepted.u))
   }
-  const fit = fitAt(0)
+  const fit = inflateByMswd(fitAt(0))
   // The drift slope's error moves the anchors and the acquisition together: its contribution
   // is the change of a + b·x when b_drift moves by its u (anchors refitted), GUM 5.2.2.
   const driftU = work.find(w => w.drift?.[quantity])?.drift![quantity]!.u ?? 0
@@ -76,10 +76,24 @@ export function normaliseQuantity(work: DeltaWork[], quantity: string, scale: st
       slope: { value: fit.slope, u: fit.uSlope },
       intercept: { value: fit.intercept, u: fit.uIntercept },
       covariance: fit.covariance,
+      ...(fit.dof > 0 ? { mswd: fit.chi2 / fit.dof } : {}),
       rmsResidual: Math.sqrt(anchorsOut.reduce((s, a) => s + a.residual ** 2, 0) / anchorsOut.length),
       anchors: anchorsOut,
     },
   }
+}
+
+/**
+ * More than two anchors whose scatter about the line exceeds what their u (replicate scatter
+ * included) explain: u(a), u(b) scaled by √MSWD and cov(a, b) by MSWD, MSWD = χ²/ν, ν = n − 2
+ * (York et al., Am. J. Phys. 72 (2004) 367, their note on the goodness of fit; the Birge ratio,
+ * common practice). Below 1 nothing is shrunk: the stated u are kept.
+ */
+export function inflateByMswd(fit: LineFit): LineFit {
+  if (!(fit.dof > 0)) return fit
+  const mswd = fit.chi2 / fit.dof
+  if (!(mswd > 1)) return fit
+  return { ...fit, uIntercept: fit.uIntercept * Math.sqrt(mswd), uSlope: fit.uSlope * Math.sqrt(mswd), covariance: fit.covariance * mswd }
 }
 
 /**

@@ -4,7 +4,9 @@ import { BRAND_2010 } from './isotopologues'
 import { VPDB_TO_VSMOW_18O, quantityScales } from './referenceMaterials'
 import { bracketReferenceGas, foldDrift, gasRatios, h3Factor, measuredItems, subtractBlank, type DeltaWork } from './deltaSteps'
 import { co2ToScale, correctDrift, gasQuantities, moleculesToScale, type ScaleContext } from './deltaScale'
-import { NORMALISATION_SOURCE, anchorScatterFlags, extrapolationFlags, normaliseQuantity, standardResiduals } from './deltaNormalise'
+import { addReproducibility, type Reproducibility } from './reproducibility'
+import { coverageFactor } from './studentT'
+import { NORMALISATION_SOURCE, extrapolationFlags, reducedChi2Limit99, normaliseQuantity, standardResiduals } from './deltaNormalise'
 import type { AppliedStep, DriftFit, MaterialValues, Measured, Normalisation, OutcomeFlag, SequenceItem, SequenceOutcome } from './types'
 
 // A δ sequence (CO2, N2, O2, H2) processed under one method: its steps run in the method's
@@ -44,6 +46,19 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   const normalisation: Normalisation[] = []
   let stage = 'ratios' as Stage
   let accepted = true
+  // Type A reproducibility, once per quantity: before the drift fit when there is one (so that
+  // the slope's u counts it), else before the normalisation, else at the end.
+  const reproducibility: Reproducibility[] = []
+  const addScatter = (q: string, line?: Parameters<typeof addReproducibility>[2]) => {
+    if (reproducibility.some(r => r.quantity === q) || !work.some(w => measuredItems(w) && w.values[q])) return
+    const r = addReproducibility(work, q, line)
+    reproducibility.push(r)
+    for (const m of r.materials) {
+      const limit = reducedChi2Limit99(m.dof)
+      if (m.reducedChi2 > limit) flags.push({ code: 'anchor-scatter', message: `${m.material} ${q}: its ${m.n} acquisitions scatter beyond their stated u and the other standards' reproducibility (χ²/ν = ${m.reducedChi2.toFixed(2)} > ${limit.toFixed(2)}, 99 %)` })
+    }
+    if (r.dof === 0) flags.push({ code: 'reproducibility-unknown', message: `${q}: no standard was measured twice, so run-to-run reproducibility is not in u` })
+  }
 
   const ctx = (): ScaleContext => ({ gas, scales, referenceGas: referenceGasValues(method, quantities, normaliseIndex >= 0), includeReferenceU: normaliseIndex < 0 })
   const toScale = () => {
@@ -89,14 +104,20 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
         break
       case 'drift': {
         need(['scale'], 'after the δ values are on the scale and before the normalisation')
+        // Reproducibility first, from every replicated standard about its own mean with one
+        // common drift slope (so the slope is neither mistaken for scatter nor its fitted error
+        // counted in it); the drift fit then weights its points with it, so u(slope) carries it.
+        const t0 = Math.min(...work.map(w => w.item.acquiredAt))
+        for (const q of quantities) addScatter(q, { x: w => step.model === 'linear-time' ? (w.item.acquiredAt - t0) / 3_600_000 : w.item.position })
         const fits = correctDrift(work, quantities, step.model, step.material, field)
         drift.push(...fits)
-        parameters = { model: step.model, material: step.material, slopes: Object.fromEntries(fits.map(f => [f.quantity, f.slope])), unit: step.model === 'linear-time' ? '‰ per hour' : '‰ per position' }
+        parameters = { model: step.model, material: step.material, reproducibility: reproducibility.filter(r => quantities.includes(r.quantity)), slopes: Object.fromEntries(fits.map(f => [f.quantity, f.slope])), unit: step.model === 'linear-time' ? '‰ per hour' : '‰ per position' }
         break
       }
       case 'normalise': {
         need(['scale'], 'after the δ values are on the scale, once')
         checkAnchors(step.anchors, method.acceptance.minAnchors, items, materials, field)
+        for (const q of quantities) addScatter(q)
         const unanchored: EngineError[] = []
         for (const q of quantities) {
           const before = new Map(work.filter(measuredItems).flatMap(w => w.values[q] ? [[w, w.values[q]!.value] as const] : []))
@@ -113,7 +134,6 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
             continue
           }
           normalisation.push(n)
-          anchorScatterFlags(n, flags)
           if (new Set(n.anchors.map(a => a.material)).size < method.acceptance.minAnchors) {
             accepted = false
             flags.push({ code: 'too-few-anchors', message: `${q}: ${n.anchors.length} anchor(s) measured, the method needs ${method.acceptance.minAnchors}` })
@@ -124,7 +144,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
         }
         if (unanchored.length === quantities.length) throw unanchored[0]!
         stage = 'normalised'
-        parameters = { anchors: step.anchors, fits: normalisation.map(n => ({ quantity: n.quantity, slope: n.slope, intercept: n.intercept, covariance: n.covariance, rmsResidual: n.rmsResidual })) }
+        parameters = { anchors: step.anchors, fits: normalisation.map(n => ({ quantity: n.quantity, slope: n.slope, intercept: n.intercept, covariance: n.covariance, rmsResidual: n.rmsResidual, ...(n.mswd !== undefined ? { mswd: n.mswd } : {}) })), reproducibility }
         break
       }
       default:
@@ -135,10 +155,23 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   if (stage === 'molecular') throw new EngineError('steps', 'oxygen-17-required', 'CO2 needs the oxygen-17 step after the reference gas to reach δ13C and δ18O')
   if (stage === 'ratios') throw new EngineError('steps', 'incomplete', 'the method needs a reference-gas step to reach δ values')
 
+  for (const q of quantities) addScatter(q)
   // A drift no normalisation consumed (none ran, or a quantity had no anchor) counts in u now.
   for (const w of work) for (const q of quantities) foldDrift(w, q)
   const residuals = quantities.map(q => standardResiduals(work, q, scales[q]!, materials, method.acceptance.maxStandardResidual, flags))
   if (flags.some(f => f.code === 'standard-residual')) accepted = false
+  // k from the effective degrees of freedom (GUM G.4.1, Welch–Satterthwaite): the
+  // reproducibility term is the only component estimated from few replicates; every other is
+  // taken as exactly known (ν = ∞). Its share in an acquisition is the normalisation's slope
+  // times s (the anchors' s²/n through the line is left out: a small, slightly optimistic part).
+  const scaled = (w: DeltaWork, q: string) => {
+    const v = w.values[q]!
+    const r = reproducibility.find(x => x.quantity === q)
+    const c = r && r.s > 0 ? r.s * Math.abs((normalisation.find(n => n.quantity === q)?.slope.value ?? 1) * (1 + (w.raw[q]?.value ?? 0) / 1000)) : 0
+    if (!r || !(c > 0) || !(v.u > 0)) return { ...v, scale: scales[q]!, k: 2 }
+    const dof = Math.min(1e6, v.u ** 4 / (c ** 4 / r.dof))
+    return { ...v, scale: scales[q]!, k: dof >= 1e6 ? 2 : coverageFactor(dof), effectiveDof: dof }
+  }
   return {
     gas,
     quantities,
@@ -147,7 +180,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
       role: w.item.role,
       ...(w.item.material ? { material: w.item.material } : {}),
       raw: measuredItems(w) ? w.raw : w.ratios,
-      final: Object.fromEntries(quantities.filter(q => w.values[q]).map(q => [q, { ...w.values[q]!, scale: scales[q]!, k: 2 }])),
+      final: Object.fromEntries(quantities.filter(q => w.values[q]).map(q => [q, scaled(w, q)])),
       ...(residuals.some(r => r.has(w)) ? { residual: Object.fromEntries(quantities.flatMap((q, j) => residuals[j]!.has(w) ? [[q, residuals[j]!.get(w)!]] : [])) } : {}),
       flags: w.flags,
     })),
