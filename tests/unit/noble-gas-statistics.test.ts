@@ -19,6 +19,7 @@ import { ATMOSPHERIC_ARGON, type MassBiasLaw } from '../../shared/engine/isotope
 import { processRatioSequence } from '../../shared/engine/isotopes/ratioSequence'
 import { simulateArgonSequence, type ArgonTruth } from '../../shared/engine/isotopes/simulateNobleGas'
 import { coverageOfTwoU, timeZeroIntercept, type TimeZeroModel } from '../../shared/engine/isotopes/timeZero'
+import type { MaterialValues } from '../../shared/engine/isotopes/types'
 import type { MethodDefinition } from '../../shared/schemas/methods'
 
 const N = 300
@@ -41,7 +42,10 @@ const drawAir = (seed: number): ArgonTruth => {
 }
 
 /** Errors of the sample's corrected ratios against the truth, per quantity, over N seeds. */
-function runSequences(against: 'standard' | 'internal', law: MassBiasLaw, beta: [number, number] = [0.3, 0.7]): Record<string, Stats> {
+interface Scenario { beta?: [number, number], resistor36?: number, material?: MaterialValues }
+function runSequences(against: 'standard' | 'internal', law: MassBiasLaw, scenario: Scenario = {}): Record<string, Stats> {
+  const beta = scenario.beta ?? [0.3, 0.7]
+  const material = scenario.material ?? ATMOSPHERIC_ARGON
   const method: MethodDefinition = {
     gas: 'Ar',
     steps: [
@@ -56,16 +60,17 @@ function runSequences(against: 'standard' | 'internal', law: MassBiasLaw, beta: 
   const errors: Record<string, number[]> = { '40Ar/36Ar': [], '38Ar/36Ar': [] }
   const us: Record<string, number[]> = { '40Ar/36Ar': [], '38Ar/36Ar': [] }
   for (let seed = 1; seed <= N; seed++) {
-    const air = drawAir(seed)
+    const air = scenario.material ? { '40/36': 298.56, '38/36': 0.1885 } : drawAir(seed)
     // Internal normalisation assumes the sample's 38/36 is atmospheric: its truth is drawn from air's.
     const truth = against === 'internal' ? { '40/36': SAMPLE['40/36'], '38/36': air['38/36'] } : SAMPLE
     const std = { role: 'working-standard', material: 'AIR-Ar', current40A: 3e-10 } as const
     const sim = simulateArgonSequence({
       seed, air, beta: beta[0] + (beta[1] - beta[0]) * ((seed * 0.618034) % 1), blank40A: 2e-13,
+      ...(scenario.resistor36 ? { resistorOhm: { 36: scenario.resistor36 } } : {}),
       evolution: { kind: 'consumption', ratePerS: 3e-4 },
       items: [{ role: 'blank' }, std, { role: 'sample', truth, current40A: 3e-10 }, std, { role: 'blank' }],
     })
-    const sample = processRatioSequence(method, sim.items, [ATMOSPHERIC_ARGON]).items[2]!
+    const sample = processRatioSequence(method, sim.items, [material]).items[2]!
     for (const [q, key] of [['40Ar/36Ar', '40/36'], ['38Ar/36Ar', '38/36']] as const) {
       const f = sample.final[q]
       if (!f) continue
@@ -91,13 +96,25 @@ describe('argon sequences: bias and coverage over 300 simulated sequences', () =
     }
   })
 
+  it('internal normalisation with the 36 beam on a noisy 10^10 Ω amplifier: the shared-denominator covariance carries the u', () => {
+    // With 36Ar the noisiest beam, 40/36 and 38/36 move together; the covariance term −2e·u_rel²(36)
+    // (massBias.ts) is what keeps the stated u honest. The reference ratio is taken as exactly known
+    // (a gas of composition known by construction) so that measurement terms alone make the u.
+    const exact: MaterialValues = { ...ATMOSPHERIC_ARGON, values: { '40Ar/36Ar': { value: 298.56, u: 0 }, '38Ar/36Ar': { value: 0.1885, u: 0 } } }
+    const s = runSequences('internal', 'exponential', { resistor36: 1e10, material: exact })['40Ar/36Ar']!
+    console.info('internal, 36 on 1e10 Ω:', JSON.stringify(s), 'band', SEQ_BAND)
+    expect(Math.abs(s.meanError)).toBeLessThan(0.5 * s.meanU)
+    expect(s.within2u).toBeGreaterThanOrEqual(SEQ_BAND[0])
+    expect(s.within2u).toBeLessThanOrEqual(SEQ_BAND[1])
+  })
+
   it('the same statistic catches the power law used on data that follow the exponential law (negative control)', () => {
     // Internal normalisation on 38/36 extrapolates to 40/36, twice the mass difference: the laws part by
     // (Δm40/Δm38 − ln(m40/m36)/ln(m38/m36))·β·ln(m38/m36) = (2.00223 − 1.95085)·β·0.0539879 ≈ 3.3 ‰ at
     // β = 1.2 (a strongly discriminating source), against a stated u of about 3.7 ‰, most of it the
     // 38/36 of air's own uncertainty.
-    const right = runSequences('internal', 'exponential', [1.0, 1.4])['40Ar/36Ar']!
-    const wrong = runSequences('internal', 'power', [1.0, 1.4])['40Ar/36Ar']!
+    const right = runSequences('internal', 'exponential', { beta: [1.0, 1.4] })['40Ar/36Ar']!
+    const wrong = runSequences('internal', 'power', { beta: [1.0, 1.4] })['40Ar/36Ar']!
     console.info('β 1.0–1.4, exponential law:', JSON.stringify(right), 'power law:', JSON.stringify(wrong))
     expect(Math.abs(right.meanError)).toBeLessThan(0.5 * right.meanU)
     expect(Math.abs(wrong.meanError)).toBeGreaterThan(0.5 * wrong.meanU)
