@@ -5,7 +5,7 @@
 // signals a slow drift, carries its state across calls and restarts after a signal.
 import { describe, expect, it } from 'vitest'
 import { EngineError } from '../../shared/engine/errors'
-import { evaluateControlRules, runCusum, type ControlPoint, type WestgardRule } from '../../shared/engine/isotopes/controlCharts'
+import { checkNewPoints, evaluateControlRules, runCusum, type ControlPoint, type WestgardRule } from '../../shared/engine/isotopes/controlCharts'
 
 const target = { accepted: 298.56, sd: 0.5 }
 /** Points at z-scores: value = accepted + z·sd, one a day. */
@@ -63,5 +63,18 @@ describe('tabular CUSUM (Page 1954; Montgomery 2009)', () => {
     expect(all.trace[all.signals[0]!.point]).toBeDefined()
     // Just inside: +0.9s for 10 points sums to 4.0 < 5, no signal.
     expect(runCusum(series(Array.from({ length: 10 }, () => 0.9)), target).signals).toEqual([])
+  })
+})
+
+describe('checkNewPoints: a chart growing sequence by sequence', () => {
+  it('reports the rules the new points complete with the history, and continues the CUSUM', () => {
+    const history = series([0.2, -0.3, 2.4])
+    const added = series([0.2, -0.3, 2.4, 2.6, 0.1]).slice(3)
+    const first = checkNewPoints([], history, target)
+    const next = checkNewPoints(history, added, target, first.cusum.state)
+    // 2.4 (history) then 2.6 (new): 2-2s completed by the first new point, reaching back one point.
+    expect(next.perPoint).toEqual([['2-2s'], []])
+    expect(next.violations[0]!.points).toEqual([2, 3])
+    expect(next.cusum.state.count).toBe(5)
   })
 })

@@ -145,6 +145,17 @@ describe('argon sequences (processRatioSequence)', () => {
     expect((error as EngineError).code).toBe(code)
   })
 
+  it('keeps an acquisition whose ratio is not positive, flagged and without a corrected value', () => {
+    const sim = simulateArgonSequence({ seed: 11, items: layout.map(l => ({ ...l })) })
+    sim.items[2]!.ratios['38/36'] = { value: -0.002, u: 0.004 }
+    const out = processRatioSequence({ ...bracketing, steps: [bracketing.steps[2]!] }, sim.items, [ATMOSPHERIC_ARGON])
+    const sample = out.items.find(i => i.position === 3)!
+    expect(sample.final).toEqual({})
+    expect(sample.flags.map(f => f.code)).toEqual(['ratio-not-positive'])
+    expect(out.items).toHaveLength(sim.items.length)
+    expect(Object.keys(out.items.find(i => i.position === 5)!.final)).toEqual(['40Ar/36Ar', '38Ar/36Ar'])
+  })
+
   it('refuses a time-zero step when an acquisition has no cycles, naming it', () => {
     const sim = simulateArgonSequence({ seed: 10, items: layout.map(l => ({ ...l })) })
     delete sim.items[2]!.cycles

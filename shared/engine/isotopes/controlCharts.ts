@@ -144,3 +144,18 @@ export function runCusum(points: readonly ControlPoint[], options: CusumOptions,
   })
   return { state: s, signals, trace }
 }
+
+/**
+ * Points added to a chart: the Westgard violations they complete (a rule may reach back into the
+ * history) and the CUSUM continued from its stored state, with the rules each new point broke, in
+ * the order of `added` (what a chart point records as its violations).
+ */
+export function checkNewPoints(history: readonly ControlPoint[], added: readonly ControlPoint[], options: CusumOptions, cusumState?: CusumState) {
+  const all = [...history, ...added]
+  const violations = evaluateControlRules(all, options).filter(v => v.points.at(-1)! >= history.length)
+  const cusum = runCusum(added, options, cusumState)
+  const perPoint: string[][] = added.map(() => [])
+  for (const v of violations) perPoint[v.points.at(-1)! - history.length]!.push(v.rule)
+  for (const s of cusum.signals) perPoint[s.point]!.push(s.rule)
+  return { violations, cusum, perPoint }
+}

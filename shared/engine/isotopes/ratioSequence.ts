@@ -146,8 +146,12 @@ function applyTimeZero(states: ItemState[], model: 'linear' | 'exponential'): Ap
 
 interface MeasuredRatios { ratios: Record<string, Measured>, cov: (a: string, b: string) => number }
 
-/** The ratios entering the mass-bias step: from the processed beams, or as the item stated them. */
-function measuredRatios(s: ItemState, keys: string[]): MeasuredRatios {
+/**
+ * The ratios entering the mass-bias step: from the processed beams, or as the item stated them.
+ * Null, with a flag on the item, when a ratio is not positive (a beam at or under its blank):
+ * the acquisition stays in the outcome without a corrected value rather than stopping the sequence.
+ */
+function measuredRatios(s: ItemState, keys: string[]): MeasuredRatios | null {
   const ratios: Record<string, Measured> = {}
   const beams = s.beams ?? s.item.beams
   for (const key of keys) {
@@ -162,7 +166,12 @@ function measuredRatios(s: ItemState, keys: string[]): MeasuredRatios {
     else {
       const r = s.item.ratios[key]
       if (!r) throw new EngineError(`items[${s.index}].ratios.${key}`, 'missing-ratio', `the acquisition has no ${key} ratio`)
+      if (!Number.isFinite(r.value) || !(r.u >= 0)) throw new EngineError(`items[${s.index}].ratios.${key}`, 'not-finite', 'needs a finite value and a non-negative u')
       ratios[key] = r
+    }
+    if (!(ratios[key].value > 0) || !Number.isFinite(ratios[key].u)) {
+      s.flags.push({ code: 'ratio-not-positive', message: `${key} is ${ratios[key].value.toPrecision(4)}: no mass-bias correction (a beam at or below its blank?)`, position: s.item.position })
+      return null
     }
   }
   const rel = (k: string) => ratios[k]!.u / ratios[k]!.value
