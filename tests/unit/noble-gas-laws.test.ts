@@ -145,6 +145,21 @@ describe('argon sequences (processRatioSequence)', () => {
     expect((error as EngineError).code).toBe(code)
   })
 
+  it('checks each air standard against the others (leave one out); a lone standard comes back exact', () => {
+    const sim = simulateArgonSequence({ seed: 12, beta: 0.4, items: layout.map(l => ({ ...l })) })
+    const shot = sim.items[3]!
+    shot.ratios['40/36'] = { value: shot.ratios['40/36']!.value * 1.004, u: shot.ratios['40/36']!.u }
+    const method: MethodDefinition = { ...bracketing, steps: [bracketing.steps[2]!], acceptance: { minAnchors: 2, maxStandardResidual: 2 } }
+    const out = processRatioSequence(method, sim.items.filter(i => i.role !== 'blank'), [ATMOSPHERIC_ARGON])
+    // The air shot made 4 ‰ high reads about 4 ‰ off the value its neighbours predict, and is flagged.
+    const flagged = out.items.find(i => i.position === 4)!
+    expect(flagged.residual!['40Ar/36Ar']! / 298.56 * 1000).toBeGreaterThan(2)
+    expect(flagged.flags.map(f => f.code)).toContain('standard-residual-exceeds')
+    expect(out.accepted).toBe(false)
+    const lone = processRatioSequence(method, sim.items.filter(i => i.position <= 3 && i.role !== 'blank'), [ATMOSPHERIC_ARGON])
+    expect(lone.items[0]!.final['40Ar/36Ar']!.value).toBeCloseTo(298.56, 9)
+  })
+
   it('keeps an acquisition whose ratio is not positive, flagged and without a corrected value', () => {
     const sim = simulateArgonSequence({ seed: 11, items: layout.map(l => ({ ...l })) })
     sim.items[2]!.ratios['38/36'] = { value: -0.002, u: 0.004 }
