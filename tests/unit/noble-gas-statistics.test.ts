@@ -28,10 +28,15 @@ const band = (pLow: number, pHigh: number, n: number): [number, number] => [
 ]
 const SEQ_BAND = band(coverageOfTwoU(13), 0.9545, N)
 
-interface Stats { meanError: number, meanU: number, within2u: number }
-function stats(errors: number[], us: number[]): Stats {
+// The stated k = t₉₅(ν_eff) (Welch–Satterthwaite over the beams, GUM G.4.1) should make U = k·u a 95 %
+// interval: band 0.95 ± 2.576·√(0.95·0.05/N).
+const K_BAND = band(0.95, 0.95, N)
+
+interface Stats { meanError: number, meanU: number, within2u: number, withinKu: number, meanK: number }
+function stats(errors: number[], us: number[], ks: number[] = us.map(() => 2)): Stats {
   const mean = (a: number[]) => a.reduce((s, v) => s + v, 0) / a.length
-  return { meanError: mean(errors), meanU: mean(us), within2u: errors.filter((e, i) => Math.abs(e) <= 2 * us[i]!).length / errors.length }
+  const within = (k: (i: number) => number) => errors.filter((e, i) => Math.abs(e) <= k(i) * us[i]!).length / errors.length
+  return { meanError: mean(errors), meanU: mean(us), within2u: within(() => 2), withinKu: within(i => ks[i]!), meanK: mean(ks) }
 }
 
 const SAMPLE: ArgonTruth = { '40/36': 612.4, '38/36': 0.1878 }
@@ -59,6 +64,7 @@ function runSequences(against: 'standard' | 'internal', law: MassBiasLaw, scenar
   }
   const errors: Record<string, number[]> = { '40Ar/36Ar': [], '38Ar/36Ar': [] }
   const us: Record<string, number[]> = { '40Ar/36Ar': [], '38Ar/36Ar': [] }
+  const ks: Record<string, number[]> = { '40Ar/36Ar': [], '38Ar/36Ar': [] }
   for (let seed = 1; seed <= N; seed++) {
     const air = scenario.material ? { '40/36': 298.56, '38/36': 0.1885 } : drawAir(seed)
     // Internal normalisation assumes the sample's 38/36 is atmospheric: its truth is drawn from air's.
@@ -76,9 +82,10 @@ function runSequences(against: 'standard' | 'internal', law: MassBiasLaw, scenar
       if (!f) continue
       errors[q]!.push(f.value - truth[key])
       us[q]!.push(f.u)
+      ks[q]!.push(f.k)
     }
   }
-  return Object.fromEntries(Object.entries(errors).filter(([, e]) => e.length > 0).map(([q, e]) => [q, stats(e, us[q]!)]))
+  return Object.fromEntries(Object.entries(errors).filter(([, e]) => e.length > 0).map(([q, e]) => [q, stats(e, us[q]!, ks[q]!)]))
 }
 
 describe('argon sequences: bias and coverage over 300 simulated sequences', () => {
@@ -93,6 +100,8 @@ describe('argon sequences: bias and coverage over 300 simulated sequences', () =
       expect(Math.abs(s.meanError)).toBeLessThan(0.5 * s.meanU)
       expect(s.within2u).toBeGreaterThanOrEqual(SEQ_BAND[0])
       expect(s.within2u).toBeLessThanOrEqual(SEQ_BAND[1])
+      expect(s.withinKu).toBeGreaterThanOrEqual(K_BAND[0])
+      expect(s.withinKu).toBeLessThanOrEqual(K_BAND[1])
     }
   })
 
@@ -106,6 +115,8 @@ describe('argon sequences: bias and coverage over 300 simulated sequences', () =
     expect(Math.abs(s.meanError)).toBeLessThan(0.5 * s.meanU)
     expect(s.within2u).toBeGreaterThanOrEqual(SEQ_BAND[0])
     expect(s.within2u).toBeLessThanOrEqual(SEQ_BAND[1])
+    expect(s.withinKu).toBeGreaterThanOrEqual(K_BAND[0])
+    expect(s.withinKu).toBeLessThanOrEqual(K_BAND[1])
   })
 
   it('the same statistic catches the power law used on data that follow the exponential law (negative control)', () => {
@@ -134,6 +145,7 @@ describe('time-zero intercept: bias and coverage over 400 simulated inlets × 3 
   ] as [TimeZeroModel, { kind: 'ingrowth', current40APerS: number } | { kind: 'consumption', ratePerS: number }][])('%s model on data that follow it', (model, evolution) => {
     const errors: number[] = []
     const us: number[] = []
+    const ks: number[] = []
     for (let seed = 1; seed <= 400; seed++) {
       const beta = 0.4
       const sim = simulateArgonSequence({ seed, beta, cycles, evolution, items: [{ role: 'sample', truth: { '40/36': 298.56, '38/36': 0.1885 }, current40A: 1e-11 }] })
@@ -144,13 +156,18 @@ describe('time-zero intercept: bias and coverage over 400 simulated inlets × 3 
         const truth = truthAt0[beam]! * (isotope(`${beam}Ar`).mass / m36) ** -beta
         errors.push((fit.intercept.value - truth) / truth)
         us.push(fit.intercept.u / truth)
+        ks.push(fit.k95)
       }
     }
-    const s = stats(errors, us)
+    const s = stats(errors, us, ks)
+    const k95Band = band(0.95, 0.95, fits)
     console.info(`time-zero ${model}:`, JSON.stringify(s), 'expected', p.toFixed(4), 'band', tzBand)
     expect(Math.abs(s.meanError)).toBeLessThan(0.5 * s.meanU)
     expect(s.within2u).toBeGreaterThanOrEqual(tzBand[0])
     expect(s.within2u).toBeLessThanOrEqual(tzBand[1])
+    // k95 = t₉₅(8) = 2.306 makes U = k95·u the 95 % interval.
+    expect(s.withinKu).toBeGreaterThanOrEqual(k95Band[0])
+    expect(s.withinKu).toBeLessThanOrEqual(k95Band[1])
     expect(fits).toBe(errors.length)
   })
 })

@@ -5,6 +5,7 @@
 import { describe, expect, it } from 'vitest'
 import { EngineError } from '../../shared/engine/errors'
 import { studentTCoverageFactor } from '../../shared/engine/isotopes/leastSquares'
+import { welchSatterthwaite } from '../../shared/engine/isotopes/ratioDof'
 import { timeZeroIntercept } from '../../shared/engine/isotopes/timeZero'
 
 describe('time-zero regression', () => {
@@ -50,5 +51,14 @@ describe('time-zero regression', () => {
   it('refuses fewer than 4 cycles or cycles at one instant, naming the field', () => {
     expect(() => timeZeroIntercept([1, 2, 3], [1, 2, 3], 'linear', 'items[3].cycles.36')).toThrow(/items\[3\]\.cycles\.36/)
     expect(() => timeZeroIntercept([5, 5, 5, 5], [1, 2, 3, 4], 'linear')).toThrow(EngineError)
+  })
+})
+
+describe('Welch–Satterthwaite effective degrees of freedom (GUM G.4.1)', () => {
+  it('combines components by u⁴/ν and leaves unknown degrees of freedom out', () => {
+    // Two equal components of 10 dof: ν_eff = (2u²)² / (2u⁴/10) = 20; a component of infinite dof adds u² only.
+    expect(welchSatterthwaite([{ relU: 1, dof: 10 }, { relU: 1, dof: 10 }])).toBeCloseTo(20, 12)
+    expect(welchSatterthwaite([{ relU: 1, dof: 10 }, { relU: 1, dof: Number.POSITIVE_INFINITY }])).toBeCloseTo(40, 12)
+    expect(welchSatterthwaite([{ relU: 1, dof: Number.POSITIVE_INFINITY }])).toBe(Number.POSITIVE_INFINITY)
   })
 })

@@ -23,6 +23,8 @@ export interface ReferenceFactor {
   uRelMeasured: number
   /** Weight of this acquisition's own reference-ratio measurement in x (1 internal, w for a standard, else 0). */
   selfWeight: number
+  /** The acquisitions (indices into the items) whose reference ratio made x, with their weights. */
+  sources: { index: number, weight: number }[]
   flags: OutcomeFlag[]
 }
 
@@ -35,7 +37,7 @@ export function massBiasFactors(
 ): { perItem: (ReferenceFactor | null)[], parameters: Record<string, unknown> } {
   const materialId = step.material ?? 'AIR-Ar'
   if (step.against === 'internal') {
-    const perItem = refMeasured.map(b => (b ? { x: known.value / b.value, uRelMeasured: Math.abs(b.u / b.value), selfWeight: 1, flags: [] } : null))
+    const perItem = refMeasured.map((b, i) => (b ? { x: known.value / b.value, uRelMeasured: Math.abs(b.u / b.value), selfWeight: 1, sources: [{ index: i, weight: 1 }], flags: [] } : null))
     const parameters = {
       normalisation: 'internal',
       perItem: items.flatMap((item, i) => (refMeasured[i] ? [{ position: item.position, parameter: fractionationFromReference(step.law, refMeasured[i]!, known, ref) }] : [])),
@@ -60,7 +62,7 @@ export function massBiasFactors(
     if (prev < 0 || after >= use.length) {
       const j = use[prev < 0 ? 0 : prev]!
       const flag = { code: 'mass-bias-not-bracketed', message: `no ${materialId} standard on both sides: the one at position ${standards[j]!.item.position} alone corrects this acquisition`, position }
-      return { x: Math.exp(lnX[j]!), uRelMeasured: Math.sqrt(relVar[j]!), selfWeight: 0, flags: [flag] }
+      return { x: Math.exp(lnX[j]!), uRelMeasured: Math.sqrt(relVar[j]!), selfWeight: 0, sources: [{ index: standards[j]!.i, weight: 1 }], flags: [flag] }
     }
     const [a, b] = [use[prev]!, use[after]!]
     const t0 = standards[a]!.item.acquiredAt
@@ -71,6 +73,7 @@ export function massBiasFactors(
       x: Math.exp(wPrev * lnX[a]! + wAfter * lnX[b]!),
       uRelMeasured: Math.sqrt(wPrev * wPrev * relVar[a]! + wAfter * wAfter * relVar[b]!),
       selfWeight: 0,
+      sources: [{ index: standards[a]!.i, weight: wPrev }, { index: standards[b]!.i, weight: wAfter }],
       flags: [],
     }
   }
@@ -78,7 +81,7 @@ export function massBiasFactors(
     if (!refMeasured[i]) return null
     const own = standards.findIndex(s => s.i === i)
     // A lone standard can only be corrected by itself (its reference ratio then comes back exact).
-    if (own >= 0 && standards.length === 1) return { x: Math.exp(lnX[own]!), uRelMeasured: Math.sqrt(relVar[own]!), selfWeight: 1, flags: [] }
+    if (own >= 0 && standards.length === 1) return { x: Math.exp(lnX[own]!), uRelMeasured: Math.sqrt(relVar[own]!), selfWeight: 1, sources: [{ index: i, weight: 1 }], flags: [] }
     return bracket(item.acquiredAt, item.position, own)
   })
   const parameters = {

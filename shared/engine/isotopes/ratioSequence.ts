@@ -3,6 +3,7 @@ import { EngineError } from '../errors'
 import { BLANK_SOURCE, blankLevels } from './blank'
 import { correctRatio, isotopeRatio, MASS_BIAS_SOURCES, sharedDenominatorCovariance, type IsotopeRatio } from './massBias'
 import { massBiasFactors } from './massBiasReference'
+import { correctedRatioDof, DOF_SOURCE, welchSatterthwaite, type BeamSource } from './ratioDof'
 import { TIME_ZERO_SOURCE, timeZeroIntercept } from './timeZero'
 import type { AppliedStep, MaterialValues, Measured, OutcomeFlag, OutcomeItem, ScaledValue, SequenceItem, SequenceOutcome } from './types'
 
@@ -22,8 +23,11 @@ interface ItemState {
   /** Beams after the beam-level steps; null while no beam-level step has run. */
   beams: Record<string, Measured> | null
   cycles: { t: number, beams: Record<string, number> }[] | undefined
-  /** Variance of a blank already taken off the cycles, added to the time-zero intercept's. */
+  /** Degrees of freedom of each processed beam's u (time-zero fit, blank); absent: unknown. */
+  dof: Record<string, number>
+  /** Variance (and its degrees of freedom) of a blank already taken off the cycles, added to the time-zero intercept's. */
   pendingVar: Record<string, number>
+  pendingDof: Record<string, number>
   flags: OutcomeFlag[]
 }
 
@@ -41,7 +45,7 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
     }
   })
   const timeZeroLater = (i: number) => method.steps.slice(i + 1).some(s => s.step === 'time-zero')
-  const states: ItemState[] = items.map((item, index) => ({ item, index, beams: null, cycles: item.cycles?.map(c => ({ t: c.t, beams: { ...c.beams } })), pendingVar: {}, flags: [] }))
+  const states: ItemState[] = items.map((item, index) => ({ item, index, beams: null, cycles: item.cycles?.map(c => ({ t: c.t, beams: { ...c.beams } })), dof: {}, pendingVar: {}, pendingDof: {}, flags: [] }))
   const steps: AppliedStep[] = []
   const flags: OutcomeFlag[] = []
   let massBias: Extract<MethodStep, { step: 'mass-bias' }> | undefined
@@ -55,8 +59,19 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
 
   const keys = Object.values(ARGON_QUANTITIES)
   const measured = states.map(s => (s.item.role === 'blank' ? null : measuredRatios(s, keys)))
-  const finals: (Record<string, ScaledValue> | null)[] = measured.map(m => (m
-    ? Object.fromEntries(Object.entries(m.ratios).map(([k, r]) => [quantityOf(k), { ...r, scale: 'measured, not corrected for mass bias', k: 2 }]))
+  const beamSource = (s: ItemState): BeamSource | null => (s.beams ? { beams: s.beams, dof: s.dof } : null)
+  const coverage: { position: number, quantity: string, dof: number | null, k: number }[] = []
+  /** k from ν_eff of the beams (GUM G.4.1), or 2 where the ratios came as stated. */
+  const kOf = (i: number, key: string, refKey: string, e: number, sources: { index: number, weight: number }[], acceptedRelU: number) => {
+    const own = beamSource(states[i]!)
+    const src = sources.map(s => ({ beams: beamSource(states[s.index]!), weight: s.weight }))
+    if (!own || src.some(s => !s.beams)) return 2
+    const r = correctedRatioDof(own, key, refKey, e, src as { beams: BeamSource, weight: number }[], acceptedRelU)
+    coverage.push({ position: states[i]!.item.position, quantity: quantityOf(key), dof: Number.isFinite(r.dof) ? r.dof : null, k: r.k })
+    return r.k
+  }
+  const finals: (Record<string, ScaledValue> | null)[] = measured.map((m, i) => (m
+    ? Object.fromEntries(Object.entries(m.ratios).map(([k, r]) => [quantityOf(k), { ...r, scale: 'measured, not corrected for mass bias', k: kOf(i, k, k, 0, [], 0) }]))
     : null))
   if (massBias) {
     const mb = massBias
@@ -84,7 +99,7 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
           referenceMeasured: { value: known.value / f.x, u: (known.value / f.x) * f.uRelMeasured }, referenceKnown: known, ref,
           relativeCovariance: f.selfWeight * (k === refKey ? (m.ratios[k]!.u / m.ratios[k]!.value) ** 2 : m.cov(k, refKey)),
         })
-        return [quantityOf(k), { value: c.value, u: c.u, scale, k: 2 }]
+        return [quantityOf(k), { value: c.value, u: c.u, scale, k: kOf(i, k, refKey, c.sensitivity, f.sources, known.u / known.value) }]
       }))
       s.flags.push(...f.flags)
     })
@@ -99,10 +114,16 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
       },
     })
   }
+  // Recorded with the last step: how each final value's k was found (not a correction of its own).
+  const last = steps.at(-1)
+  if (last && coverage.length > 0) last.parameters.coverage = { source: DOF_SOURCE, rule: 'k = t95(ν_eff) by Welch–Satterthwaite over the beams; k = 2 where the ratios came as stated', perItem: coverage }
   const outcomeItems = states.map((s, i) => outcomeItem(s, measured[i]?.ratios ?? null, finals[i] ?? null, materials, method, flags))
   const quantities = massBias?.against === 'internal' ? Object.keys(ARGON_QUANTITIES).filter(q => ARGON_QUANTITIES[q] !== massBias!.ratio) : Object.keys(ARGON_QUANTITIES)
   return { gas: 'Ar', quantities, items: outcomeItems, normalisation: [], drift: [], steps, flags, accepted: !flags.some(f => f.code === 'standard-residual-exceeds') }
 }
+
+/** A blank mean from n scattered blanks has n − 1 degrees of freedom; one blank's stated u, unknown. */
+const blankDof = (level: { n: number, basis: string }) => (level.basis === 'scatter' ? level.n - 1 : Number.POSITIVE_INFINITY)
 
 function applyBlank(states: ItemState[], flags: OutcomeFlag[], beforeTimeZero: boolean): AppliedStep {
   const blanks = states.filter(s => s.item.role === 'blank')
@@ -116,11 +137,14 @@ function applyBlank(states: ItemState[], flags: OutcomeFlag[], beforeTimeZero: b
         // Taken off every cycle now, so the time-zero intercept is the blank-corrected signal; its u joins the intercept's.
         for (const c of s.cycles) if (Object.hasOwn(c.beams, beam)) c.beams[beam]! -= level.value
         s.pendingVar[beam] = (s.pendingVar[beam] ?? 0) + level.u ** 2
+        s.pendingDof[beam] = blankDof(level)
         continue
       }
       s.beams ??= { ...s.item.beams }
       const b = s.beams[beam]
-      if (b) s.beams[beam] = { value: b.value - level.value, u: Math.hypot(b.u, level.u) }
+      if (!b) continue
+      s.beams[beam] = { value: b.value - level.value, u: Math.hypot(b.u, level.u) }
+      s.dof[beam] = welchSatterthwaite([{ relU: b.u, dof: s.dof[beam] ?? Number.POSITIVE_INFINITY }, { relU: level.u, dof: blankDof(level) }])
     }
   }
   return { step: 'blank', source: BLANK_SOURCE, parameters: { blanks: blanks.map(s => s.item.position), levels, unit: 'A', appliedTo: beforeTimeZero ? 'cycles' : 'beams' } }
@@ -135,6 +159,7 @@ function applyTimeZero(states: ItemState[], model: 'linear' | 'exponential'): Ap
     for (const beam of Object.keys(cycles[0]!.beams)) {
       const fit = timeZeroIntercept(cycles.map(c => c.t), cycles.map(c => c.beams[beam] ?? Number.NaN), model, `items[${s.index}].cycles.${beam}`)
       beams[beam] = { value: fit.intercept.value, u: Math.sqrt(fit.intercept.u ** 2 + (s.pendingVar[beam] ?? 0)) }
+      s.dof[beam] = welchSatterthwaite([{ relU: fit.intercept.u, dof: fit.dof }, { relU: Math.sqrt(s.pendingVar[beam] ?? 0), dof: s.pendingDof[beam] ?? Number.POSITIVE_INFINITY }])
       for (const code of fit.flags) s.flags.push({ code, message: `beam ${beam}: ${code.replaceAll('-', ' ')}`, position: s.item.position })
       fits.push({ position: s.item.position, beam, model: fit.model, intercept: fit.intercept, rate: fit.rate, cycles: fit.cycles, dof: fit.dof, k95: fit.k95, flags: fit.flags })
     }
