@@ -9,6 +9,7 @@ import { isotope } from '../../shared/engine/species'
 import {
   ATMOSPHERIC_ARGON, correctionFactor, correctRatio, fractionationFromReference, fractionationParameter, isotopeRatio, type MassBiasLaw,
 } from '../../shared/engine/isotopes/massBias'
+import { blankLevels } from '../../shared/engine/isotopes/blank'
 import { processRatioSequence } from '../../shared/engine/isotopes/ratioSequence'
 import { simulateArgonSequence } from '../../shared/engine/isotopes/simulateNobleGas'
 import type { MethodDefinition } from '../../shared/schemas/methods'
@@ -90,6 +91,20 @@ describe('mass-bias laws (Russell et al. 1978; Wasserburg et al. 1981)', () => {
   it('refuses a ratio that is not of nominal masses or names an isotope the table lacks', () => {
     expect(() => isotopeRatio('40-36', 'Ar')).toThrow(EngineError)
     expect(() => isotopeRatio('99/36', 'Ar')).toThrow(/isotope/)
+  })
+})
+
+describe('procedural blank (mean of the blanks, u = s/√n; GUM JCGM 100:2008, 4.2.3)', () => {
+  it('averages each beam over the blanks, with u from their scatter, or one blank\'s own u', () => {
+    // Hand-computed: 1.0, 1.2, 1.4 → mean 1.2, s = 0.2, u = 0.2/√3 = 0.1154701.
+    const m = (value: number) => ({ value, u: 0.01 })
+    const levels = blankLevels([{ 36: m(1.0), 40: m(5) }, { 36: m(1.2), 40: m(5) }, { 36: m(1.4) }])
+    expect(levels['36']!.value).toBeCloseTo(1.2, 12)
+    expect(levels['36']!.u).toBeCloseTo(0.1154701, 7)
+    expect(levels['36']!).toMatchObject({ n: 3, basis: 'scatter' })
+    // A beam one blank lacks has no blank level (nothing is subtracted from it).
+    expect(levels['40']).toBeUndefined()
+    expect(blankLevels([{ 36: { value: 2e-16, u: 3e-17 } }])['36']).toEqual({ value: 2e-16, u: 3e-17, n: 1, basis: 'stated' })
   })
 })
 

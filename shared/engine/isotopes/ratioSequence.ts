@@ -221,7 +221,7 @@ function outcomeItem(s: ItemState, raw: Record<string, Measured> | null, final: 
       if (!accepted) continue
       out.residual[q] = v.value - accepted.value
       const relPermil = Math.abs(out.residual[q] / accepted.value) * 1000
-      const max = method.acceptance.maxStandardResidual
+      const max = method.acceptance?.maxStandardResidual
       if (max !== undefined && relPermil > max) {
         const flag = { code: 'standard-residual-exceeds', message: `${q} of ${material.id} is ${relPermil.toFixed(2)} ‰ from its accepted value (limit ${max} ‰)`, position: item.position }
         out.flags.push(flag)
