@@ -203,6 +203,20 @@ describe('argon sequences (processRatioSequence)', () => {
     expect(Object.keys(out.items.find(i => i.position === 5)!.final)).toEqual(['40Ar/36Ar', '38Ar/36Ar'])
   })
 
+  it('takes a ratio the acquisition did not state from its beams, and refuses when it has neither', () => {
+    const sim = simulateArgonSequence({ seed: 14, beta: 0.4, items: layout.map(l => ({ ...l })) })
+    const method: MethodDefinition = { ...bracketing, steps: [bracketing.steps[2]!] }
+    const full = processRatioSequence(method, sim.items, [ATMOSPHERIC_ARGON])
+    delete sim.items[2]!.ratios['38/36']
+    const fromBeams = processRatioSequence(method, sim.items, [ATMOSPHERIC_ARGON])
+    const a = full.items[2]!.final['38Ar/36Ar']!
+    const b = fromBeams.items[2]!.final['38Ar/36Ar']!
+    // The ratio of cycle means against the mean of cycle ratios: the same to well within u.
+    expect(Math.abs(a.value - b.value)).toBeLessThan(0.1 * a.u)
+    delete sim.items[2]!.beams['38']
+    expect(() => processRatioSequence(method, sim.items, [ATMOSPHERIC_ARGON])).toThrow(/items\[2\]\.ratios\.38\/36/)
+  })
+
   it('refuses a time-zero step when an acquisition has no cycles, naming it', () => {
     const sim = simulateArgonSequence({ seed: 10, items: layout.map(l => ({ ...l })) })
     delete sim.items[2]!.cycles

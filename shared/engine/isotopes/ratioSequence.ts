@@ -181,18 +181,18 @@ function measuredRatios(s: ItemState, keys: string[]): MeasuredRatios | null {
   const beams = s.beams ?? s.item.beams
   for (const key of keys) {
     const [n, d] = key.split('/') as [string, string]
-    if (s.beams) {
-      const bn = beams[n]
-      const bd = beams[d]
-      if (!bn || !bd) throw new EngineError(`items[${s.index}].cycles`, 'missing-beam', `needs beams ${n} and ${d} for ${key}`)
-      const value = bn.value / bd.value
-      ratios[key] = { value, u: Math.abs(value) * Math.hypot(bn.u / bn.value, bd.u / bd.value) }
+    const stated = s.beams ? undefined : (Object.hasOwn(s.item.ratios, key) ? s.item.ratios[key] : undefined)
+    if (stated) {
+      if (!Number.isFinite(stated.value) || !(stated.u >= 0)) throw new EngineError(`items[${s.index}].ratios.${key}`, 'not-finite', 'needs a finite value and a non-negative u')
+      ratios[key] = stated
     }
     else {
-      const r = s.item.ratios[key]
-      if (!r) throw new EngineError(`items[${s.index}].ratios.${key}`, 'missing-ratio', `the acquisition has no ${key} ratio`)
-      if (!Number.isFinite(r.value) || !(r.u >= 0)) throw new EngineError(`items[${s.index}].ratios.${key}`, 'not-finite', 'needs a finite value and a non-negative u')
-      ratios[key] = r
+      // From the processed beams, or from the stated beams when the acquisition gave no such ratio.
+      const bn = Object.hasOwn(beams, n) ? beams[n] : undefined
+      const bd = Object.hasOwn(beams, d) ? beams[d] : undefined
+      if (!bn || !bd) throw new EngineError(`items[${s.index}].${s.beams ? 'cycles' : 'ratios'}.${key}`, 'missing-ratio', `the acquisition has neither a ${key} ratio nor beams ${n} and ${d}`)
+      const value = bn.value / bd.value
+      ratios[key] = { value, u: Math.abs(value) * Math.hypot(bn.u / bn.value, bd.u / bd.value) }
     }
     if (!(ratios[key].value > 0) || !Number.isFinite(ratios[key].u)) {
       s.flags.push({ code: 'ratio-not-positive', message: `${key} is ${ratios[key].value.toPrecision(4)}: no mass-bias correction (a beam at or below its blank?)`, position: s.item.position })
