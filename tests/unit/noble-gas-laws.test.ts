@@ -217,6 +217,21 @@ describe('argon sequences (processRatioSequence)', () => {
     expect(() => processRatioSequence(method, sim.items, [ATMOSPHERIC_ARGON])).toThrow(/items\[2\]\.ratios\.38\/36/)
   })
 
+  it('leaves the shared-denominator covariance out when a stated ratio is sharper than its denominator beam (static cycles)', () => {
+    // 36 beam ±1 % (a common beam fluctuation), ratios ±0.1 ‰ (it cancels in them): the covariance is unknown,
+    // and leaving it out overstates u, so u is the no-covariance formula of massBias.ts.
+    const item = {
+      position: 1, role: 'sample' as const, acquiredAt: 0,
+      beams: { 36: { value: 1e-13, u: 1e-15 }, 38: { value: 1.9e-14, u: 1.9e-16 }, 40: { value: 3e-11, u: 3e-13 } },
+      ratios: { '40/36': { value: 300, u: 0.03 }, '38/36': { value: 0.19, u: 0.000019 } },
+    }
+    const method: MethodDefinition = { gas: 'Ar', steps: [{ step: 'mass-bias', law: 'exponential', against: 'internal', material: 'AIR-Ar', ratio: '38/36' }], acceptance: { minAnchors: 2 } }
+    const out = processRatioSequence(method, [item], [ATMOSPHERIC_ARGON])
+    const expected = correctRatio({ law: 'exponential', measured: item.ratios['40/36'], target: r4036, referenceMeasured: item.ratios['38/36'], referenceKnown: air['38Ar/36Ar']!, ref: r3836 })
+    expect(out.items[0]!.final['40Ar/36Ar']!.u).toBeCloseTo(expected.u, 12)
+    expect(out.items[0]!.final['40Ar/36Ar']!.value).toBeCloseTo(expected.value, 9)
+  })
+
   it('refuses a time-zero step when an acquisition has no cycles, naming it', () => {
     const sim = simulateArgonSequence({ seed: 10, items: layout.map(l => ({ ...l })) })
     delete sim.items[2]!.cycles

@@ -200,8 +200,14 @@ function measuredRatios(s: ItemState, keys: string[]): MeasuredRatios | null {
     }
   }
   const rel = (k: string) => ratios[k]!.u / ratios[k]!.value
-  // Shared-denominator covariance, never more than the two ratios' own variances allow.
-  const cov = (a: string, b: string) => Math.min(sharedDenominatorCovariance(a, b, beams), Math.abs(rel(a) * rel(b)))
+  // Shared-denominator covariance u_rel²(d). A stated ratio whose u is below its denominator beam's
+  // (static cycles: a beam fluctuation common to the cups cancels in the ratio but not in the beam)
+  // does not say how much of d's u it carries: the covariance is then left out, which overstates u
+  // (the term enters with a minus sign for positive e) rather than understating it.
+  const cov = (a: string, b: string) => {
+    const c = sharedDenominatorCovariance(a, b, beams)
+    return c <= Math.min(rel(a) ** 2, rel(b) ** 2) ? c : 0
+  }
   return { ratios, cov }
 }
 
