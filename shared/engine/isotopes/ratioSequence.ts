@@ -1,7 +1,7 @@
 import type { MethodDefinition, MethodStep } from '../../schemas/methods'
 import { EngineError } from '../errors'
 import { BLANK_SOURCE, blankLevels } from './blank'
-import { correctRatio, isotopeRatio, MASS_BIAS_SOURCES, sharedDenominatorCovariance, type IsotopeRatio } from './massBias'
+import { correctRatio, cycleRatioCorrelation, isotopeRatio, MASS_BIAS_SOURCES, sharedDenominatorCovariance, type IsotopeRatio } from './massBias'
 import { massBiasFactors } from './massBiasReference'
 import { correctedRatioDof, DOF_SOURCE, welchSatterthwaite, type BeamSource } from './ratioDof'
 import { TIME_ZERO_SOURCE, timeZeroIntercept } from './timeZero'
@@ -111,6 +111,7 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
         referenceValue: known, masses: { [ref.numerator]: ref.mNum, [ref.denominator]: ref.mDen, ...Object.fromEntries(targets.map(([, t]) => [t.numerator, t.mNum])) },
         massSource: 'AME2020 atomic masses (Wang et al., Chin. Phys. C 45 (2021) 030003) through chemical-elements',
         ...factors.parameters,
+        covarianceBasis: [...new Set(measured.filter(m => m !== null).map(m => m.covarianceBasis))],
       },
     })
   }
@@ -169,7 +170,7 @@ function applyTimeZero(states: ItemState[], model: 'linear' | 'exponential'): Ap
   return { step: 'time-zero', source: TIME_ZERO_SOURCE, parameters: { model, fits } }
 }
 
-interface MeasuredRatios { ratios: Record<string, Measured>, cov: (a: string, b: string) => number }
+interface MeasuredRatios { ratios: Record<string, Measured>, cov: (a: string, b: string) => number, covarianceBasis: string }
 
 /**
  * The ratios entering the mass-bias step: from the processed beams, or as the item stated them.
@@ -200,15 +201,19 @@ function measuredRatios(s: ItemState, keys: string[]): MeasuredRatios | null {
     }
   }
   const rel = (k: string) => ratios[k]!.u / ratios[k]!.value
-  // Shared-denominator covariance u_rel²(d). A stated ratio whose u is below its denominator beam's
-  // (static cycles: a beam fluctuation common to the cups cancels in the ratio but not in the beam)
-  // does not say how much of d's u it carries: the covariance is then left out, which overstates u
-  // (the term enters with a minus sign for positive e) rather than understating it.
+  // Stated ratios (means over static cycles): their covariance from the cycles' own ratios, r·u_rel(a)·u_rel(b)
+  // (GUM 5.2.3, eq. 17). Without cycles, the shared denominator's u_rel²(d) only where it cannot exceed
+  // either ratio's own u_rel²; otherwise left out, which overstates u (the term enters with a minus sign
+  // for positive e) rather than understating it. Ratios from processed beams: u_rel²(d) (GUM 5.2.2).
+  const stated = s.beams === null
   const cov = (a: string, b: string) => {
+    const r = stated && s.item.cycles ? cycleRatioCorrelation(a, b, s.item.cycles) : null
+    if (r !== null) return r * rel(a) * rel(b)
     const c = sharedDenominatorCovariance(a, b, beams)
-    return c <= Math.min(rel(a) ** 2, rel(b) ** 2) ? c : 0
+    return !stated || c <= Math.min(rel(a) ** 2, rel(b) ** 2) ? c : 0
   }
-  return { ratios, cov }
+  const covarianceBasis = !stated ? 'shared denominator beam' : s.item.cycles ? 'cycles (GUM 5.2.3)' : 'denominator beam, capped'
+  return { ratios, cov, covarianceBasis }
 }
 
 function outcomeItem(s: ItemState, raw: Record<string, Measured> | null, final: Record<string, ScaledValue> | null, materials: readonly MaterialValues[], method: MethodDefinition, flags: OutcomeFlag[]): OutcomeItem {
