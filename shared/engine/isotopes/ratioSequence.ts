@@ -4,7 +4,7 @@ import { BLANK_SOURCE, blankLevels } from './blank'
 import { correctRatio, cycleRatioCorrelation, isotopeRatio, MASS_BIAS_SOURCES, sharedDenominatorCovariance, type IsotopeRatio } from './massBias'
 import { massBiasFactors } from './massBiasReference'
 import { correctedRatioDof, DOF_SOURCE, welchSatterthwaite, type BeamSource } from './ratioDof'
-import { TIME_ZERO_SOURCE, timeZeroIntercept } from './timeZero'
+import { TIME_ZERO_SOURCE, timeZeroIntercept, type TimeZeroModel } from './timeZero'
 import type { AppliedStep, MaterialValues, Measured, OutcomeFlag, OutcomeItem, ScaledValue, SequenceItem, SequenceOutcome } from './types'
 
 // A noble-gas ratio sequence (argon): the method's beam-level steps in their order (procedural
@@ -44,7 +44,11 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
       throw new EngineError(`method.steps[${i}].step`, 'step-order', `"${s.step}" acts on beams and must come before the mass-bias correction`)
     }
   })
-  const timeZeroLater = (i: number) => method.steps.slice(i + 1).some(s => s.step === 'time-zero')
+  /** The time-zero model of a later step: a blank before it is taken off the cycles at its inlet value. */
+  const timeZeroLater = (i: number) => {
+    const later = method.steps.slice(i + 1).find(s => s.step === 'time-zero')
+    return later?.step === 'time-zero' ? later.model : null
+  }
   const states: ItemState[] = items.map((item, index) => ({ item, index, beams: null, cycles: item.cycles?.map(c => ({ t: c.t, beams: { ...c.beams } })), dof: {}, pendingVar: {}, pendingDof: {}, flags: [] }))
   const steps: AppliedStep[] = []
   const flags: OutcomeFlag[] = []
@@ -126,10 +130,14 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
 /** A blank mean from n scattered blanks has n − 1 degrees of freedom; one blank's stated u, unknown. */
 const blankDof = (level: { n: number, basis: string }) => (level.basis === 'scatter' ? level.n - 1 : Number.POSITIVE_INFINITY)
 
-function applyBlank(states: ItemState[], flags: OutcomeFlag[], beforeTimeZero: boolean): AppliedStep {
+function applyBlank(states: ItemState[], flags: OutcomeFlag[], timeZeroModel: TimeZeroModel | null): AppliedStep {
+  const beforeTimeZero = timeZeroModel !== null
   const blanks = states.filter(s => s.item.role === 'blank')
   if (blanks.length === 0) throw new EngineError('items', 'no-blank', 'the method subtracts a procedural blank but the sequence has no blank acquisition')
-  const levels = blankLevels(blanks.map(s => s.beams ?? s.item.beams))
+  // Before time zero the blank comes off every sample cycle, so it must be the blank's value at the inlet:
+  // each blank is regressed to t = 0 with the later step's model first. Its mean over its cycles would carry
+  // its ingrowth g·t̄, over-subtracted from every cycle and so from the sample's intercept.
+  const levels = blankLevels(blanks.map(s => (timeZeroModel ? blankAtInlet(s, timeZeroModel) : s.beams ?? s.item.beams)))
   if (blanks.length === 1) flags.push({ code: 'single-blank', message: 'one blank acquisition: its own uncertainty stands for the blank\'s scatter' })
   for (const s of states) {
     if (s.item.role === 'blank') continue
@@ -148,7 +156,20 @@ function applyBlank(states: ItemState[], flags: OutcomeFlag[], beforeTimeZero: b
       s.dof[beam] = welchSatterthwaite([{ relU: b.u, dof: s.dof[beam] ?? Number.POSITIVE_INFINITY }, { relU: level.u, dof: blankDof(level) }])
     }
   }
-  return { step: 'blank', source: BLANK_SOURCE, parameters: { blanks: blanks.map(s => s.item.position), levels, unit: 'A', appliedTo: beforeTimeZero ? 'cycles' : 'beams' } }
+  return {
+    step: 'blank', source: BLANK_SOURCE,
+    parameters: { blanks: blanks.map(s => s.item.position), levels, unit: 'A', appliedTo: beforeTimeZero ? `cycles (each blank regressed to t = 0, ${timeZeroModel} model, first)` : 'beams' },
+  }
+}
+
+/** A blank's beams at the inlet time, each with the u of its own time-zero fit. */
+function blankAtInlet(s: ItemState, model: TimeZeroModel): Record<string, Measured> {
+  const cycles = s.cycles
+  if (!cycles || cycles.length === 0) throw new EngineError(`items[${s.index}].cycles`, 'missing-cycles', 'the blank is taken off the cycles before the time-zero regression, so each blank needs its cycle readings')
+  return Object.fromEntries(Object.keys(cycles[0]!.beams).map((beam) => {
+    const fit = timeZeroIntercept(cycles.map(c => c.t), cycles.map(c => c.beams[beam] ?? Number.NaN), model, `items[${s.index}].cycles.${beam}`)
+    return [beam, fit.intercept]
+  }))
 }
 
 function applyTimeZero(states: ItemState[], model: 'linear' | 'exponential'): AppliedStep {
