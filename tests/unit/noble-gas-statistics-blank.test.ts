@@ -15,7 +15,7 @@ import { processRatioSequence } from '../../shared/engine/isotopes/ratioSequence
 import { simulateArgonSequence, type ArgonSequenceSimulation } from '../../shared/engine/isotopes/simulateNobleGas'
 import type { MaterialValues } from '../../shared/engine/isotopes/types'
 import type { MethodDefinition, MethodStep } from '../../shared/schemas/methods'
-import { binomialBand, errorStats } from './noble-gas-stats-helpers'
+import { errorStats } from './noble-gas-stats-helpers'
 
 const N = 300
 // Air taken as exactly known so that the blank's and the beams' terms make the u.
