@@ -127,8 +127,6 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
   return { gas: 'Ar', quantities, items: outcomeItems, normalisation: [], drift: [], steps, flags, accepted: !flags.some(f => f.code === 'standard-residual-exceeds') }
 }
 
-/** A blank mean from n scattered blanks has n − 1 degrees of freedom; one blank's stated u, unknown. */
-const blankDof = (level: { n: number, basis: string }) => (level.basis === 'scatter' ? level.n - 1 : Number.POSITIVE_INFINITY)
 
 function applyBlank(states: ItemState[], flags: OutcomeFlag[], timeZeroModel: TimeZeroModel | null): AppliedStep {
   const beforeTimeZero = timeZeroModel !== null
@@ -137,7 +135,11 @@ function applyBlank(states: ItemState[], flags: OutcomeFlag[], timeZeroModel: Ti
   // Before time zero the blank comes off every sample cycle, so it must be the blank's value at the inlet:
   // each blank is regressed to t = 0 with the later step's model first. Its mean over its cycles would carry
   // its ingrowth g·t̄, over-subtracted from every cycle and so from the sample's intercept.
-  const levels = blankLevels(blanks.map(s => (timeZeroModel ? blankAtInlet(s, timeZeroModel) : s.beams ?? s.item.beams)))
+  const atInlet = timeZeroModel ? blanks.map(s => blankAtInlet(s, timeZeroModel)) : null
+  const levels = blankLevels(
+    atInlet ? atInlet.map(b => b.beams) : blanks.map(s => s.beams ?? s.item.beams),
+    atInlet ? atInlet.map(b => b.dof) : blanks.map(s => s.dof),
+  )
   if (blanks.length === 1) flags.push({ code: 'single-blank', message: 'one blank acquisition: its own uncertainty stands for the blank\'s scatter' })
   for (const s of states) {
     if (s.item.role === 'blank') continue
@@ -146,14 +148,14 @@ function applyBlank(states: ItemState[], flags: OutcomeFlag[], timeZeroModel: Ti
         // Taken off every cycle now, so the time-zero intercept is the blank-corrected signal; its u joins the intercept's.
         for (const c of s.cycles) if (Object.hasOwn(c.beams, beam)) c.beams[beam]! -= level.value
         s.pendingVar[beam] = (s.pendingVar[beam] ?? 0) + level.u ** 2
-        s.pendingDof[beam] = blankDof(level)
+        s.pendingDof[beam] = level.dof
         continue
       }
       s.beams ??= { ...s.item.beams }
       const b = s.beams[beam]
       if (!b) continue
       s.beams[beam] = { value: b.value - level.value, u: Math.hypot(b.u, level.u) }
-      s.dof[beam] = welchSatterthwaite([{ relU: b.u, dof: s.dof[beam] ?? Number.POSITIVE_INFINITY }, { relU: level.u, dof: blankDof(level) }])
+      s.dof[beam] = welchSatterthwaite([{ relU: b.u, dof: s.dof[beam] ?? Number.POSITIVE_INFINITY }, { relU: level.u, dof: level.dof }])
     }
   }
   return {
@@ -162,14 +164,17 @@ function applyBlank(states: ItemState[], flags: OutcomeFlag[], timeZeroModel: Ti
   }
 }
 
-/** A blank's beams at the inlet time, each with the u of its own time-zero fit. */
-function blankAtInlet(s: ItemState, model: TimeZeroModel): Record<string, Measured> {
+/** A blank's beams at the inlet time, each with the u (and n − 2 degrees of freedom) of its own time-zero fit. */
+function blankAtInlet(s: ItemState, model: TimeZeroModel): { beams: Record<string, Measured>, dof: Record<string, number> } {
   const cycles = s.cycles
   if (!cycles || cycles.length === 0) throw new EngineError(`items[${s.index}].cycles`, 'missing-cycles', 'the blank is taken off the cycles before the time-zero regression, so each blank needs its cycle readings')
-  return Object.fromEntries(Object.keys(cycles[0]!.beams).map((beam) => {
+  const out = { beams: {} as Record<string, Measured>, dof: {} as Record<string, number> }
+  for (const beam of Object.keys(cycles[0]!.beams)) {
     const fit = timeZeroIntercept(cycles.map(c => c.t), cycles.map(c => c.beams[beam] ?? Number.NaN), model, `items[${s.index}].cycles.${beam}`)
-    return [beam, fit.intercept]
-  }))
+    out.beams[beam] = fit.intercept
+    out.dof[beam] = fit.dof
+  }
+  return out
 }
 
 function applyTimeZero(states: ItemState[], model: 'linear' | 'exponential'): AppliedStep {

@@ -46,6 +46,14 @@ export interface ArgonSequenceSimulation {
   air?: ArgonTruth
   /** Procedural blank's 40Ar current at inlet, in A; default 0. */
   blank40A?: number
+  /**
+   * Run-to-run relative standard deviation of the blank: every acquisition (blank or not) gets its
+   * own draw blank40A·(1 + spread·N(0, 1)), as an extraction line's blank varies between runs; default 0.
+   * With `blankSpreadPerBeam` each beam draws on its own (a background at one m/z, such as H35Cl+ at 36,
+   * that varies apart from the atmospheric blank); otherwise one draw scales the blank's atmospheric composition.
+   */
+  blankSpreadRel?: number
+  blankSpreadPerBeam?: boolean
   evolution?: { kind: 'consumption', ratePerS: number } | { kind: 'ingrowth', current40APerS: number } | { kind: 'none' }
   cycles?: number
   firstCycleS?: number
@@ -81,7 +89,9 @@ export function simulateArgonSequence(sim: ArgonSequenceSimulation): SimulatedAr
   const evolution = sim.evolution ?? { kind: 'none' }
   const bias = (m: Mass) => (MASSES[m] / MASSES[36]) ** -beta
   const currents = (r: ArgonTruth, i40: number): Record<Mass, number> => ({ 40: i40, 36: i40 / r['40/36'], 38: (i40 / r['40/36']) * r['38/36'] })
-  const blank = currents(air, sim.blank40A ?? 0)
+  // A separate stream, so that sequences simulated without a blank spread keep their draws.
+  const blankNormal = seededNormal(sim.seed * 7919 + 11)
+  const spread = sim.blankSpreadRel ?? 0
   const airShare = currents(air, 1)
   const truth: (ArgonTruth | null)[] = []
   const items = sim.items.map((spec, index): SequenceItem => {
@@ -90,6 +100,9 @@ export function simulateArgonSequence(sim: ArgonSequenceSimulation): SimulatedAr
     if (!isBlank && !r) throw new Error(`simulated item ${index} needs its true ratios`)
     truth.push(r)
     const aliquot = r ? currents(r, spec.current40A ?? 1e-11) : { 36: 0, 38: 0, 40: 0 }
+    const common = spread > 0 ? 1 + spread * blankNormal() : 1
+    const atmospheric = currents(air, sim.blank40A ?? 0)
+    const blank = Object.fromEntries(BEAMS.map(m => [m, atmospheric[m] * (sim.blankSpreadPerBeam && spread > 0 ? 1 + spread * blankNormal() : common)])) as Record<Mass, number>
     const cycles: { t: number, beams: Record<string, number> }[] = []
     for (let c = 0; c < n; c++) {
       const t = first + c * spacing
