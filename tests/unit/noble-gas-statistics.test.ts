@@ -17,7 +17,7 @@ import { ATMOSPHERIC_ARGON } from '../../shared/engine/isotopes/massBias'
 import { simulateArgonSequence } from '../../shared/engine/isotopes/simulateNobleGas'
 import { coverageOfTwoU, timeZeroIntercept, type TimeZeroModel } from '../../shared/engine/isotopes/timeZero'
 import type { MaterialValues } from '../../shared/engine/isotopes/types'
-import { binomialBand as band, errorStats, expectCalibrated, runSequences, SEQ_BAND, SEQUENCES as N, Z2, zSquareLimits } from './noble-gas-stats-helpers'
+import { binomialBand as band, errorStats, expectCalibrated, runSequences, SEQ_BAND, Z2, zSquareLimits } from './noble-gas-stats-helpers'
 
 describe('argon sequences: bias and coverage over 300 simulated sequences', () => {
   it.each([
