@@ -26,7 +26,7 @@ const TRUTH = { '40/36': 612.4, '38/36': 0.1878 }
 const STD = { role: 'working-standard', material: 'AIR-Ar', current40A: 3e-10 } as const
 
 function run(steps: MethodStep[], sim: Omit<ArgonSequenceSimulation, 'seed' | 'items'>, blanksEachEnd = 1) {
-  const method: MethodDefinition = { gas: 'Ar', steps }
+  const method: MethodDefinition = { gas: 'Ar', steps, acceptance: { minAnchors: 2 } }
   const errors: number[] = []
   const us: number[] = []
   const ks: number[] = []
@@ -57,7 +57,7 @@ describe('blank before time zero, with memory ingrowth', () => {
   it('refuses a blank without cycle readings before time zero, naming the blank\'s cycles', () => {
     const sim = simulateArgonSequence({ seed: 4, ...ingrowth, items: [{ role: 'blank' }, STD, { role: 'sample', truth: TRUTH }, STD] })
     delete sim.items[0]!.cycles
-    const method: MethodDefinition = { gas: 'Ar', steps: [{ step: 'blank' }, { step: 'time-zero', model: 'linear' }, MASS_BIAS] }
+    const method: MethodDefinition = { gas: 'Ar', steps: [{ step: 'blank' }, { step: 'time-zero', model: 'linear' }, MASS_BIAS], acceptance: { minAnchors: 2 } }
     let error: unknown
     try { processRatioSequence(method, sim.items, [EXACT_AIR]) }
     catch (e) { error = e }

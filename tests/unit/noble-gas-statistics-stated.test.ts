@@ -22,7 +22,7 @@ import { binomialBand, errorStats, zSquareLimits } from './noble-gas-stats-helpe
 
 const N = 300
 const EXACT_AIR: MaterialValues = { ...ATMOSPHERIC_ARGON, values: { '40Ar/36Ar': { value: 298.56, u: 0 }, '38Ar/36Ar': { value: 0.1885, u: 0 } } }
-const METHOD: MethodDefinition = { gas: 'Ar', steps: [{ step: 'mass-bias', law: 'exponential', against: 'internal', material: 'AIR-Ar', ratio: '38/36' }] }
+const METHOD: MethodDefinition = { gas: 'Ar', steps: [{ step: 'mass-bias', law: 'exponential', against: 'internal', material: 'AIR-Ar', ratio: '38/36' }], acceptance: { minAnchors: 1 } }
 const TRUTH = { '40/36': 612.4, '38/36': 0.1885 }
 
 describe('internal normalisation on stated ratios with consumption (300 sequences each)', () => {
