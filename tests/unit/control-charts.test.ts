@@ -5,7 +5,7 @@
 // signals a slow drift, carries its state across calls and restarts after a signal.
 import { describe, expect, it } from 'vitest'
 import { EngineError } from '../../shared/engine/errors'
-import { checkNewPoints, evaluateControlRules, runCusum, type ControlPoint, type WestgardRule } from '../../shared/engine/isotopes/controlCharts'
+import { checkNewPoints, evaluateControlRules, R4S_ACROSS_RUNS, runCusum, type ControlPoint, type WestgardRule } from '../../shared/engine/isotopes/controlCharts'
 
 const target = { accepted: 298.56, sd: 0.5 }
 /** Points at z-scores: value = accepted + z·sd, one a day. */
@@ -29,6 +29,15 @@ describe('Westgard multi-rules (Westgard et al. 1981)', () => {
     expect(v[0]!.points).toEqual(points)
     expect(v[0]!.at).toEqual(points.map(i => series(breaking)[i]!.at))
     expect(fired(inside, rule)).toEqual([])
+  })
+
+  it('R-4s on a one-material chart is the across-runs lab variant, named so, not the 1981 within-run rule', () => {
+    // Westgard et al. 1981 define R-4s within a run across two control levels; one point a run here.
+    const [v] = fired([0.1, 2.2, -2.1], 'R-4s')
+    expect(v!.variant).toBe('across-runs')
+    expect(v!.message).toMatch(/^R-4s across runs: two consecutive runs/)
+    expect(R4S_ACROSS_RUNS.original).toMatch(/1981.*within one run/)
+    expect(fired([0.5, 3.4], '1-3s')[0]!.variant).toBeUndefined()
   })
 
   it('returns every violation of every rule in one series', () => {

@@ -49,4 +49,12 @@ describe('internal normalisation on stated ratios with consumption (300 sequence
     expect(s.within2u).toBeGreaterThanOrEqual(cover[0])
     expect(s.within2u).toBeLessThanOrEqual(cover[1])
   })
+
+  it('records with the step that 38/36 internal normalisation does not hold for irradiated samples (38Ar from Cl)', () => {
+    const sim = simulateArgonSequence({ seed: 1, beta: 0.4, items: [{ role: 'sample', truth: TRUTH }] })
+    const out = processRatioSequence(METHOD, sim.items, [EXACT_AIR])
+    const step = out.steps.find(st => st.step === 'mass-bias')!
+    expect(step.parameters.methodNote).toMatch(/invalid for neutron-irradiated samples.*37Cl/)
+    expect(step.parameters.covarianceBasis).toEqual(['cycles (GUM 5.2.3)'])
+  })
 })

@@ -9,7 +9,9 @@ import type { MaterialValues, Measured } from './types'
 //   linear       K = 1 + ε·Δm                  ε = (x − 1) / Δm_ab
 //   power        K = (1 + ε)^Δm                ε = x^(1/Δm_ab) − 1
 //   exponential  K = (m_n / m_d)^β             β = ln x / ln(m_a / m_b)
-// with Δm = m_n − m_d. The linear and power laws: Russell, Papanastassiou & Tombrello, Geochim.
+// with Δm = m_n − m_d. Convention of the linear law: (1 + ε·Δm) multiplies the measured ratio to give
+// the true one; the other convention, R_meas = R_true·(1 + ε'·Δm), has ε' ≈ −ε and parts from this one
+// at second order in ε·Δm. The linear and power laws: Russell, Papanastassiou & Tombrello, Geochim.
 // Cosmochim. Acta 42 (1978) 1075; the exponential law: the same paper, and Wasserburg, Jacobsen,
 // DePaolo, McCulloch & Wen, Geochim. Cosmochim. Acta 45 (1981) 2311. Masses are the AME2020
 // atomic masses of the engine's isotope table (shared/engine/species.ts), never nominal masses.

@@ -15,6 +15,8 @@ import type { AppliedStep, MaterialValues, Measured, OutcomeFlag, OutcomeItem, S
 
 /** The quantities of an argon sequence and the nominal-mass ratios they come from. */
 export const ARGON_QUANTITIES: Record<string, string> = { '40Ar/36Ar': '40/36', '38Ar/36Ar': '38/36' }
+/** Internal normalisation on 38/36 assumes atmospheric 38/36 (McDougall & Harrison 1999, from memory). */
+const INTERNAL_38_36_NOTE = 'internal normalisation on 38/36 assumes the sample\'s 38Ar/36Ar is atmospheric: invalid for neutron-irradiated samples, whose 38Ar grows from 37Cl(n,γ)38Cl → 38Ar (McDougall & Harrison, Geochronology and Thermochronology by the 40Ar/39Ar Method, 2nd ed., 1999, from memory)'
 const ARGON_STEPS = new Set<MethodStep['step']>(['blank', 'time-zero', 'mass-bias'])
 
 interface ItemState {
@@ -116,6 +118,7 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
         massSource: 'AME2020 atomic masses (Wang et al., Chin. Phys. C 45 (2021) 030003) through chemical-elements',
         ...factors.parameters,
         covarianceBasis: [...new Set(measured.filter(m => m !== null).map(m => m.covarianceBasis))],
+        ...(mb.against === 'internal' && refKey === '38/36' ? { methodNote: INTERNAL_38_36_NOTE } : {}),
       },
     })
   }
