@@ -11,7 +11,7 @@ import type { AppliedStep, MaterialValues, Measured, OutcomeFlag, OutcomeItem, S
 // blank, time-zero regression), then the mass-bias correction by a law against an air standard
 // measured in the sequence or against an internal ratio of known value. Each step is recorded
 // with its source and parameters; every value carries its standard uncertainty (GUM, JCGM
-// 100:2008), and k = 2 for the expanded uncertainty of the corrected ratios.
+// 100:2008) and k = t₉₅(ν_eff) (ratioDof.ts), or k = 2 where the ratios came as stated.
 
 /** The quantities of an argon sequence and the nominal-mass ratios they come from. */
 export const ARGON_QUANTITIES: Record<string, string> = { '40Ar/36Ar': '40/36', '38Ar/36Ar': '38/36' }
