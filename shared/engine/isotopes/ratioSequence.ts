@@ -3,6 +3,7 @@ import { EngineError } from '../errors'
 import { BLANK_SOURCE, blankLevels } from './blank'
 import { correctRatio, cycleRatioCorrelation, isotopeRatio, MASS_BIAS_SOURCES, sharedDenominatorCovariance, type IsotopeRatio } from './massBias'
 import { massBiasFactors } from './massBiasReference'
+import { studentTCoverageFactor } from './leastSquares'
 import { correctedRatioDof, DOF_SOURCE, welchSatterthwaite, type BeamSource } from './ratioDof'
 import { TIME_ZERO_SOURCE, timeZeroIntercept, type TimeZeroModel } from './timeZero'
 import type { AppliedStep, MaterialValues, Measured, OutcomeFlag, OutcomeItem, ScaledValue, SequenceItem, SequenceOutcome } from './types'
@@ -67,17 +68,36 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
   const measured = states.map(s => (s.item.role === 'blank' ? null : measuredRatios(s, keys)))
   const beamSource = (s: ItemState): BeamSource | null => (s.beams ? { beams: s.beams, dof: s.dof } : null)
   const coverage: { position: number, quantity: string, dof: number | null, k: number }[] = []
-  /** k from ν_eff of the beams (GUM G.4.1), or 2 where the ratios came as stated. */
-  const kOf = (i: number, key: string, refKey: string, e: number, sources: { index: number, weight: number }[], acceptedRelU: number) => {
+  const record = (i: number, key: string, dof: number) => {
+    const k = Number.isFinite(dof) ? studentTCoverageFactor(dof) : 2
+    coverage.push({ position: states[i]!.item.position, quantity: quantityOf(key), dof: Number.isFinite(dof) ? dof : null, k })
+    return k
+  }
+  /**
+   * Stated ratios (means over cycles): each with n − 1 degrees of freedom of its cycles (GUM 4.2.3);
+   * internal normalisation's correlated pair as one component, the measured part of the total u.
+   */
+  const statedK = (i: number, key: string, refKey: string, e: number, sources: { index: number, weight: number }[], acceptedRelU: number, totalRelU: number) => {
+    const dofOf = (j: number) => (states[j]!.beams === null && (states[j]!.item.cycles?.length ?? 0) >= 2 ? states[j]!.item.cycles!.length - 1 : null)
+    if ([i, ...sources.map(s => s.index)].some(j => dofOf(j) === null)) return 2
+    const accepted = { relU: Math.abs(e) * acceptedRelU, dof: Number.POSITIVE_INFINITY }
+    const self = sources.length === 1 && sources[0]!.index === i
+    const rel = (j: number, k: string) => measured[j]!.ratios[k]!.u / measured[j]!.ratios[k]!.value
+    const parts = self
+      ? [{ relU: Math.sqrt(Math.max(totalRelU ** 2 - accepted.relU ** 2, 0)), dof: dofOf(i)! }]
+      : [{ relU: rel(i, key), dof: dofOf(i)! }, ...sources.map(s => ({ relU: Math.abs(e * s.weight) * rel(s.index, refKey), dof: dofOf(s.index)! }))]
+    return record(i, key, welchSatterthwaite([...parts, accepted]))
+  }
+  /** k from ν_eff of the beams (GUM G.4.1), of the stated ratios' cycles, or 2 where neither is known. */
+  const kOf = (i: number, key: string, refKey: string, e: number, sources: { index: number, weight: number }[], acceptedRelU: number, totalRelU: number) => {
     const own = beamSource(states[i]!)
     const src = sources.map(s => ({ beams: beamSource(states[s.index]!), weight: s.weight }))
-    if (!own || src.some(s => !s.beams)) return 2
-    const r = correctedRatioDof(own, key, refKey, e, src as { beams: BeamSource, weight: number }[], acceptedRelU)
-    coverage.push({ position: states[i]!.item.position, quantity: quantityOf(key), dof: Number.isFinite(r.dof) ? r.dof : null, k: r.k })
-    return r.k
+    if (!own) return statedK(i, key, refKey, e, sources, acceptedRelU, totalRelU)
+    if (src.some(s => !s.beams)) return 2
+    return record(i, key, correctedRatioDof(own, key, refKey, e, src as { beams: BeamSource, weight: number }[], acceptedRelU).dof)
   }
   const finals: (Record<string, ScaledValue> | null)[] = measured.map((m, i) => (m
-    ? Object.fromEntries(Object.entries(m.ratios).map(([k, r]) => [quantityOf(k), { ...r, scale: 'measured, not corrected for mass bias', k: kOf(i, k, k, 0, [], 0) }]))
+    ? Object.fromEntries(Object.entries(m.ratios).map(([k, r]) => [quantityOf(k), { ...r, scale: 'measured, not corrected for mass bias', k: kOf(i, k, k, 0, [], 0, r.u / r.value) }]))
     : null))
   if (massBias) {
     const mb = massBias
@@ -105,7 +125,7 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
           referenceMeasured: { value: known.value / f.x, u: (known.value / f.x) * f.uRelMeasured }, referenceKnown: known, ref,
           relativeCovariance: f.selfWeight * (k === refKey ? (m.ratios[k]!.u / m.ratios[k]!.value) ** 2 : m.cov(k, refKey)),
         })
-        return [quantityOf(k), { value: c.value, u: c.u, scale, k: kOf(i, k, refKey, c.sensitivity, f.sources, known.u / known.value) }]
+        return [quantityOf(k), { value: c.value, u: c.u, scale, k: kOf(i, k, refKey, c.sensitivity, f.sources, known.u / known.value, c.u / c.value) }]
       }))
       s.flags.push(...f.flags)
     })
@@ -124,7 +144,7 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
   }
   // Recorded with the last step: how each final value's k was found (not a correction of its own).
   const last = steps.at(-1)
-  if (last && coverage.length > 0) last.parameters.coverage = { source: DOF_SOURCE, rule: 'k = t95(ν_eff) by Welch–Satterthwaite over the beams; k = 2 where the ratios came as stated', perItem: coverage }
+  if (last && coverage.length > 0) last.parameters.coverage = { source: DOF_SOURCE, rule: 'k = t95(ν_eff) by Welch–Satterthwaite over the beams, or over stated ratios with n − 1 degrees of freedom of their cycles; k = 2 where neither is known', perItem: coverage }
   const outcomeItems = states.map((s, i) => outcomeItem(s, measured[i]?.ratios ?? null, finals[i] ?? null, materials, method, flags))
   const quantities = massBias?.against === 'internal' ? Object.keys(ARGON_QUANTITIES).filter(q => ARGON_QUANTITIES[q] !== massBias!.ratio) : Object.keys(ARGON_QUANTITIES)
   return { gas: 'Ar', quantities, items: outcomeItems, normalisation: [], drift: [], steps, flags, accepted: !flags.some(f => f.code === 'standard-residual-exceeds') }
