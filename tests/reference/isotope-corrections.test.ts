@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest'
 import {
-  BRAND_2010, acceptedValue, co2AtomicRatios, co2DeltasFromMolecular, co2MolecularRatios, composeDelta, isotopologueAbundances,
+  BRAND_2010, acceptedValue, reducedChi2Limit99, co2AtomicRatios, co2DeltasFromMolecular, co2MolecularRatios, composeDelta, isotopologueAbundances,
   o2DeltasFromMolecular, o2MolecularRatios, referenceMaterials, scaleRatios, weightedLine, yorkFit,
 } from '../../shared/engine'
 
@@ -42,15 +42,23 @@ describe('reference materials (values from memory of the named reference sheets 
 })
 
 describe('CO2 17O correction, Brand, Assonov & Coplen, Pure Appl. Chem. 82 (2010) 1719 (parameters from memory)', () => {
-  it('uses the IUPAC set: 13R = 0.011180, 18R = 0.0020672, 17R = 0.0003931, λ = 0.528, K = 17R/18R^λ', () => {
-    expect([BRAND_2010.r13, BRAND_2010.r18, BRAND_2010.r17, BRAND_2010.lambda]).toEqual([0.011180, 0.0020672, 0.0003931, 0.528])
-    expect(BRAND_2010.K).toBeCloseTo(0.0003931 / 0.0020672 ** 0.528, 15)
+  it('uses the IUPAC set: K = 0.01022461, λ = 0.528, 13R_VPDB = 0.011180, 18R_VPDB-CO2 = 0.002088349', () => {
+    expect([BRAND_2010.K, BRAND_2010.lambda, BRAND_2010.r13, BRAND_2010.r18]).toEqual([0.01022461, 0.528, 0.011180, 0.002088349])
+  })
+
+  it('K derived from the set: 17R_VPDB-CO2 = 0.0003931 (Brand et al. 2010, table of the IUPAC ratios) gives K = 17R/18R^λ = 0.01022461 to its 4 significant figures', () => {
+    // The paper lists 17R_VPDB-CO2 = 0.0003931 (4 figures), so K derived from it agrees to ≈ 1e-4 relative.
+    expect(Math.abs(0.0003931 / 0.002088349 ** 0.528 / 0.01022461 - 1)).toBeLessThan(1.3e-4)
+    expect(BRAND_2010.r17).toBeCloseTo(0.0003931, 7)
+    // VPDB carbonate's 18R (0.0020672) with the same 17R would give K ≈ 0.01028, 0.54 % off: the mix-up the set avoids.
+    expect(Math.abs(0.0003931 / 0.0020672 ** 0.528 / 0.01022461 - 1)).toBeGreaterThan(5e-3)
   })
 
   it('a gas of exactly VPDB composition: 45R = 13R + 2·17R and 46R = 2·18R + 2·13R·17R + 17R² (issue 19: naive δ45 ≈ +70 ‰, δ46 ≈ +1000 ‰)', () => {
     const r = co2MolecularRatios(BRAND_2010.r13, BRAND_2010.r18)
-    expect(r.r45).toBeCloseTo(0.011180 + 2 * 0.0003931, 15)
-    expect(r.r46).toBeCloseTo(2 * 0.0020672 + 2 * 0.011180 * 0.0003931 + 0.0003931 ** 2, 15)
+    const r17 = 0.01022461 * 0.002088349 ** 0.528
+    expect(r.r45).toBeCloseTo(0.011180 + 2 * r17, 15)
+    expect(r.r46).toBeCloseTo(2 * 0.002088349 + 2 * 0.011180 * r17 + r17 ** 2, 15)
     expect((r.r45 / BRAND_2010.r13 - 1) * 1000).toBeCloseTo(70.3, 1)
     expect((r.r46 / BRAND_2010.r18 - 1) * 1000).toBeCloseTo(1004.3, 1)
     const atoms = co2AtomicRatios(r.r45, r.r46)
@@ -101,6 +109,12 @@ describe('N2, O2 and H2 molecular ratios (combinatorics of the random distributi
     const a = isotopologueAbundances('H2', { 'δ2H': -427.5 })
     expect(a[3]! / a[2]! / 2 / scaleRatios.VSMOW['2R']).toBeCloseTo(0.5725, 12)
     expect(composeDelta(-100, -50)).toBeCloseTo(-145, 12)
+  })
+})
+
+describe('scatter of anchor replicates', () => {
+  it.each([[2, 9.2103], [4, 13.2767], [10, 23.2093]])('χ²_0.99 with ν = %i is %f (Abramowitz & Stegun, Handbook of Mathematical Functions (1964) table 26.8; from memory): the Wilson–Hilferty limit within 1 %', (dof, chi2) => {
+    expect(Math.abs(reducedChi2Limit99(dof) * dof / chi2 - 1)).toBeLessThan(0.01)
   })
 })
 

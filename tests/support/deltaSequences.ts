@@ -1,7 +1,7 @@
 import type { MethodDefinition } from '../../shared/schemas/methods'
 import { acceptedValue, referenceMaterials, seededNormal, simulateSequence } from '../../shared/engine'
 import { defaultSimulatedInstrument, type DeltaGasSystem, type SimulatedAcquisition, type SimulatedInstrument } from '../../shared/engine/isotopes/simulateSequence'
-import type { SequenceItem } from '../../shared/engine/isotopes'
+import type { MaterialValues, SequenceItem } from '../../shared/engine/isotopes'
 
 // Simulated δ sequences for the isotope engine's tests: a layout of anchors, a drift standard,
 // samples of known truth and the reference gas between them. Standards' true values are drawn
@@ -47,26 +47,39 @@ export function caseMethod(c: DeltaCase, extra: Partial<MethodDefinition> = {}, 
 export interface Built { items: SequenceItem[], samples: { position: number, truth: Record<string, number> }[] }
 
 /** Anchor 1 at the start, middle and end (the drift standard), the others and samples between, reference gas around each. */
-export function buildSequence(c: DeltaCase, seed: number, options: { noise?: boolean, drawStandards?: boolean, blanks?: boolean, instrument?: Partial<SimulatedInstrument> } = {}): Built {
+export function buildSequence(c: DeltaCase, seed: number, options: { noise?: boolean, drawStandards?: boolean, blanks?: boolean, instrument?: Partial<SimulatedInstrument>, materials?: Record<string, MaterialValues>, majorScale?: number, layout?: 'interleaved' | 'drift-lever', replicates?: number } = {}): Built {
   const draw = seededNormal(seed * 7919 + 13)
   const scaleOf = (q: string) => q === 'δ13C' ? 'VPDB' : q === 'δ15N' ? 'AIR' : q === 'δ18O' && c.gas === 'CO2' ? (c.oxygenScale ?? 'VPDB') : 'VSMOW'
   const truthOf = (id: string): Record<string, number> => Object.fromEntries(Object.keys(c.referenceGas).flatMap((q) => {
-    const a = acceptedValue(referenceMaterials[id]!, q, scaleOf(q))
+    const a = acceptedValue((options.materials ?? referenceMaterials)[id]!, q, scaleOf(q))
     return a ? [[q, a.value + (options.drawStandards === false ? 0 : a.u * draw())]] : [[q, 0]]
   }))
   const standards = [c.anchors[0]!, ...c.anchors.slice(1), ...(c.monitor ? [c.monitor] : [])]
   const truths = new Map(standards.map(id => [id, truthOf(id)]))
   const layout: SimulatedAcquisition[] = []
-  const ref = (scale = 1) => layout.push({ role: 'reference-gas', truth: c.referenceGas, majorA: c.majorA * scale })
-  const std = (id: string) => layout.push({ role: 'working-standard', material: id, truth: truths.get(id)!, majorA: c.majorA })
+  const majorA = c.majorA * (options.majorScale ?? 1)
+  const ref = (scale = 1) => layout.push({ role: 'reference-gas', truth: c.referenceGas, majorA: majorA * scale })
+  const std = (id: string) => layout.push({ role: 'working-standard', material: id, truth: truths.get(id)!, majorA })
   const samplePositions: { position: number, truth: Record<string, number> }[] = []
   const blank = () => { if (options.blanks) layout.push({ role: 'blank', truth: {}, majorA: 0 }) }
   blank()
   ref(0.6)
   std(c.anchors[0]!)
   ref(1)
-  for (const id of standards.slice(1)) { std(id); ref(1.4); std(id); ref(0.8) }
-  for (const s of c.samples) { layout.push({ role: 'sample', truth: s, majorA: c.majorA }); samplePositions.push({ position: layout.length, truth: s }); ref(1.2) }
+  if (options.layout === 'drift-lever') {
+    // Every standard early, then hours of reference gas, then the samples: the drift fitted on
+    // the early standards is extrapolated to the samples, so its slope's u dominates theirs.
+    std(c.anchors[0]!)
+    ref(1)
+    for (const id of standards.slice(1)) { std(id); ref(1.4); std(id); ref(0.8) }
+    for (let k = 0; k < 12; k++) ref(1)
+    for (const s of c.samples) { layout.push({ role: 'sample', truth: s, majorA }); samplePositions.push({ position: layout.length, truth: s }); ref(1.2) }
+    blank()
+    return finish()
+  }
+  // replicates: the other standards' block repeated, as a lab measures its standards through a run.
+  for (let k = 0; k < (options.replicates ?? 1); k++) for (const id of standards.slice(1)) { std(id); ref(1.4); std(id); ref(0.8) }
+  for (const s of c.samples) { layout.push({ role: 'sample', truth: s, majorA }); samplePositions.push({ position: layout.length, truth: s }); ref(1.2) }
   std(c.anchors[0]!)
   blank()
   ref(0.7)
@@ -74,8 +87,12 @@ export function buildSequence(c: DeltaCase, seed: number, options: { noise?: boo
   std(c.anchors[0]!)
   ref(1)
   blank()
-  const instrument: SimulatedInstrument = { ...defaultSimulatedInstrument, ...c.instrument, ...options.instrument, noise: options.noise ?? true }
-  // A procedural blank of 0.3 % of the major beam, isotopically far from everything (made-up test values, no source).
-  if (options.blanks) instrument.blank = { majorA: c.majorA * 3e-3, delta: Object.fromEntries(Object.keys(c.referenceGas).map(q => [q, -60])) }
-  return { items: simulateSequence({ gas: c.gas, seed, instrument, acquisitions: layout, oxygenScale: c.oxygenScale }), samples: samplePositions }
+  return finish()
+
+  function finish(): Built {
+    const instrument: SimulatedInstrument = { ...defaultSimulatedInstrument, ...c.instrument, ...options.instrument, noise: options.noise ?? true }
+    // A procedural blank of 0.3 % of the major beam, isotopically far from everything (made-up test values, no source).
+    if (options.blanks) instrument.blank = { majorA: majorA * 3e-3, delta: Object.fromEntries(Object.keys(c.referenceGas).map(q => [q, -60])) }
+    return { items: simulateSequence({ gas: c.gas, seed, instrument, acquisitions: layout, oxygenScale: c.oxygenScale }), samples: samplePositions }
+  }
 }

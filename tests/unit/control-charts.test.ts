@@ -5,7 +5,7 @@
 // signals a slow drift, carries its state across calls and restarts after a signal.
 import { describe, expect, it } from 'vitest'
 import { EngineError } from '../../shared/engine/errors'
-import { evaluateControlRules, runCusum, type ControlPoint, type WestgardRule } from '../../shared/engine/isotopes/controlCharts'
+import { checkNewPoints, evaluateControlRules, R4S_ACROSS_RUNS, runCusum, type ControlPoint, type WestgardRule } from '../../shared/engine/isotopes/controlCharts'
 
 const target = { accepted: 298.56, sd: 0.5 }
 /** Points at z-scores: value = accepted + z·sd, one a day. */
@@ -29,6 +29,15 @@ describe('Westgard multi-rules (Westgard et al. 1981)', () => {
     expect(v[0]!.points).toEqual(points)
     expect(v[0]!.at).toEqual(points.map(i => series(breaking)[i]!.at))
     expect(fired(inside, rule)).toEqual([])
+  })
+
+  it('R-4s on a one-material chart is the across-runs lab variant, named so, not the 1981 within-run rule', () => {
+    // Westgard et al. 1981 define R-4s within a run across two control levels; one point a run here.
+    const [v] = fired([0.1, 2.2, -2.1], 'R-4s')
+    expect(v!.variant).toBe('across-runs')
+    expect(v!.message).toMatch(/^R-4s across runs: two consecutive runs/)
+    expect(R4S_ACROSS_RUNS.original).toMatch(/1981.*within one run/)
+    expect(fired([0.5, 3.4], '1-3s')[0]!.variant).toBeUndefined()
   })
 
   it('returns every violation of every rule in one series', () => {
@@ -63,5 +72,18 @@ describe('tabular CUSUM (Page 1954; Montgomery 2009)', () => {
     expect(all.trace[all.signals[0]!.point]).toBeDefined()
     // Just inside: +0.9s for 10 points sums to 4.0 < 5, no signal.
     expect(runCusum(series(Array.from({ length: 10 }, () => 0.9)), target).signals).toEqual([])
+  })
+})
+
+describe('checkNewPoints: a chart growing sequence by sequence', () => {
+  it('reports the rules the new points complete with the history, and continues the CUSUM', () => {
+    const history = series([0.2, -0.3, 2.4])
+    const added = series([0.2, -0.3, 2.4, 2.6, 0.1]).slice(3)
+    const first = checkNewPoints([], history, target)
+    const next = checkNewPoints(history, added, target, first.cusum.state)
+    // 2.4 (history) then 2.6 (new): 2-2s completed by the first new point, reaching back one point.
+    expect(next.perPoint).toEqual([['2-2s'], []])
+    expect(next.violations[0]!.points).toEqual([2, 3])
+    expect(next.cusum.state.count).toBe(5)
   })
 })

@@ -32,6 +32,8 @@ describe('normalised sample δ recovered within 0.05 ‰ (noise off, standards a
     expect(out.normalisation[0]!.slope.value).toBeGreaterThan(1.01)
     expect(out.steps.map(s => s.step)).toEqual(caseMethod(c).steps.map(s => s.step))
     expect(out.steps.every(s => s.source.length > 10)).toBe(true)
+    // O2's δ17O: no reference material states it, so it is reported through the reference gas, flagged.
+    if (gas === 'O2') expect(out.flags.map(f => f.code)).toContain('not-normalised')
   })
 
   it('CO2 with δ18O on VSMOW (Coplen et al. 1983 conversion) and a procedural blank subtracted', () => {
@@ -145,6 +147,39 @@ describe('anchors and acceptance', () => {
   })
 })
 
+describe('anchor replicates', () => {
+  it('an anchor whose acquisitions disagree beyond their stated u is flagged; a clean sequence is not', () => {
+    const c = cases.N2!
+    const built = buildSequence(c, 14)
+    expect(processDeltaSequence(caseMethod(c), built.items, referenceMaterials).flags.map(f => f.code)).not.toContain('anchor-scatter')
+    const first = built.items.find(i => i.material === 'USGS41a')!
+    const shifted = built.items.map(i => i === first ? { ...i, ratios: { '29/28': { ...i.ratios['29/28']!, value: i.ratios['29/28']!.value * 1.001 } } } : i)
+    const out = processDeltaSequence(caseMethod(c), shifted, referenceMaterials)
+    expect(out.flags.find(f => f.code === 'anchor-scatter')!.message).toMatch(/USGS41a/)
+    // Judged against the reproducibility pooled from the other standards (leave-one-out, GUM 4.2.8).
+    const repro = (out.steps.find(s => s.step === 'drift')!.parameters.reproducibility as { materials: { material: string, reducedChi2: number }[] }[])[0]!
+    expect(repro.materials.find(m => m.material === 'USGS41a')!.reducedChi2).toBeGreaterThan(10)
+  })
+})
+
+describe('the outcome', () => {
+  it('survives JSON (it is stored and sent as it is): no NaN, Infinity, Map or function inside', () => {
+    for (const gas of ['CO2', 'N2', 'O2', 'H2']) {
+      const c = cases[gas]!
+      const out = processDeltaSequence(caseMethod(c), buildSequence(c, 16, { blanks: true }).items, referenceMaterials)
+      expect(JSON.parse(JSON.stringify(out))).toEqual(out)
+      expect(JSON.stringify(out)).not.toMatch(/null/)
+    }
+  })
+})
+
+describe('the simulator', () => {
+  it('repeats exactly for a seed and differs for another', () => {
+    expect(buildSequence(cases.CO2!, 21).items).toEqual(buildSequence(cases.CO2!, 21).items)
+    expect(buildSequence(cases.CO2!, 21).items[3]!.beams['45']!.value).not.toBe(buildSequence(cases.CO2!, 22).items[3]!.beams['45']!.value)
+  })
+})
+
 describe('methods that cannot run are refused with the field at fault', () => {
   const c = cases.N2!
   const built = buildSequence(c, 13)
@@ -179,6 +214,22 @@ describe('methods that cannot run are refused with the field at fault', () => {
     const built = buildSequence(n2, 2, { noise: false, drawStandards: false })
     const out = processDeltaSequence(caseMethod(n2), built.items, referenceMaterials)
     expect(out.items.find(i => i.position === built.samples[0]!.position)!.flags.map(f => f.code)).toContain('extrapolated')
+  })
+
+  it('bad numbers and duplicate positions are refused by their field', () => {
+    const at = (k: number, patch: object) => built.items.map((i, j) => j === k ? { ...i, ...patch } : i)
+    expect(run({}, at(3, { ratios: { '29/28': { value: Number.NaN, u: 1e-7 } } })).field).toBe('items[3].ratios.29/28.value')
+    expect(run({}, at(3, { ratios: { '29/28': { value: 0.0073, u: 0 } } })).field).toBe('items[3].ratios.29/28.u')
+    expect(run({}, at(3, { beams: { 28: { value: 1e-9, u: -1 } } })).field).toBe('items[3].beams.28.u')
+    expect([run({}, at(3, { position: 1 })).field, run({}, at(3, { position: 1 })).code]).toEqual(['items[3].position', 'duplicate'])
+  })
+
+  it('a sample no larger than the blank is refused, naming its beam', () => {
+    const withBlank = buildSequence(c, 15, { blanks: true })
+    const k = withBlank.items.findIndex(i => i.role === 'sample')
+    const items = withBlank.items.map((i, j) => j === k ? { ...i, beams: { ...i.beams, 28: { value: 1e-14, u: 1e-15 } } } : i)
+    const e = run({ steps: [{ step: 'blank' }, { step: 'reference-gas', bracketing: 'nearest' }] }, items)
+    expect([e.field, e.code]).toEqual([`items[${k}].beams.28`, 'below-blank'])
   })
 
   it('a sequence without reference gas, and an acquisition without its ratio', () => {

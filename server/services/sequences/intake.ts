@@ -1,5 +1,5 @@
 import { createHash } from 'node:crypto'
-import { and, eq, sql } from 'drizzle-orm'
+import { and, eq, inArray, sql } from 'drizzle-orm'
 import type { H3Error } from 'h3'
 import type { SequenceInput, SequenceMemberInput, SequenceView } from '#shared/schemas/sequences'
 import { acquisitions, sequenceItems, sequences } from '../../database/schema'
@@ -57,7 +57,7 @@ async function checkNotInAnotherSequence(labId: string, runIds: string[], sequen
   if (!runIds.length) return
   const rows = await useDb().select({ runId: acquisitions.externalId, sequenceId: sequenceItems.sequenceId }).from(acquisitions)
     .innerJoin(sequenceItems, eq(sequenceItems.acquisitionId, acquisitions.id))
-    .where(and(eq(acquisitions.labId, labId), sql`${acquisitions.externalId} = any(${runIds})`))
+    .where(and(eq(acquisitions.labId, labId), inArray(acquisitions.externalId, runIds)))
   const taken = rows.find(r => r.sequenceId !== sequenceId)
   if (taken) throw fieldProblem(path(runIds.indexOf(taken.runId)), 'this run belongs to another sequence', 409, 'run-in-another-sequence')
 }

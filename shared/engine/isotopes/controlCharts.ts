@@ -5,12 +5,15 @@ import { EngineError } from '../errors'
 // Multi-rules of Westgard, Barry, Hunt & Groth, Clin. Chem. 27 (1981) 493, on z = (x − accepted)/s:
 //   1-3s  one point beyond ±3s;
 //   2-2s  two consecutive points beyond 2s on the same side;
-//   R-4s  two consecutive points, one beyond +2s and the other beyond −2s (a range over 4s);
+//   R-4s  within one run, one control level beyond +2s and another beyond −2s (a range over 4s);
 //   4-1s  four consecutive points beyond 1s on the same side;
 //   10x   ten consecutive points on the same side of the accepted value.
-// The paper applies R-4s within a run of two control levels; one material's chart has one point
-// a run, so consecutive points stand for the run (common practice, no source). Every window that
-// completes a rule is a violation, reported at its last point with all the points involved.
+// The paper defines R-4s within a run, across two control materials (levels). A chart here holds one
+// material, one point a run, so the within-run rule cannot be evaluated; what this chart checks instead
+// is a lab variant, "R-4s across runs": two consecutive runs' points on opposite sides beyond 2s
+// (common practice of some labs, no source). It keeps the rule id 'R-4s' (stored with chart points),
+// and every violation of it says `variant: 'across-runs'` and names itself so in its message. Every
+// window that completes a rule is a violation, reported at its last point with all the points involved.
 //
 // Tabular CUSUM for slow drift (Page, Biometrika 41 (1954) 100), in the form and with the design
 // values of Montgomery, Introduction to Statistical Quality Control, 6th ed., Wiley 2009, §9.1
@@ -22,12 +25,20 @@ import { EngineError } from '../errors'
 export type WestgardRule = '1-3s' | '2-2s' | 'R-4s' | '4-1s' | '10x'
 export const WESTGARD_RULES: readonly WestgardRule[] = ['1-3s', '2-2s', 'R-4s', '4-1s', '10x']
 export const WESTGARD_SOURCE = 'Westgard, Barry, Hunt & Groth, Clin. Chem. 27 (1981) 493'
+/** How this chart evaluates R-4s, against the 1981 definition. */
+export const R4S_ACROSS_RUNS = {
+  name: 'R-4s across runs',
+  definition: 'two consecutive runs of one material on opposite sides beyond 2s (a lab variant: a single-material chart has one point a run)',
+  original: 'Westgard et al., Clin. Chem. 27 (1981) 493: R-4s within one run, one control level beyond +2s and another beyond −2s',
+} as const
 export const CUSUM_SOURCE = 'tabular CUSUM: Page, Biometrika 41 (1954) 100; k and h per Montgomery, Introduction to Statistical Quality Control, 6th ed. (2009), §9.1 (from memory)'
 
 export interface ControlPoint { at: number, value: number }
 
 export interface RuleViolation {
   rule: WestgardRule
+  /** 'across-runs' for R-4s: the lab variant this chart evaluates, not the 1981 within-run rule. */
+  variant?: 'across-runs'
   /** Indices of the points involved, in order; the last one completed the rule. */
   points: number[]
   at: number[]
@@ -56,7 +67,9 @@ const range = (end: number, length: number) => Array.from({ length }, (_, j) => 
 export function evaluateControlRules(points: readonly ControlPoint[], target: ChartTarget, rules: readonly WestgardRule[] = WESTGARD_RULES): RuleViolation[] {
   const z = zScores(points, target)
   const out: RuleViolation[] = []
-  const add = (rule: WestgardRule, idx: number[], message: string) => out.push({ rule, points: idx, at: idx.map(i => points[i]!.at), message })
+  const add = (rule: WestgardRule, idx: number[], message: string, variant?: 'across-runs') => {
+    out.push({ rule, ...(variant ? { variant } : {}), points: idx, at: idx.map(i => points[i]!.at), message })
+  }
   const sameSide = (end: number, n: number, limit: number) => {
     if (end + 1 < n) return 0
     const w = range(end, n).map(i => z[i]!)
@@ -73,7 +86,7 @@ export function evaluateControlRules(points: readonly ControlPoint[], target: Ch
     if (rules.includes('R-4s') && i >= 1) {
       const a = z[i - 1]!
       const b = z[i]!
-      if ((a > 2 && b < -2) || (a < -2 && b > 2)) add('R-4s', [i - 1, i], 'two consecutive points on opposite sides beyond 2s (range over 4s)')
+      if ((a > 2 && b < -2) || (a < -2 && b > 2)) add('R-4s', [i - 1, i], `${R4S_ACROSS_RUNS.name}: two consecutive runs on opposite sides beyond 2s (range over 4s)`, 'across-runs')
     }
     if (rules.includes('4-1s')) {
       const side = sameSide(i, 4, 1)
@@ -143,4 +156,19 @@ export function runCusum(points: readonly ControlPoint[], options: CusumOptions,
     }
   })
   return { state: s, signals, trace }
+}
+
+/**
+ * Points added to a chart: the Westgard violations they complete (a rule may reach back into the
+ * history) and the CUSUM continued from its stored state, with the rules each new point broke, in
+ * the order of `added` (what a chart point records as its violations).
+ */
+export function checkNewPoints(history: readonly ControlPoint[], added: readonly ControlPoint[], options: CusumOptions, cusumState?: CusumState) {
+  const all = [...history, ...added]
+  const violations = evaluateControlRules(all, options).filter(v => v.points.at(-1)! >= history.length)
+  const cusum = runCusum(added, options, cusumState)
+  const perPoint: string[][] = added.map(() => [])
+  for (const v of violations) perPoint[v.points.at(-1)! - history.length]!.push(v.rule)
+  for (const s of cusum.signals) perPoint[s.point]!.push(s.rule)
+  return { violations, cusum, perPoint }
 }

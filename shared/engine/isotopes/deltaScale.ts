@@ -3,7 +3,7 @@ import { propagate } from '../uncertainty'
 import { composeDelta, co2DeltasWithU, o2DeltasFromMolecular } from './isotopologues'
 import { vpdbToVsmow18O, vsmowToVpdb18O } from './referenceMaterials'
 import { weightedLine } from './regression'
-import { measuredItems, type DeltaWork } from './deltaSteps'
+import { foldDrift, measuredItems, type DeltaWork } from './deltaSteps'
 import type { DriftFit, GasSystem, Measured } from './types'
 
 // From molecular δ against the reference gas to atomic δ on the international scale, and the
@@ -79,8 +79,10 @@ export function moleculesToScale(work: DeltaWork[], ctx: ScaleContext): void {
 /**
  * Drift from a repeated standard: its δ fitted linearly in time (hours) or position by weighted
  * least squares, and every acquisition corrected to the fit's weighted centroid,
- * δ' = δ − b·(x − x̄), u²(δ') = u²(δ) + (x − x̄)²·u²(b) (GUM 5.1.2; at the centroid the slope's
- * and intercept's errors are uncorrelated, Bevington & Robinson 2003 §6.4).
+ * δ' = δ − b·(x − x̄) (at the centroid the slope's and intercept's errors are uncorrelated,
+ * Bevington & Robinson 2003 §6.4). The slope's error is shared by every acquisition: it is kept
+ * as the sensitivity −(x − x̄) with u(b), carried through the normalisation (deltaNormalise.ts)
+ * and folded into u there or at the end (GUM 5.2.2).
  */
 export function correctDrift(work: DeltaWork[], quantities: string[], model: 'linear-time' | 'linear-position', material: string, stepField: string): DriftFit[] {
   const measured = work.filter(measuredItems)
@@ -98,8 +100,10 @@ export function correctDrift(work: DeltaWork[], quantities: string[], model: 'li
     for (const item of measured) {
       const v = item.values[q]
       if (!v) continue
+      foldDrift(item, q)
       const dx = xOf(item) - xBar
-      item.values[q] = { value: v.value - fit.slope * dx, u: Math.hypot(v.u, dx * fit.uSlope) }
+      item.values[q] = { value: v.value - fit.slope * dx, u: item.values[q]!.u }
+      item.drift = { ...item.drift, [q]: { sensitivity: -dx, u: fit.uSlope } }
     }
     return { quantity: q, model, slope: { value: fit.slope, u: fit.uSlope }, material }
   })

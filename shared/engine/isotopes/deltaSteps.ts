@@ -17,6 +17,25 @@ export interface DeltaWork {
   flags: OutcomeFlag[]
   /** H2 after the H3+ step: the m/z 2 beam and u(K), whose error is carried into δ by bracketing. */
   h3?: { i2: number, uK: number }
+  /**
+   * After a drift correction, per quantity: ∂δ/∂b (= −(x − x̄)) and u(b). The slope's error is
+   * common to every acquisition, so it is carried apart from u and through the normalisation
+   * (GUM 5.2, correlated inputs), then folded into u.
+   */
+  drift?: Record<string, { sensitivity: number, u: number }>
+}
+
+/** Folds a pending drift-slope component into u (when no normalisation consumes it). */
+export function foldDrift(w: DeltaWork, quantity: string): void {
+  const d = w.drift?.[quantity]
+  const v = w.values[quantity]
+  if (!d || !v) return
+  w.values[quantity] = { value: v.value, u: Math.hypot(v.u, d.sensitivity * d.u) }
+  w.drift = withoutKey(w.drift!, quantity)
+}
+
+export function withoutKey<T>(record: Record<string, T>, key: string): Record<string, T> {
+  return Object.fromEntries(Object.entries(record).filter(([k]) => k !== key))
 }
 
 /** The molecular ratios each gas is measured by, the first one required (common practice, no source). */
@@ -78,6 +97,8 @@ export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField:
       if (!b) throw new EngineError(`items[${w.index}].beams.${mz}`, 'missing', `blank subtraction needs the m/z ${mz} beam of position ${w.item.position}`)
       w.beams[mz] = { value: b.value - mean[mz]!.value, u: Math.hypot(b.u, mean[mz]!.u) }
     }
+    const light = ratioKeys[0]!.split('/')[1]!
+    if (!(w.beams[light]!.value > 0)) throw new EngineError(`items[${w.index}].beams.${light}`, 'below-blank', `position ${w.item.position}: the m/z ${light} beam is no larger than the blank`)
     w.ratios = {}
     for (const key of ratioKeys) {
       const r = ratioFromBeams(w.beams, key)
@@ -90,9 +111,9 @@ export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField:
 /**
  * H3+ factor: H3+ forms in the source in proportion to [H2+]², so the measured 3/2 ratio grows
  * linearly with the m/z 2 beam, R_meas = R_true + K·i2 (Sessions, Burgoyne & Hayes, Anal. Chem.
- * 73 (2001) 192; Friedrichsen, Int. J. Mass Spectrom. Ion Processes 1992; from memory). K is the
+ * 73 (2001) 192 and 200, the correction and the determination of K; from memory). K is the
  * slope of the reference-gas acquisitions' 3/2 against i2 (weighted least squares); every
- * acquisition's ratio is then R − K·i2, with u(K) propagated.
+ * acquisition's ratio is then R − K·i2, with u(K) carried into δ by the bracketing.
  */
 export function h3Factor(work: DeltaWork[], stepField: string): Record<string, unknown> {
   const refs = work.filter(w => w.item.role === 'reference-gas')

@@ -10,16 +10,20 @@ import type { Measured } from './types'
 //  O2:  33R = 2·17R,        34R = 2·18R + 17R²
 //  H2:  3R  = 2·2R (HD/H2), plus H3+ formed in the source: 3R_meas = 3R + K·i2
 // The CO2 and O2 17O parameters: Brand, Assonov & Coplen, Pure Appl. Chem. 82 (2010) 1719,
-// the IUPAC-recommended set (values from memory): λ = 0.528 and the VPDB-CO2 ratios of
-// scaleRatios.VPDB; K = 17R/(18R)^λ computed from that same set, as the paper defines it.
+// the IUPAC-recommended set, values from memory: K = 0.01022461, λ = 0.528, 13R_VPDB = 0.011180
+// and 18R_VPDB-CO2 = 0.002088349 (the CO2 made from VPDB with phosphoric acid at 25 °C, not VPDB
+// carbonate's 0.0020672). K is the paper's stated value, not recomputed from rounded ratios;
+// 17R_VPDB-CO2 = K·(18R_VPDB-CO2)^λ follows from it (≈ 0.0003931). The δ18O this engine computes
+// for CO2 is therefore on VPDB-CO2, which by the identical-treatment convention carries the
+// same numbers as the carbonate's δ18O on VPDB (Brand et al. 2010).
 
 export const BRAND_2010 = {
-  lambda: 0.528,
-  r13: scaleRatios.VPDB['13R'],
-  r18: scaleRatios.VPDB['18R'],
-  r17: scaleRatios.VPDB['17R'],
-  get K() { return this.r17 / this.r18 ** this.lambda },
-  source: 'Brand, Assonov & Coplen, Pure Appl. Chem. 82 (2010) 1719 (IUPAC technical report); values from memory',
+  lambda: scaleRatios['VPDB-CO2'].lambda,
+  K: scaleRatios['VPDB-CO2'].K,
+  r13: scaleRatios['VPDB-CO2']['13R'],
+  r18: scaleRatios['VPDB-CO2']['18R'],
+  get r17() { return this.K * this.r18 ** this.lambda },
+  source: 'Brand, Assonov & Coplen, Pure Appl. Chem. 82 (2010) 1719 (IUPAC technical report): K = 0.01022461, λ = 0.528, 13R_VPDB = 0.011180, 18R_VPDB-CO2 = 0.002088349; values from memory',
 } as const
 
 /** Mass-dependent 17R from 18R: 17R = K·(18R)^λ (Brand et al. 2010, eq. for the 17O assumption). */

@@ -9,7 +9,9 @@ import type { MaterialValues, Measured } from './types'
 //   linear       K = 1 + ε·Δm                  ε = (x − 1) / Δm_ab
 //   power        K = (1 + ε)^Δm                ε = x^(1/Δm_ab) − 1
 //   exponential  K = (m_n / m_d)^β             β = ln x / ln(m_a / m_b)
-// with Δm = m_n − m_d. The linear and power laws: Russell, Papanastassiou & Tombrello, Geochim.
+// with Δm = m_n − m_d. Convention of the linear law: (1 + ε·Δm) multiplies the measured ratio to give
+// the true one; the other convention, R_meas = R_true·(1 + ε'·Δm), has ε' ≈ −ε and parts from this one
+// at second order in ε·Δm. The linear and power laws: Russell, Papanastassiou & Tombrello, Geochim.
 // Cosmochim. Acta 42 (1978) 1075; the exponential law: the same paper, and Wasserburg, Jacobsen,
 // DePaolo, McCulloch & Wen, Geochim. Cosmochim. Acta 45 (1981) 2311. Masses are the AME2020
 // atomic masses of the engine's isotope table (shared/engine/species.ts), never nominal masses.
@@ -19,8 +21,11 @@ import type { MaterialValues, Measured } from './types'
 //   exponential: ln K = ln x·ln(m_n/m_d)/ln(m_a/m_b), e = ln(m_n/m_d)/ln(m_a/m_b).
 // First-order propagation in relative terms (GUM, JCGM 100:2008, 5.2.2, with covariances):
 //   u_rel²(R_true) = u_rel²(R_meas) + e²·[u_rel²(R_known) + u_rel²(R_ref,meas)] − 2e·cov_rel(R_meas, R_ref,meas)
-// where the covariance exists when both ratios were measured in the same acquisition over the
-// same denominator isotope (internal normalisation): cov_rel = u_rel²(denominator beam).
+// where the covariance exists when both ratios were measured in the same acquisition (internal
+// normalisation). Ratios computed from processed beams share the denominator beam: cov_rel =
+// u_rel²(d). Ratios an acquisition states as means over static cycles get it from the cycles
+// themselves (GUM 5.2.3, eq. 17; cycleRatioCorrelation below): in static vacuum a beam's scatter
+// over the cycles is mostly its decay with time, which the ratios do not share.
 
 export type MassBiasLaw = 'linear' | 'power' | 'exponential'
 
@@ -132,4 +137,28 @@ export function sharedDenominatorCovariance(a: string, b: string, beams: Record<
   const beam = Object.hasOwn(beams, da) ? beams[da] : undefined
   if (!beam || !(beam.value !== 0)) return 0
   return (beam.u / beam.value) ** 2
+}
+
+/**
+ * Correlation of two ratios stated as means over the same static cycles, from the cycles' own
+ * ratios: r = s(ā, b̄)/(s(ā)·s(b̄)) with s(ā, b̄) = Σ(a_k − ā)(b_k − b̄)/(n(n − 1)) (GUM, JCGM 100:2008,
+ * 5.2.3, eq. 17 and C.3.6). Null when fewer than 3 cycles carry both ratios' beams.
+ */
+export function cycleRatioCorrelation(a: string, b: string, cycles: readonly { beams: Record<string, number> }[]): number | null {
+  const [na, da] = a.split('/') as [string, string]
+  const [nb, db] = b.split('/') as [string, string]
+  const pairs: [number, number][] = []
+  for (const c of cycles) {
+    const ra = c.beams[na]! / c.beams[da]!
+    const rb = c.beams[nb]! / c.beams[db]!
+    if (Number.isFinite(ra) && Number.isFinite(rb)) pairs.push([ra, rb])
+  }
+  if (pairs.length < 3) return null
+  const ma = pairs.reduce((s, p) => s + p[0], 0) / pairs.length
+  const mb = pairs.reduce((s, p) => s + p[1], 0) / pairs.length
+  let sab = 0
+  let saa = 0
+  let sbb = 0
+  for (const [x, y] of pairs) { sab += (x - ma) * (y - mb); saa += (x - ma) ** 2; sbb += (y - mb) ** 2 }
+  return saa > 0 && sbb > 0 ? sab / Math.sqrt(saa * sbb) : null
 }

@@ -12,7 +12,9 @@ import type { Measured, OutcomeFlag, SequenceItem } from './types'
 //    acquisition time between the standards just before and just after the acquisition, the
 //    nearest one alone outside them (flagged 'mass-bias-not-bracketed'). ln x is a weighted sum
 //    Σ w_s·(ln A − ln B_s), so u²(ln x) = u_rel²(A) + Σ w_s²·u_rel²(B_s) (GUM 5.1.2; the standards
-//    are independent measurements, the accepted value A is common to all of them).
+//    are independent measurements, the accepted value A is common to all of them). A standard
+//    itself is corrected from the other standards (leave one out), so that its residual says how
+//    well the bracketing reproduces it rather than coming back exact by construction.
 
 export interface ReferenceFactor {
   /** R_known / R_measured of the reference ratio at this acquisition. */
@@ -21,6 +23,8 @@ export interface ReferenceFactor {
   uRelMeasured: number
   /** Weight of this acquisition's own reference-ratio measurement in x (1 internal, w for a standard, else 0). */
   selfWeight: number
+  /** The acquisitions (indices into the items) whose reference ratio made x, with their weights. */
+  sources: { index: number, weight: number }[]
   flags: OutcomeFlag[]
 }
 
@@ -33,7 +37,7 @@ export function massBiasFactors(
 ): { perItem: (ReferenceFactor | null)[], parameters: Record<string, unknown> } {
   const materialId = step.material ?? 'AIR-Ar'
   if (step.against === 'internal') {
-    const perItem = refMeasured.map(b => (b ? { x: known.value / b.value, uRelMeasured: Math.abs(b.u / b.value), selfWeight: 1, flags: [] } : null))
+    const perItem = refMeasured.map((b, i) => (b ? { x: known.value / b.value, uRelMeasured: Math.abs(b.u / b.value), selfWeight: 1, sources: [{ index: i, weight: 1 }], flags: [] } : null))
     const parameters = {
       normalisation: 'internal',
       perItem: items.flatMap((item, i) => (refMeasured[i] ? [{ position: item.position, parameter: fractionationFromReference(step.law, refMeasured[i]!, known, ref) }] : [])),
@@ -49,33 +53,41 @@ export function massBiasFactors(
   }
   const lnX = standards.map(s => Math.log(known.value / s.b!.value))
   const relVar = standards.map(s => (s.b!.u / s.b!.value) ** 2)
-  const perItem = items.map((item, i): ReferenceFactor | null => {
-    if (!refMeasured[i]) return null
-    const own = standards.findIndex(s => s.i === i)
-    if (own >= 0) return { x: Math.exp(lnX[own]!), uRelMeasured: Math.sqrt(relVar[own]!), selfWeight: 1, flags: [] }
-    const t = item.acquiredAt
-    let after = standards.findIndex(s => s.item.acquiredAt >= t)
-    if (after < 0) after = standards.length
+  /** x at time t from the standards (one excluded: a standard is checked against the others). */
+  const bracket = (t: number, position: number, exclude: number): ReferenceFactor => {
+    const use = standards.map((s, j) => j).filter(j => j !== exclude)
+    let after = use.findIndex(j => standards[j]!.item.acquiredAt >= t)
+    if (after < 0) after = use.length
     const prev = after - 1
-    if (prev < 0 || after >= standards.length) {
-      const j = prev < 0 ? 0 : prev
-      const flag = { code: 'mass-bias-not-bracketed', message: `no ${materialId} standard on both sides: the one at position ${standards[j]!.item.position} alone corrects this acquisition`, position: item.position }
-      return { x: Math.exp(lnX[j]!), uRelMeasured: Math.sqrt(relVar[j]!), selfWeight: 0, flags: [flag] }
+    if (prev < 0 || after >= use.length) {
+      const j = use[prev < 0 ? 0 : prev]!
+      const flag = { code: 'mass-bias-not-bracketed', message: `no ${materialId} standard on both sides: the one at position ${standards[j]!.item.position} alone corrects this acquisition`, position }
+      return { x: Math.exp(lnX[j]!), uRelMeasured: Math.sqrt(relVar[j]!), selfWeight: 0, sources: [{ index: standards[j]!.i, weight: 1 }], flags: [flag] }
     }
-    const t0 = standards[prev]!.item.acquiredAt
-    const t1 = standards[after]!.item.acquiredAt
+    const [a, b] = [use[prev]!, use[after]!]
+    const t0 = standards[a]!.item.acquiredAt
+    const t1 = standards[b]!.item.acquiredAt
     const wAfter = t1 > t0 ? (t - t0) / (t1 - t0) : 0.5
     const wPrev = 1 - wAfter
     return {
-      x: Math.exp(wPrev * lnX[prev]! + wAfter * lnX[after]!),
-      uRelMeasured: Math.sqrt(wPrev * wPrev * relVar[prev]! + wAfter * wAfter * relVar[after]!),
+      x: Math.exp(wPrev * lnX[a]! + wAfter * lnX[b]!),
+      uRelMeasured: Math.sqrt(wPrev * wPrev * relVar[a]! + wAfter * wAfter * relVar[b]!),
       selfWeight: 0,
+      sources: [{ index: standards[a]!.i, weight: wPrev }, { index: standards[b]!.i, weight: wAfter }],
       flags: [],
     }
+  }
+  const perItem = items.map((item, i): ReferenceFactor | null => {
+    if (!refMeasured[i]) return null
+    const own = standards.findIndex(s => s.i === i)
+    // A lone standard can only be corrected by itself (its reference ratio then comes back exact).
+    if (own >= 0 && standards.length === 1) return { x: Math.exp(lnX[own]!), uRelMeasured: Math.sqrt(relVar[own]!), selfWeight: 1, sources: [{ index: i, weight: 1 }], flags: [] }
+    return bracket(item.acquiredAt, item.position, own)
   })
   const parameters = {
     normalisation: 'standard-bracketing',
     bracketing: 'ln(R_known/R_measured) interpolated linearly in acquisition time between the neighbouring standards',
+    standardsChecked: standards.length > 1 ? 'each standard corrected from the other standards (leave one out), so its residual tests the bracketing' : 'one standard: corrected by itself',
     standards: standards.map(s => ({
       position: s.item.position, acquiredAt: s.item.acquiredAt, measured: s.b, parameter: fractionationFromReference(step.law, s.b!, known, ref),
     })),

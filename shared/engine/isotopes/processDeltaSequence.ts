@@ -2,9 +2,11 @@ import type { MethodDefinition, MethodStep } from '../../schemas/methods'
 import { EngineError } from '../errors'
 import { BRAND_2010 } from './isotopologues'
 import { VPDB_TO_VSMOW_18O, quantityScales } from './referenceMaterials'
-import { bracketReferenceGas, gasRatios, h3Factor, measuredItems, subtractBlank, type DeltaWork } from './deltaSteps'
+import { bracketReferenceGas, foldDrift, gasRatios, h3Factor, measuredItems, subtractBlank, type DeltaWork } from './deltaSteps'
 import { co2ToScale, correctDrift, gasQuantities, moleculesToScale, type ScaleContext } from './deltaScale'
-import { NORMALISATION_SOURCE, extrapolationFlags, normaliseQuantity, standardResiduals } from './deltaNormalise'
+import { addReproducibility, type Reproducibility } from './reproducibility'
+import { coverageFactor } from './studentT'
+import { NORMALISATION_SOURCE, extrapolationFlags, reducedChi2Limit99, normaliseQuantity, standardResiduals } from './deltaNormalise'
 import type { AppliedStep, DriftFit, MaterialValues, Measured, Normalisation, OutcomeFlag, SequenceItem, SequenceOutcome } from './types'
 
 // A δ sequence (CO2, N2, O2, H2) processed under one method: its steps run in the method's
@@ -17,7 +19,7 @@ type Stage = 'ratios' | 'molecular' | 'scale' | 'normalised'
 
 const SOURCES: Record<MethodStep['step'], string> = {
   'blank': 'procedural blank, mean of the blanks (GUM JCGM 100:2008 4.2.3); common practice, no source',
-  'h3-factor': 'Sessions, Burgoyne & Hayes, Anal. Chem. 73 (2001) 192 (from memory)',
+  'h3-factor': 'Sessions, Burgoyne & Hayes, Anal. Chem. 73 (2001) 192 and 200 (from memory)',
   'reference-gas': 'Coplen, Rapid Commun. Mass Spectrom. 25 (2011) 2538 (δ against the reference gas)',
   'oxygen-17': BRAND_2010.source,
   'drift': 'weighted least squares (Bevington & Robinson, Data Reduction and Error Analysis, 3rd ed. 2003, §6.4)',
@@ -30,8 +32,9 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   if (method.gas === 'Ar') throw new EngineError('gas', 'not-a-delta-system', 'argon sequences are processed by the mass-bias engine, not as δ values')
   const gas: DeltaGas = method.gas
   if (!items.length) throw new EngineError('items', 'empty', 'the sequence has no acquisitions')
+  validateItems(items)
   const ratioKeys = [...gasRatios[gas].required, ...gasRatios[gas].optional]
-  const quantities = gasQuantities[gas].filter(q => gas !== 'O2' || q !== 'δ17O' || items.some(i => '33/32' in i.ratios || '33' in i.beams))
+  const quantities = gasQuantities[gas].filter(q => gas !== 'O2' || q !== 'δ17O' || items.some(i => Object.hasOwn(i.ratios, '33/32') || Object.hasOwn(i.beams, '33')))
   const scales = Object.fromEntries(quantities.map(q => [q, q === 'δ18O' && gas === 'CO2' ? (method.oxygenScale ?? 'VPDB') : quantityScales[q]!]))
   const normaliseIndex = method.steps.findIndex(s => s.step === 'normalise')
   const work: DeltaWork[] = items
@@ -43,6 +46,19 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   const normalisation: Normalisation[] = []
   let stage = 'ratios' as Stage
   let accepted = true
+  // Type A reproducibility, once per quantity: before the drift fit when there is one (so that
+  // the slope's u counts it), else before the normalisation, else at the end.
+  const reproducibility: Reproducibility[] = []
+  const addScatter = (q: string, line?: Parameters<typeof addReproducibility>[2]) => {
+    if (reproducibility.some(r => r.quantity === q) || !work.some(w => measuredItems(w) && w.values[q])) return
+    const r = addReproducibility(work, q, line)
+    reproducibility.push(r)
+    for (const m of r.materials) {
+      const limit = reducedChi2Limit99(m.dof)
+      if (m.reducedChi2 > limit) flags.push({ code: 'anchor-scatter', message: `${m.material} ${q}: its ${m.n} acquisitions scatter beyond their stated u and the other standards' reproducibility (χ²/ν = ${m.reducedChi2.toFixed(2)} > ${limit.toFixed(2)}, 99 %)` })
+    }
+    if (r.dof === 0) flags.push({ code: 'reproducibility-unknown', message: `${q}: no standard was measured twice, so run-to-run reproducibility is not in u` })
+  }
 
   const ctx = (): ScaleContext => ({ gas, scales, referenceGas: referenceGasValues(method, quantities, normaliseIndex >= 0), includeReferenceU: normaliseIndex < 0 })
   const toScale = () => {
@@ -84,18 +100,24 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
         co2ToScale(work, ctx())
         for (const w of work.filter(measuredItems)) for (const q of quantities) w.raw[q] = { ...w.values[q]! }
         stage = 'scale'
-        parameters = { set: step.parameters, lambda: BRAND_2010.lambda, K: BRAND_2010.K, R13VPDB: BRAND_2010.r13, R18VPDB: BRAND_2010.r18, R17VPDB: BRAND_2010.r17, referenceGas: ctx().referenceGas, oxygenScale: scales['δ18O'], ...(scales['δ18O'] === 'VSMOW' ? { vpdbToVsmow: VPDB_TO_VSMOW_18O } : {}) }
+        parameters = { set: step.parameters, lambda: BRAND_2010.lambda, K: BRAND_2010.K, R13VPDB: BRAND_2010.r13, R18VPDBCO2: BRAND_2010.r18, R17VPDBCO2: BRAND_2010.r17, referenceGas: ctx().referenceGas, oxygenScale: scales['δ18O'], ...(scales['δ18O'] === 'VSMOW' ? { vpdbToVsmow: VPDB_TO_VSMOW_18O } : {}) }
         break
       case 'drift': {
         need(['scale'], 'after the δ values are on the scale and before the normalisation')
+        // Reproducibility first, from every replicated standard about its own mean with one
+        // common drift slope (so the slope is neither mistaken for scatter nor its fitted error
+        // counted in it); the drift fit then weights its points with it, so u(slope) carries it.
+        const t0 = Math.min(...work.map(w => w.item.acquiredAt))
+        for (const q of quantities) addScatter(q, { x: w => step.model === 'linear-time' ? (w.item.acquiredAt - t0) / 3_600_000 : w.item.position })
         const fits = correctDrift(work, quantities, step.model, step.material, field)
         drift.push(...fits)
-        parameters = { model: step.model, material: step.material, slopes: Object.fromEntries(fits.map(f => [f.quantity, f.slope])), unit: step.model === 'linear-time' ? '‰ per hour' : '‰ per position' }
+        parameters = { model: step.model, material: step.material, reproducibility: reproducibility.filter(r => quantities.includes(r.quantity)), slopes: Object.fromEntries(fits.map(f => [f.quantity, f.slope])), unit: step.model === 'linear-time' ? '‰ per hour' : '‰ per position' }
         break
       }
       case 'normalise': {
         need(['scale'], 'after the δ values are on the scale, once')
         checkAnchors(step.anchors, method.acceptance.minAnchors, items, materials, field)
+        for (const q of quantities) addScatter(q)
         const unanchored: EngineError[] = []
         for (const q of quantities) {
           const before = new Map(work.filter(measuredItems).flatMap(w => w.values[q] ? [[w, w.values[q]!.value] as const] : []))
@@ -122,7 +144,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
         }
         if (unanchored.length === quantities.length) throw unanchored[0]!
         stage = 'normalised'
-        parameters = { anchors: step.anchors, fits: normalisation.map(n => ({ quantity: n.quantity, slope: n.slope, intercept: n.intercept, covariance: n.covariance, rmsResidual: n.rmsResidual })) }
+        parameters = { anchors: step.anchors, fits: normalisation.map(n => ({ quantity: n.quantity, slope: n.slope, intercept: n.intercept, covariance: n.covariance, rmsResidual: n.rmsResidual, ...(n.mswd !== undefined ? { mswd: n.mswd } : {}) })), reproducibility }
         break
       }
       default:
@@ -133,8 +155,23 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   if (stage === 'molecular') throw new EngineError('steps', 'oxygen-17-required', 'CO2 needs the oxygen-17 step after the reference gas to reach δ13C and δ18O')
   if (stage === 'ratios') throw new EngineError('steps', 'incomplete', 'the method needs a reference-gas step to reach δ values')
 
+  for (const q of quantities) addScatter(q)
+  // A drift no normalisation consumed (none ran, or a quantity had no anchor) counts in u now.
+  for (const w of work) for (const q of quantities) foldDrift(w, q)
   const residuals = quantities.map(q => standardResiduals(work, q, scales[q]!, materials, method.acceptance.maxStandardResidual, flags))
   if (flags.some(f => f.code === 'standard-residual')) accepted = false
+  // k from the effective degrees of freedom (GUM G.4.1, Welch–Satterthwaite): the
+  // reproducibility term is the only component estimated from few replicates; every other is
+  // taken as exactly known (ν = ∞). Its share in an acquisition is the normalisation's slope
+  // times s (the anchors' s²/n through the line is left out: a small, slightly optimistic part).
+  const scaled = (w: DeltaWork, q: string) => {
+    const v = w.values[q]!
+    const r = reproducibility.find(x => x.quantity === q)
+    const c = r && r.s > 0 ? r.s * Math.abs((normalisation.find(n => n.quantity === q)?.slope.value ?? 1) * (1 + (w.raw[q]?.value ?? 0) / 1000)) : 0
+    if (!r || !(c > 0) || !(v.u > 0)) return { ...v, scale: scales[q]!, k: 2 }
+    const dof = Math.min(1e6, v.u ** 4 / (c ** 4 / r.dof))
+    return { ...v, scale: scales[q]!, k: dof >= 1e6 ? 2 : coverageFactor(dof), effectiveDof: dof }
+  }
   return {
     gas,
     quantities,
@@ -143,7 +180,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
       role: w.item.role,
       ...(w.item.material ? { material: w.item.material } : {}),
       raw: measuredItems(w) ? w.raw : w.ratios,
-      final: Object.fromEntries(quantities.filter(q => w.values[q]).map(q => [q, { ...w.values[q]!, scale: scales[q]!, k: 2 }])),
+      final: Object.fromEntries(quantities.filter(q => w.values[q]).map(q => [q, scaled(w, q)])),
       ...(residuals.some(r => r.has(w)) ? { residual: Object.fromEntries(quantities.flatMap((q, j) => residuals[j]!.has(w) ? [[q, residuals[j]!.get(w)!]] : [])) } : {}),
       flags: w.flags,
     })),
@@ -178,6 +215,23 @@ function checkAnchors(anchors: string[], minAnchors: number, items: SequenceItem
     if (!Object.hasOwn(materials, id)) throw new EngineError(`${field}.anchors[${j}]`, 'unknown-material', `${id} is not a known reference material or working standard`)
     if (!items.some(it => it.material === id && it.role !== 'sample' && it.role !== 'reference-gas' && it.role !== 'blank')) {
       throw new EngineError(`${field}.anchors[${j}]`, 'anchor-not-in-sequence', `the anchor ${id} was not measured in this sequence`)
+    }
+  })
+}
+
+/** Every value finite, every u finite and not negative (ratios: positive), positions unique. */
+function validateItems(items: SequenceItem[]): void {
+  const seen = new Map<number, number>()
+  items.forEach((item, i) => {
+    if (!Number.isFinite(item.position)) throw new EngineError(`items[${i}].position`, 'not-finite', 'must be a finite number')
+    if (seen.has(item.position)) throw new EngineError(`items[${i}].position`, 'duplicate', `position ${item.position} is also items[${seen.get(item.position)}]`)
+    seen.set(item.position, i)
+    if (!Number.isFinite(item.acquiredAt)) throw new EngineError(`items[${i}].acquiredAt`, 'not-finite', 'must be a time in ms since the epoch')
+    for (const [kind, record] of [['beams', item.beams], ['ratios', item.ratios]] as const) {
+      for (const [key, m] of Object.entries(record)) {
+        if (!Number.isFinite(m.value)) throw new EngineError(`items[${i}].${kind}.${key}.value`, 'not-finite', 'must be a finite number')
+        if (!Number.isFinite(m.u) || m.u < 0 || (kind === 'ratios' && m.u === 0)) throw new EngineError(`items[${i}].${kind}.${key}.u`, 'bad-uncertainty', kind === 'ratios' ? 'a measured ratio needs a positive standard uncertainty' : 'must be a finite number, not negative')
+      }
     }
   })
 }

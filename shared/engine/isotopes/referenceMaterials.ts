@@ -12,8 +12,12 @@ export const quantityScales: Record<string, string> = { 'δ13C': 'VPDB', 'δ15N'
 
 /** Absolute isotope ratios of the scales' zero points (each with its source; all from memory). */
 export const scaleRatios = {
-  /** Brand, Assonov & Coplen, Pure Appl. Chem. 82 (2010) 1719, the IUPAC set for VPDB-CO2 (from memory). */
-  VPDB: { '13R': 0.011180, '18R': 0.0020672, '17R': 0.0003931, source: 'Brand, Assonov & Coplen, Pure Appl. Chem. 82 (2010) 1719' },
+  /**
+   * The IUPAC 17O-correction set for CO2 (Brand, Assonov & Coplen, Pure Appl. Chem. 82 (2010)
+   * 1719, from memory): 13R of VPDB, 18R of VPDB-CO2 (CO2 evolved from VPDB at 25 °C), and the
+   * 17O parameters K and λ as the paper states them.
+   */
+  'VPDB-CO2': { '13R': 0.011180, '18R': 0.002088349, K: 0.01022461, lambda: 0.528, source: 'Brand, Assonov & Coplen, Pure Appl. Chem. 82 (2010) 1719' },
   /** VSMOW: 18R Baertschi (1976), 17R Li et al. (1988), 2R Hagemann et al. (1970) (from memory). */
   VSMOW: { '2R': referenceRatios['VSMOW:2H/1H'].ratio, '18R': referenceRatios['VSMOW:18O/16O'].ratio, '17R': 0.0003799, source: 'Baertschi, EPSL 31 (1976) 341; Li et al., Chin. Sci. Bull. 33 (1988) 1610; Hagemann et al., Tellus 22 (1970) 712' },
   /** Atmospheric N2, 15N/14N (Junk & Svec, GCA 14 (1958) 234; from memory). */

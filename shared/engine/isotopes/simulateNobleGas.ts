@@ -7,8 +7,10 @@ import type { SequenceItem, SequenceRole } from './types'
 // tested against a known truth:
 //  - the gas in the source at inlet (t = 0): the aliquot's argon plus the procedural blank
 //    (atmospheric composition), as ion currents at the source's sensitivity;
-//  - instrumental mass fractionation by the exponential law, I_meas,i = I_i·(m_i/m_36)^(−β)
-//    (Russell et al., Geochim. Cosmochim. Acta 42 (1978) 1075), with one β per sequence drawn
+//  - instrumental mass fractionation, by default the exponential law, I_meas,i = I_i·(m_i/m_36)^(−β)
+//    (Russell et al., Geochim. Cosmochim. Acta 42 (1978) 1075), or the power law I_meas,i =
+//    I_i·(1 + β)^(−(m_i − m_36)) or the linear law I_meas,i = I_i/(1 + β·(m_i − m_36)) (same source;
+//    typed here on the measured side, apart from the engine's massBias.ts), with one β per sequence drawn
 //    at random unless given (0.1–0.7, about 0.3–2 ‰ per u at argon's masses: the range of gas
 //    source noble-gas instruments, common practice, no source); AME2020 masses;
 //  - with time since inlet, either first-order consumption by the source, I_i(t) = I_i(0)·e^(−λ_i t),
@@ -40,12 +42,24 @@ export interface SimulatedArgonItem {
 export interface ArgonSequenceSimulation {
   seed: number
   items: SimulatedArgonItem[]
-  /** Exponential-law β of the sequence; drawn in [0.1, 0.7] when omitted. */
+  /** The law's parameter: exponential β, or power/linear fractionation per u; exponential β drawn in [0.1, 0.7] when omitted. */
   beta?: number
+  /** Fractionation law of the source; default exponential. */
+  law?: 'exponential' | 'power' | 'linear'
+  /** β changing linearly with the acquisition's start time, per hour (a source drifting within the sequence); default 0. */
+  betaDriftPerHour?: number
   /** True atmospheric ratios of the air standards and the blank; Lee et al. (2006) values when omitted. */
   air?: ArgonTruth
   /** Procedural blank's 40Ar current at inlet, in A; default 0. */
   blank40A?: number
+  /**
+   * Run-to-run relative standard deviation of the blank: every acquisition (blank or not) gets its
+   * own draw blank40A·(1 + spread·N(0, 1)), as an extraction line's blank varies between runs; default 0.
+   * With `blankSpreadPerBeam` each beam draws on its own (a background at one m/z, such as H35Cl+ at 36,
+   * that varies apart from the atmospheric blank); otherwise one draw scales the blank's atmospheric composition.
+   */
+  blankSpreadRel?: number
+  blankSpreadPerBeam?: boolean
   evolution?: { kind: 'consumption', ratePerS: number } | { kind: 'ingrowth', current40APerS: number } | { kind: 'none' }
   cycles?: number
   firstCycleS?: number
@@ -79,9 +93,17 @@ export function simulateArgonSequence(sim: ArgonSequenceSimulation): SimulatedAr
   const T = sim.temperatureK ?? 293.15
   const resistor: Record<Mass, number> = { 36: 1e12, 38: 1e12, 40: 1e11, ...sim.resistorOhm }
   const evolution = sim.evolution ?? { kind: 'none' }
-  const bias = (m: Mass) => (MASSES[m] / MASSES[36]) ** -beta
+  const law = sim.law ?? 'exponential'
+  const bias = (m: Mass, b: number) => {
+    const dm = MASSES[m] - MASSES[36]
+    if (law === 'power') return (1 + b) ** -dm
+    if (law === 'linear') return 1 / (1 + b * dm)
+    return (MASSES[m] / MASSES[36]) ** -b
+  }
   const currents = (r: ArgonTruth, i40: number): Record<Mass, number> => ({ 40: i40, 36: i40 / r['40/36'], 38: (i40 / r['40/36']) * r['38/36'] })
-  const blank = currents(air, sim.blank40A ?? 0)
+  // A separate stream, so that sequences simulated without a blank spread keep their draws.
+  const blankNormal = seededNormal(sim.seed * 7919 + 11)
+  const spread = sim.blankSpreadRel ?? 0
   const airShare = currents(air, 1)
   const truth: (ArgonTruth | null)[] = []
   const items = sim.items.map((spec, index): SequenceItem => {
@@ -90,14 +112,19 @@ export function simulateArgonSequence(sim: ArgonSequenceSimulation): SimulatedAr
     if (!isBlank && !r) throw new Error(`simulated item ${index} needs its true ratios`)
     truth.push(r)
     const aliquot = r ? currents(r, spec.current40A ?? 1e-11) : { 36: 0, 38: 0, 40: 0 }
+    const acquiredAt = (sim.startAt ?? Date.UTC(2026, 0, 5, 8)) + index * (sim.spacingMs ?? 30 * 60_000)
+    const betaHere = beta + (sim.betaDriftPerHour ?? 0) * (index * (sim.spacingMs ?? 30 * 60_000)) / 3_600_000
+    const common = spread > 0 ? 1 + spread * blankNormal() : 1
+    const atmospheric = currents(air, sim.blank40A ?? 0)
+    const blank = Object.fromEntries(BEAMS.map(m => [m, atmospheric[m] * (sim.blankSpreadPerBeam && spread > 0 ? 1 + spread * blankNormal() : common)])) as Record<Mass, number>
     const cycles: { t: number, beams: Record<string, number> }[] = []
     for (let c = 0; c < n; c++) {
       const t = first + c * spacing
       const beams: Record<string, number> = {}
       for (const m of BEAMS) {
-        let I = (aliquot[m] + blank[m]) * bias(m)
+        let I = (aliquot[m] + blank[m]) * bias(m, betaHere)
         if (evolution.kind === 'consumption') I *= Math.exp(-evolution.ratePerS * Math.sqrt(MASSES[40] / MASSES[m]) * t)
-        else if (evolution.kind === 'ingrowth') I += evolution.current40APerS * airShare[m] * bias(m) * t
+        else if (evolution.kind === 'ingrowth') I += evolution.current40APerS * airShare[m] * bias(m, betaHere) * t
         const sd = Math.sqrt(E_C * Math.max(I, 0) / tau + 2 * BOLTZMANN_J_PER_K * T / (resistor[m] * tau))
         beams[String(m)] = I + sd * normal()
       }
@@ -116,7 +143,7 @@ export function simulateArgonSequence(sim: ArgonSequenceSimulation): SimulatedAr
       position: index + 1,
       role: spec.role,
       ...(spec.material ? { material: spec.material } : {}),
-      acquiredAt: (sim.startAt ?? Date.UTC(2026, 0, 5, 8)) + index * (sim.spacingMs ?? 30 * 60_000),
+      acquiredAt,
       beams,
       ratios,
       cycles,

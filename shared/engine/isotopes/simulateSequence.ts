@@ -26,6 +26,13 @@ export interface SimulatedInstrument {
   fractionationPermilPerU: number
   /** Its linear drift, ‰ per mass unit per hour. */
   driftPermilPerUPerHour: number
+  /**
+   * Run-to-run reproducibility: a fractionation drawn afresh for every sample-path acquisition,
+   * N(0, σ) in ‰ per mass unit, on top of the noise the engine is told about (a real
+   * instrument's scatter between acquisitions is usually several times its counting noise;
+   * made-up test magnitude, no source). 0 or absent: none.
+   */
+  scatterPermilPerU?: number
   /** Procedural blank in every sample-path acquisition: its major-beam current (A) and δ. */
   blank?: { majorA: number, delta: Record<string, number> }
   /** H2: H3+ current = K·i2², K in 1/A. */
@@ -127,7 +134,8 @@ export function simulateSequence(sim: SequenceSimulation): SequenceItem[] {
       const a = abundances(acq.truth)
       // Memory: the background gas mixed in at the molecular level (linear in abundances).
       const mixed = samplePath ? Object.fromEntries(Object.keys(a).map(k => [k, (1 - ins.memoryFraction) * a[k]! + ins.memoryFraction * background[k]!])) : a
-      const phi = samplePath ? ins.fractionationPermilPerU + ins.driftPermilPerUPerHour * hours : 0
+      const scatter = samplePath && ins.scatterPermilPerU ? ins.scatterPermilPerU * normal() : 0
+      const phi = samplePath ? ins.fractionationPermilPerU + ins.driftPermilPerUPerHour * hours + scatter : 0
       beams = beamsOf(mixed, major, acq.majorA, phi)
     }
     if (ins.blank && acq.role !== 'reference-gas') {
