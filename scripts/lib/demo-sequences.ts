@@ -205,10 +205,10 @@ export function demoArgonSequences(now = Date.now()): DemoSequence[] {
   for (let k = 0; k < DEMO_ARGON_SEQUENCE_COUNT; k++) {
     const startMs = firstDay + k * 3.5 * DAY + 9 * 3_600_000
     // Rocks with radiogenic 40Ar in excess of air (invented), and air's 38Ar/36Ar.
-    const rock = (j: number) => ({ role: 'sample' as const, truth: { '40/36': 420 + 95 * ((k + j) % 4), '38/36': 0.1885 }, current40A: 1.5e-11 })
-    const air = { role: 'working-standard' as const, material: ATMOSPHERIC_ARGON.id, current40A: 1e-11 }
+    const rock = (j: number) => ({ role: 'sample' as const, truth: { '40/36': 420 + 95 * ((k + j) % 4), '38/36': 0.1885 }, current40A: 1.5e-9 })
+    const air = { role: 'working-standard' as const, material: ATMOSPHERIC_ARGON.id, current40A: 1e-9 }
     const specs = [{ role: 'blank' as const }, air, rock(0), rock(1), air, rock(2), rock(3), air, { role: 'blank' as const }]
-    const sim = simulateArgonSequence({ seed: 500 + k, items: specs, beta: 0.35 + 0.04 * Math.sin(k), blank40A: 2e-14, startAt: startMs, spacingMs: 40 * 60_000 })
+    const sim = simulateArgonSequence({ seed: 500 + k, items: specs, beta: 0.35 + 0.04 * Math.sin(k), blank40A: 2e-12, startAt: startMs, spacingMs: 40 * 60_000 })
     const id = `HR-${new Date(startMs).toISOString().slice(0, 10)}-AR`
     let sample = 0
     out.push({
