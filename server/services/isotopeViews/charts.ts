@@ -1,4 +1,4 @@
-import { and, desc, eq, inArray, sql } from 'drizzle-orm'
+import { and, desc, eq, gte, inArray, sql } from 'drizzle-orm'
 import type { ControlChartList, ControlChartView, IsotopeAttention } from '#shared/schemas/isotopeViews'
 import { controlPoints, instruments, labs, sequences } from '../../database/schema'
 import { controlChart, listControlCharts } from '../sequences'
@@ -85,11 +85,11 @@ export async function isotopeAttentionFor(labIds: string[] | null): Promise<Isot
   const scope = labIds ? inArray(controlPoints.labId, labIds.length ? labIds : ['00000000-0000-0000-0000-000000000000']) : undefined
   const points = await db.select({ p: controlPoints, lab: labs.name, externalId: sequences.externalId })
     .from(controlPoints).innerJoin(labs, eq(labs.id, controlPoints.labId)).leftJoin(sequences, eq(sequences.id, controlPoints.sequenceId))
-    .where(and(scope, sql`cardinality(${controlPoints.violations}) > 0`, sql`${controlPoints.at} >= ${since}`))
+    .where(and(scope, sql`cardinality(${controlPoints.violations}) > 0`, gte(controlPoints.at, since)))
     .orderBy(desc(controlPoints.at)).limit(20)
   const seqScope = labIds ? inArray(sequences.labId, labIds.length ? labIds : ['00000000-0000-0000-0000-000000000000']) : undefined
   const failed = await db.select({ s: sequences, lab: labs.name }).from(sequences).innerJoin(labs, eq(labs.id, sequences.labId))
-    .where(and(seqScope, sql`${sequences.createdAt} >= ${since}`, sql`(${sequences.status} = 'failed' or (${sequences.outcome}->>'accepted') = 'false')`))
+    .where(and(seqScope, gte(sequences.createdAt, since), sql`(${sequences.status} = 'failed' or (${sequences.outcome}->>'accepted') = 'false')`))
     .orderBy(desc(sequences.createdAt)).limit(20)
   return {
     violations: points.flatMap(({ p, lab, externalId }) => p.violations.map(rule => ({
