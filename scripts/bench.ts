@@ -10,6 +10,7 @@ import { benchDelivery } from './bench-delivery'
 import { benchEngine } from './bench-engine'
 import { benchIngest } from './bench-ingest'
 import { benchLatency } from './bench-latency'
+import { benchSequence } from './bench-sequence'
 import { log, root } from './lib/paths'
 import { findPgBin } from './lib/pg'
 
@@ -24,16 +25,18 @@ function versions() {
 
 const machine = { cores: cpus().length, cpu: cpus()[0]?.model ?? 'unknown', memoryGb: Math.round(totalmem() / 2 ** 30) }
 log(`benchmarks on ${machine.cores} cores (${machine.cpu}); about five minutes`)
-log('1/4 engine')
+log('1/5 engine')
 const engine = benchEngine()
-log('2/4 ingest and the 10^6-point upload')
+log('2/5 ingest and the 10^6-point upload')
 const ingest = await benchIngest()
-log('3/4 delivery')
+log('3/5 delivery')
 const delivery = await benchDelivery()
-log('4/4 ingest-to-receipt latency')
+log('4/5 ingest-to-receipt latency')
 const latency = await benchLatency()
+log('5/5 a 200-acquisition sequence')
+const sequence = await benchSequence()
 
-const report = { kind: 'bench', at: new Date().toISOString(), machine, versions: versions(), engine, ingest, delivery, latency }
+const report = { kind: 'bench', at: new Date().toISOString(), machine, versions: versions(), engine, ingest, delivery, latency, sequence }
 mkdirSync(join(root, 'reports'), { recursive: true })
 const file = join(root, 'reports', `bench-${report.at.replace(/[:.]/g, '-')}.json`)
 writeFileSync(file, JSON.stringify(report, null, 2))
@@ -64,6 +67,7 @@ const rows: Record<string, { figure: string, baseline: string, ratio: string, go
     figure: `p50 ${delivery.latency.ms.p50} ms, p99 ${delivery.latency.ms.p99} ms`, baseline: '', ratio: '', goal: 'p99 < 250 ms', verdict: met(delivery.latency.met),
   },
   'ingest-to-receipt latency': { figure: `p50 ${latency.latencyMs.p50} ms, p99 ${latency.latencyMs.p99} ms`, baseline: '', ratio: '', goal: '', verdict: `${latency.received}/${latency.acquisitions} received` },
+  'sequence: 200 acquisitions (1,000 points) end to end': { figure: `median ${sequence.medianMs} ms`, baseline: `runs ${sequence.runs.join(', ')} ms`, ratio: '', goal: '< 2 s', verdict: met(sequence.met) },
 }
 console.log(`\n  Arcwise benchmarks · ${machine.cores} cores · ${machine.cpu} · Node ${process.version} · ${report.versions.postgresql}`)
 console.table(rows)

@@ -3,6 +3,7 @@
 import { buildIfStale } from './lib/build'
 import { log } from './lib/paths'
 import { postDemoHistory } from './lib/lab-system'
+import { postDemoArgonSequences, postDemoSequences } from './lib/demo-sequences'
 import { demoKeysFile, printDemoSignIns, readDemoKeys, seedDemo } from './lib/seed'
 import { mailFile, startServer, startStack, waitForServer } from './lib/services'
 import { createDemoEndpoints, demoEndpointSecrets } from './lib/demo-webhooks'
@@ -42,6 +43,11 @@ if (seeded) {
   log(`made ${await createDemoEndpoints(`http://127.0.0.1:${port}`, receiver.url)} demo webhook endpoints`)
   // The demo's acquisitions go in through the API, as a lab system would post them.
   log(`posted ${await postDemoHistory(`http://127.0.0.1:${port}`, readDemoKeys())} demo acquisitions`)
+  // Four months of CO2 sequences with standards: normalised δ for the partner, control charts with one violation.
+  const saltmarshKey = readDemoKeys()['saltmarsh-isotopes']
+  if (saltmarshKey) log(`posted ${await postDemoSequences(`http://127.0.0.1:${port}`, saltmarshKey)} demo CO2 sequences`)
+  const halvardKey = readDemoKeys()['halvard-ridge']
+  if (halvardKey) log(`posted ${await postDemoArgonSequences(`http://127.0.0.1:${port}`, halvardKey)} demo argon sequences`)
 }
 printDemoSignIns(appUrl)
 log(`demo partner receiver (webhooks arriving): ${receiver.url}/`)

@@ -8,6 +8,7 @@ import { schemaParams } from './schemas/exchange'
 import { eventFeedQuery, peakQuery, tokenRequest } from './schemas/partners'
 import { DEFAULT_RETRY_SCHEDULE_S, resultEventData, thinResultEventData, webhookMessage } from './schemas/webhooks'
 import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, exchangeSchemaList, jwksView, peakListView, tokenView, uploadAccepted, uploadStatusView } from './schemas/responses'
+import { registerSequencePaths } from './openapiSequences'
 
 
 // The OpenAPI 3.1 document of API v1, generated from the zod schemas that the routes
@@ -160,6 +161,7 @@ export function buildOpenApiDocument() {
     request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage.extend({ data: z.union([resultEventData, thinResultEventData]) }).openapi({ example: { type: 'result.created', timestamp: '2026-11-30T14:05:02.118Z', data: { eventId: '5b0f…', lab: 'saltmarsh-isotopes', sequence: 412, id: '0d6c…', runId: 'carb-2026-11-30-017', instrument: 'irms-north', acquiredAt: '2026-11-30T14:05:00Z', sampleRef: 'CARB-1017', status: 'processed', receivedAt: '2026-11-30T14:05:02.118Z', result: '…' } } }) } } } },
     responses: { 200: { description: 'Any 2xx: received. 3xx is a failure (redirects are not followed); 410 disables the endpoint; 429 and 503 may carry Retry-After.' } },
   })
+  registerSequencePaths(registry, labKey.name, problems, signedHeaders)
   registry.registerWebhook({
     method: 'post', path: 'webhook.test', tags: ['Webhooks'], summary: 'A test message sent from the console',
     request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage } } } },

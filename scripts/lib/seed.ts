@@ -61,10 +61,10 @@ export async function seedDemo(url: string, opts: { keysFile?: string } = {}): P
                  values (${labId}, 'Lab simulator (demo)', ${prefix}, ${createHash('sha256').update(secret).digest('hex')}, ${['acquisitions:write', 'results:read']})`
         keys[inst.lab] = secret
       }
-      // Grants: each partner receives one lab's results; each partner has one client.
+      // Grants: each partner receives one lab's results, normalised too once a sequence is processed; each partner has one client.
       const demoGrants: [string, string][] = [['saltmarsh-isotopes', 'northgate-water'], ['kestrel-leaktest', 'northgate-water'], ['halvard-ridge', 'tidewater-clinical']]
       for (const [lab, partner] of demoGrants) {
-        await tx`insert into grants (lab_id, partner_id, event_types) values (${labIds.get(lab)!}, ${partnerIds.get(partner)!}, ${['result.created']})`
+        await tx`insert into grants (lab_id, partner_id, event_types) values (${labIds.get(lab)!}, ${partnerIds.get(partner)!}, ${['result.created', 'sequence.processed']})`
       }
       for (const p of demoPartners) {
         const clientId = `awc_${randomBytes(9).toString('base64url')}`

@@ -31,6 +31,8 @@ function isUploadRoute(path: string): boolean {
   const s = path.split('/').filter(Boolean)
   if (s.length === 3 && s[0] === 'api' && s[1] === 'v1' && s[2] === 'acquisitions') return true
   if (s.length === 5 && s[0] === 'api' && s[1] === 'console' && s[2] === 'labs' && s[4] === 'acquisitions') return true
+  // A whole sequence carries its acquisitions inline; one posted into a sequence is one acquisition.
+  if (s[0] === 'api' && s[1] === 'v1' && s[2] === 'sequences' && (s.length === 3 || (s.length === 5 && s[4] === 'acquisitions'))) return true
   return s.length === 2 && s[0] === '_bench' && s[1] === 'baseline'
 }
 

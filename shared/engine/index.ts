@@ -7,6 +7,11 @@ export * from './detectors'
 export * from './errors'
 export * from './fingerprint'
 export * from './geometry'
+// The isotope workflow (shared/engine/isotopes). Its value-with-u type is exported here as
+// IsotopeMeasured; `Measured` stays the units' value-with-unit (units.ts).
+export * from './isotopes'
+export type { Measured } from './units'
+export type { Measured as IsotopeMeasured } from './isotopes'
 export * from './pipeline'
 export * from './random'
 export * from './ratios'

@@ -42,6 +42,8 @@ export const acquisitionInput = z.object({
     baseline: z.array(finiteNumber).min(1).max(MAX_POINTS).optional()
       .describe('static readings: on-peak-zero or off-peak readings in the same unit, one per cycle (subtracted cycle by cycle) or a block (its mean subtracted, its standard error propagated)'),
   }).strict()).max(32).default([]),
+  cycleSeconds: z.array(finiteNumber.min(0, 'cannot be negative')).min(2, 'needs one time per cycle, at least two cycles').max(100_000).optional()
+    .describe('static readings in static vacuum: seconds since the gas was let in, one per cycle, in cycle order and as many as each detector column has values; lets a method regress the beams to the inlet time (time-zero)'),
   /** A spectrum already in m/z from the instrument's own software (as mzML carries it). */
   mzSpectrum: z.object({
     unit: z.string().min(1).max(16),
@@ -91,6 +93,15 @@ export const acquisitionInput = z.object({
       if (!z.collector) ctx.addIssue({ code: 'custom', path: ['baseline', 'zero', i, 'collector'], message: 'is required when several zero columns are given' })
       else if (!collectors.has(z.collector)) ctx.addIssue({ code: 'custom', path: ['baseline', 'zero', i, 'collector'], message: `no detector column has collector "${z.collector}"` })
     })
+  }
+  if (v.cycleSeconds) {
+    const t = v.cycleSeconds
+    if (v.sweep || v.mzSpectrum) ctx.addIssue({ code: 'custom', path: ['cycleSeconds'], message: 'only static readings have cycles; a sweep or an m/z spectrum has none' })
+    v.detectors.forEach((d, i) => {
+      if (d.values.length !== t.length) ctx.addIssue({ code: 'custom', path: ['cycleSeconds'], message: `has ${t.length} times, detectors[${i}] has ${d.values.length} cycles` })
+    })
+    const back = t.findIndex((x, i) => i > 0 && !(x > t[i - 1]!))
+    if (back > 0) ctx.addIssue({ code: 'custom', path: ['cycleSeconds', back], message: 'must be later than the previous cycle' })
   }
   const n = v.sweep?.values.length
   v.detectors.forEach((d, i) => {

@@ -36,7 +36,16 @@ export type MethodStep = z.infer<typeof methodStep>
 
 export const methodDefinition = z.object({
   gas: z.enum(['CO2', 'N2', 'O2', 'H2', 'Ar'], { error: 'must be CO2, N2, O2, H2 or Ar' }),
-  /** δ of the laboratory reference gas on the international scale(s), by quantity ("δ13C"). */
+  /**
+   * δ of the laboratory reference gas on the international scale(s), by quantity ("δ13C").
+   * CO2's δ18O is stated on the method's oxygenScale. VPDB (the default) means VPDB-CO2: the
+   * gas's 18O/16O against 18R_VPDB-CO2 = 0.002088349, the ratio the 17O correction uses (Brand,
+   * Assonov & Coplen, Pure Appl. Chem. 82 (2010) 1719; numerically the carbonate-equivalent δ18O
+   * on VPDB). VSMOW means that same carbonate-equivalent value carried onto VSMOW by
+   * δ_VSMOW = 1.03092·δ_VPDB + 30.92 (Brand et al., Pure Appl. Chem. 86 (2014) 425), which the
+   * engine inverts; it is NOT the CO2 gas's own δ18O against VSMOW (≈ 41 ‰ higher, the acid
+   * fractionation 1.01025 included): a gas calibrated that way must be entered on VPDB.
+   */
   referenceGas: z.record(z.string().max(16), z.object({ value: finite, u: finite.min(0) }).strict()).optional(),
   /** CO2: δ18O reported on VPDB (carbonates' convention) or VSMOW. */
   oxygenScale: z.enum(['VPDB', 'VSMOW']).optional(),

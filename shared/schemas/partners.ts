@@ -11,11 +11,12 @@ export const partnerClientInput = z.object({
 }).strict()
 export type PartnerClientInput = z.infer<typeof partnerClientInput>
 
-export const eventTypes = ['result.created'] as const
+/** `sequence.processed` reaches endpoints on result-event v2 or later (v1 does not describe it). */
+export const eventTypes = ['result.created', 'sequence.processed'] as const
 
 export const grantInput = z.object({
   partnerId: z.uuid({ error: 'must be a partner id' }),
-  eventTypes: z.array(z.enum(eventTypes)).min(1).default(['result.created']),
+  eventTypes: z.array(z.enum(eventTypes)).min(1).default([...eventTypes]),
 }).strict()
 
 /** The token endpoint's form body (RFC 6749 §4.4.2). */

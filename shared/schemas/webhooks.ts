@@ -24,7 +24,8 @@ export const endpointInput = z.object({
   eventTypes: z.array(z.enum(eventTypes, { error: `must be one of ${eventTypes.join(', ')}` })).min(1, 'choose at least one event type')
     .default([...eventTypes]).transform(s => [...new Set(s)]),
   labIds: z.array(uuid).max(100).default([]).transform(s => [...new Set(s)]),
-  schemaVersion: z.number().int().min(1).default(1),
+  // result-event v2: v1 (deprecated) does not describe processed sequences.
+  schemaVersion: z.number().int().min(1).default(2),
 }).strict()
 export type EndpointInput = z.infer<typeof endpointInput>
 

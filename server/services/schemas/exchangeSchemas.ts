@@ -1,6 +1,6 @@
 import { and, asc, desc, eq, sql } from 'drizzle-orm'
 import { z } from 'zod'
-import { exchangeSchemaSources, type ExchangeSchemaName } from '#shared/schemas/exchange'
+import { exchangeSchemaDeprecations, exchangeSchemaSources, type ExchangeSchemaName } from '#shared/schemas/exchange'
 import { exchangeSchemas, labs, schemaUsage } from '../../database/schema'
 
 /** Makes sure every schema version Arcwise speaks is in the registry (JSON Schema from zod). */
@@ -8,7 +8,8 @@ export async function registerExchangeSchemas() {
   for (const [name, versions] of Object.entries(exchangeSchemaSources)) {
     for (const [version, schema] of Object.entries(versions)) {
       const jsonSchema = z.toJSONSchema(schema as z.ZodType, { io: 'input', unrepresentable: 'any' }) as Record<string, unknown>
-      await useDb().insert(exchangeSchemas).values({ name, version: Number(version), jsonSchema: { ...jsonSchema, title: `${name} v${version}` } })
+      const deprecated = exchangeSchemaDeprecations[name as ExchangeSchemaName]?.[Number(version)]
+      await useDb().insert(exchangeSchemas).values({ name, version: Number(version), jsonSchema: { ...jsonSchema, title: `${name} v${version}` }, ...(deprecated ? { status: 'deprecated' as const, deprecatedAt: new Date(), sunsetAt: new Date(deprecated.sunsetAt) } : {}) })
         .onConflictDoUpdate({ target: [exchangeSchemas.name, exchangeSchemas.version], set: { jsonSchema: { ...jsonSchema, title: `${name} v${version}` } } })
     }
   }

@@ -57,8 +57,13 @@ export interface OutcomeFlag { code: string, message: string, position?: number 
 /** A quantity's final value for one acquisition, on its scale, with k for the expanded U. */
 export interface ScaledValue extends Measured {
   scale: string
-  /** Coverage factor for the expanded uncertainty U = k·u (GUM 6.2.1); 2 unless stated. */
+  /**
+   * Coverage factor for the expanded uncertainty U = k·u (GUM 6.2.1): 2, or Student's t at
+   * 95.45 % for effectiveDof when a Type A term with few degrees of freedom is in u (GUM G.4).
+   */
   k: number
+  /** Welch–Satterthwaite effective degrees of freedom of u (GUM G.4.1), when finite. */
+  effectiveDof?: number
 }
 
 export interface OutcomeItem {
@@ -82,7 +87,16 @@ export interface Normalisation {
   intercept: Measured
   covariance: number
   rmsResidual: number
-  anchors: { material: string, positions: number[], accepted: Measured, measuredMean: Measured, residual: number }[]
+  /**
+   * More than two anchors: χ²/ν of the anchors about the line (MSWD). Above 1 the line's
+   * covariance was multiplied by it (York et al. 2004; Birge-ratio inflation, common practice).
+   */
+  mswd?: number
+  anchors: {
+    material: string, positions: number[], accepted: Measured, measuredMean: Measured, residual: number
+    /** Scatter of the anchor's acquisitions about their mean against their stated u: χ²/ν (ν = n − 1; absent for one acquisition). */
+    reducedChi2?: number
+  }[]
 }
 
 export interface DriftFit {

@@ -1,0 +1,195 @@
+import { and, asc, eq, isNull, min, sql } from 'drizzle-orm'
+import { EngineError, acceptedValue, processDeltaSequence, sequenceItemFromResult, type EngineResult } from '#shared/engine'
+import { processRatioSequence } from '#shared/engine/isotopes/ratioSequence'
+import type { MaterialValues, SequenceItem, SequenceOutcome } from '#shared/engine/isotopes/types'
+import { CAUTION } from '#shared/caution'
+import { standardRoles, type SequenceEventData } from '#shared/schemas/sequences'
+import { acquisitions, deliveries, events, grants, instruments, labs, results, sequenceItems, sequences, webhookEndpoints, type methods } from '../../database/schema'
+import { methodInForce, methodVersion } from './methods'
+import { materialsAt, type ResolvedMaterial } from './materials'
+import { appendControlPoints, type NewControlPoint } from './charts'
+
+// Processing a closed sequence: every acquisition was processed by the engine at ingest; here
+// their results become the engine's sequence items, the method version and the standards in
+// force at each acquisition's time are loaded, and the δ engine (CO2, N2, O2, H2) or the
+// mass-bias engine (Ar) runs over the whole sequence. The outcome, the standards' control-chart
+// points and the `sequence.processed` event (with its deliveries) commit together.
+
+export const SEQUENCE_EVENT = 'sequence.processed'
+
+type SequenceRow = typeof sequences.$inferSelect
+type MethodRow = typeof methods.$inferSelect
+interface Failure { code: string, message: string, field?: string }
+
+async function members(sequenceId: string) {
+  return useDb().select({
+    position: sequenceItems.position, role: sequenceItems.role, material: sequenceItems.material,
+    acquisitionId: acquisitions.id, runId: acquisitions.externalId, sampleRef: acquisitions.sampleRef, acquiredAt: acquisitions.acquiredAt,
+    summary: results.summary,
+  }).from(sequenceItems)
+    .innerJoin(acquisitions, eq(acquisitions.id, sequenceItems.acquisitionId))
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), isNull(results.supersededBy)))
+    .where(eq(sequenceItems.sequenceId, sequenceId)).orderBy(asc(sequenceItems.position))
+}
+type Member = Awaited<ReturnType<typeof members>>[number]
+
+async function methodFor(row: SequenceRow): Promise<MethodRow | undefined> {
+  if (row.requestedMethodVersion !== null) return methodVersion(row.instrumentId, row.requestedMethodVersion)
+  const [first] = await useDb().select({ at: min(acquisitions.acquiredAt) }).from(sequenceItems)
+    .innerJoin(acquisitions, eq(acquisitions.id, sequenceItems.acquisitionId)).where(eq(sequenceItems.sequenceId, row.id))
+  return methodInForce(row.instrumentId, first?.at ?? row.createdAt)
+}
+
+/** Where in the request an engine refusal points: an acquisition by position, or the method. */
+function failureOf(error: EngineError, list: Member[]): Failure {
+  const item = /^items\[(\d+)\](.*)$/.exec(error.field)
+  const message = error.message.replace(/^[^:]+: /, '')
+  if (item) {
+    const m = list[Number(item[1])]
+    return { code: error.code, message, field: m ? `position.${m.position}${item[2]!.replace(/\[(\d+)\]/g, '.$1')}` : 'acquisitions' }
+  }
+  const field = error.field.replace(/\[(\d+)\]/g, '.$1')
+  return { code: error.code, message, field: field.startsWith('method.') ? field : `method.${field}` }
+}
+
+/**
+ * Runs the engine over a closed sequence and stores what came out: `processed` with its
+ * outcome (and the event partners receive), or `failed` with the reason.
+ */
+export async function processSequence(row: SequenceRow): Promise<void> {
+  try { await runSequence(row) }
+  catch (error) {
+    // A fault of Arcwise's own, not of the sequence: it is left failed, not closed for ever, and can be reprocessed.
+    logError('[sequences] processing failed', error)
+    await fail(row, null, { code: 'processing-error', message: 'processing stopped on an internal error; the hub\'s operators have the log' })
+  }
+}
+
+async function runSequence(row: SequenceRow): Promise<void> {
+  const list = await members(row.id)
+  const method = await methodFor(row)
+  if (!method) return fail(row, null, { code: 'no-method', field: 'method', message: 'the instrument has no method in force at the sequence\'s first acquisition' })
+  const uses = list.map(m => ({ material: m.material ?? '', at: m.acquiredAt }))
+  const standardsAt = list.map((m, i) => m.material ? i : -1).filter(i => i >= 0)
+  const { found, missing } = await materialsAt(row.labId, standardsAt.map(i => uses[i]!))
+  if (missing.length) {
+    const m = list[standardsAt[missing[0]!]!]!
+    return fail(row, method, { code: 'unknown-material', field: `position.${m.position}.material`, message: `no material "${m.material}" valid at ${m.acquiredAt.toISOString()}` })
+  }
+  // The method's materials that the sequence did not measure still take part (the engine says
+  // which anchors are missing): each is resolved at the sequence's last acquisition.
+  const materials = new Map<string, ResolvedMaterial>()
+  for (const material of found.values()) materials.set(material.id, material)
+  const named = methodMaterials(method).filter(id => !materials.has(id))
+  if (named.length) {
+    const last = list.at(-1)?.acquiredAt ?? new Date()
+    const more = await materialsAt(row.labId, named.map(material => ({ material, at: last })))
+    for (const material of more.found.values()) materials.set(material.id, material)
+  }
+
+  let outcome: SequenceOutcome
+  try {
+    const items: SequenceItem[] = list.map(m => sequenceItemFromResult(m.summary as unknown as EngineResult, {
+      position: m.position, role: m.role, material: m.material ?? undefined, acquiredAt: m.acquiredAt.getTime(),
+    }))
+    const values: MaterialValues[] = [...materials.values()].map(({ id, name, values, source }) => ({ id, name, values, source }))
+    outcome = method.definition.gas === 'Ar'
+      ? processRatioSequence(method.definition, items, values)
+      : processDeltaSequence(method.definition, items, Object.fromEntries(values.map(v => [v.id, v])))
+  }
+  catch (error) {
+    if (error instanceof EngineError) return fail(row, method, failureOf(error, list))
+    throw error
+  }
+
+  const points = controlPointsOf(row, outcome, list, materials)
+  await useDb().transaction(async (tx) => {
+    const appended = await appendControlPoints(tx, points)
+    const flagged = appended.some(p => p.violations.length > 0)
+    const flags = appended.filter(p => p.violations.length).map(p => ({ code: 'control-chart-violation', message: `${p.material} ${p.quantity}: ${p.violations.join(', ')}`, position: p.position ?? undefined }))
+    const stored: SequenceOutcome = { ...outcome, flags: [...outcome.flags, ...flags] }
+    await tx.update(sequences).set({ status: 'processed', outcome: stored, methodId: method.id, flagged, failure: null, processedAt: sql`now()` }).where(eq(sequences.id, row.id))
+    const instrument = await tx.query.instruments.findFirst({ where: eq(instruments.id, row.instrumentId), columns: { slug: true } })
+    const data = eventData(row, instrument?.slug ?? '', method, stored, list, materials, flagged)
+    await recordSequenceEvent(tx, row.labId, data)
+  })
+  kickDeliveries()
+}
+
+/** Every material a method names (anchors, drift and mass-bias standards). */
+function methodMaterials(method: MethodRow): string[] {
+  return method.definition.steps.flatMap(s => s.step === 'normalise' ? s.anchors : s.step === 'drift' ? [s.material] : s.step === 'mass-bias' && s.material ? [s.material] : [])
+}
+
+async function fail(row: SequenceRow, method: MethodRow | null, failure: Failure) {
+  await useDb().update(sequences).set({ status: 'failed', failure, methodId: method?.id ?? null, processedAt: sql`now()` }).where(eq(sequences.id, row.id))
+}
+
+/** Each standard's final value against its accepted value, per quantity: a control-chart point. */
+function controlPointsOf(row: SequenceRow, outcome: SequenceOutcome, list: Member[], materials: Map<string, ResolvedMaterial>): NewControlPoint[] {
+  const at = new Map(list.map(m => [m.position, m.acquiredAt]))
+  return outcome.items.flatMap((item) => {
+    if (!standardRoles.includes(item.role) || !item.material) return []
+    const material = materials.get(item.material)
+    if (!material) return []
+    return Object.entries(item.final).flatMap(([quantity, final]) => {
+      // On the final value's scale (δ18O of CO2 converted between VPDB and VSMOW when the material states the other).
+      const accepted = final.scale && !/measured/.test(final.scale) ? safeAccepted(material, quantity, final.scale) : (Object.hasOwn(material.values, quantity) ? material.values[quantity] : undefined)
+      if (!accepted) return []
+      return [{ labId: row.labId, instrumentId: row.instrumentId, material: item.material!, quantity, at: at.get(item.position)!, value: final.value, accepted: accepted.value, u: Math.hypot(final.u, accepted.u), sequenceId: row.id, position: item.position }]
+    })
+  })
+}
+
+function safeAccepted(material: MaterialValues, quantity: string, scale: string) {
+  try { return acceptedValue(material, quantity, scale) }
+  catch (error) {
+    if (error instanceof EngineError) return undefined
+    throw error
+  }
+}
+
+function eventData(row: SequenceRow, instrument: string, method: MethodRow, outcome: SequenceOutcome, list: Member[], materials: Map<string, ResolvedMaterial>, flagged: boolean): SequenceEventData {
+  const byPosition = new Map(list.map(m => [m.position, m]))
+  return {
+    kind: 'sequence', id: row.id, sequenceId: row.externalId, instrument, status: 'processed', processedAt: new Date().toISOString(),
+    accepted: outcome.accepted, flagged,
+    method: { id: method.id, version: method.version, name: method.name, gas: method.definition.gas },
+    samples: outcome.items.filter(i => i.role === 'sample').map((item) => {
+      const m = byPosition.get(item.position)!
+      return {
+        position: item.position, acquisitionId: m.acquisitionId, runId: m.runId, sampleRef: m.sampleRef, acquiredAt: m.acquiredAt.toISOString(),
+        values: Object.entries(item.final).map(([quantity, v]) => ({ quantity, scale: v.scale, value: v.value, u: v.u, k: v.k, U: v.k * v.u, raw: item.raw[quantity] ?? null })),
+        flags: item.flags,
+      }
+    }),
+    standards: outcome.items.filter(i => standardRoles.includes(i.role) && i.material).map(item => ({
+      position: item.position, material: item.material!, role: item.role, acquiredAt: byPosition.get(item.position)!.acquiredAt.toISOString(), values: item.final, residual: item.residual ?? null,
+    })),
+    materials: [...materials.values()].map(m => ({ id: m.id, kind: m.kind, version: m.version, values: m.values })),
+    normalisation: outcome.normalisation, drift: outcome.drift, steps: outcome.steps, flags: outcome.flags,
+    caution: CAUTION,
+  }
+}
+
+/**
+ * The outbox event and one delivery per entitled endpoint (as `fanOut` writes them for
+ * results, with the schema-version condition), in the caller's transaction; the lab's event
+ * number is taken under its row's lock, as acquisitions' events are.
+ */
+async function recordSequenceEvent(tx: Queryable, labId: string, data: SequenceEventData) {
+  await tx.execute(sql`
+    with seq as (
+      update ${labs} set event_sequence = event_sequence + 1 where id = ${labId} returning id as lab_id, event_sequence as last),
+    ev as (
+      insert into ${events} (lab_id, sequence, type, payload)
+      select lab_id, last, ${SEQUENCE_EVENT}, ${JSON.stringify(data)}::jsonb from seq
+      returning id, lab_id)
+    insert into ${deliveries} (endpoint_id, event_id, event_type)
+    select e.id, ev.id, ${SEQUENCE_EVENT} from ev
+    join ${webhookEndpoints} e on e.status in ('active', 'paused') and ${SEQUENCE_EVENT} = any(e.event_types)
+      and (cardinality(e.lab_ids) = 0 or ev.lab_id = any(e.lab_ids))
+      -- result-event v1 does not describe this message: endpoints on v1 keep receiving results only.
+      and e.schema_version >= 2
+    join ${grants} g on g.partner_id = e.partner_id and g.lab_id = ev.lab_id and ${SEQUENCE_EVENT} = any(g.event_types)`)
+}
