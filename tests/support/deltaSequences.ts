@@ -71,7 +71,7 @@ export function buildSequence(c: DeltaCase, seed: number, options: { noise?: boo
     // the early standards is extrapolated to the samples, so its slope's u dominates theirs.
     std(c.anchors[0]!)
     ref(1)
-    for (const id of standards.slice(1)) { std(id); ref(1.4); std(id); ref(0.8) }
+    for (let k = 0; k < (options.replicates ?? 1); k++) for (const id of standards.slice(1)) { std(id); ref(1.4); std(id); ref(0.8) }
     for (let k = 0; k < 12; k++) ref(1)
     for (const s of c.samples) { layout.push({ role: 'sample', truth: s, majorA }); samplePositions.push({ position: layout.length, truth: s }); ref(1.2) }
     blank()

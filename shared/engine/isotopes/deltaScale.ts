@@ -1,7 +1,7 @@
 import { EngineError } from '../errors'
 import { propagate } from '../uncertainty'
 import { composeDelta, co2DeltasWithU, o2DeltasFromMolecular } from './isotopologues'
-import { vpdbToVsmow18O, vsmowToVpdb18O } from './referenceMaterials'
+import { VPDB_TO_VSMOW_18O, vpdbToVsmow18O, vsmowToVpdb18O } from './referenceMaterials'
 import { weightedLine } from './regression'
 import { foldDrift, measuredItems, type DeltaWork } from './deltaSteps'
 import type { DriftFit, GasSystem, Measured } from './types'
@@ -43,7 +43,15 @@ export function co2ToScale(work: DeltaWork[], ctx: ScaleContext): void {
     const out = co2DeltasWithU(w.values['δ45']!, w.values['δ46']!, ref, ctx.includeReferenceU)
     w.values['δ13C'] = out.d13C
     w.values['δ18O'] = oxygenVsmow ? vpdbToVsmow18O(out.d18O) : out.d18O
+    carryRefVar(w, ['δ45', 'δ46'], ['δ13C', 'δ18O'], x => co2DeltasWithU(x[0]!, x[1]!, ref, false), out => [out.d13C.u, (oxygenVsmow ? VPDB_TO_VSMOW_18O.factor : 1) * out.d18O.u])
   }
+}
+
+/** The reference-gas variance of molecular δ carried onto the scale's quantities by the same model. */
+function carryRefVar<T>(w: DeltaWork, from: string[], to: string[], model: (x: Measured[]) => T, us: (out: T) => number[]): void {
+  if (!from.every(k => w.refVar?.[k] !== undefined)) return
+  const out = us(model(from.map(k => ({ value: w.values[k]!.value, u: Math.sqrt(w.refVar![k]!) }))))
+  w.refVar = { ...w.refVar, ...Object.fromEntries(to.map((q, i) => [q, out[i]! ** 2])) }
 }
 
 /**
@@ -60,6 +68,7 @@ export function moleculesToScale(work: DeltaWork[], ctx: ScaleContext): void {
       const r = ctx.referenceGas[q]!
       const p = propagate(x => composeDelta(x[0]!, x[1]!), [d, { value: r.value, u: refU(q) }])
       w.values[q] = { value: p.value, u: p.u }
+      if (w.refVar?.[m] !== undefined) w.refVar = { ...w.refVar, [q]: w.refVar[m]! * (1 + r.value / 1000) ** 2 }
     }
     else {
       const d34 = w.values['δ34']!
@@ -72,6 +81,8 @@ export function moleculesToScale(work: DeltaWork[], ctx: ScaleContext): void {
       const o17 = propagate(model('d17O'), inputs)
       w.values['δ18O'] = { value: o18.value, u: o18.u }
       w.values['δ17O'] = { value: o17.value, u: o17.u }
+      // Near-unit sensitivities (δ18O ≈ δ34, δ17O ≈ δ33): the reference gas's variance carried as is.
+      if (w.refVar?.['δ34'] !== undefined) w.refVar = { ...w.refVar, 'δ18O': w.refVar['δ34']!, 'δ17O': w.refVar['δ33'] ?? 0 }
     }
   }
 }

@@ -5,6 +5,7 @@ import { VPDB_TO_VSMOW_18O, quantityScales } from './referenceMaterials'
 import { bracketReferenceGas, foldDrift, gasRatios, h3Factor, measuredItems, subtractBlank, type DeltaWork } from './deltaSteps'
 import { co2ToScale, correctDrift, gasQuantities, moleculesToScale, type ScaleContext } from './deltaScale'
 import { addReproducibility, type Reproducibility } from './reproducibility'
+import { SHARED_TERMS_SOURCE, addSharedTerms } from './sharedTerms'
 import { coverageFactor } from './studentT'
 import { NORMALISATION_SOURCE, extrapolationFlags, reducedChi2Limit99, normaliseQuantity, standardResiduals } from './deltaNormalise'
 import type { AppliedStep, DriftFit, MaterialValues, Measured, Normalisation, OutcomeFlag, SequenceItem, SequenceOutcome } from './types'
@@ -29,6 +30,59 @@ const SOURCES: Record<MethodStep['step'], string> = {
 }
 
 export function processDeltaSequence(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>): SequenceOutcome {
+  const run = runDeltaSteps(method, items, materials)
+  const shared = addSharedTerms(run, items, (changed, blankShift) => runDeltaSteps(method, changed, materials, blankShift))
+  const { gas, quantities, scales, work, reproducibility, normalisation, drift, steps, flags } = run
+  const residuals = quantities.map(q => standardResiduals(work, q, scales[q]!, materials, method.acceptance.maxStandardResidual, flags))
+  const accepted = run.accepted && !flags.some(f => f.code === 'standard-residual')
+  // k from the effective degrees of freedom (GUM G.4.1, Welch–Satterthwaite): the
+  // reproducibility term is the only component estimated from few replicates; every other is
+  // taken as exactly known (ν = ∞). Its share in an acquisition is the normalisation's slope
+  // times s (the anchors' s²/n through the line is left out: a small, slightly optimistic part).
+  const scaled = (w: DeltaWork, q: string) => {
+    const v = w.values[q]!
+    const r = reproducibility.find(x => x.quantity === q)
+    const c = r && r.s > 0 ? r.s * Math.abs((normalisation.find(n => n.quantity === q)?.slope.value ?? 1) * (1 + (w.raw[q]?.value ?? 0) / 1000)) : 0
+    if (!r || !(c > 0) || !(v.u > 0)) return { ...v, scale: scales[q]!, k: 2 }
+    const dof = Math.min(1e6, v.u ** 4 / (c ** 4 / r.dof))
+    return { ...v, scale: scales[q]!, k: dof >= 1e6 ? 2 : coverageFactor(dof), effectiveDof: dof }
+  }
+  return {
+    gas,
+    quantities,
+    items: work.map(w => ({
+      position: w.item.position,
+      role: w.item.role,
+      ...(w.item.material ? { material: w.item.material } : {}),
+      raw: measuredItems(w) ? w.raw : w.ratios,
+      final: Object.fromEntries(quantities.filter(q => w.values[q]).map(q => [q, scaled(w, q)])),
+      ...(residuals.some(r => r.has(w)) ? { residual: Object.fromEntries(quantities.flatMap((q, j) => residuals[j]!.has(w) ? [[q, residuals[j]!.get(w)!]] : [])) } : {}),
+      flags: w.flags,
+    })),
+    normalisation,
+    drift,
+    steps,
+    flags,
+    accepted,
+    ...(shared.length ? { sharedTerms: { source: SHARED_TERMS_SOURCE, terms: shared } } : {}),
+  }
+}
+
+export interface DeltaRun {
+  gas: DeltaGas
+  quantities: string[]
+  scales: Record<string, string>
+  work: DeltaWork[]
+  reproducibility: Reproducibility[]
+  normalisation: Normalisation[]
+  drift: DriftFit[]
+  steps: AppliedStep[]
+  flags: OutcomeFlag[]
+  accepted: boolean
+}
+
+/** The method's steps on the items; `blankShift` moves the blank mean (shared-term propagation). */
+export function runDeltaSteps(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>, blankShift?: Record<string, number>): DeltaRun {
   if (method.gas === 'Ar') throw new EngineError('gas', 'not-a-delta-system', 'argon sequences are processed by the mass-bias engine, not as δ values')
   const gas: DeltaGas = method.gas
   if (!items.length) throw new EngineError('items', 'empty', 'the sequence has no acquisitions')
@@ -76,7 +130,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
     switch (step.step) {
       case 'blank':
         need(['ratios'], 'before the reference-gas step (it acts on beams)')
-        parameters = subtractBlank(work, ratioKeys, field)
+        parameters = subtractBlank(work, ratioKeys, field, blankShift)
         break
       case 'h3-factor':
         if (gas !== 'H2') throw new EngineError(`${field}.step`, 'not-for-gas', `the H3+ factor applies to H2, not ${gas}`)
@@ -158,38 +212,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   for (const q of quantities) addScatter(q)
   // A drift no normalisation consumed (none ran, or a quantity had no anchor) counts in u now.
   for (const w of work) for (const q of quantities) foldDrift(w, q)
-  const residuals = quantities.map(q => standardResiduals(work, q, scales[q]!, materials, method.acceptance.maxStandardResidual, flags))
-  if (flags.some(f => f.code === 'standard-residual')) accepted = false
-  // k from the effective degrees of freedom (GUM G.4.1, Welch–Satterthwaite): the
-  // reproducibility term is the only component estimated from few replicates; every other is
-  // taken as exactly known (ν = ∞). Its share in an acquisition is the normalisation's slope
-  // times s (the anchors' s²/n through the line is left out: a small, slightly optimistic part).
-  const scaled = (w: DeltaWork, q: string) => {
-    const v = w.values[q]!
-    const r = reproducibility.find(x => x.quantity === q)
-    const c = r && r.s > 0 ? r.s * Math.abs((normalisation.find(n => n.quantity === q)?.slope.value ?? 1) * (1 + (w.raw[q]?.value ?? 0) / 1000)) : 0
-    if (!r || !(c > 0) || !(v.u > 0)) return { ...v, scale: scales[q]!, k: 2 }
-    const dof = Math.min(1e6, v.u ** 4 / (c ** 4 / r.dof))
-    return { ...v, scale: scales[q]!, k: dof >= 1e6 ? 2 : coverageFactor(dof), effectiveDof: dof }
-  }
-  return {
-    gas,
-    quantities,
-    items: work.map(w => ({
-      position: w.item.position,
-      role: w.item.role,
-      ...(w.item.material ? { material: w.item.material } : {}),
-      raw: measuredItems(w) ? w.raw : w.ratios,
-      final: Object.fromEntries(quantities.filter(q => w.values[q]).map(q => [q, scaled(w, q)])),
-      ...(residuals.some(r => r.has(w)) ? { residual: Object.fromEntries(quantities.flatMap((q, j) => residuals[j]!.has(w) ? [[q, residuals[j]!.get(w)!]] : [])) } : {}),
-      flags: w.flags,
-    })),
-    normalisation,
-    drift,
-    steps,
-    flags,
-    accepted,
-  }
+  return { gas, quantities, scales, work, reproducibility, normalisation, drift, steps, flags, accepted }
 }
 
 /** The reference gas's δ on the scale; when a normalisation follows, an unknown one may be taken as 0. */

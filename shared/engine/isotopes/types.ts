@@ -118,4 +118,9 @@ export interface SequenceOutcome {
   flags: OutcomeFlag[]
   /** False when an acceptance rule of the method failed: the sequence must not be released. */
   accepted: boolean
+  /**
+   * Errors common to many acquisitions (blank mean, reference-gas acquisitions, hence the H3+
+   * factor), each propagated once through every step to every result (GUM 5.2): its name and u.
+   */
+  sharedTerms?: { source: string, terms: { term: string, u: number }[] }
 }
