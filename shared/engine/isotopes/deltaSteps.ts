@@ -121,9 +121,14 @@ export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField:
  * linearly with the m/z 2 beam, R_meas = R_true + K·i2 (Sessions, Burgoyne & Hayes, Anal. Chem.
  * 73 (2001) 192 and 200, the correction and the determination of K; from memory). K is the
  * slope of the reference-gas acquisitions' 3/2 against i2 (weighted least squares); every
- * acquisition's ratio is then R − K·i2, with u(K) carried into δ by the bracketing.
+ * acquisition's ratio is then R − K·i2. R − K·i2 on whole-acquisition means is right only for
+ * steady signals (dual-inlet style mean currents): a transient peak's H3+ grows with i2² point
+ * by point, so its integral is not K·(mean i2)·(area), and Sessions et al. correct such peaks
+ * point by point. Items whose beams are peak areas are therefore refused, not corrected.
  */
 export function h3Factor(work: DeltaWork[], stepField: string): Record<string, unknown> {
+  const swept = work.find(w => w.item.role !== 'blank' && w.item.beamKind === 'peak-area')
+  if (swept) throw new EngineError(`items[${swept.index}].beamKind`, 'not-steady-signal', `position ${swept.item.position} has swept peak areas: the H3+ factor needs steady mean beam currents in amperes (dual-inlet style); a transient peak must be corrected point by point before it is posted`)
   const refs = work.filter(w => w.item.role === 'reference-gas')
   const i2 = (w: DeltaWork) => {
     const b = Object.hasOwn(w.beams, '2') ? w.beams['2'] : undefined
