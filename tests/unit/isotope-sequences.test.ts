@@ -36,7 +36,7 @@ describe('normalised sample δ recovered within 0.05 ‰ (noise off, standards a
     if (gas === 'O2') expect(out.flags.map(f => f.code)).toContain('not-normalised')
   })
 
-  it('CO2 with δ18O on VSMOW (Coplen et al. 1983 conversion) and a procedural blank subtracted', () => {
+  it('CO2 with δ18O on VSMOW (Brand et al. 2014 conversion) and a procedural blank subtracted', () => {
     const c = { ...cases.CO2!, oxygenScale: 'VSMOW' as const, samples: [{ 'δ13C': -25.3, 'δ18O': 22.6 }, { 'δ13C': -12.0, 'δ18O': 15.0 }], referenceGas: { 'δ13C': -36.2, 'δ18O': 18.0 } }
     const built = buildSequence(c, 4, { noise: false, drawStandards: false, blanks: true })
     const method = caseMethod(c)

@@ -32,7 +32,7 @@ export interface ScaleContext {
 
 /**
  * CO2, the oxygen-17 step: δ45 and δ46 against the reference gas → δ13C (VPDB) and δ18O
- * (VPDB, or VSMOW by Coplen et al. 1983) through the exact isotopologue equations with the
+ * (VPDB-CO2, or VSMOW by Brand et al. 2014) through the exact isotopologue equations with the
  * Brand et al. (2010) parameter set.
  */
 export function co2ToScale(work: DeltaWork[], ctx: ScaleContext): void {
