@@ -1,6 +1,6 @@
 import { EngineError } from '../errors'
 import { propagate } from '../uncertainty'
-import { composeDelta, co2DeltasWithU, o2DeltasFromMolecular } from './isotopologues'
+import { composeDelta, co2DeltasFromMolecular, co2DeltasWithU, o2DeltasFromMolecular } from './isotopologues'
 import { VPDB_TO_VSMOW_18O, vpdbToVsmow18O, vsmowToVpdb18O } from './referenceMaterials'
 import { weightedLine } from './regression'
 import { foldDrift, measuredItems, type DeltaWork } from './deltaSteps'
@@ -28,6 +28,8 @@ export interface ScaleContext {
    * since an error common to every acquisition is removed by it (to first order).
    */
   includeReferenceU: boolean
+  /** Values only (shared-term reruns): u of each quantity taken from the first run. */
+  uOf?: (w: DeltaWork, quantity: string) => number | undefined
 }
 
 /**
@@ -40,6 +42,12 @@ export function co2ToScale(work: DeltaWork[], ctx: ScaleContext): void {
   const ref18 = ctx.referenceGas['δ18O']!
   const ref = { d13C: ctx.referenceGas['δ13C']!, d18O: oxygenVsmow ? vsmowToVpdb18O(ref18) : ref18 }
   for (const w of work.filter(measuredItems)) {
+    if (ctx.uOf) {
+      const v = co2DeltasFromMolecular(w.values['δ45']!.value, w.values['δ46']!.value, { d13C: ref.d13C.value, d18O: ref.d18O.value })
+      w.values['δ13C'] = { value: v.d13C, u: ctx.uOf(w, 'δ13C') ?? 0 }
+      w.values['δ18O'] = { value: oxygenVsmow ? vpdbToVsmow18O({ value: v.d18O, u: 0 }).value : v.d18O, u: ctx.uOf(w, 'δ18O') ?? 0 }
+      continue
+    }
     const out = co2DeltasWithU(w.values['δ45']!, w.values['δ46']!, ref, ctx.includeReferenceU)
     w.values['δ13C'] = out.d13C
     w.values['δ18O'] = oxygenVsmow ? vpdbToVsmow18O(out.d18O) : out.d18O

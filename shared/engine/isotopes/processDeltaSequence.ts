@@ -31,7 +31,10 @@ const SOURCES: Record<MethodStep['step'], string> = {
 
 export function processDeltaSequence(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>): SequenceOutcome {
   const run = runDeltaSteps(method, items, materials)
-  const shared = addSharedTerms(run, items, (changed, blankShift) => runDeltaSteps(method, changed, materials, blankShift))
+  // Reruns need values only: the CO2 step takes u as the first run found it (same weights).
+  const byPosition = new Map(run.work.map(w => [w.item.position, w]))
+  const uOf = (w: DeltaWork, q: string) => byPosition.get(w.item.position)?.raw[q]?.u
+  const shared = addSharedTerms(run, items, (changed, blankShift) => runDeltaSteps(method, changed, materials, blankShift, uOf))
   const { gas, quantities, scales, work, reproducibility, normalisation, drift, steps, flags } = run
   const residuals = quantities.map(q => standardResiduals(work, q, scales[q]!, materials, method.acceptance.maxStandardResidual, flags))
   const accepted = run.accepted && !flags.some(f => f.code === 'standard-residual')
@@ -82,7 +85,7 @@ export interface DeltaRun {
 }
 
 /** The method's steps on the items; `blankShift` moves the blank mean (shared-term propagation). */
-export function runDeltaSteps(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>, blankShift?: Record<string, number>): DeltaRun {
+export function runDeltaSteps(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>, blankShift?: Record<string, number>, uOf?: ScaleContext['uOf']): DeltaRun {
   if (method.gas === 'Ar') throw new EngineError('gas', 'not-a-delta-system', 'argon sequences are processed by the mass-bias engine, not as δ values')
   const gas: DeltaGas = method.gas
   if (!items.length) throw new EngineError('items', 'empty', 'the sequence has no acquisitions')
@@ -114,7 +117,7 @@ export function runDeltaSteps(method: MethodDefinition, items: SequenceItem[], m
     if (r.dof === 0) flags.push({ code: 'reproducibility-unknown', message: `${q}: no standard was measured twice, so run-to-run reproducibility is not in u` })
   }
 
-  const ctx = (): ScaleContext => ({ gas, scales, referenceGas: referenceGasValues(method, quantities, normaliseIndex >= 0), includeReferenceU: normaliseIndex < 0 })
+  const ctx = (): ScaleContext => ({ gas, scales, referenceGas: referenceGasValues(method, quantities, normaliseIndex >= 0), includeReferenceU: normaliseIndex < 0, ...(uOf ? { uOf } : {}) })
   const toScale = () => {
     moleculesToScale(work, ctx())
     for (const w of work.filter(measuredItems)) for (const q of quantities) if (w.values[q]) w.raw[q] = { ...w.values[q]! }

@@ -17,10 +17,11 @@ export const SHARED_TERMS_SOURCE = 'GUM JCGM 100:2008 5.2 (correlated inputs): e
 export function addSharedTerms(base: DeltaRun, items: SequenceItem[], rerun: (items: SequenceItem[], blankShift?: Record<string, number>) => DeltaRun): { term: string, u: number }[] {
   const extra = new Map<number, Record<string, number>>()
   const terms: { term: string, u: number }[] = []
+  const byPosition = new Map(base.work.map(w => [w.item.position, w]))
   const collect = (term: string, u: number, run: DeltaRun) => {
     terms.push({ term, u })
     run.work.filter(measuredItems).forEach((w) => {
-      const b = base.work.find(x => x.item.position === w.item.position)!
+      const b = byPosition.get(w.item.position)!
       const acc = extra.get(w.item.position) ?? {}
       for (const q of base.quantities) {
         if (b.values[q] && w.values[q]) acc[q] = (acc[q] ?? 0) + (w.values[q]!.value - b.values[q]!.value) ** 2
