@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest'
 import {
-  BRAND_2010, VPDB_TO_VSMOW_18O, acceptedValue, reducedChi2Limit99, co2AtomicRatios, co2DeltasFromMolecular, co2MolecularRatios, composeDelta, isotopologueAbundances,
+  BRAND_2010, VPDB_TO_VSMOW_18O, acceptedValue, coverageFactor, reducedChi2Limit99, co2AtomicRatios, co2DeltasFromMolecular, co2MolecularRatios, composeDelta, isotopologueAbundances,
   o2DeltasFromMolecular, o2MolecularRatios, referenceMaterials, scaleRatios, weightedLine, yorkFit,
 } from '../../shared/engine'
 
@@ -117,6 +117,16 @@ describe('N2, O2 and H2 molecular ratios (combinatorics of the random distributi
     const a = isotopologueAbundances('H2', { 'δ2H': -427.5 })
     expect(a[3]! / a[2]! / 2 / scaleRatios.VSMOW['2R']).toBeCloseTo(0.5725, 12)
     expect(composeDelta(-100, -50)).toBeCloseTo(-145, 12)
+  })
+})
+
+describe('coverage factor for few degrees of freedom', () => {
+  it.each([[1, 13.97], [2, 4.53], [3, 3.31], [4, 2.87], [5, 2.65], [6, 2.52], [8, 2.37], [10, 2.28], [20, 2.13], [50, 2.05]])('t_95.45 with ν = %i is %f (GUM JCGM 100:2008 Table G.2; from memory)', (dof, k) => {
+    expect(coverageFactor(dof)).toBeCloseTo(k, 2)
+  })
+
+  it('tends to 2 for a normal output (ν → ∞)', () => {
+    expect(Math.abs(coverageFactor(1e9) - 2)).toBeLessThan(1e-3)
   })
 })
 
