@@ -78,7 +78,7 @@ function coverage(gas: string, variant: Variant = 'plain'): Stats[] {
 }
 
 describe(`stated u (k as stated) of normalised δ covers the truth over ${SEEDS} simulated sequences (band ${BAND.map(b => b.toFixed(3)).join('–')})`, () => {
-  it.each<[string, Variant]>([['CO2', 'plain'], ['N2', 'plain'], ['O2', 'plain'], ['H2', 'plain'], ['CO2', 'blank-nearest'], ['N2', 'blank-nearest'], ['O2', 'blank-nearest'], ['H2', 'blank-nearest'], ['CO2', 'noise-dominated'], ['N2', 'noise-dominated'], ['H2', 'noise-dominated'], ['N2', 'drift-lever'], ['CO2', 'drift-lever'], ['CO2', 'scatter'], ['O2', 'scatter'], ['H2', 'scatter']])('%s, %s', (gas, variant) => {
+  it.each<[string, Variant]>([['CO2', 'plain'], ['N2', 'plain'], ['O2', 'plain'], ['H2', 'plain'], ['CO2', 'blank-nearest'], ['N2', 'blank-nearest'], ['O2', 'blank-nearest'], ['H2', 'blank-nearest'], ['CO2', 'noise-dominated'], ['N2', 'noise-dominated'], ['H2', 'noise-dominated'], ['N2', 'drift-lever'], ['CO2', 'drift-lever'], ['CO2', 'scatter'], ['N2', 'scatter'], ['O2', 'scatter'], ['H2', 'scatter']])('%s, %s', (gas, variant) => {
     const stats = coverage(gas, variant)
     console.log(gas, variant, JSON.stringify(stats.map(s => ({ ...s, meanBias: +s.meanBias.toFixed(5), meanU: +s.meanU.toFixed(5), worst: +s.worst.toFixed(4), meanZ2: +s.meanZ2.toFixed(3), expectedZ2: +s.expectedZ2.toFixed(3), meanK: +s.meanK.toFixed(3), sdError: +s.sdError.toFixed(5) }))))
     for (const s of stats) {
@@ -87,12 +87,5 @@ describe(`stated u (k as stated) of normalised δ covers the truth over ${SEEDS}
       expect(s.within2u, `${s.quantity} within 2u`).toBeGreaterThanOrEqual(BAND[0])
       expect(s.within2u, `${s.quantity} within 2u`).toBeLessThanOrEqual(BAND[1])
     }
-  }, 120_000)
-
-  // A known gap, kept visible: with the run-to-run scatter on, N2's stated u is ≈ 11 % short
-  // (mean z² 1.30 against 1.05 expected; 2u coverage 0.940 is inside its band). Its cause was
-  // not found; this test starts failing when it is fixed, and must then move into the list above.
-  it.fails('N2, scatter: mean z² within three standard errors of its expectation (known gap)', () => {
-    for (const s of coverage('N2', 'scatter')) expect(Math.abs(s.meanZ2 / s.expectedZ2 - 1)).toBeLessThan(3 * Math.sqrt(s.varZ2 / SEEDS) / s.expectedZ2)
   }, 120_000)
 })

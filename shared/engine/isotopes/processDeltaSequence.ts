@@ -31,6 +31,13 @@ const SOURCES: Record<MethodStep['step'], string> = {
 
 export function processDeltaSequence(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>): SequenceOutcome {
   const run = runDeltaSteps(method, items, materials)
+  // u² before the shared terms, with and without the reproducibility term: their difference is
+  // the part of u² that scales with the estimated s² (the acquisition's own s, and s through the
+  // anchors' means and the drift slope), the part with few degrees of freedom.
+  const uWith = new Map(run.work.map(w => [w.item.position, Object.fromEntries(Object.entries(w.values).map(([q, v]) => [q, v.u]))]))
+  const uWithout = run.reproducibility.some(r => r.s > 0)
+    ? new Map(runDeltaSteps(method, items, materials, undefined, undefined, true).work.map(w => [w.item.position, Object.fromEntries(Object.entries(w.values).map(([q, v]) => [q, v.u]))]))
+    : undefined
   // Reruns need values only: the CO2 step takes u as the first run found it (same weights).
   const byPosition = new Map(run.work.map(w => [w.item.position, w]))
   const uOf = (w: DeltaWork, q: string) => byPosition.get(w.item.position)?.raw[q]?.u
@@ -40,14 +47,16 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   const accepted = run.accepted && !flags.some(f => f.code === 'standard-residual')
   // k from the effective degrees of freedom (GUM G.4.1, Welch–Satterthwaite): the
   // reproducibility term is the only component estimated from few replicates; every other is
-  // taken as exactly known (ν = ∞). Its share in an acquisition is the normalisation's slope
-  // times s (the anchors' s²/n through the line is left out: a small, slightly optimistic part).
+  // taken as exactly known (ν = ∞). Its share c² of u² is everything s² brought in: the
+  // acquisition's own term and s through the anchors' means, the line and the drift slope.
   const scaled = (w: DeltaWork, q: string) => {
     const v = w.values[q]!
     const r = reproducibility.find(x => x.quantity === q)
-    const c = r && r.s > 0 ? r.s * Math.abs((normalisation.find(n => n.quantity === q)?.slope.value ?? 1) * (1 + (w.raw[q]?.value ?? 0) / 1000)) : 0
-    if (!r || !(c > 0) || !(v.u > 0)) return { ...v, scale: scales[q]!, k: 2 }
-    const dof = Math.min(1e6, v.u ** 4 / (c ** 4 / r.dof))
+    const a = uWith.get(w.item.position)?.[q]
+    const b = uWithout?.get(w.item.position)?.[q]
+    const c2 = r && r.s > 0 && a !== undefined && b !== undefined ? Math.max(0, a * a - b * b) : 0
+    if (!r || !(c2 > 0) || !(v.u > 0)) return { ...v, scale: scales[q]!, k: 2 }
+    const dof = Math.min(1e6, v.u ** 4 / (c2 ** 2 / r.dof))
     return { ...v, scale: scales[q]!, k: dof >= 1e6 ? 2 : coverageFactor(dof), effectiveDof: dof }
   }
   return {
@@ -84,8 +93,8 @@ export interface DeltaRun {
   accepted: boolean
 }
 
-/** The method's steps on the items; `blankShift` moves the blank mean (shared-term propagation). */
-export function runDeltaSteps(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>, blankShift?: Record<string, number>, uOf?: ScaleContext['uOf']): DeltaRun {
+/** The method's steps; `blankShift` moves the blank mean, `uOf` asks for values only (shared-term reruns), `noReproducibility` leaves the Type A term out (for its share in u). */
+export function runDeltaSteps(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>, blankShift?: Record<string, number>, uOf?: ScaleContext['uOf'], noReproducibility = false): DeltaRun {
   if (method.gas === 'Ar') throw new EngineError('gas', 'not-a-delta-system', 'argon sequences are processed by the mass-bias engine, not as δ values')
   const gas: DeltaGas = method.gas
   if (!items.length) throw new EngineError('items', 'empty', 'the sequence has no acquisitions')
@@ -107,7 +116,7 @@ export function runDeltaSteps(method: MethodDefinition, items: SequenceItem[], m
   // the slope's u counts it), else before the normalisation, else at the end.
   const reproducibility: Reproducibility[] = []
   const addScatter = (q: string, line?: Parameters<typeof addReproducibility>[2]) => {
-    if (reproducibility.some(r => r.quantity === q) || !work.some(w => measuredItems(w) && w.values[q])) return
+    if (noReproducibility || reproducibility.some(r => r.quantity === q) || !work.some(w => measuredItems(w) && w.values[q])) return
     const r = addReproducibility(work, q, line)
     reproducibility.push(r)
     for (const m of r.materials) {
