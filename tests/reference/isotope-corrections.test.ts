@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest'
 import {
-  BRAND_2010, acceptedValue, reducedChi2Limit99, co2AtomicRatios, co2DeltasFromMolecular, co2MolecularRatios, composeDelta, isotopologueAbundances,
+  BRAND_2010, VPDB_TO_VSMOW_18O, acceptedValue, coverageFactor, reducedChi2Limit99, co2AtomicRatios, co2DeltasFromMolecular, co2MolecularRatios, composeDelta, isotopologueAbundances,
   o2DeltasFromMolecular, o2MolecularRatios, referenceMaterials, scaleRatios, weightedLine, yorkFit,
 } from '../../shared/engine'
 
@@ -30,12 +30,20 @@ describe('reference materials (values from memory of the named reference sheets 
     expect(m.fromMemory).toBe(true)
   })
 
+  it('citations: the VPDB→VSMOW conversion names Brand et al. 2014, SLAP2 says its values are measured, USGS40 δ13C names Coplen et al. 2006 on the pre-2018 scale', () => {
+    expect(VPDB_TO_VSMOW_18O.source).toMatch(/Brand et al\., Pure Appl\. Chem\. 86 \(2014\) 425/)
+    expect(referenceMaterials.SLAP2!.note).toMatch(/−428 ‰.*by definition.*measured/)
+    expect(referenceMaterials.USGS40!.source).toMatch(/δ13C: Coplen et al\., Anal\. Chem\. 78 \(2006\) 2439/)
+    expect(referenceMaterials.USGS40!.note).toMatch(/pre-2018/)
+    expect(referenceMaterials.LSVEC!.source).toMatch(/−46\.6 ‰ consensus of Coplen et al/)
+  })
+
   it('LSVEC carries its post-2018 δ13C reassignment and says so', () => {
     expect(referenceMaterials.LSVEC!.note).toMatch(/reassigned/)
     expect(referenceMaterials.LSVEC!.values['δ13C']!.value).not.toBe(-46.6)
   })
 
-  it('δ18O converts between VPDB and VSMOW: δ_VSMOW = 1.03092 δ_VPDB + 30.92 (Coplen, Kendall & Hopple, Nature 302 (1983) 236)', () => {
+  it('δ18O converts between VPDB and VSMOW: δ_VSMOW = 1.03092 δ_VPDB + 30.92 (Brand et al., Pure Appl. Chem. 86 (2014) 425; Kim, Coplen & Horita, GCA 158 (2015) 276; not Coplen et al. 1983\'s 1.03091/30.91)', () => {
     expect(acceptedValue(referenceMaterials['IAEA-603']!, 'δ18O', 'VSMOW')!.value).toBeCloseTo(1.03092 * -2.37 + 30.92, 10)
     expect(acceptedValue(referenceMaterials.SLAP2!, 'δ18O', 'VPDB')!.value).toBeCloseTo((-55.5 - 30.92) / 1.03092, 10)
   })
@@ -109,6 +117,16 @@ describe('N2, O2 and H2 molecular ratios (combinatorics of the random distributi
     const a = isotopologueAbundances('H2', { 'δ2H': -427.5 })
     expect(a[3]! / a[2]! / 2 / scaleRatios.VSMOW['2R']).toBeCloseTo(0.5725, 12)
     expect(composeDelta(-100, -50)).toBeCloseTo(-145, 12)
+  })
+})
+
+describe('coverage factor for few degrees of freedom', () => {
+  it.each([[1, 13.97], [2, 4.53], [3, 3.31], [4, 2.87], [5, 2.65], [6, 2.52], [8, 2.37], [10, 2.28], [20, 2.13], [50, 2.05]])('t_95.45 with ν = %i is %f (GUM JCGM 100:2008 Table G.2; from memory)', (dof, k) => {
+    expect(coverageFactor(dof)).toBeCloseTo(k, 2)
+  })
+
+  it('tends to 2 for a normal output (ν → ∞)', () => {
+    expect(Math.abs(coverageFactor(1e9) - 2)).toBeLessThan(1e-3)
   })
 })
 

@@ -1,5 +1,5 @@
 import type { MethodDefinition } from '../../shared/schemas/methods'
-import { acceptedValue, referenceMaterials, seededNormal, simulateSequence } from '../../shared/engine'
+import { referenceMaterials, seededNormal, simulateSequence } from '../../shared/engine'
 import { defaultSimulatedInstrument, type DeltaGasSystem, type SimulatedAcquisition, type SimulatedInstrument } from '../../shared/engine/isotopes/simulateSequence'
 import type { MaterialValues, SequenceItem } from '../../shared/engine/isotopes'
 
@@ -44,6 +44,22 @@ export function caseMethod(c: DeltaCase, extra: Partial<MethodDefinition> = {}, 
   }
 }
 
+/**
+ * A material's true value for the simulation, read from its stated values and converted here,
+ * not by the engine's acceptedValue: δ18O VPDB ↔ VSMOW by 1.03092 and 30.92 (Brand et al.,
+ * Pure Appl. Chem. 86 (2014) 425; from memory), typed independently of the engine.
+ */
+function truthValue(material: MaterialValues, q: string, scale: string): { value: number, u: number } | undefined {
+  const v = (k: string) => Object.hasOwn(material.values, k) ? material.values[k] : undefined
+  if (q !== 'δ18O') return v(q)
+  if (scale === 'VPDB') {
+    const w = v('δ18O')
+    return v('δ18O_VPDB') ?? (w && { value: (w.value - 30.92) / 1.03092, u: w.u / 1.03092 })
+  }
+  const p = v('δ18O_VPDB')
+  return v('δ18O') ?? (p && { value: 1.03092 * p.value + 30.92, u: 1.03092 * p.u })
+}
+
 export interface Built { items: SequenceItem[], samples: { position: number, truth: Record<string, number> }[] }
 
 /** Anchor 1 at the start, middle and end (the drift standard), the others and samples between, reference gas around each. */
@@ -51,7 +67,7 @@ export function buildSequence(c: DeltaCase, seed: number, options: { noise?: boo
   const draw = seededNormal(seed * 7919 + 13)
   const scaleOf = (q: string) => q === 'δ13C' ? 'VPDB' : q === 'δ15N' ? 'AIR' : q === 'δ18O' && c.gas === 'CO2' ? (c.oxygenScale ?? 'VPDB') : 'VSMOW'
   const truthOf = (id: string): Record<string, number> => Object.fromEntries(Object.keys(c.referenceGas).flatMap((q) => {
-    const a = acceptedValue((options.materials ?? referenceMaterials)[id]!, q, scaleOf(q))
+    const a = truthValue((options.materials ?? referenceMaterials)[id]!, q, scaleOf(q))
     return a ? [[q, a.value + (options.drawStandards === false ? 0 : a.u * draw())]] : [[q, 0]]
   }))
   const standards = [c.anchors[0]!, ...c.anchors.slice(1), ...(c.monitor ? [c.monitor] : [])]
@@ -71,7 +87,7 @@ export function buildSequence(c: DeltaCase, seed: number, options: { noise?: boo
     // the early standards is extrapolated to the samples, so its slope's u dominates theirs.
     std(c.anchors[0]!)
     ref(1)
-    for (const id of standards.slice(1)) { std(id); ref(1.4); std(id); ref(0.8) }
+    for (let k = 0; k < (options.replicates ?? 1); k++) for (const id of standards.slice(1)) { std(id); ref(1.4); std(id); ref(0.8) }
     for (let k = 0; k < 12; k++) ref(1)
     for (const s of c.samples) { layout.push({ role: 'sample', truth: s, majorA }); samplePositions.push({ position: layout.length, truth: s }); ref(1.2) }
     blank()

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest'
-import { EngineError, formulaSpecies, ionMz, isotopologueAbundances, processMzSpectrum, seededNormal, sequenceItemFromResult } from '../../shared/engine'
+import { EngineError, formulaSpecies, ionMz, isotopologueAbundances, processDeltaSequence, processMzSpectrum, referenceMaterials, seededNormal, sequenceItemFromResult } from '../../shared/engine'
+import { buildSequence, caseMethod, cases } from '../support/deltaSequences'
 
 // The adapter from the sector engine's result to a sequence item: a swept m/z spectrum of CO2
 // at VPDB composition (Gaussian peaks at constant resolving power, heights ∝ ion current, plus
@@ -53,5 +54,21 @@ describe('sequenceItemFromResult', () => {
     const e = (() => { try { sequenceItemFromResult(result, meta, { ratios: ['13C/12C'] }) } catch (x) { return x } })()
     expect(e).toBeInstanceOf(EngineError)
     expect((e as EngineError).field).toBe('ratios.13C/12C')
+  })
+
+  it('marks swept beams as peak areas, which the H3+ factor refuses naming the item (Sessions, Burgoyne & Hayes 2001: H3+ ∝ i2² needs steady signals)', () => {
+    expect(sequenceItemFromResult(result, meta).beamKind).toBe('peak-area')
+    const c = cases.H2!
+    const items = buildSequence(c, 2).items
+    const ok = processDeltaSequence(caseMethod(c), items, referenceMaterials)
+    expect(ok.steps[0]!.step).toBe('h3-factor')
+    const k = items.findIndex(i => i.role === 'reference-gas')
+    const swept = items.map((i, j) => j === k ? { ...i, beamKind: 'peak-area' as const } : i)
+    const e = (() => { try { processDeltaSequence(caseMethod(c), swept, referenceMaterials) } catch (x) { return x } })()
+    expect(e).toBeInstanceOf(EngineError)
+    expect((e as EngineError).field).toBe(`items[${k}].beamKind`)
+    expect((e as EngineError).code).toBe('not-steady-signal')
+    // Without the H3+ step the same peak areas are processed (ratios only need proportional beams).
+    expect(processDeltaSequence(caseMethod(c, {}, caseMethod(c).steps.slice(1)), swept, referenceMaterials).items.length).toBe(items.length)
   })
 })

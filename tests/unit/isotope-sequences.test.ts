@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest'
-import { EngineError, processDeltaSequence, referenceMaterials, type SequenceOutcome } from '../../shared/engine'
+import { EngineError, inflateByMswd, processDeltaSequence, referenceMaterials, type SequenceOutcome } from '../../shared/engine'
 import type { MethodDefinition } from '../../shared/schemas/methods'
 import { buildSequence, caseMethod, cases, type Built } from '../support/deltaSequences'
 
@@ -36,7 +36,7 @@ describe('normalised sample δ recovered within 0.05 ‰ (noise off, standards a
     if (gas === 'O2') expect(out.flags.map(f => f.code)).toContain('not-normalised')
   })
 
-  it('CO2 with δ18O on VSMOW (Coplen et al. 1983 conversion) and a procedural blank subtracted', () => {
+  it('CO2 with δ18O on VSMOW (Brand et al. 2014 conversion) and a procedural blank subtracted', () => {
     const c = { ...cases.CO2!, oxygenScale: 'VSMOW' as const, samples: [{ 'δ13C': -25.3, 'δ18O': 22.6 }, { 'δ13C': -12.0, 'δ18O': 15.0 }], referenceGas: { 'δ13C': -36.2, 'δ18O': 18.0 } }
     const built = buildSequence(c, 4, { noise: false, drawStandards: false, blanks: true })
     const method = caseMethod(c)
@@ -144,6 +144,39 @@ describe('anchors and acceptance', () => {
     expect(generous.accepted).toBe(true)
     const monitor = generous.items.find(i => i.material === 'USGS40')!
     expect(Math.abs(monitor.residual!['δ13C']!)).toBeLessThan(0.3)
+  })
+})
+
+describe('the engine\'s constants against the simulator\'s, typed independently (simulateSequence.ts SIM)', () => {
+  // An ideal instrument (no memory, fractionation, drift or H3+), noise off, no normalisation:
+  // δ comes only from the reference gas's assigned δ and the constants, so a wrong K, λ or
+  // 18R_VPDB-CO2 (Brand, Assonov & Coplen 2010) shows here; normalisation would hide most of it.
+  it.each(['CO2', 'N2', 'O2', 'H2'])('%s: sample δ recovered within 1e-4 ‰', (gas) => {
+    const c = cases[gas]!
+    const built = buildSequence(c, 3, { noise: false, drawStandards: false, instrument: { memoryFraction: 0, fractionationPermilPerU: 0, driftPermilPerUPerHour: 0, h3FactorPerA: 0 } })
+    const steps: MethodDefinition['steps'] = gas === 'CO2' ? [{ step: 'reference-gas', bracketing: 'neighbours-mean' }, { step: 'oxygen-17', parameters: 'brand-2010' }] : [{ step: 'reference-gas', bracketing: 'neighbours-mean' }]
+    const out = processDeltaSequence(caseMethod(c, {}, steps), built.items, referenceMaterials)
+    expect(worstError(out, built)).toBeLessThan(1e-4)
+  })
+})
+
+describe('more than two anchors: the line\'s covariance inflated by MSWD > 1 (York et al., Am. J. Phys. 72 (2004) 367; Birge ratio)', () => {
+  it('scales u(a), u(b) by √MSWD and cov by MSWD only above 1 and only with ν > 0', () => {
+    const fit = { intercept: 0, slope: 1, uIntercept: 0.1, uSlope: 0.01, covariance: -1e-4, chi2: 4, dof: 1 }
+    expect(inflateByMswd(fit)).toMatchObject({ uIntercept: 0.2, uSlope: 0.02, covariance: -4e-4 })
+    expect(inflateByMswd({ ...fit, chi2: 0.5 })).toEqual({ ...fit, chi2: 0.5 })
+    expect(inflateByMswd({ ...fit, dof: 0 })).toEqual({ ...fit, dof: 0 })
+  })
+
+  it('N2 on three anchors, one of them 0.5 ‰ off its accepted value: MSWD reported above 1 and the samples\' u grow', () => {
+    const c = { ...cases.N2!, anchors: ['USGS40', 'USGS41a', 'IAEA-N-2'], monitor: undefined }
+    const built = buildSequence(c, 21)
+    const run = (materials: typeof referenceMaterials) => processDeltaSequence(caseMethod(c), built.items, materials)
+    const consistent = run(referenceMaterials)
+    const off = run({ ...referenceMaterials, 'IAEA-N-2': { ...referenceMaterials['IAEA-N-2']!, values: { 'δ15N': { value: 20.91, u: 0.12 } } } })
+    expect(off.normalisation[0]!.mswd).toBeGreaterThan(4)
+    const u = (o: SequenceOutcome) => o.items.find(i => i.position === built.samples[0]!.position)!.final['δ15N']!.u
+    expect(u(off)).toBeGreaterThan(1.3 * u(consistent))
   })
 })
 

@@ -1,7 +1,7 @@
 import { EngineError } from '../errors'
 import { propagate } from '../uncertainty'
-import { composeDelta, co2DeltasWithU, o2DeltasFromMolecular } from './isotopologues'
-import { vpdbToVsmow18O, vsmowToVpdb18O } from './referenceMaterials'
+import { composeDelta, co2DeltasFromMolecular, co2DeltasWithU, o2DeltasFromMolecular } from './isotopologues'
+import { VPDB_TO_VSMOW_18O, vpdbToVsmow18O, vsmowToVpdb18O } from './referenceMaterials'
 import { weightedLine } from './regression'
 import { foldDrift, measuredItems, type DeltaWork } from './deltaSteps'
 import type { DriftFit, GasSystem, Measured } from './types'
@@ -28,11 +28,13 @@ export interface ScaleContext {
    * since an error common to every acquisition is removed by it (to first order).
    */
   includeReferenceU: boolean
+  /** Values only (shared-term reruns): u of each quantity taken from the first run. */
+  uOf?: (w: DeltaWork, quantity: string) => number | undefined
 }
 
 /**
  * CO2, the oxygen-17 step: δ45 and δ46 against the reference gas → δ13C (VPDB) and δ18O
- * (VPDB, or VSMOW by Coplen et al. 1983) through the exact isotopologue equations with the
+ * (VPDB-CO2, or VSMOW by Brand et al. 2014) through the exact isotopologue equations with the
  * Brand et al. (2010) parameter set.
  */
 export function co2ToScale(work: DeltaWork[], ctx: ScaleContext): void {
@@ -40,10 +42,24 @@ export function co2ToScale(work: DeltaWork[], ctx: ScaleContext): void {
   const ref18 = ctx.referenceGas['δ18O']!
   const ref = { d13C: ctx.referenceGas['δ13C']!, d18O: oxygenVsmow ? vsmowToVpdb18O(ref18) : ref18 }
   for (const w of work.filter(measuredItems)) {
+    if (ctx.uOf) {
+      const v = co2DeltasFromMolecular(w.values['δ45']!.value, w.values['δ46']!.value, { d13C: ref.d13C.value, d18O: ref.d18O.value })
+      w.values['δ13C'] = { value: v.d13C, u: ctx.uOf(w, 'δ13C') ?? 0 }
+      w.values['δ18O'] = { value: oxygenVsmow ? vpdbToVsmow18O({ value: v.d18O, u: 0 }).value : v.d18O, u: ctx.uOf(w, 'δ18O') ?? 0 }
+      continue
+    }
     const out = co2DeltasWithU(w.values['δ45']!, w.values['δ46']!, ref, ctx.includeReferenceU)
     w.values['δ13C'] = out.d13C
     w.values['δ18O'] = oxygenVsmow ? vpdbToVsmow18O(out.d18O) : out.d18O
+    carryRefVar(w, ['δ45', 'δ46'], ['δ13C', 'δ18O'], x => co2DeltasWithU(x[0]!, x[1]!, ref, false), out => [out.d13C.u, (oxygenVsmow ? VPDB_TO_VSMOW_18O.factor : 1) * out.d18O.u])
   }
+}
+
+/** The reference-gas variance of molecular δ carried onto the scale's quantities by the same model. */
+function carryRefVar<T>(w: DeltaWork, from: string[], to: string[], model: (x: Measured[]) => T, us: (out: T) => number[]): void {
+  if (!from.every(k => w.refVar?.[k] !== undefined)) return
+  const out = us(model(from.map(k => ({ value: w.values[k]!.value, u: Math.sqrt(w.refVar![k]!) }))))
+  w.refVar = { ...w.refVar, ...Object.fromEntries(to.map((q, i) => [q, out[i]! ** 2])) }
 }
 
 /**
@@ -60,6 +76,7 @@ export function moleculesToScale(work: DeltaWork[], ctx: ScaleContext): void {
       const r = ctx.referenceGas[q]!
       const p = propagate(x => composeDelta(x[0]!, x[1]!), [d, { value: r.value, u: refU(q) }])
       w.values[q] = { value: p.value, u: p.u }
+      if (w.refVar?.[m] !== undefined) w.refVar = { ...w.refVar, [q]: w.refVar[m]! * (1 + r.value / 1000) ** 2 }
     }
     else {
       const d34 = w.values['δ34']!
@@ -72,6 +89,8 @@ export function moleculesToScale(work: DeltaWork[], ctx: ScaleContext): void {
       const o17 = propagate(model('d17O'), inputs)
       w.values['δ18O'] = { value: o18.value, u: o18.u }
       w.values['δ17O'] = { value: o17.value, u: o17.u }
+      // Near-unit sensitivities (δ18O ≈ δ34, δ17O ≈ δ33): the reference gas's variance carried as is.
+      if (w.refVar?.['δ34'] !== undefined) w.refVar = { ...w.refVar, 'δ18O': w.refVar['δ34']!, 'δ17O': w.refVar['δ33'] ?? 0 }
     }
   }
 }

@@ -23,6 +23,12 @@ export interface DeltaWork {
    * (GUM 5.2, correlated inputs), then folded into u.
    */
   drift?: Record<string, { sensitivity: number, u: number }>
+  /**
+   * Per quantity: the variance its bracketing reference-gas acquisitions give it. Not in u
+   * (a shared term, sharedTerms.ts), but real scatter between standards, so the reproducibility
+   * estimate expects it (reproducibility.ts).
+   */
+  refVar?: Record<string, number>
 }
 
 /** Folds a pending drift-slope component into u (when no normalisation consumes it). */
@@ -75,10 +81,12 @@ export function itemRatio(w: DeltaWork, key: string): Measured {
 /**
  * Procedural blank: the mean of the sequence's blanks subtracted from every beam, with the
  * mean's Type A standard uncertainty s/√n (GUM 4.2.3; one blank: its own u), then the ratios
- * recomputed from the corrected beams (common practice, no source). The blank's error is
- * common to all acquisitions; it is added to each one's u, not carried as a covariance.
+ * recomputed from the corrected beams (common practice, no source). The blank mean's error is
+ * common to all acquisitions, anchors and samples alike: it is not added to each beam's u (the
+ * anchors' means would average it down and the samples count it again) but propagated once as
+ * a shared term (sharedTerms.ts moves the mean by its u through `shift`).
  */
-export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField: string): Record<string, unknown> {
+export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField: string, shift?: Record<string, number>): Record<string, unknown> {
   const blanks = work.filter(w => w.item.role === 'blank')
   if (!blanks.length) throw new EngineError(stepField, 'no-blanks', 'the method subtracts a blank but the sequence has no blank acquisition')
   const masses = new Set(ratioKeys.flatMap(k => k.split('/')))
@@ -88,14 +96,14 @@ export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField:
     const n = vals.length
     const avg = vals.reduce((s, v) => s + v.value, 0) / n
     const u = n >= 2 ? Math.sqrt(vals.reduce((s, v) => s + (v.value - avg) ** 2, 0) / (n - 1) / n) : vals[0]!.u
-    mean[mz] = { value: avg, u }
+    mean[mz] = { value: avg + (shift?.[mz] ?? 0), u }
   }
   // The reference gas enters by its own inlet and carries no procedural blank.
   for (const w of work.filter(measuredItems)) {
     for (const mz of masses) {
       const b = Object.hasOwn(w.beams, mz) ? w.beams[mz] : undefined
       if (!b) throw new EngineError(`items[${w.index}].beams.${mz}`, 'missing', `blank subtraction needs the m/z ${mz} beam of position ${w.item.position}`)
-      w.beams[mz] = { value: b.value - mean[mz]!.value, u: Math.hypot(b.u, mean[mz]!.u) }
+      w.beams[mz] = { value: b.value - mean[mz]!.value, u: b.u }
     }
     const light = ratioKeys[0]!.split('/')[1]!
     if (!(w.beams[light]!.value > 0)) throw new EngineError(`items[${w.index}].beams.${light}`, 'below-blank', `position ${w.item.position}: the m/z ${light} beam is no larger than the blank`)
@@ -113,9 +121,14 @@ export function subtractBlank(work: DeltaWork[], ratioKeys: string[], stepField:
  * linearly with the m/z 2 beam, R_meas = R_true + K·i2 (Sessions, Burgoyne & Hayes, Anal. Chem.
  * 73 (2001) 192 and 200, the correction and the determination of K; from memory). K is the
  * slope of the reference-gas acquisitions' 3/2 against i2 (weighted least squares); every
- * acquisition's ratio is then R − K·i2, with u(K) carried into δ by the bracketing.
+ * acquisition's ratio is then R − K·i2. R − K·i2 on whole-acquisition means is right only for
+ * steady signals (dual-inlet style mean currents): a transient peak's H3+ grows with i2² point
+ * by point, so its integral is not K·(mean i2)·(area), and Sessions et al. correct such peaks
+ * point by point. Items whose beams are peak areas are therefore refused, not corrected.
  */
 export function h3Factor(work: DeltaWork[], stepField: string): Record<string, unknown> {
+  const swept = work.find(w => w.item.role !== 'blank' && w.item.beamKind === 'peak-area')
+  if (swept) throw new EngineError(`items[${swept.index}].beamKind`, 'not-steady-signal', `position ${swept.item.position} has swept peak areas: the H3+ factor needs steady mean beam currents in amperes (dual-inlet style); a transient peak must be corrected point by point before it is posted`)
   const refs = work.filter(w => w.item.role === 'reference-gas')
   const i2 = (w: DeltaWork) => {
     const b = Object.hasOwn(w.beams, '2') ? w.beams['2'] : undefined
@@ -133,8 +146,8 @@ export function h3Factor(work: DeltaWork[], stepField: string): Record<string, u
   for (const w of work.filter(x => x.item.role !== 'blank')) {
     const r = itemRatio(w, '3/2')
     const b = i2(w)
-    // u(K) is not added here: its error is shared by the sample and its reference gas and
-    // mostly cancels in their δ, so bracketing carries it through ∂δ/∂K (GUM 5.2).
+    // u(K) is not added here: K is fitted on the reference-gas acquisitions, whose errors are
+    // propagated once as shared terms (sharedTerms.ts), K refitted each time (GUM 5.2).
     w.ratios['3/2'] = { value: r.value - fit.slope * b.value, u: Math.hypot(r.u, fit.slope * b.u) }
     w.h3 = { i2: b.value, uK: fit.uSlope }
   }
@@ -142,7 +155,8 @@ export function h3Factor(work: DeltaWork[], stepField: string): Record<string, u
 }
 
 /**
- * δ of each measured acquisition's ratios against the reference gas bracketing it:
+ * δ of each measured acquisition's ratios against the reference gas bracketing it
+ * (the reference gas's own errors are shared terms, not in this u):
  * δ = (R_sample / R_ref − 1)·1000 ‰ (McKinney et al., Rev. Sci. Instrum. 21 (1950) 724, the
  * δ notation; Coplen, Rapid Commun. Mass Spectrom. 25 (2011) 2538). R_ref is the nearest
  * reference-gas acquisition by position, or the mean of the nearest before and after.
@@ -169,14 +183,12 @@ export function bracketReferenceGas(work: DeltaWork[], ratioKeys: string[], mode
       const refRatios = chosen.map(r => optional ? tryRatio(r, key) : itemRatio(r, key))
       if (!rs || refRatios.some(r => !r)) continue
       const rr = refRatios.reduce((s, r) => s + r!.value, 0) / refRatios.length
-      const urr = Math.sqrt(refRatios.reduce((s, r) => s + r!.u ** 2, 0)) / refRatios.length
       const d = (rs.value / rr - 1) * 1000
-      let u = 1000 * (rs.value / rr) * Math.hypot(rs.u / rs.value, urr / rr)
-      if (key === '3/2' && w.h3 && chosen.every(r => r.h3)) {
-        // δ = (R_s − K·i2_s)/(R_r − K·i2_r) − 1: ∂δ/∂K = −(i2_s − (R_s/R_r)·i2_r)/R_r (×1000).
-        const i2r = chosen.reduce((s, r) => s + r.h3!.i2, 0) / chosen.length
-        u = Math.hypot(u, 1000 * (w.h3.i2 - rs.value / rr * i2r) / rr * w.h3.uK)
-      }
+      // Only the acquisition's own ratio: each reference-gas acquisition brackets several
+      // acquisitions (anchors and samples), so its error is a shared term (sharedTerms.ts).
+      const u = 1000 * (rs.value / rr) * (rs.u / rs.value)
+      const urr = Math.sqrt(refRatios.reduce((s, r) => s + r!.u ** 2, 0)) / refRatios.length
+      w.refVar = { ...w.refVar, [molecularDelta(key)]: (1000 * (rs.value / rr) * (urr / rr)) ** 2 }
       w.values[molecularDelta(key)] = { value: d, u }
       w.raw[molecularDelta(key)] = { value: d, u }
     }

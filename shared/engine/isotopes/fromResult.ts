@@ -25,10 +25,12 @@ export interface FromResultOptions {
 }
 
 /**
- * The beam of a peak in amperes (or counts/s): static readings carry the cup's mean signal as
- * their area; a swept peak's area is divided by its m/z, since at constant resolving power a
+ * The beam of a peak: static readings carry the cup's mean signal as their area, in amperes (or
+ * counts/s); a swept peak's area is divided by its m/z, since at constant resolving power a
  * peak's width in m/z grows with m/z and area/(m/z) is proportional to the ion current (the
- * same reading the engine's own ratios use, shared/engine/pipeline.ts).
+ * same reading the engine's own ratios use, shared/engine/pipeline.ts). That quotient is not a
+ * current in amperes (its unit is A, scaled by the sweep's dwell and resolving power), so the
+ * item says so (beamKind 'peak-area') and the H3+ step refuses it.
  */
 function beamOf(p: ResultPeak, mode: EngineResult['mode']): Measured {
   return mode === 'sweep' ? { value: p.area / p.centroid, u: p.areaU / p.centroid } : { value: p.area, u: p.areaU }
@@ -69,5 +71,5 @@ export function sequenceItemFromResult(result: EngineResult, meta: SequenceItemM
     // GUM 5.1.6: uncorrelated beams (the engine gave no covariance for this pair).
     ratios[key] = { value, u: Math.abs(value) * Math.hypot(hb.u / hb.value, lb.u / lb.value) }
   }
-  return { position: meta.position, role: meta.role, ...(meta.material ? { material: meta.material } : {}), acquiredAt: meta.acquiredAt, beams, ratios }
+  return { position: meta.position, role: meta.role, ...(meta.material ? { material: meta.material } : {}), acquiredAt: meta.acquiredAt, beams, beamKind: result.mode === 'sweep' ? 'peak-area' : 'mean-current', ratios }
 }

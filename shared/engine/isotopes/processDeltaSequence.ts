@@ -5,6 +5,7 @@ import { VPDB_TO_VSMOW_18O, quantityScales } from './referenceMaterials'
 import { bracketReferenceGas, foldDrift, gasRatios, h3Factor, measuredItems, subtractBlank, type DeltaWork } from './deltaSteps'
 import { co2ToScale, correctDrift, gasQuantities, moleculesToScale, type ScaleContext } from './deltaScale'
 import { addReproducibility, type Reproducibility } from './reproducibility'
+import { SHARED_TERMS_SOURCE, addSharedTerms } from './sharedTerms'
 import { coverageFactor } from './studentT'
 import { NORMALISATION_SOURCE, extrapolationFlags, reducedChi2Limit99, normaliseQuantity, standardResiduals } from './deltaNormalise'
 import type { AppliedStep, DriftFit, MaterialValues, Measured, Normalisation, OutcomeFlag, SequenceItem, SequenceOutcome } from './types'
@@ -29,6 +30,71 @@ const SOURCES: Record<MethodStep['step'], string> = {
 }
 
 export function processDeltaSequence(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>): SequenceOutcome {
+  const run = runDeltaSteps(method, items, materials)
+  // u² before the shared terms, with and without the reproducibility term: their difference is
+  // the part of u² that scales with the estimated s² (the acquisition's own s, and s through the
+  // anchors' means and the drift slope), the part with few degrees of freedom.
+  const uWith = new Map(run.work.map(w => [w.item.position, Object.fromEntries(Object.entries(w.values).map(([q, v]) => [q, v.u]))]))
+  const uWithout = run.reproducibility.some(r => r.s > 0)
+    ? new Map(runDeltaSteps(method, items, materials, undefined, undefined, true).work.map(w => [w.item.position, Object.fromEntries(Object.entries(w.values).map(([q, v]) => [q, v.u]))]))
+    : undefined
+  // Reruns need values only: the CO2 step takes u as the first run found it (same weights).
+  const byPosition = new Map(run.work.map(w => [w.item.position, w]))
+  const uOf = (w: DeltaWork, q: string) => byPosition.get(w.item.position)?.raw[q]?.u
+  const shared = addSharedTerms(run, items, (changed, blankShift) => runDeltaSteps(method, changed, materials, blankShift, uOf))
+  const { gas, quantities, scales, work, reproducibility, normalisation, drift, steps, flags } = run
+  const residuals = quantities.map(q => standardResiduals(work, q, scales[q]!, materials, method.acceptance.maxStandardResidual, flags))
+  const accepted = run.accepted && !flags.some(f => f.code === 'standard-residual')
+  // k from the effective degrees of freedom (GUM G.4.1, Welch–Satterthwaite): the
+  // reproducibility term is the only component estimated from few replicates; every other is
+  // taken as exactly known (ν = ∞). Its share c² of u² is everything s² brought in: the
+  // acquisition's own term and s through the anchors' means, the line and the drift slope.
+  const scaled = (w: DeltaWork, q: string) => {
+    const v = w.values[q]!
+    const r = reproducibility.find(x => x.quantity === q)
+    const a = uWith.get(w.item.position)?.[q]
+    const b = uWithout?.get(w.item.position)?.[q]
+    const c2 = r && r.s > 0 && a !== undefined && b !== undefined ? Math.max(0, a * a - b * b) : 0
+    if (!r || !(c2 > 0) || !(v.u > 0)) return { ...v, scale: scales[q]!, k: 2 }
+    const dof = Math.min(1e6, v.u ** 4 / (c2 ** 2 / r.dof))
+    return { ...v, scale: scales[q]!, k: dof >= 1e6 ? 2 : coverageFactor(dof), effectiveDof: dof }
+  }
+  return {
+    gas,
+    quantities,
+    items: work.map(w => ({
+      position: w.item.position,
+      role: w.item.role,
+      ...(w.item.material ? { material: w.item.material } : {}),
+      raw: measuredItems(w) ? w.raw : w.ratios,
+      final: Object.fromEntries(quantities.filter(q => w.values[q]).map(q => [q, scaled(w, q)])),
+      ...(residuals.some(r => r.has(w)) ? { residual: Object.fromEntries(quantities.flatMap((q, j) => residuals[j]!.has(w) ? [[q, residuals[j]!.get(w)!]] : [])) } : {}),
+      flags: w.flags,
+    })),
+    normalisation,
+    drift,
+    steps,
+    flags,
+    accepted,
+    ...(shared.length ? { sharedTerms: { source: SHARED_TERMS_SOURCE, terms: shared } } : {}),
+  }
+}
+
+export interface DeltaRun {
+  gas: DeltaGas
+  quantities: string[]
+  scales: Record<string, string>
+  work: DeltaWork[]
+  reproducibility: Reproducibility[]
+  normalisation: Normalisation[]
+  drift: DriftFit[]
+  steps: AppliedStep[]
+  flags: OutcomeFlag[]
+  accepted: boolean
+}
+
+/** The method's steps; `blankShift` moves the blank mean, `uOf` asks for values only (shared-term reruns), `noReproducibility` leaves the Type A term out (for its share in u). */
+export function runDeltaSteps(method: MethodDefinition, items: SequenceItem[], materials: Record<string, MaterialValues>, blankShift?: Record<string, number>, uOf?: ScaleContext['uOf'], noReproducibility = false): DeltaRun {
   if (method.gas === 'Ar') throw new EngineError('gas', 'not-a-delta-system', 'argon sequences are processed by the mass-bias engine, not as δ values')
   const gas: DeltaGas = method.gas
   if (!items.length) throw new EngineError('items', 'empty', 'the sequence has no acquisitions')
@@ -50,7 +116,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   // the slope's u counts it), else before the normalisation, else at the end.
   const reproducibility: Reproducibility[] = []
   const addScatter = (q: string, line?: Parameters<typeof addReproducibility>[2]) => {
-    if (reproducibility.some(r => r.quantity === q) || !work.some(w => measuredItems(w) && w.values[q])) return
+    if (noReproducibility || reproducibility.some(r => r.quantity === q) || !work.some(w => measuredItems(w) && w.values[q])) return
     const r = addReproducibility(work, q, line)
     reproducibility.push(r)
     for (const m of r.materials) {
@@ -60,7 +126,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
     if (r.dof === 0) flags.push({ code: 'reproducibility-unknown', message: `${q}: no standard was measured twice, so run-to-run reproducibility is not in u` })
   }
 
-  const ctx = (): ScaleContext => ({ gas, scales, referenceGas: referenceGasValues(method, quantities, normaliseIndex >= 0), includeReferenceU: normaliseIndex < 0 })
+  const ctx = (): ScaleContext => ({ gas, scales, referenceGas: referenceGasValues(method, quantities, normaliseIndex >= 0), includeReferenceU: normaliseIndex < 0, ...(uOf ? { uOf } : {}) })
   const toScale = () => {
     moleculesToScale(work, ctx())
     for (const w of work.filter(measuredItems)) for (const q of quantities) if (w.values[q]) w.raw[q] = { ...w.values[q]! }
@@ -76,7 +142,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
     switch (step.step) {
       case 'blank':
         need(['ratios'], 'before the reference-gas step (it acts on beams)')
-        parameters = subtractBlank(work, ratioKeys, field)
+        parameters = subtractBlank(work, ratioKeys, field, blankShift)
         break
       case 'h3-factor':
         if (gas !== 'H2') throw new EngineError(`${field}.step`, 'not-for-gas', `the H3+ factor applies to H2, not ${gas}`)
@@ -158,38 +224,7 @@ export function processDeltaSequence(method: MethodDefinition, items: SequenceIt
   for (const q of quantities) addScatter(q)
   // A drift no normalisation consumed (none ran, or a quantity had no anchor) counts in u now.
   for (const w of work) for (const q of quantities) foldDrift(w, q)
-  const residuals = quantities.map(q => standardResiduals(work, q, scales[q]!, materials, method.acceptance.maxStandardResidual, flags))
-  if (flags.some(f => f.code === 'standard-residual')) accepted = false
-  // k from the effective degrees of freedom (GUM G.4.1, Welch–Satterthwaite): the
-  // reproducibility term is the only component estimated from few replicates; every other is
-  // taken as exactly known (ν = ∞). Its share in an acquisition is the normalisation's slope
-  // times s (the anchors' s²/n through the line is left out: a small, slightly optimistic part).
-  const scaled = (w: DeltaWork, q: string) => {
-    const v = w.values[q]!
-    const r = reproducibility.find(x => x.quantity === q)
-    const c = r && r.s > 0 ? r.s * Math.abs((normalisation.find(n => n.quantity === q)?.slope.value ?? 1) * (1 + (w.raw[q]?.value ?? 0) / 1000)) : 0
-    if (!r || !(c > 0) || !(v.u > 0)) return { ...v, scale: scales[q]!, k: 2 }
-    const dof = Math.min(1e6, v.u ** 4 / (c ** 4 / r.dof))
-    return { ...v, scale: scales[q]!, k: dof >= 1e6 ? 2 : coverageFactor(dof), effectiveDof: dof }
-  }
-  return {
-    gas,
-    quantities,
-    items: work.map(w => ({
-      position: w.item.position,
-      role: w.item.role,
-      ...(w.item.material ? { material: w.item.material } : {}),
-      raw: measuredItems(w) ? w.raw : w.ratios,
-      final: Object.fromEntries(quantities.filter(q => w.values[q]).map(q => [q, scaled(w, q)])),
-      ...(residuals.some(r => r.has(w)) ? { residual: Object.fromEntries(quantities.flatMap((q, j) => residuals[j]!.has(w) ? [[q, residuals[j]!.get(w)!]] : [])) } : {}),
-      flags: w.flags,
-    })),
-    normalisation,
-    drift,
-    steps,
-    flags,
-    accepted,
-  }
+  return { gas, quantities, scales, work, reproducibility, normalisation, drift, steps, flags, accepted }
 }
 
 /** The reference gas's δ on the scale; when a normalisation follows, an unknown one may be taken as 0. */

@@ -25,10 +25,12 @@ export const scaleRatios = {
 } as const
 
 /**
- * δ18O on VSMOW from δ18O on VPDB: δ_VSMOW = 1.03092·δ_VPDB + 30.92 ‰ (Coplen, Kendall & Hopple,
- * Nature 302 (1983) 236; restated by Brand et al., Pure Appl. Chem. 86 (2014) 425; from memory).
+ * δ18O on VSMOW from δ18O on VPDB: δ_VSMOW = 1.03092·δ_VPDB + 30.92 ‰ (Brand, Coplen, Vogl,
+ * Rosner & Prohaska, Pure Appl. Chem. 86 (2014) 425; Kim, Coplen & Horita, Geochim. Cosmochim.
+ * Acta 158 (2015) 276; from memory). Coplen, Kendall & Hopple, Nature 302 (1983) 236 gave the
+ * older 1.03091 and 30.91.
  */
-export const VPDB_TO_VSMOW_18O = { factor: 1.03092, offset: 30.92, source: 'Coplen, Kendall & Hopple, Nature 302 (1983) 236' }
+export const VPDB_TO_VSMOW_18O = { factor: 1.03092, offset: 30.92, source: 'Brand et al., Pure Appl. Chem. 86 (2014) 425; Kim, Coplen & Horita, Geochim. Cosmochim. Acta 158 (2015) 276 (from memory)' }
 
 export function vpdbToVsmow18O(d: Measured): Measured {
   return { value: VPDB_TO_VSMOW_18O.factor * d.value + VPDB_TO_VSMOW_18O.offset, u: VPDB_TO_VSMOW_18O.factor * d.u }
@@ -50,12 +52,12 @@ const m = (v: number, u: number): Measured => ({ value: v, u })
 /** The registry, keyed by id. δ in ‰; δ18O on VSMOW under "δ18O", on VPDB under "δ18O_VPDB". */
 export const referenceMaterials: Record<string, ReferenceMaterial> = {
   'VSMOW2': { id: 'VSMOW2', name: 'VSMOW2', substance: 'water', values: { 'δ2H': m(0, 0.3), 'δ18O': m(0, 0.02) }, source: 'IAEA Reference Sheet VSMOW2 and SLAP2 (2017); from memory', note: 'Anchors the VSMOW–SLAP scale at 0 ‰.', fromMemory: true },
-  'SLAP2': { id: 'SLAP2', name: 'SLAP2', substance: 'water', values: { 'δ2H': m(-427.5, 0.3), 'δ18O': m(-55.5, 0.02) }, source: 'IAEA Reference Sheet VSMOW2 and SLAP2 (2017); from memory', note: 'Second anchor of the VSMOW–SLAP scale (−427.5 ‰ δ2H, −55.5 ‰ δ18O by definition).', fromMemory: true },
+  'SLAP2': { id: 'SLAP2', name: 'SLAP2', substance: 'water', values: { 'δ2H': m(-427.5, 0.3), 'δ18O': m(-55.5, 0.02) }, source: 'IAEA Reference Sheet VSMOW2 and SLAP2 (2017); from memory', note: 'Realises the second anchor of the VSMOW–SLAP scale. The scale fixes the original SLAP at −428 ‰ δ2H and −55.5 ‰ δ18O by definition; SLAP2\'s −427.5 ± 0.3 ‰ and −55.50 ± 0.02 ‰ are measured values on that scale.', fromMemory: true },
   'GISP': { id: 'GISP', name: 'GISP', substance: 'water', values: { 'δ2H': m(-189.5, 1.2), 'δ18O': m(-24.78, 0.09) }, source: 'Gonfiantini, IAEA Advisory Group report (1984); IAEA reference sheet; from memory', note: 'Stock exhausted; GISP2 replaces it (its values are not entered here: not recalled with confidence).', fromMemory: true },
   'NBS19': { id: 'NBS19', name: 'NBS 19', substance: 'calcite', values: { 'δ13C': m(1.95, 0), 'δ18O_VPDB': m(-2.2, 0) }, source: 'Coplen, Pure Appl. Chem. 66 (1994) 273; Brand et al., Pure Appl. Chem. 86 (2014) 425; from memory', note: 'Defines VPDB (exact by definition); stock exhausted, IAEA-603 replaces it.', fromMemory: true },
   'IAEA-603': { id: 'IAEA-603', name: 'IAEA-603', substance: 'calcite', values: { 'δ13C': m(2.46, 0.01), 'δ18O_VPDB': m(-2.37, 0.04) }, source: 'IAEA Reference Sheet IAEA-603 (2016); from memory', note: 'Realises VPDB in place of NBS 19.', fromMemory: true },
-  'LSVEC': { id: 'LSVEC', name: 'LSVEC', substance: 'lithium carbonate', values: { 'δ13C': m(-46.479, 0.15), 'δ18O_VPDB': m(-26.7, 0.2) }, source: 'Assonov et al., Rapid Commun. Mass Spectrom. 35 (2021) e9018 (δ13C reassigned, replacing −46.6 ‰ of Coplen et al. 2006); from memory', note: 'δ13C reassigned after 2018 (drift of the material); IUPAC no longer recommends it as a scale anchor.', fromMemory: true },
-  'USGS40': { id: 'USGS40', name: 'USGS40', substance: 'L-glutamic acid', values: { 'δ13C': m(-26.389, 0.042), 'δ15N': m(-4.52, 0.06) }, source: 'Qi et al., Rapid Commun. Mass Spectrom. 17 (2003) 2483; δ13C from Schimmelmann et al., Anal. Chem. 88 (2016) 4294; from memory', fromMemory: true },
+  'LSVEC': { id: 'LSVEC', name: 'LSVEC', substance: 'lithium carbonate', values: { 'δ13C': m(-46.479, 0.15), 'δ18O_VPDB': m(-26.7, 0.2) }, source: 'δ13C: the IAEA reassignment, Assonov et al., Rapid Commun. Mass Spectrom. 35 (2021) (article number not recalled with confidence), replacing the −46.6 ‰ consensus of Coplen et al., Anal. Chem. 78 (2006) 2439; from memory', note: 'δ13C reassigned after 2018 (drift of the material); IUPAC no longer recommends it as a scale anchor.', fromMemory: true },
+  'USGS40': { id: 'USGS40', name: 'USGS40', substance: 'L-glutamic acid', values: { 'δ13C': m(-26.389, 0.042), 'δ15N': m(-4.52, 0.06) }, source: 'δ15N: Qi et al., Rapid Commun. Mass Spectrom. 17 (2003) 2483; δ13C: Coplen et al., Anal. Chem. 78 (2006) 2439; from memory', note: 'δ13C on the pre-2018 VPDB realisation (NBS 19 and LSVEC at −46.6 ‰); not re-expressed on the IAEA-603/LSVEC-2021 realisation.', fromMemory: true },
   'USGS41a': { id: 'USGS41a', name: 'USGS41a', substance: 'L-glutamic acid', values: { 'δ13C': m(36.55, 0.08), 'δ15N': m(47.55, 0.15) }, source: 'Qi et al., Rapid Commun. Mass Spectrom. 30 (2016) 859; from memory', fromMemory: true },
   'IAEA-N-1': { id: 'IAEA-N-1', name: 'IAEA-N-1', substance: 'ammonium sulfate', values: { 'δ15N': m(0.43, 0.07) }, source: 'Böhlke & Coplen, IAEA-TECDOC-825 (1995) 51; from memory', fromMemory: true },
   'IAEA-N-2': { id: 'IAEA-N-2', name: 'IAEA-N-2', substance: 'ammonium sulfate', values: { 'δ15N': m(20.41, 0.12) }, source: 'Böhlke & Coplen, IAEA-TECDOC-825 (1995) 51; from memory', fromMemory: true },
@@ -71,7 +73,7 @@ export function referenceMaterial(id: string): ReferenceMaterial | undefined {
 
 /**
  * A material's accepted value of a quantity on a scale. δ18O is converted between VPDB and
- * VSMOW (Coplen et al. 1983) when the material states only the other; undefined when it states
+ * VSMOW (Brand et al. 2014) when the material states only the other; undefined when it states
  * neither (the material does not anchor that quantity).
  */
 export function acceptedValue(material: MaterialValues, quantity: string, scale: string): Measured | undefined {

@@ -32,8 +32,9 @@ export interface Reproducibility {
  * error of a slope fitted on few points is taken for scatter. The excess per-acquisition
  * variance is the moment estimate
  *   s² = max(0, (Σ r² − Σ u²·(n − 1)/n) / ν),
- * the pooled variance of the replicates less what their stated u already explain, so counting
- * noise is not counted twice. s² is added to every measured acquisition's u² (a sample measured
+ * the pooled variance of the replicates less what their stated u (and the variance of their
+ * bracketing reference gas, a shared term not in u) already explain, so counting noise is not
+ * counted twice. s² is added to every measured acquisition's u² (a sample measured
  * once carries one acquisition's reproducibility; an anchor's mean carries s²/n through its
  * weighted mean; the drift fit weights its points with it). The normalisation's χ²/ν (MSWD)
  * over more than two anchors is then a different quantity, the anchors' scatter about the line
@@ -46,13 +47,14 @@ export function addReproducibility(work: DeltaWork[], quantity: string, line?: {
     groups.set(w.item.material!, [...(groups.get(w.item.material!) ?? []), w])
   }
   // Relative to the ratio: an acquisition's fractionation moves δ by φ·(1 + δ/1000), which
-  // matters across δ2H's 430 ‰ between VSMOW2 and SLAP2.
+  // matters across δ2H's 430 ‰ between VSMOW2 and SLAP2; so residuals of 1000·ln(1 + δ/1000)
+  // (whose slope in δ is 1/(1 + δ/1000)) against u/(1 + δ/1000).
   const sets = [...groups].filter(([, ws]) => ws.length >= 2).map(([material, ws]) => {
-    const y = ws.map(w => w.values[quantity]!.value / rel(w.values[quantity]!.value))
+    const y = ws.map(w => 1000 * Math.log(rel(w.values[quantity]!.value)))
     const x = line ? ws.map(line.x) : ws.map(() => 0)
     const my = y.reduce((s, v) => s + v, 0) / y.length
     const mx = x.reduce((s, v) => s + v, 0) / x.length
-    return { material, n: ws.length, y: y.map(v => v - my), x: x.map(v => v - mx), u: ws.map(w => w.values[quantity]!.u / rel(w.values[quantity]!.value)) }
+    return { material, n: ws.length, y: y.map(v => v - my), x: x.map(v => v - mx), u: ws.map(w => Math.sqrt(w.values[quantity]!.u ** 2 + (w.refVar?.[quantity] ?? 0)) / rel(w.values[quantity]!.value)) }
   })
   const sxx = sets.reduce((s, g) => s + g.x.reduce((t, v) => t + v * v, 0), 0)
   const slope = line && sxx > 0 ? sets.reduce((s, g) => s + g.x.reduce((t, v, i) => t + v * g.y[i]!, 0), 0) / sxx : 0

@@ -1,6 +1,4 @@
 import { seededNormal } from '../random'
-import { BRAND_2010, VSMOW_K, r17FromR18 } from './isotopologues'
-import { scaleRatios, vsmowToVpdb18O } from './referenceMaterials'
 import type { GasSystem, Measured, SequenceItem, SequenceRole } from './types'
 
 // A δ sequence from first principles, so that the engine can be tested against a known truth:
@@ -11,6 +9,19 @@ import type { GasSystem, Measured, SequenceItem, SequenceRole } from './types'
 // fractionation, a procedural blank, H3+ formation (∝ i2²), and noise: ion shot noise
 // (Schottky, Ann. Phys. 57 (1918) 541: σ² = e·I/t) and the feedback resistor's Johnson–Nyquist
 // noise (Johnson, Phys. Rev. 32 (1928) 97: σ² = 2kT/(R·t) for a mean over t).
+
+// The simulator's own constants, typed here from their sources and NOT imported from the
+// engine, so that an error in the engine's constants shows as a difference (all from memory):
+// the IUPAC 17O set, Brand, Assonov & Coplen, Pure Appl. Chem. 82 (2010) 1719: K, λ, 13R_VPDB,
+// 18R_VPDB-CO2; VSMOW 2R Hagemann et al., Tellus 22 (1970) 712; 18R Baertschi, EPSL 31 (1976)
+// 341; 17R Li et al., Chin. Sci. Bull. 33 (1988) 1610; air 15R Junk & Svec, GCA 14 (1958) 234;
+// δ18O VPDB → VSMOW 1.03092, 30.92 (Brand et al., Pure Appl. Chem. 86 (2014) 425).
+const SIM = {
+  K: 0.01022461, lambda: 0.528, r13VPDB: 0.011180, r18VPDBCO2: 0.002088349,
+  r2VSMOW: 155.76e-6, r18VSMOW: 2005.20e-6, r17VSMOW: 379.9e-6, r15AIR: 0.0036765,
+  vsmowFactor: 1.03092, vsmowOffset: 30.92,
+} as const
+const K_VSMOW = SIM.r17VSMOW / SIM.r18VSMOW ** SIM.lambda
 
 const E_C = 1.602176634e-19 // elementary charge, C (exact, 2019 SI; CODATA 2022)
 const K_B = 1.380649e-23 // Boltzmann constant, J/K (exact, 2019 SI; CODATA 2022)
@@ -81,11 +92,12 @@ export const defaultSimulatedInstrument: SimulatedInstrument = {
 export function isotopologueAbundances(gas: DeltaGasSystem, d: Record<string, number>, oxygenScale: 'VPDB' | 'VSMOW' = 'VPDB'): Record<string, number> {
   const frac = (r: number[]) => { const s = 1 + r.reduce((a, b) => a + b, 0); return [1 / s, ...r.map(x => x / s)] }
   if (gas === 'CO2') {
-    const d18VPDB = oxygenScale === 'VSMOW' ? vsmowToVpdb18O({ value: d['δ18O'] ?? 0, u: 0 }).value : (d['δ18O'] ?? 0)
-    const r13 = BRAND_2010.r13 * (1 + (d['δ13C'] ?? 0) / 1000)
-    const r18 = BRAND_2010.r18 * (1 + d18VPDB / 1000)
+    // δ18O on VPDB(-CO2); on VSMOW it is the carbonate-equivalent value (shared/schemas/methods.ts).
+    const d18VPDB = oxygenScale === 'VSMOW' ? ((d['δ18O'] ?? 0) - SIM.vsmowOffset) / SIM.vsmowFactor : (d['δ18O'] ?? 0)
+    const r13 = SIM.r13VPDB * (1 + (d['δ13C'] ?? 0) / 1000)
+    const r18 = SIM.r18VPDBCO2 * (1 + d18VPDB / 1000)
     const [c12, c13] = frac([r13]) as [number, number]
-    const [o16, o17, o18] = frac([r17FromR18(r18), r18]) as [number, number, number]
+    const [o16, o17, o18] = frac([SIM.K * r18 ** SIM.lambda, r18]) as [number, number, number]
     return {
       44: c12 * o16 * o16,
       45: c13 * o16 * o16 + 2 * c12 * o16 * o17,
@@ -93,16 +105,16 @@ export function isotopologueAbundances(gas: DeltaGasSystem, d: Record<string, nu
     }
   }
   if (gas === 'N2') {
-    const [n14, n15] = frac([scaleRatios.AIR['15R'] * (1 + (d['δ15N'] ?? 0) / 1000)]) as [number, number]
+    const [n14, n15] = frac([SIM.r15AIR * (1 + (d['δ15N'] ?? 0) / 1000)]) as [number, number]
     return { 28: n14 * n14, 29: 2 * n14 * n15, 30: n15 * n15 }
   }
   if (gas === 'O2') {
-    const r18 = scaleRatios.VSMOW['18R'] * (1 + (d['δ18O'] ?? 0) / 1000)
-    const r17 = d['δ17O'] !== undefined ? scaleRatios.VSMOW['17R'] * (1 + d['δ17O'] / 1000) : VSMOW_K * r18 ** BRAND_2010.lambda
+    const r18 = SIM.r18VSMOW * (1 + (d['δ18O'] ?? 0) / 1000)
+    const r17 = d['δ17O'] !== undefined ? SIM.r17VSMOW * (1 + d['δ17O'] / 1000) : K_VSMOW * r18 ** SIM.lambda
     const [o16, o17, o18] = frac([r17, r18]) as [number, number, number]
     return { 32: o16 * o16, 33: 2 * o16 * o17, 34: 2 * o16 * o18 + o17 * o17 }
   }
-  const [h, dd] = frac([scaleRatios.VSMOW['2R'] * (1 + (d['δ2H'] ?? 0) / 1000)]) as [number, number]
+  const [h, dd] = frac([SIM.r2VSMOW * (1 + (d['δ2H'] ?? 0) / 1000)]) as [number, number]
   return { 2: h * h, 3: 2 * h * dd }
 }
 

@@ -28,6 +28,13 @@ export interface SequenceItem {
   /** When the instrument measured it, in ms since the epoch. */
   acquiredAt: number
   beams: Record<string, Measured>
+  /**
+   * What `beams` hold: 'mean-current' (default), the mean ion current in amperes over a steady
+   * integration (static cups, dual-inlet style); 'peak-area', a swept or transient peak's area
+   * per m/z, only proportional to the current. Ratios and blank subtraction work on either;
+   * the H3+ factor needs amperes of a steady signal and refuses 'peak-area'.
+   */
+  beamKind?: 'mean-current' | 'peak-area'
   ratios: Record<string, Measured>
   /**
    * Static-vacuum readings per cycle (noble gases): seconds since the gas was let into the
@@ -118,4 +125,9 @@ export interface SequenceOutcome {
   flags: OutcomeFlag[]
   /** False when an acceptance rule of the method failed: the sequence must not be released. */
   accepted: boolean
+  /**
+   * Errors common to many acquisitions (blank mean, reference-gas acquisitions, hence the H3+
+   * factor), each propagated once through every step to every result (GUM 5.2): its name and u.
+   */
+  sharedTerms?: { source: string, terms: { term: string, u: number }[] }
 }
