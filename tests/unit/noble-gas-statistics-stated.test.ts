@@ -51,8 +51,9 @@ describe('internal normalisation on stated ratios with consumption (300 sequence
     expect(s.meanZ2).toBeLessThanOrEqual(z2[1])
     expect(s.within2u).toBeGreaterThanOrEqual(cover[0])
     expect(s.within2u).toBeLessThanOrEqual(cover[1])
-    // k = t₉₅(14) = 2.145 from the cycles' n − 1 (GUM G.4.1) makes k·u the 95 % interval.
-    expect(s.meanK).toBeCloseTo(2.145, 2)
+    // k = t_p(14) at p = 95.45 % (the level of k = 2 for a normal output) = 2.195 from the
+    // cycles' n − 1 (GUM G.4.1; Table G.2 gives 2.18 at ν = 15) makes k·u the 95.45 % interval.
+    expect(s.meanK).toBeCloseTo(2.195, 2)
     expect(s.withinKu).toBeGreaterThanOrEqual(K_BAND[0])
     expect(s.withinKu).toBeLessThanOrEqual(K_BAND[1])
   })

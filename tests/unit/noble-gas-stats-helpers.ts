@@ -124,7 +124,8 @@ export function runSequences(against: 'standard' | 'internal', law: MassBiasLaw,
 }
 
 export const SEQ_BAND = binomialBand(coverageOfTwoU(13), 0.9545, SEQUENCES)
-export const K_BAND = binomialBand(0.95, 0.95, SEQUENCES)
+// k is t_p(ν_eff) at p = 95.45 % (the level of k = 2), as for the δ systems.
+export const K_BAND = binomialBand(0.9545, 0.9545, SEQUENCES)
 // The smallest ν among the components is the time-zero fits' 13 (the blanks' prediction u is conservative).
 export const Z2 = zSquareLimits(SEQUENCES, 13)
 

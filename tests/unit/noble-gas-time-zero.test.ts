@@ -4,7 +4,7 @@
 // GUM, JCGM 100:2008, H.3), the coverage factor from Student's t (GUM table G.2), and the flags.
 import { describe, expect, it } from 'vitest'
 import { EngineError } from '../../shared/engine/errors'
-import { studentTCoverageFactor } from '../../shared/engine/isotopes/leastSquares'
+import { coverageFactor } from '../../shared/engine/isotopes/studentT'
 import { welchSatterthwaite } from '../../shared/engine/isotopes/ratioDof'
 import { timeZeroIntercept } from '../../shared/engine/isotopes/timeZero'
 
@@ -19,8 +19,8 @@ describe('time-zero regression', () => {
     expect(fit.dof).toBe(2)
     // GUM table G.2: t₉₅(2) = 4.30, t₉₅(13) = 2.16, t₉₅(∞) = 1.960.
     expect(fit.k95).toBeCloseTo(4.303, 3)
-    expect(studentTCoverageFactor(13)).toBeCloseTo(2.160, 3)
-    expect(studentTCoverageFactor(Number.POSITIVE_INFINITY)).toBeCloseTo(1.960, 3)
+    expect(coverageFactor(13, 0.95)).toBeCloseTo(2.160, 3)
+    expect(coverageFactor(Number.POSITIVE_INFINITY, 0.95)).toBeCloseTo(1.960, 3)
   })
 
   it('exponential: recovers I₀ and the rate of noiseless consumption exactly', () => {

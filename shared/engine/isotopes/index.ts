@@ -1,4 +1,4 @@
-// The isotope workflow: δ sequences (CO2, N2, O2, H2) from acquisitions to the international
+// The isotope workflow: δ sequences (CO2, N2, O2, H2) and argon ratio sequences from acquisitions to the international
 // scales. Pure functions, no I/O.
 export * from './types'
 export * from './referenceMaterials'
@@ -12,3 +12,14 @@ export * from './studentT'
 export * from './processDeltaSequence'
 export * from './simulateSequence'
 export * from './fromResult'
+// Noble gases: mass-bias laws, time-zero regression, blanks and the argon sequence; the
+// control-chart rules every standard's history is checked with.
+export * from './massBias'
+export * from './massBiasReference'
+export * from './timeZero'
+export * from './blank'
+export * from './ratioDof'
+export * from './ratioSequence'
+export * from './staticCycles'
+export * from './simulateNobleGas'
+export * from './controlCharts'

@@ -1,4 +1,4 @@
-import { studentTCoverageFactor } from './leastSquares'
+import { coverageFactor } from './studentT'
 import type { Measured } from './types'
 
 // Degrees of freedom of a corrected ratio and its coverage factor. Written in the beams it comes
@@ -12,7 +12,7 @@ import type { Measured } from './types'
 // Where the ratios came as stated (no beam-level step), their degrees of freedom are unknown and k = 2
 // (GUM 6.3.3).
 
-export const DOF_SOURCE = 'effective degrees of freedom by Welch–Satterthwaite, k = t95(ν_eff) (GUM JCGM 100:2008, G.4.1, G.6.4)'
+export const DOF_SOURCE = 'effective degrees of freedom by Welch–Satterthwaite, k = t_p(ν_eff) at p = 95.45 %, the level of k = 2 for a normal output, as the δ systems use (GUM JCGM 100:2008, G.4.1, G.6.4, Table G.2)'
 
 export interface DofComponent { relU: number, dof: number }
 
@@ -58,5 +58,5 @@ export function correctedRatioDof(
   const components: DofComponent[] = [...coefficients.values()].map(v => ({ relU: Math.abs(v.c) * v.relU, dof: v.dof }))
   components.push({ relU: Math.abs(e) * acceptedRelU, dof: Number.POSITIVE_INFINITY })
   const dof = welchSatterthwaite(components)
-  return { dof, k: Number.isFinite(dof) ? studentTCoverageFactor(dof) : 2 }
+  return { dof, k: Number.isFinite(dof) ? coverageFactor(dof) : 2 }
 }

@@ -3,7 +3,7 @@ import { EngineError } from '../errors'
 import { BLANK_SOURCE, blankLevels } from './blank'
 import { correctRatio, cycleRatioCorrelation, isotopeRatio, MASS_BIAS_SOURCES, sharedDenominatorCovariance, type IsotopeRatio } from './massBias'
 import { massBiasFactors } from './massBiasReference'
-import { studentTCoverageFactor } from './leastSquares'
+import { coverageFactor } from './studentT'
 import { correctedRatioDof, DOF_SOURCE, welchSatterthwaite, type BeamSource } from './ratioDof'
 import { TIME_ZERO_SOURCE, timeZeroIntercept, type TimeZeroModel } from './timeZero'
 import type { AppliedStep, MaterialValues, Measured, OutcomeFlag, OutcomeItem, ScaledValue, SequenceItem, SequenceOutcome } from './types'
@@ -69,7 +69,7 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
   const beamSource = (s: ItemState): BeamSource | null => (s.beams ? { beams: s.beams, dof: s.dof } : null)
   const coverage: { position: number, quantity: string, dof: number | null, k: number }[] = []
   const record = (i: number, key: string, dof: number) => {
-    const k = Number.isFinite(dof) ? studentTCoverageFactor(dof) : 2
+    const k = Number.isFinite(dof) ? coverageFactor(dof) : 2
     coverage.push({ position: states[i]!.item.position, quantity: quantityOf(key), dof: Number.isFinite(dof) ? dof : null, k })
     return k
   }
@@ -144,7 +144,7 @@ export function processRatioSequence(method: MethodDefinition, items: SequenceIt
   }
   // Recorded with the last step: how each final value's k was found (not a correction of its own).
   const last = steps.at(-1)
-  if (last && coverage.length > 0) last.parameters.coverage = { source: DOF_SOURCE, rule: 'k = t95(ν_eff) by Welch–Satterthwaite over the beams, or over stated ratios with n − 1 degrees of freedom of their cycles; k = 2 where neither is known', perItem: coverage }
+  if (last && coverage.length > 0) last.parameters.coverage = { source: DOF_SOURCE, rule: 'k = t_p(ν_eff) at p = 95.45 % by Welch–Satterthwaite over the beams, or over stated ratios with n − 1 degrees of freedom of their cycles; k = 2 where neither is known', perItem: coverage }
   const outcomeItems = states.map((s, i) => outcomeItem(s, measured[i]?.ratios ?? null, finals[i] ?? null, materials, method, flags))
   const quantities = massBias?.against === 'internal' ? Object.keys(ARGON_QUANTITIES).filter(q => ARGON_QUANTITIES[q] !== massBias!.ratio) : Object.keys(ARGON_QUANTITIES)
   return { gas: 'Ar', quantities, items: outcomeItems, normalisation: [], drift: [], steps, flags, accepted: !flags.some(f => f.code === 'standard-residual-exceeds') }

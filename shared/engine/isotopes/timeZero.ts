@@ -1,5 +1,6 @@
 import { EngineError } from '../errors'
-import { leastSquares, studentTCentral, studentTCoverageFactor } from './leastSquares'
+import { leastSquares } from './leastSquares'
+import { coverageFactor, studentTCentral } from './studentT'
 import type { Measured } from './types'
 
 // Time-zero regression of static-vacuum signals. Once the gas is let into a static mass
@@ -135,7 +136,7 @@ export function timeZeroIntercept(t: ArrayLike<number>, signal: ArrayLike<number
     rate: { value: fit.rate, u: Math.sqrt(Math.max(fit.cov[1]![1]!, 0)) },
     cycles: ts.length,
     dof: fit.dof,
-    k95: studentTCoverageFactor(fit.dof),
+    k95: coverageFactor(fit.dof, 0.95),
     residualSd: fit.residualSd,
     flags,
   }
