@@ -26,13 +26,14 @@ function newSecret() {
  * The final clause of a statement that records events (a CTE named `ev` returning their ids):
  * one delivery per endpoint that takes `eventType` from the event's lab (`lab`, an SQL
  * expression such as `ev.lab_id`), within the partner's grant. Paused endpoints collect
- * their deliveries and get them when resumed.
+ * their deliveries and get them when resumed. An event that an older exchange-schema version
+ * does not describe goes only to endpoints on `minSchemaVersion` or later.
  */
-export function fanOut(eventType: string, lab: SQL): SQL {
+export function fanOut(eventType: string, lab: SQL, minSchemaVersion = 1): SQL {
   return sql`insert into ${deliveries} (endpoint_id, event_id, event_type)
     select e.id, ev.id, ${eventType} from ev
     join ${webhookEndpoints} e on e.status in ('active', 'paused') and ${eventType} = any(e.event_types)
-      and (cardinality(e.lab_ids) = 0 or ${lab} = any(e.lab_ids))
+      and (cardinality(e.lab_ids) = 0 or ${lab} = any(e.lab_ids)) and e.schema_version >= ${minSchemaVersion}
     join ${grants} g on g.partner_id = e.partner_id and g.lab_id = ${lab} and ${eventType} = any(g.event_types)`
 }
 

@@ -1,10 +1,10 @@
 import { and, asc, eq, isNull, min, sql } from 'drizzle-orm'
-import { EngineError, acceptedValue, processDeltaSequence, sequenceItemFromResult, type EngineResult } from '#shared/engine'
-import { processRatioSequence } from '#shared/engine/isotopes/ratioSequence'
+import { EngineError, acceptedValue, cyclesFromStaticReadings, geometry as geometrySchema, nominalMzByCollector, processDeltaSequence, processRatioSequence, sequenceItemFromResult, type EngineResult, type StaticCycleInput } from '#shared/engine'
 import type { MaterialValues, SequenceItem, SequenceOutcome } from '#shared/engine/isotopes/types'
 import { CAUTION } from '#shared/caution'
 import { standardRoles, type SequenceEventData } from '#shared/schemas/sequences'
-import { acquisitions, deliveries, events, grants, instruments, labs, results, sequenceItems, sequences, webhookEndpoints, type methods } from '../../database/schema'
+import { acquisitions, events, geometryVersions, instruments, labs, results, sequenceItems, sequences, type methods } from '../../database/schema'
+import { fanOut, kickDeliveries } from '../delivery'
 import { methodInForce, methodVersion } from './methods'
 import { materialsAt, type ResolvedMaterial } from './materials'
 import { appendControlPoints, type NewControlPoint } from './charts'
@@ -26,9 +26,15 @@ async function members(sequenceId: string) {
     position: sequenceItems.position, role: sequenceItems.role, material: sequenceItems.material,
     acquisitionId: acquisitions.id, runId: acquisitions.externalId, sampleRef: acquisitions.sampleRef, acquiredAt: acquisitions.acquiredAt,
     summary: results.summary,
+    // Static-vacuum readings with their cycle times (noble gases' time-zero step): the columns
+    // are read only for the acquisitions that gave `cycleSeconds`, not for every sweep.
+    cycleSeconds: sql<number[] | null>`${acquisitions.payload}->'cycleSeconds'`,
+    cycleColumns: sql<StaticCycleInput['detectors'] | null>`case when ${acquisitions.payload} ? 'cycleSeconds' then ${acquisitions.payload}->'detectors' end`,
+    geometry: geometryVersions.params,
   }).from(sequenceItems)
     .innerJoin(acquisitions, eq(acquisitions.id, sequenceItems.acquisitionId))
     .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), isNull(results.supersededBy)))
+    .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
     .where(eq(sequenceItems.sequenceId, sequenceId)).orderBy(asc(sequenceItems.position))
 }
 type Member = Awaited<ReturnType<typeof members>>[number]
@@ -89,9 +95,7 @@ async function runSequence(row: SequenceRow): Promise<void> {
 
   let outcome: SequenceOutcome
   try {
-    const items: SequenceItem[] = list.map(m => sequenceItemFromResult(m.summary as unknown as EngineResult, {
-      position: m.position, role: m.role, material: m.material ?? undefined, acquiredAt: m.acquiredAt.getTime(),
-    }))
+    const items: SequenceItem[] = list.map(itemOf)
     const values: MaterialValues[] = [...materials.values()].map(({ id, name, values, source }) => ({ id, name, values, source }))
     outcome = method.definition.gas === 'Ar'
       ? processRatioSequence(method.definition, items, values)
@@ -114,6 +118,25 @@ async function runSequence(row: SequenceRow): Promise<void> {
     await recordSequenceEvent(tx, row.labId, data)
   })
   kickDeliveries()
+}
+
+/** A member as the engine's sequence item; static readings with cycle times carry their cycles. */
+function itemOf(m: Member, index: number): SequenceItem {
+  const result = m.summary as unknown as EngineResult
+  const item = sequenceItemFromResult(result, { position: m.position, role: m.role, material: m.material ?? undefined, acquiredAt: m.acquiredAt.getTime() })
+  if (!m.cycleSeconds || !m.cycleColumns) return item
+  try {
+    const cycles = cyclesFromStaticReadings({
+      geometry: geometrySchema.parse(m.geometry), detectors: m.cycleColumns, cycleSeconds: m.cycleSeconds,
+      collectorMz: nominalMzByCollector(result.peaks),
+    })
+    return { ...item, cycles }
+  }
+  catch (error) {
+    // The engine names the field of the acquisition; the sequence names the item.
+    if (error instanceof EngineError) throw new EngineError(`items[${index}].${error.field}`, error.code, error.message.slice(error.field.length + 2))
+    throw error
+  }
 }
 
 /** Every material a method names (anchors, drift and mass-bias standards). */
@@ -173,8 +196,8 @@ function eventData(row: SequenceRow, instrument: string, method: MethodRow, outc
 }
 
 /**
- * The outbox event and one delivery per entitled endpoint (as `fanOut` writes them for
- * results, with the schema-version condition), in the caller's transaction; the lab's event
+ * The outbox event and one delivery per entitled endpoint on result-event v2 or later (v1 does
+ * not describe this message), in the caller's transaction; the lab's event
  * number is taken under its row's lock, as acquisitions' events are.
  */
 async function recordSequenceEvent(tx: Queryable, labId: string, data: SequenceEventData) {
@@ -185,11 +208,5 @@ async function recordSequenceEvent(tx: Queryable, labId: string, data: SequenceE
       insert into ${events} (lab_id, sequence, type, payload)
       select lab_id, last, ${SEQUENCE_EVENT}, ${JSON.stringify(data)}::jsonb from seq
       returning id, lab_id)
-    insert into ${deliveries} (endpoint_id, event_id, event_type)
-    select e.id, ev.id, ${SEQUENCE_EVENT} from ev
-    join ${webhookEndpoints} e on e.status in ('active', 'paused') and ${SEQUENCE_EVENT} = any(e.event_types)
-      and (cardinality(e.lab_ids) = 0 or ev.lab_id = any(e.lab_ids))
-      -- result-event v1 does not describe this message: endpoints on v1 keep receiving results only.
-      and e.schema_version >= 2
-    join ${grants} g on g.partner_id = e.partner_id and g.lab_id = ev.lab_id and ${SEQUENCE_EVENT} = any(g.event_types)`)
+    ${fanOut(SEQUENCE_EVENT, sql`ev.lab_id`, 2)}`)
 }
