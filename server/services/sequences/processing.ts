@@ -52,6 +52,8 @@ function failureOf(error: EngineError, list: Member[]): Failure {
   const message = error.message.replace(/^[^:]+: /, '')
   if (item) {
     const m = list[Number(item[1])]
+    // The engine's `cycles` are built from the acquisition's `cycleSeconds`: missing, it is that field the lab must send.
+    if (m && error.code === 'missing-cycles') return { code: error.code, message: `${message}: post the acquisition's cycleSeconds with its detector columns`, field: `position.${m.position}.acquisition.cycleSeconds` }
     return { code: error.code, message, field: m ? `position.${m.position}${item[2]!.replace(/\[(\d+)\]/g, '.$1')}` : 'acquisitions' }
   }
   const field = error.field.replace(/\[(\d+)\]/g, '.$1')
