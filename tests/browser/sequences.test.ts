@@ -110,6 +110,12 @@ describe('isotope sequences in the console', () => {
     const charts = page.getByRole('main').getByRole('table').getByRole('row')
     await expect.poll(() => charts.count()).toBeGreaterThanOrEqual(4)
     expect(await charts.filter({ hasText: 'violated' }).count()).toBe(1)
+    // Across every chart of the history, δ13C and δ18O of each standard, exactly one point breaks a rule.
+    const admin = await new ConsoleClient().signIn(demoUser('admin').email, demoUser('admin').password)
+    const all = (await admin.get<{ items: { material: string, quantity: string, points: number, violations: number }[] }>(`/api/console/labs/${labId}/control-charts`)).body.items
+    expect(all.map(c => `${c.material} ${c.quantity}`).sort()).toEqual(['IAEA-603 δ13C', 'IAEA-603 δ18O', 'LSVEC δ13C', 'LSVEC δ18O', 'SM-MARBLE δ13C', 'SM-MARBLE δ18O'])
+    expect(all.every(c => c.points >= DEMO_SEQUENCE_COUNT)).toBe(true)
+    expect(all.reduce((n, c) => n + c.violations, 0)).toBe(1)
 
     await page.goto(url(`/console/labs/${labId}/control-charts`), { waitUntil: 'hydration' })
     await page.getByRole('link', { name: 'Sequences', exact: true }).first().click()
