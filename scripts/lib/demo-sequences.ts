@@ -3,7 +3,8 @@
 // reference gas between acquisitions, two international anchors (IAEA-603 and LSVEC), the
 // lab's own marble as a monitoring standard and four core samples. Its partner receives the
 // samples' δ13C and δ18O on VPDB. One sequence, three weeks ago, measured a marble aliquot from
-// a vial left uncapped: its δ13C breaks the 1-3s rule, the one violation the charts hold.
+// a vial left uncapped: its δ13C breaks the 1-3s rule, the one violation the charts (δ13C and
+// δ18O of every standard) hold.
 // Halvard Ridge's noble-gas sector measures argon from rock samples against air aliquots
 // (exponential mass-bias law) twice a week for three weeks; its partner receives the corrected
 // 40Ar/36Ar and 38Ar/36Ar.
@@ -91,17 +92,21 @@ export function demoCo2Sequences(now = Date.now()): DemoSequence[] {
     const startMs = firstDay + k * 4 * DAY + 8 * 3_600_000
     const layout: (SimulatedAcquisition & { sampleRef?: string })[] = []
     const ref = () => layout.push({ role: 'reference-gas', truth: refGas, majorA: 1e-8 })
-    const std = (id: string, role: 'working-standard' | 'monitoring-standard', d13: number) => {
+    const std = (id: string, role: 'working-standard' | 'monitoring-standard', d13: number, d18: number) => {
       const t = truth(id)
-      layout.push({ role, material: id, truth: { ...t, 'δ13C': t['δ13C'] + d13 }, majorA: 1e-8 })
+      layout.push({ role, material: id, truth: { 'δ13C': t['δ13C'] + d13, 'δ18O': t['δ18O'] + d18 }, majorA: 1e-8 })
     }
     // Drift standard at positions 2, 16 and 20 (times 1, 15 and 19 spacings): deviations ∝ (−4, 18, −14)/18.
+    // δ18O is charted too: its standards scatter by the same design (without it every δ18O
+    // point sat on its accepted value, the chart's s was ~0 and each rounding broke a rule).
     const a = scatter(k, 0.005)
     const b = Math.abs(scatter(k + 3, 0.025))
+    const a18 = scatter(k + 5, 0.02)
+    const b18 = Math.abs(scatter(k + 7, 0.04))
     const spoiled = k === DEMO_SPOILED_SEQUENCE
-    ref(); std('IAEA-603', 'working-standard', a * -4 / 18)
-    ref(); std('LSVEC', 'working-standard', b)
-    ref(); std(DEMO_MONITOR, 'monitoring-standard', spoiled ? 0.028 : scatter(k + 1, 0.008))
+    ref(); std('IAEA-603', 'working-standard', a * -4 / 18, a18 * -4 / 18)
+    ref(); std('LSVEC', 'working-standard', b, b18)
+    ref(); std(DEMO_MONITOR, 'monitoring-standard', spoiled ? 0.028 : scatter(k + 1, 0.008), scatter(k + 6, 0.03))
     const cores = [
       { 'δ13C': -27.9 + (k % 5) * 0.8, 'δ18O': -9.6 + (k % 3) * 0.7 },
       { 'δ13C': -14.2 - (k % 4) * 0.6, 'δ18O': -6.1 - (k % 5) * 0.3 },
@@ -109,9 +114,9 @@ export function demoCo2Sequences(now = Date.now()): DemoSequence[] {
       { 'δ13C': 0.9 - (k % 6) * 0.3, 'δ18O': -1.5 - (k % 2) * 0.4 },
     ]
     cores.forEach((c, j) => { ref(); layout.push({ role: 'sample', truth: c, majorA: 1e-8, sampleRef: `SM-CORE-${String(k * 4 + j + 101).padStart(4, '0')}` }) })
-    ref(); std('IAEA-603', 'working-standard', a)
-    ref(); std('LSVEC', 'working-standard', -b)
-    ref(); std('IAEA-603', 'working-standard', a * -14 / 18)
+    ref(); std('IAEA-603', 'working-standard', a, a18)
+    ref(); std('LSVEC', 'working-standard', -b, -b18)
+    ref(); std('IAEA-603', 'working-standard', a * -14 / 18, a18 * -14 / 18)
     ref()
     const items = simulateSequence({
       gas: 'CO2', seed: 1000 + k, oxygenScale: 'VPDB', startMs, spacingMs: SPACING_MS, acquisitions: layout,
