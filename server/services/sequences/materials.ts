@@ -4,7 +4,6 @@ import { ATMOSPHERIC_ARGON } from '#shared/engine/isotopes/massBias'
 import type { MaterialValues, Measured } from '#shared/engine/isotopes/types'
 import type { WorkingStandardInput, WorkingStandardView } from '#shared/schemas/sequences'
 import { referenceMaterials, workingStandards } from '../../database/schema'
-import { auditIsotopes, type AuditContext } from './audit'
 
 // Reference materials (the hub's registry, the same for every lab) and each lab's working
 // standards, versioned: a recalibration is a new version with its own validity.
@@ -51,7 +50,7 @@ export async function createWorkingStandardVersion(labId: string, input: Working
       labId, code: input.code, version: (last ?? 0) + 1, name: input.name, values: input.values, calibratedAgainst: input.calibratedAgainst,
       validFrom, validTo: input.validTo ? new Date(input.validTo) : null, note: input.note ?? null,
     }).returning())
-    await auditIsotopes(tx, ctx, 'standard.version-created', { type: 'working-standard', id: row.id }, { labId, code: row.code, version: row.version })
+    await recordAudit(tx, { ...ctx, action: 'standard.version-created', targetType: 'working-standard', targetId: row.id, detail: { labId, code: row.code, version: row.version } })
     return workingStandardView(row)
   })
 }

@@ -1,7 +1,6 @@
 import { and, asc, desc, eq, inArray, lte, max, sql } from 'drizzle-orm'
 import type { MethodInput, MethodView } from '#shared/schemas/sequences'
 import { instruments, methods, referenceMaterials, workingStandards } from '../../database/schema'
-import { auditIsotopes, type AuditContext } from './audit'
 
 // Methods per instrument, versioned like geometries: a new version is valid from a time, and
 // a sequence runs under the version in force at its first acquisition (or the one it names).
@@ -42,7 +41,7 @@ export async function createMethodVersion(labId: string, instrumentSlug: string,
     const row = firstRow(await tx.insert(methods).values({
       instrumentId: instrument.id, version: (last ?? 0) + 1, name: input.name, definition: input.definition, validFrom, note: input.note ?? null,
     }).returning())
-    await auditIsotopes(tx, ctx, 'method.version-created', { type: 'method', id: row.id }, { labId, instrument: instrument.slug, version: row.version })
+    await recordAudit(tx, { ...ctx, action: 'method.version-created', targetType: 'method', targetId: row.id, detail: { labId, instrument: instrument.slug, version: row.version } })
     return methodView(row, instrument.slug)
   })
 }
