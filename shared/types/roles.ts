@@ -1,10 +1,15 @@
-/** The console roles. A lab manager belongs to one lab, an integrator to one partner. */
-export const roles = ['admin', 'lab_manager', 'integrator', 'viewer'] as const
+/**
+ * The console roles. A lab manager and a lab reviewer belong to one lab, an integrator to one
+ * partner. A lab reviewer authorises (releases, rejects, retracts) the lab's results and reads
+ * the lab; it changes nothing else (ISO/IEC 17025:2017 §7.8.1, authorisation of results).
+ */
+export const roles = ['admin', 'lab_manager', 'lab_reviewer', 'integrator', 'viewer'] as const
 export type Role = (typeof roles)[number]
 
 export const roleLabels: Record<Role, string> = {
   admin: 'Admin',
   lab_manager: 'Lab manager',
+  lab_reviewer: 'Lab reviewer',
   integrator: 'Integrator',
   viewer: 'Viewer',
 }
@@ -16,7 +21,7 @@ export const roleLabels: Record<Role, string> = {
 export const permissions = {
   'users:read': ['admin', 'viewer'],
   'users:write': ['admin'],
-  'labs:read': ['admin', 'viewer', 'lab_manager'],
+  'labs:read': ['admin', 'viewer', 'lab_manager', 'lab_reviewer'],
   'labs:create': ['admin'],
   'labs:update': ['admin', 'lab_manager'],
   // A lab's instruments, calibrations, keys, partner grants and uploads (a lab manager: their own lab only).
@@ -25,6 +30,10 @@ export const permissions = {
   'partners:create': ['admin'],
   'partners:update': ['admin', 'integrator'],
   'audit:read': ['admin', 'viewer'],
+  // Release, reject and retract a lab's results and sequences (their own lab only).
+  'results:review': ['lab_manager', 'lab_reviewer'],
+  // Start reprocessing jobs and correct released results (their own lab only).
+  'results:reprocess': ['admin', 'lab_manager'],
 } as const satisfies Record<string, readonly Role[]>
 
 export type Permission = keyof typeof permissions

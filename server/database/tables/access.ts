@@ -23,7 +23,7 @@ export const users = pgTable('users', {
   createdAt: createdAt(),
   updatedAt: updatedAt(),
 }, t => [
-  check('users_role_scope', sql`(${t.role} = 'lab_manager') = (${t.labId} is not null) and (${t.role} = 'integrator') = (${t.partnerId} is not null)`),
+  check('users_role_scope', sql`(${t.role}::text in ('lab_manager', 'lab_reviewer')) = (${t.labId} is not null) and (${t.role} = 'integrator') = (${t.partnerId} is not null)`),
 ])
 
 /**

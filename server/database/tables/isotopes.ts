@@ -4,8 +4,8 @@ import type { MethodDefinition } from '../../../shared/schemas/methods'
 import type { Measured, SequenceOutcome, SequenceRole } from '../../../shared/engine/isotopes/types'
 import { createdAt } from './columns'
 import { instruments } from './instruments'
-import { labs } from './orgs'
-import { acquisitions } from './results'
+import { acquisitions, reviewStateEnum } from './results'
+import { labs, releasePolicyEnum } from './orgs'
 
 // The isotope workflow: reference materials, each lab's working standards, methods per
 // instrument, sequences of acquisitions with roles, and the control-chart points of the
@@ -57,6 +57,10 @@ export const methods = pgTable('methods', {
   definition: jsonb('definition').$type<MethodDefinition>().notNull(),
   validFrom: timestamp('valid_from', { withTimezone: true }).notNull(),
   note: text('note'),
+  // Overrides the lab's release policy for sequences processed under this method (null: the lab's).
+  releasePolicy: releasePolicyEnum('release_policy'),
+  // Who registered this version: the four-eyes rule's "last changed its method".
+  createdBy: uuid('created_by'),
   createdAt: createdAt(),
 }, t => [
   uniqueIndex('methods_instrument_version_idx').on(t.instrumentId, t.version),
@@ -84,6 +88,16 @@ export const sequences = pgTable('sequences', {
   failure: jsonb('failure').$type<{ code: string, message: string, field?: string }>(),
   /** A control-chart rule was violated by a standard of this sequence. */
   flagged: boolean('flagged').notNull().default(false),
+  // Review before release, as for results (server/database/tables/results.ts): partners see a
+  // sequence's outcome (sequence.processed) only once released.
+  reviewState: reviewStateEnum('review_state').notNull().default('held'),
+  reviewedBy: uuid('reviewed_by'),
+  reviewedAt: timestamp('reviewed_at', { withTimezone: true }),
+  reviewComment: text('review_comment'),
+  releasedAt: timestamp('released_at', { withTimezone: true }),
+  retractedBy: uuid('retracted_by'),
+  retractedAt: timestamp('retracted_at', { withTimezone: true }),
+  retractionReason: text('retraction_reason'),
   closedAt: timestamp('closed_at', { withTimezone: true }),
   processedAt: timestamp('processed_at', { withTimezone: true }),
   createdAt: createdAt(),

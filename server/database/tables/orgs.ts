@@ -1,8 +1,11 @@
-import { bigint, pgEnum, pgTable, text, uuid } from 'drizzle-orm/pg-core'
+import { sql } from 'drizzle-orm'
+import { bigint, boolean, pgEnum, pgTable, text, uuid } from 'drizzle-orm/pg-core'
+import { releasePolicies } from '../../../shared/schemas/lifecycle'
 import { partnerKinds } from '../../../shared/schemas/orgs'
 import { createdAt, updatedAt } from './columns'
 
 export const partnerKindEnum = pgEnum('partner_kind', partnerKinds)
+export const releasePolicyEnum = pgEnum('release_policy', releasePolicies)
 
 export const labs = pgTable('labs', {
   id: uuid('id').primaryKey().defaultRandom(),
@@ -12,6 +15,14 @@ export const labs = pgTable('labs', {
   contactEmail: text('contact_email').notNull(),
   // Last event sequence number handed out for this lab (events are numbered per lab).
   eventSequence: bigint('event_sequence', { mode: 'number' }).notNull().default(0),
+  // Review before release (ISO/IEC 17025:2017 §7.8.1: results are reviewed and authorised
+  // before release). 'review' holds every result; 'auto' releases a result whose QC flags
+  // are all in autoReleaseAllows (codes the lab accepts without a person, e.g. 'uncalibrated'
+  // for a leak-test lab), and holds the rest.
+  releasePolicy: releasePolicyEnum('release_policy').notNull().default('review'),
+  autoReleaseAllows: text('auto_release_allows').array().notNull().default(sql`'{}'::text[]`),
+  // Four eyes: whoever submitted a result (or last changed its method) may not release it.
+  fourEyes: boolean('four_eyes').notNull().default(false),
   createdAt: createdAt(),
   updatedAt: updatedAt(),
 })

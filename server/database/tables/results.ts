@@ -1,9 +1,11 @@
-import { bigint, bigserial, doublePrecision, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
+import { bigint, bigserial, doublePrecision, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uniqueIndex, uuid, type AnyPgColumn } from 'drizzle-orm/pg-core'
+import { reviewStates } from '../../../shared/schemas/lifecycle'
 import { createdAt } from './columns'
 import { calibrations, geometryVersions, instruments } from './instruments'
 import { labs } from './orgs'
 
 export const acquisitionStatusEnum = pgEnum('acquisition_status', ['processed', 'failed'])
+export const reviewStateEnum = pgEnum('review_state', reviewStates)
 
 export const acquisitions = pgTable('acquisitions', {
   id: uuid('id').primaryKey().defaultRandom(),
@@ -17,6 +19,8 @@ export const acquisitions = pgTable('acquisitions', {
   bodyHash: text('body_hash').notNull(),
   payload: jsonb('payload').$type<Record<string, unknown>>().notNull(),
   pointCount: integer('point_count').notNull(),
+  // The console user who uploaded it (null for lab-system posts with an API key): the four-eyes rule.
+  submittedBy: uuid('submitted_by'),
   createdAt: createdAt(),
 }, t => [
   uniqueIndex('acquisitions_lab_external_idx').on(t.labId, t.externalId),
@@ -32,9 +36,29 @@ export const results = pgTable('results', {
   calibrationId: uuid('calibration_id').references(() => calibrations.id),
   engineVersion: text('engine_version').notNull(),
   summary: jsonb('summary').$type<Record<string, unknown>>().notNull(),
+  // Lineage: results are never overwritten. Reprocessing writes version n+1 with `supersedes`
+  // naming version n and sets n's `supersededBy`. Partners see an acquisition's latest
+  // version whose review state is released or retracted.
+  version: integer('version').notNull().default(1),
+  supersedes: uuid('supersedes').references((): AnyPgColumn => results.id),
   supersededBy: uuid('superseded_by'),
+  // Why this version exists when it corrects a released one (shown to partners in result.corrected).
+  correctionReason: text('correction_reason'),
+  reprocessJobId: uuid('reprocess_job_id'),
+  reviewState: reviewStateEnum('review_state').notNull().default('held'),
+  // Who decided (null with automatic release), when, and what they wrote.
+  reviewedBy: uuid('reviewed_by'),
+  reviewedAt: timestamp('reviewed_at', { withTimezone: true }),
+  reviewComment: text('review_comment'),
+  releasedAt: timestamp('released_at', { withTimezone: true }),
+  retractedBy: uuid('retracted_by'),
+  retractedAt: timestamp('retracted_at', { withTimezone: true }),
+  retractionReason: text('retraction_reason'),
   createdAt: createdAt(),
-}, t => [index('results_acquisition_idx').on(t.acquisitionId)])
+}, t => [
+  uniqueIndex('results_acquisition_version_idx').on(t.acquisitionId, t.version),
+  index('results_lab_review_idx').on(t.labId, t.reviewState, t.createdAt),
+])
 
 /** Peaks, one row each, indexed by m/z for queries across labs. */
 
