@@ -1,7 +1,7 @@
 import { randomBytes } from 'node:crypto'
 import { and, desc, eq, inArray, sql, type SQL } from 'drizzle-orm'
 import { TEST_EVENT, type EndpointInput, type EndpointUpdate } from '#shared/schemas/webhooks'
-import { deliveries, deliveryAttempts, grants, partners, webhookEndpoints } from '../../database/schema'
+import { deliveries, deliveryAttempts, events, grants, labs, partners, webhookEndpoints } from '../../database/schema'
 import { consumePartnerAction } from '../access'
 import { GuardRefusal } from './addressGuard'
 import { checkOutboundUrlResolved } from './outbound'
@@ -35,6 +35,23 @@ export function fanOut(eventType: string, lab: SQL, minSchemaVersion = 1): SQL {
     join ${webhookEndpoints} e on e.status in ('active', 'paused') and ${eventType} = any(e.event_types)
       and (cardinality(e.lab_ids) = 0 or ${lab} = any(e.lab_ids)) and e.schema_version >= ${minSchemaVersion}
     join ${grants} g on g.partner_id = e.partner_id and g.lab_id = ${lab} and ${eventType} = any(g.event_types)`
+}
+
+/**
+ * Records one event of lab `labId` in the caller's transaction (or alone) with the deliveries
+ * it owes: the lab's next event number is taken under its row's lock, as accepted
+ * acquisitions' events are (ingest/acceptedWrites.ts), so the pull feed's per-lab cursor
+ * never skips one. The caller kicks the delivery worker after its commit.
+ */
+export async function recordLabEvent(db: Queryable, labId: string, eventType: string, data: unknown, minSchemaVersion = 1) {
+  await db.execute(sql`
+    with seq as (
+      update ${labs} set event_sequence = event_sequence + 1 where id = ${labId} returning id as lab_id, event_sequence as last),
+    ev as (
+      insert into ${events} (lab_id, sequence, type, payload)
+      select lab_id, last, ${eventType}, ${JSON.stringify(data)}::jsonb from seq
+      returning id, lab_id)
+    ${fanOut(eventType, sql`ev.lab_id`, minSchemaVersion)}`)
 }
 
 async function checkUrlField(url: string) {

@@ -3,8 +3,8 @@ import { EngineError, acceptedValue, cyclesFromStaticReadings, geometry as geome
 import type { MaterialValues, SequenceItem, SequenceOutcome } from '#shared/engine/isotopes/types'
 import { CAUTION } from '#shared/caution'
 import { standardRoles, type SequenceEventData } from '#shared/schemas/sequences'
-import { acquisitions, events, geometryVersions, instruments, labs, results, sequenceItems, sequences, type methods } from '../../database/schema'
-import { fanOut, kickDeliveries } from '../delivery'
+import { acquisitions, geometryVersions, instruments, results, sequenceItems, sequences, type methods } from '../../database/schema'
+import { kickDeliveries, recordLabEvent } from '../delivery'
 import { methodInForce, methodVersion } from './methods'
 import { materialsAt, type ResolvedMaterial } from './materials'
 import { appendControlPoints, type NewControlPoint } from './charts'
@@ -117,7 +117,8 @@ async function runSequence(row: SequenceRow): Promise<void> {
     await tx.update(sequences).set({ status: 'processed', outcome: stored, methodId: method.id, flagged, failure: null, processedAt: sql`now()` }).where(eq(sequences.id, row.id))
     const instrument = await tx.query.instruments.findFirst({ where: eq(instruments.id, row.instrumentId), columns: { slug: true } })
     const data = eventData(row, instrument?.slug ?? '', method, stored, list, materials, flagged)
-    await recordSequenceEvent(tx, row.labId, data)
+    // result-event v1 does not describe this message: endpoints on v2 or later only.
+    await recordLabEvent(tx, row.labId, SEQUENCE_EVENT, data, 2)
   })
   kickDeliveries()
 }
@@ -197,18 +198,3 @@ function eventData(row: SequenceRow, instrument: string, method: MethodRow, outc
   }
 }
 
-/**
- * The outbox event and one delivery per entitled endpoint on result-event v2 or later (v1 does
- * not describe this message), in the caller's transaction; the lab's event
- * number is taken under its row's lock, as acquisitions' events are.
- */
-async function recordSequenceEvent(tx: Queryable, labId: string, data: SequenceEventData) {
-  await tx.execute(sql`
-    with seq as (
-      update ${labs} set event_sequence = event_sequence + 1 where id = ${labId} returning id as lab_id, event_sequence as last),
-    ev as (
-      insert into ${events} (lab_id, sequence, type, payload)
-      select lab_id, last, ${SEQUENCE_EVENT}, ${JSON.stringify(data)}::jsonb from seq
-      returning id, lab_id)
-    ${fanOut(SEQUENCE_EVENT, sql`ev.lab_id`, 2)}`)
-}
