@@ -8,6 +8,8 @@ export interface DemoInstrument {
   slug: string
   name: string
   geometry: Geometry
+  /** The species the instrument is registered to measure (none: every candidate). */
+  measuredSpecies?: string[]
   /** Builds one acquisition as that lab's system would post it. */
   acquisition: (runId: string, acquiredAt: Date, seed: number) => AcquisitionInput
 }
@@ -42,13 +44,14 @@ function co2Species(seed: number): SimulatedSpecies[] {
 export const demoInstruments: DemoInstrument[] = [
   {
     lab: 'saltmarsh-isotopes', slug: 'irms-north', name: 'North bench IRMS', geometry: co2Lab,
+    // The bench registers CO (a fragment of CO2) but, with its CO2 trapped cryogenically, measures
+    // only CO2, its isotopologue and the air-leak monitors: at R 950 CO+ and N2+ (Δm/z 0.011)
+    // share one peak, so the species registered on the instrument are what tell m/z 28 apart.
+    measuredSpecies: ['CO2', '[13C]O2', 'N2', '[40Ar]', 'O2'],
     acquisition: (runId, at, seed) => sweepBody('irms-north', runId, at, `CARB-${1000 + seed}`, {
       geometry: co2Lab, acceleratingVoltageV: 3000, mzFrom: 26, mzTo: 47, points: 12_000, resolvingPower: 950,
       species: co2Species(seed), baselineA: 8e-15, noiseA: 2e-15, seed, currentUnit: 'fA',
-    // The bench registers CO (a fragment of CO2) but, with its CO2 trapped cryogenically, measures
-    // only CO2, its isotopologue and the air-leak monitors: at R 950 CO+ and N2+ (Δm/z 0.011)
-    // share one peak, so naming the measured species is what tells m/z 28 apart.
-    }, { formulas: ['CO2', '[13C]O2', 'N2', '[40Ar]', 'CO', 'O2'], measuredSpecies: ['CO2', '[13C]O2', 'N2', '[40Ar]', 'O2'], ratios: [{ id: 'VPDB:13C/12C', heavy: '[13C]O2', light: 'CO2' }] }),
+    }, { formulas: ['CO2', '[13C]O2', 'N2', '[40Ar]', 'CO', 'O2'], ratios: [{ id: 'VPDB:13C/12C', heavy: '[13C]O2', light: 'CO2' }] }),
   },
   {
     lab: 'halvard-ridge', slug: 'noble-gas-1', name: 'Noble-gas sector', geometry: argonLab,
@@ -82,7 +85,7 @@ export const demoInstruments: DemoInstrument[] = [
  */
 export function demoCalibration(inst: DemoInstrument, degree = 1) {
   const body = inst.acquisition('reference', new Date(), 0)
-  const engine = processReadings(inst.geometry, { settings: body.settings, sweep: body.sweep, detectors: body.detectors }, { formulas: body.processing?.formulas, measuredSpecies: body.processing?.measuredSpecies, tolerance: { ppm: 200 } })
+  const engine = processReadings(inst.geometry, { settings: body.settings, sweep: body.sweep, detectors: body.detectors }, { formulas: body.processing?.formulas, measuredSpecies: inst.measuredSpecies, tolerance: { ppm: 200 } })
   const points = engine.peaks.filter(p => p.assignment && !p.ambiguous).map(p => ({ measuredMz: p.centroid, referenceMz: p.assignment!.mz, label: p.assignment!.species }))
   return { points, fit: fitCalibration(points, degree) }
 }

@@ -39,7 +39,7 @@ export async function seedDemo(url: string, opts: { keysFile?: string } = {}): P
       const keys: Record<string, string> = {}
       for (const inst of demoInstruments) {
         const labId = labIds.get(inst.lab)!
-        const [row] = await tx`insert into instruments (lab_id, slug, name) values (${labId}, ${inst.slug}, ${inst.name}) returning id`
+        const [row] = await tx`insert into instruments (lab_id, slug, name, measured_species) values (${labId}, ${inst.slug}, ${inst.name}, ${inst.measuredSpecies ?? null}) returning id`
         await tx`insert into geometry_versions (instrument_id, version, kind, params, valid_from, note)
                  values (${row!.id}, 1, ${inst.geometry.kind}, ${tx.json(inst.geometry as never)}, '2026-01-01T00:00:00Z', 'as installed')`
         // A history to look at: the noble-gas sector's radius re-measured after a service five

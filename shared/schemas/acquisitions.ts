@@ -1,6 +1,7 @@
 import { z } from 'zod'
 import { referenceRatios } from '../engine/ratios'
 import { slug } from './common'
+import { measuredSpecies } from './instruments'
 
 // Acquisition schema v1: what a lab system posts. The shape of the raw readings follows
 // the engine's RawReadings; everything Arcwise decides (lab, status, versions) is absent
@@ -67,8 +68,8 @@ export const acquisitionInput = z.object({
     }).strict()).min(1).max(32).optional(),
   }).strict().optional(),
   processing: z.object({
-    /** Species this instrument measures (labels, or element symbols): other candidates are not considered. */
-    measuredSpecies: z.array(z.string().min(1).max(64)).max(100).optional(),
+    /** Species measured in this acquisition (labels, or element symbols): other candidates are not considered. Overrides the instrument's registered list. */
+    measuredSpecies: measuredSpecies.optional(),
     tolerancePpm: z.number().positive().max(10_000).optional(),
     isotopes: z.boolean().optional(),
     maxCharge: z.number().int().min(1).max(3).optional(),

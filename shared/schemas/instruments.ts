@@ -2,16 +2,31 @@ import { z } from 'zod'
 import { geometry } from '../engine/geometry'
 import { displayName, slug } from './common'
 
+/**
+ * The species an instrument measures, as engine species labels ('CO2', '[13C]O2', '[40Ar]')
+ * or element symbols: assignment then considers no other candidate, so a rival line this
+ * instrument never sees cannot flag a peak as ambiguous.
+ */
+export const measuredSpecies = z.array(z.string().trim().min(1, 'must not be empty').max(64)).max(100)
+  .refine(list => new Set(list).size === list.length, { message: 'lists a species twice' })
+
 /** A new instrument: its first geometry version is valid from `validFrom` (default now). */
 export const instrumentInput = z.object({
   slug,
   name: displayName,
   geometry,
   validFrom: z.coerce.date({ error: 'must be a date and time' }).optional(),
+  measuredSpecies: measuredSpecies.optional(),
 }).strict()
 export type InstrumentInput = z.infer<typeof instrumentInput>
 
-export const instrumentUpdate = z.object({ name: displayName }).strict()
+/** A change of an instrument's name or measured species (at least one; null clears the species list). */
+export const instrumentUpdate = z.object({
+  name: displayName.optional(),
+  measuredSpecies: measuredSpecies.nullable().optional()
+    .describe('Species this instrument measures; null or an empty list: every candidate'),
+}).strict().refine(u => u.name !== undefined || u.measuredSpecies !== undefined, { message: 'change the name or the measured species', path: ['name'] })
+export type InstrumentUpdate = z.infer<typeof instrumentUpdate>
 
 /** A change of geometry: a new version, valid from a given time. */
 export const geometryVersionInput = z.object({

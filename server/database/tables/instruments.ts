@@ -8,6 +8,9 @@ export const instruments = pgTable('instruments', {
   labId: uuid('lab_id').notNull().references(() => labs.id),
   slug: text('slug').notNull(),
   name: text('name').notNull(),
+  // The species this instrument measures (engine species labels): assignment considers no
+  // other candidate unless an acquisition names its own list. Null: every candidate.
+  measuredSpecies: text('measured_species').array(),
   createdAt: createdAt(),
   updatedAt: updatedAt(),
 }, t => [uniqueIndex('instruments_lab_slug_idx').on(t.labId, t.slug)])

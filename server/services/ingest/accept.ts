@@ -70,7 +70,8 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
       isotopes: input.processing?.isotopes,
       maxCharge: input.processing?.maxCharge,
       ratios: input.processing?.ratios,
-      measuredSpecies: input.processing?.measuredSpecies,
+      // The acquisition's own list, else the species its instrument is registered to measure.
+      measuredSpecies: input.processing?.measuredSpecies ?? instrument.measuredSpecies ?? undefined,
       baseline: input.baseline,
       calibration: calibration ? { ...calibration.fit as unknown as AppliedCalibration, geometryVersion: calibration.geometryVersion } : null,
       geometryVersion: geo.version,

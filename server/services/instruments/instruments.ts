@@ -1,8 +1,8 @@
 import { and, asc, desc, eq, lte, sql } from 'drizzle-orm'
 import type { z } from 'zod'
-import { fitCalibration, geometry as geometrySchema, processReadings } from '#shared/engine'
+import { fitCalibration, formulaSpecies, geometry as geometrySchema, isotope, processReadings } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
-import type { calibrationInput, CalibrationFromReferenceInput, InstrumentInput } from '#shared/schemas/instruments'
+import type { calibrationInput, CalibrationFromReferenceInput, InstrumentInput, InstrumentUpdate } from '#shared/schemas/instruments'
 import type { Geometry } from '#shared/engine'
 import { acquisitions, calibrations, geometryVersions, instruments } from '../../database/schema'
 
@@ -55,11 +55,12 @@ export async function getInstrument(labId: string, id: string) {
 }
 
 export async function createInstrument(audit: AuditContext, labId: string, input: InstrumentInput) {
+  if (input.measuredSpecies?.length) checkSpeciesLabels(input.measuredSpecies)
   return useDb().transaction(async (tx) => {
     if (await tx.query.instruments.findFirst({ where: and(eq(instruments.labId, labId), eq(instruments.slug, input.slug)), columns: { id: true } })) {
       throw fieldProblem('slug', 'another instrument of this lab uses this slug', 409, 'slug-taken')
     }
-    const instrument = firstRow(await tx.insert(instruments).values({ labId, slug: input.slug, name: input.name }).returning())
+    const instrument = firstRow(await tx.insert(instruments).values({ labId, slug: input.slug, name: input.name, measuredSpecies: input.measuredSpecies?.length ? input.measuredSpecies : null }).returning())
     await tx.insert(geometryVersions).values({
       instrumentId: instrument.id, version: 1, kind: input.geometry.kind, params: input.geometry as unknown as Record<string, unknown>,
       validFrom: input.validFrom ?? new Date(), createdBy: audit.actor.id,
@@ -69,11 +70,30 @@ export async function createInstrument(audit: AuditContext, labId: string, input
   })
 }
 
-export async function renameInstrument(audit: AuditContext, labId: string, id: string, name: string) {
+/**
+ * A label the engine cannot read would silently match nothing: refuse it, naming the entry.
+ * An isotope label ('40Ar'), else an element symbol or formula the formula reader takes.
+ */
+function checkSpeciesLabels(labels: string[]) {
+  labels.forEach((label, i) => {
+    try { isotope(label) }
+    catch {
+      try { formulaSpecies(label) }
+      catch (error) { throw fieldProblem(`measuredSpecies.${i}`, error instanceof Error ? error.message : 'is not a species label the engine reads') }
+    }
+  })
+}
+
+/** Renames an instrument or registers the species it measures (an empty list clears it). */
+export async function updateInstrument(audit: AuditContext, labId: string, id: string, input: InstrumentUpdate) {
+  const species = input.measuredSpecies === undefined ? undefined : input.measuredSpecies?.length ? input.measuredSpecies : null
+  if (species) checkSpeciesLabels(species)
   return useDb().transaction(async (tx) => {
-    const [row] = await tx.update(instruments).set({ name }).where(and(eq(instruments.id, id), eq(instruments.labId, labId))).returning()
+    const [row] = await tx.update(instruments).set({ name: input.name, measuredSpecies: species, updatedAt: new Date() })
+      .where(and(eq(instruments.id, id), eq(instruments.labId, labId))).returning()
     if (!row) throw problem(404, 'instrument-not-found', 'No such instrument in this lab.')
-    await recordAudit(tx, { ...audit, action: 'instrument.renamed', targetType: 'instrument', targetId: id, detail: { name } })
+    if (input.name !== undefined) await recordAudit(tx, { ...audit, action: 'instrument.renamed', targetType: 'instrument', targetId: id, detail: { name: input.name } })
+    if (species !== undefined) await recordAudit(tx, { ...audit, action: 'instrument.species-registered', targetType: 'instrument', targetId: id, detail: { measuredSpecies: species } })
     return row
   })
 }
@@ -130,9 +150,11 @@ export async function calibrationFromReference(labId: string, instrumentId: stri
   if (payload.mzSpectrum) throw fieldProblem('acquisitionId', 'this acquisition arrived already in m/z, so the geometry played no part; choose one sent as raw readings')
   const geo = await geometryAt(instrumentId, row.acquiredAt)
   if (!geo) throw fieldProblem('acquisitionId', 'was acquired before the instrument\'s first geometry')
+  const { measuredSpecies } = await instrumentOf(labId, instrumentId)
   try {
     const engine = processReadings(geometrySchema.parse(geo.params), { settings: payload.settings, sweep: payload.sweep, detectors: payload.detectors }, {
       tolerance: { ppm: input.tolerancePpm }, formulas: payload.processing?.formulas, isotopes: payload.processing?.isotopes, maxCharge: payload.processing?.maxCharge, calibration: null,
+      measuredSpecies: payload.processing?.measuredSpecies ?? measuredSpecies ?? undefined,
       compatibility: payload.processing?.engine,
     })
     const points = engine.peaks.filter(p => p.assignment && !p.ambiguous).map(p => ({
@@ -151,6 +173,8 @@ export interface InstrumentContext {
   geometry: { id: string, version: number, params: Record<string, unknown> } | null
   /** The latest calibration valid at the time, with the geometry version it was fitted under. */
   calibration: { id: string, version: number, fit: Record<string, unknown>, geometryVersion: number | null } | null
+  /** The species the instrument measures, when registered. */
+  measuredSpecies: string[] | null
   runSeen: boolean
 }
 
@@ -158,8 +182,8 @@ interface ContextQuery { labId: string, slug: string, at: string, runId: string 
 
 // The lookups of one event-loop turn go to PostgreSQL as one statement (batchPerTurn).
 const lookUpTogether = batchPerTurn<ContextQuery, InstrumentContext | undefined>(async (queries) => {
-  const rows = await useDb().execute<{ ord: number, id: string | null, slug: string, geometry: InstrumentContext['geometry'], calibration: InstrumentContext['calibration'], run_seen: boolean }>(sql`
-    select q.ord, i.id, i.slug,
+  const rows = await useDb().execute<{ ord: number, id: string | null, slug: string, geometry: InstrumentContext['geometry'], calibration: InstrumentContext['calibration'], measured_species: string[] | null, run_seen: boolean }>(sql`
+    select q.ord, i.id, i.slug, i.measured_species,
       (select json_build_object('id', g.id, 'version', g.version, 'params', g.params) from ${geometryVersions} g
         where g.instrument_id = i.id and g.valid_from <= q.at order by g.valid_from desc, g.version desc limit 1) as geometry,
       (select json_build_object('id', c.id, 'version', c.version, 'fit', c.fit, 'geometryVersion', coalesce((c.fit->>'geometryVersion')::int,
@@ -173,7 +197,7 @@ const lookUpTogether = batchPerTurn<ContextQuery, InstrumentContext | undefined>
   const byOrd = new Map([...rows].map(r => [Number(r.ord), r]))
   return queries.map((_, ord) => {
     const row = byOrd.get(ord)
-    return { value: row?.id ? { id: row.id, slug: row.slug, geometry: row.geometry, calibration: row.calibration, runSeen: row.run_seen } : undefined }
+    return { value: row?.id ? { id: row.id, slug: row.slug, geometry: row.geometry, calibration: row.calibration, measuredSpecies: row.measured_species, runSeen: row.run_seen } : undefined }
   })
 })
 

@@ -3,6 +3,6 @@ import { instrumentUpdate, labInstrumentParams } from '#shared/schemas/instrumen
 export default defineEventHandler(async (event) => {
   const { id, instrumentId } = getValidParams(event, labInstrumentParams)
   const actor = await requireLabAccess(event, id, 'write')
-  const { name } = await readValidBody(event, instrumentUpdate)
-  return renameInstrument(auditContext(event, actor), id, instrumentId, name)
+  const input = await readValidBody(event, instrumentUpdate)
+  return updateInstrument(auditContext(event, actor), id, instrumentId, input)
 })
