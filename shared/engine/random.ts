@@ -32,30 +32,33 @@ export function seededNormal(seed: number): () => number {
  */
 export function seededPoisson(seed: number): (mean: number) => number {
   const uniform = seededRandom(seed)
-  return (mu) => {
-    if (!(mu > 0)) return 0
-    if (mu < 10) {
-      const limit = Math.exp(-mu)
-      let k = 0
-      let p = uniform()
-      while (p > limit) { k++; p *= uniform() }
-      return k
-    }
-    const smu = Math.sqrt(mu)
-    const b = 0.931 + 2.53 * smu
-    const a = -0.059 + 0.02483 * b
-    const invAlpha = 1.1239 + 1.1328 / (b - 3.4)
-    const vr = 0.9277 - 3.6224 / (b - 2)
-    const logMu = Math.log(mu)
-    for (;;) {
-      const u = uniform() - 0.5
-      const v = uniform()
-      const us = 0.5 - Math.abs(u)
-      const k = Math.floor((2 * a / us + b) * u + mu + 0.43)
-      if (us >= 0.07 && v <= vr) return k
-      if (k < 0 || (us < 0.013 && v > us)) continue
-      if (Math.log(v) + Math.log(invAlpha) - Math.log(a / (us * us) + b) <= -mu + k * logMu - logFactorial(k)) return k
-    }
+  return mu => poissonDeviate(mu, uniform)
+}
+
+/** One Poisson deviate of mean `mu` from a uniform source (the methods of seededPoisson). */
+export function poissonDeviate(mu: number, uniform: () => number): number {
+  if (!(mu > 0)) return 0
+  if (mu < 10) {
+    const limit = Math.exp(-mu)
+    let k = 0
+    let p = uniform()
+    while (p > limit) { k++; p *= uniform() }
+    return k
+  }
+  const smu = Math.sqrt(mu)
+  const b = 0.931 + 2.53 * smu
+  const a = -0.059 + 0.02483 * b
+  const invAlpha = 1.1239 + 1.1328 / (b - 3.4)
+  const vr = 0.9277 - 3.6224 / (b - 2)
+  const logMu = Math.log(mu)
+  for (;;) {
+    const u = uniform() - 0.5
+    const v = uniform()
+    const us = 0.5 - Math.abs(u)
+    const k = Math.floor((2 * a / us + b) * u + mu + 0.43)
+    if (us >= 0.07 && v <= vr) return k
+    if (k < 0 || (us < 0.013 && v > us)) continue
+    if (Math.log(v) + Math.log(invAlpha) - Math.log(a / (us * us) + b) <= -mu + k * logMu - logFactorial(k)) return k
   }
 }
 

@@ -1,6 +1,6 @@
-import { KG_PER_C_TO_U_PER_E } from './constants'
+import { KG_PER_C_TO_U_PER_E, kgPerCToUPerE, PHYSICS_2X, type Physics } from './constants'
 import { EngineError } from './errors'
-import type { Geometry, RawReadings } from './geometry'
+import { fieldForMz, type Geometry, type RawReadings } from './geometry'
 import { seededNormal, seededPoisson } from './random'
 import { ionMz, type Species } from './species'
 import { measuredSI } from './units'
@@ -35,25 +35,38 @@ export interface SimulationInput {
    * written in cps (noiseA is ignored: counting is the noise).
    */
   counting?: { dwellS: number }
+  /** The physics the truth is simulated with (default engine 2.x: CODATA 2022, relativistic). */
+  physics?: Physics
 }
 
 const FWHM_TO_SIGMA = 1 / (2 * Math.sqrt(2 * Math.LN2))
 const fieldUnits = { T: 1, mT: 1e-3, G: 1e-4, kG: 1e-1 }
 const currentUnits = { A: 1, nA: 1e-9, pA: 1e-12, fA: 1e-15 }
 
-/** The analyzer field (T) that puts m/z on the axis, for a geometry and its fixed readings. */
-function fieldFor(mz: number, input: SimulationInput): number {
+/**
+ * The analyzer field (T) that puts m/z on the axis, and its inverse, for a geometry and its
+ * fixed readings. The potential sector uses the engine's own relation (geometry.ts
+ * fieldForMz: relativistic unless 1.x physics is asked for), so the simulated truth and the
+ * engine agree to rounding; a copy without the relativistic term put 4He+ at 10 kV 1.3 ppm
+ * off its true m/z.
+ */
+function axisFor(input: SimulationInput): { field: (mz: number) => number, mz: (field: number) => number } {
   const geo = input.geometry
   if (geo.kind === 'wien-sector') {
     const r = measuredSI('length', geo.analyzerRadius, 'geometry.analyzerRadius').value
     const d = measuredSI('length', geo.plateGap, 'geometry.plateGap').value
     // m/z = r B B_f d / V · K  =>  B = m/z · V / (r B_f d K)
-    return mz * input.plateVoltageV! / (r * input.filterFieldT! * d * KG_PER_C_TO_U_PER_E)
+    const perT = r * input.filterFieldT! * d * KG_PER_C_TO_U_PER_E / input.plateVoltageV!
+    return { field: mz => mz / perT, mz: b => b * perT }
   }
   const r = geo.kind === 'potential-sector'
     ? measuredSI('length', geo.analyzerRadius, 'geometry.analyzerRadius').value
     : measuredSI('length', geo.collectors[0]!.effectiveRadius, 'geometry.collectors').value
-  return Math.sqrt(2 * input.acceleratingVoltageV! * mz / KG_PER_C_TO_U_PER_E) / r
+  const physics = input.physics ?? PHYSICS_2X
+  const u = input.acceleratingVoltageV!
+  const rel = physics.relativistic ? (u / physics.constants.speedOfLightMps) ** 2 : 0
+  // (rB)² = 2U·(m/q) + (U/c)², m/q in kg/C, times K for u/e.
+  return { field: mz => fieldForMz(mz, r, u, physics), mz: b => ((r * b) ** 2 - rel) / (2 * u) * kgPerCToUPerE(physics.constants) }
 }
 
 export function simulateFieldSweep(input: SimulationInput): RawReadings {
@@ -66,15 +79,16 @@ export function simulateFieldSweep(input: SimulationInput): RawReadings {
   const n = input.points
   const fieldUnit = input.fieldUnit ?? 'T'
   const currentUnit = input.currentUnit ?? 'fA'
-  const b0 = fieldFor(input.mzFrom, input)
-  const b1 = fieldFor(input.mzTo, input)
+  const axis = axisFor(input)
+  const b0 = axis.field(input.mzFrom)
+  const b1 = axis.field(input.mzTo)
   const field = new Float64Array(n)
   const mz = new Float64Array(n)
   // The field is stepped evenly, as a sweeping magnet supply would.
   for (let i = 0; i < n; i++) {
     const b = b0 + (b1 - b0) * i / (n - 1)
     field[i] = b / fieldUnits[fieldUnit]
-    mz[i] = geo.kind === 'wien-sector' ? input.mzFrom + (input.mzTo - input.mzFrom) * i / (n - 1) : input.mzFrom * (b / b0) ** 2
+    mz[i] = axis.mz(b)
   }
   const current = new Float64Array(n).fill(input.baselineA ?? 0)
   for (const s of input.species) {

@@ -1,4 +1,4 @@
-import { seededNormal, seededRandom } from './random'
+import { poissonDeviate, seededNormal, seededRandom } from './random'
 
 // The forward model of a static multi-collector measurement, from first principles, so that
 // the cycle statistics can be tested against a known truth:
@@ -51,19 +51,9 @@ export interface SimulatedStatic {
   detectors: { collector: string, unit: string, values: number[], dwell?: { value: number, unit: string }, baseline?: number[] }[]
 }
 
-function poisson(mean: number, uniform: () => number, normal: () => number): number {
-  if (mean > 1000) return Math.max(0, Math.round(mean + Math.sqrt(mean) * normal()))
-  // Knuth's multiplication method (Knuth, TAOCP vol. 2, 3.4.1), adequate for small means.
-  const limit = Math.exp(-mean)
-  let k = 0
-  let p = uniform()
-  while (p > limit) { k++; p *= uniform() }
-  return k
-}
-
 /** Counts recorded in `dwell` s at true rate n: Poisson(n·t) thinned by the dead-time model's loss. */
 function recordedCounts(n: number, dwell: number, tau: number, model: 'non-paralysable' | 'paralysable', uniform: () => number, normal: () => number): number {
-  const trueCounts = poisson(n * dwell, uniform, normal)
+  const trueCounts = poissonDeviate(n * dwell, uniform)
   // The expected recorded rate: m = n/(1+nτ) (non-paralysable) or m = n·exp(−nτ) (paralysable), Knoll §4.VII.
   const keep = model === 'non-paralysable' ? 1 / (1 + n * tau) : Math.exp(-n * tau)
   // Binomial thinning by its normal approximation (counts are large where dead time matters).

@@ -4,7 +4,7 @@
 // Classical Electrodynamics, 3rd ed., Wiley 1999, §12.1: p = γmv, (pc)² = T² + 2T·mc²);
 // engine 1.x compatibility: CODATA 2018, non-relativistic.
 import { describe, expect, it } from 'vitest'
-import { geometry, ionMz, isotope, PHYSICS_1X, staticCollectorMz, sweepToMz, type RawReadings } from '../../shared/engine'
+import { geometry, ionMz, isotope, PHYSICS_1X, simulateFieldSweep, staticCollectorMz, sweepToMz, type RawReadings } from '../../shared/engine'
 
 // e exact (SI 2019); c exact; m_u: CODATA 2022 (Mohr et al., Rev. Mod. Phys. 97 (2025) 025002)
 // and CODATA 2018 (Tiesinga et al., Rev. Mod. Phys. 93 (2021) 025010).
@@ -24,6 +24,20 @@ describe('accelerating-potential sector: (qrB)² = 2mqU + (qU/c)² (relativistic
     const readings: RawReadings = { settings: { acceleratingVoltage: { value: 4.5, unit: 'kV' } }, sweep: { reading: 'field', values: [B * 1e4, B * 1e4 * 1.001], unit: 'G' }, detectors: [] }
     const { mz } = sweepToMz(geo, readings)
     expect(mz[0]! / mzAr - 1).toBeCloseTo(0, 12)
+  })
+
+  it('the simulator steps the field by the same exact relation, so its truth is the engine\'s m/z (4He⁺ at 10 kV)', () => {
+    // The relativistic term is largest for light ions at high potential: (U/c)²/(2U·m/q) is
+    // 1.3 ppm for 4He⁺ at 10 kV; a simulator without it put its sweep 1.3 ppm off.
+    const geo = geometry.parse({ kind: 'potential-sector', analyzerRadius: { value: 12, unit: 'cm' } })
+    const mzHe = ionMz(isotope('4He').mass, 1)
+    const raw = simulateFieldSweep({ geometry: geo, acceleratingVoltageV: 10_000, mzFrom: mzHe, mzTo: mzHe + 0.5, points: 101, resolvingPower: 500, species: [] })
+    const { mz } = sweepToMz(geo, { ...raw, settings: { acceleratingVoltage: { value: 10, unit: 'kV' } } })
+    const first = mz[0]! < mz[mz.length - 1]! ? mz[0]! : mz[mz.length - 1]!
+    expect(Math.abs(first / mzHe - 1)).toBeLessThan(1e-11)
+    // Independently of the engine: the field at the first point is the exact relation's.
+    const B = Math.sqrt(2 * 10_000 * mzHe * mu / e + (10_000 / c) ** 2) / 0.12
+    expect(Math.abs(raw.sweep!.values[0]! / B - 1)).toBeLessThan(1e-11)
   })
 
   it('engine 1.x compatibility: CODATA 2018 and m/q = (rB)²/2U, as engine 1.0.0 computed', () => {
