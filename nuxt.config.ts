@@ -54,6 +54,8 @@ export default defineNuxtConfig({
     hash: { scrypt: { ...scryptParams } },
     // web (HTTP only), worker (deliveries and background work only) or both.
     processRole: 'both',
+    // NUXT_METRICS_TOKEN: the bearer token /metrics asks for; empty, /metrics is not served.
+    metricsToken: '',
     webhooks: {
       // Comma-separated hosts ("127.0.0.1:4100", "localhost") let past the SSRF guard:
       // development and tests only. Nothing else on loopback or private networks is reached.

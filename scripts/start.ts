@@ -36,7 +36,7 @@ catch (error) {
   console.error(error)
   await stop(1)
 }
-running.server = startServer({ ...stack.serverEnv, NUXT_WEBHOOKS_ALLOW_HOSTS: '127.0.0.1:2590' }, port)
+running.server = startServer({ ...stack.serverEnv, NUXT_LOG_LEVEL: process.env.NUXT_LOG_LEVEL ?? 'info', NUXT_WEBHOOKS_ALLOW_HOSTS: '127.0.0.1:2590' }, port)
 running.server.on('exit', (code) => { if (!stopping) void stop(code ?? 1) })
 await waitForServer(`http://127.0.0.1:${port}/api/health`)
 if (seeded) {

@@ -10,7 +10,7 @@ export function log(message: string) {
   console.log(`[arcwise] ${message}`)
 }
 
-interface LocalSecrets { sessionPassword: string, pgPassword: string, sealingKeys: string }
+interface LocalSecrets { sessionPassword: string, pgPassword: string, sealingKeys: string, metricsToken: string }
 
 /** A sealing keyring entry for NUXT_SEALING_KEYS: `id:secret`. */
 export function newSealingKey(id: string): string {
@@ -28,8 +28,9 @@ export function localSecrets(): LocalSecrets {
     sessionPassword: existing.sessionPassword ?? randomBytes(32).toString('base64url'),
     pgPassword: existing.pgPassword ?? randomBytes(18).toString('base64url'),
     sealingKeys: existing.sealingKeys ?? newSealingKey('local1'),
+    metricsToken: existing.metricsToken ?? randomBytes(24).toString('base64url'),
   }
-  if (existing.sessionPassword !== secrets.sessionPassword || existing.pgPassword !== secrets.pgPassword || existing.sealingKeys !== secrets.sealingKeys) {
+  if (existing.sessionPassword !== secrets.sessionPassword || existing.pgPassword !== secrets.pgPassword || existing.sealingKeys !== secrets.sealingKeys || existing.metricsToken !== secrets.metricsToken) {
     mkdirSync(dirname(file), { recursive: true })
     writeFileSync(file, JSON.stringify(secrets, null, 2), { mode: 0o600 })
   }

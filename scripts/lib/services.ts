@@ -28,6 +28,11 @@ export async function startStack(opts: { database: string, fresh?: boolean, smtp
       NUXT_DATABASE_URL: databaseUrl,
       NUXT_SESSION_PASSWORD: localSecrets().sessionPassword,
       NUXT_SEALING_KEYS: localSecrets().sealingKeys,
+      // Prometheus's bearer token for /metrics (kept in .data/secrets.json).
+      NUXT_METRICS_TOKEN: localSecrets().metricsToken,
+      // One JSON line per API request at info: tests and benchmarks keep their output to
+      // warnings (set NUXT_LOG_LEVEL to see more); npm start logs every request.
+      NUXT_LOG_LEVEL: process.env.NUXT_LOG_LEVEL ?? 'warn',
       NUXT_APP_URL: opts.appUrl,
       NUXT_SMTP_HOST: '127.0.0.1',
       NUXT_SMTP_PORT: String(mail.smtpPort),

@@ -1,3 +1,5 @@
+import { useLog } from './logger'
+
 // Error logs say what failed without what it was given: a failed query's bound parameters
 // (Drizzle's message ends with "params: …": tokens, hashes, e-mails, mail bodies with live
 // links) are cut off, request paths lose their query string, and no error object is dumped
@@ -18,12 +20,17 @@ export function safeErrorChain(error: unknown) {
   return chain
 }
 
-/** The log line of a request that failed unexpectedly (5xx). */
-export function unexpectedErrorLine(error: unknown, method: string, path: string): string {
-  return JSON.stringify({ level: 'error', msg: 'unexpected error', method, path: path.split('?')[0], errors: safeErrorChain(error) })
+/** What the log says of a request that failed unexpectedly (5xx): no query string, no parameters. */
+export function unexpectedErrorFields(error: unknown, method: string, path: string) {
+  return { method, path: path.split('?')[0], errors: safeErrorChain(error) }
 }
 
-/** Logs a background failure (`what` says which) as one JSON line. */
+/** The same as one JSON line (what tests/unit/secrets-and-logs.test.ts reads). */
+export function unexpectedErrorLine(error: unknown, method: string, path: string): string {
+  return JSON.stringify({ level: 'error', msg: 'unexpected error', ...unexpectedErrorFields(error, method, path) })
+}
+
+/** Logs a background failure (`what` says which) as one structured line. */
 export function logError(what: string, error: unknown) {
-  console.error(JSON.stringify({ level: 'error', msg: what, errors: safeErrorChain(error) }))
+  useLog().error({ errors: safeErrorChain(error) }, what)
 }

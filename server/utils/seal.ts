@@ -12,7 +12,7 @@ function serverKeyring(): SealingKeyring {
   if (ring?.source !== source) ring = { source, keyring: parseSealingKeys(keys, password) }
   if (!ring.keyring.keys.length && !warned) {
     warned = true
-    console.warn(JSON.stringify({ level: 'warn', msg: 'NUXT_SEALING_KEYS is not set: secrets are sealed under the session password\'s key; set a keyring and run npm run keys:rotate' }))
+    useLog().warn('NUXT_SEALING_KEYS is not set: secrets are sealed under the session password\'s key; set a keyring and run npm run keys:rotate')
   }
   return ring.keyring
 }

@@ -1,6 +1,7 @@
 import { and, eq, inArray, sql } from 'drizzle-orm'
 import { deliveries, deliveryAttempts, partners, users, webhookEndpoints } from '../../database/schema'
 import { linkMail, queueMail } from '../mail'
+import { observeDeliveryAttempt } from '../metrics'
 import { nextDelaySeconds } from './retry'
 import type { Sent } from './send'
 import { deliverySettings, workerId } from './settings'
@@ -32,6 +33,7 @@ export async function recordAttempts(sent: Sent[]) {
       body: storedBody, duration: outcome.durationMs, replay: row.replay_requested }
     return { id: row.id, endpoint: row.endpoint_id, gone, cls: outcome.class }
   })
+  for (const { outcome } of sent) observeDeliveryAttempt(outcome.class, outcome.durationMs / 1000)
   const succeeded = [...new Set(rows.filter(r => r.cls === 'success').map(r => r.endpoint))]
   // Each row's outcome is looked up by its id in one JSON object, and the deliveries are found
   // by their ids: a join with the outcomes let the planner scan the whole table, once per

@@ -6,6 +6,7 @@ import { acquisitions, results } from '../../database/schema'
 import type { LabKey } from '../access'
 import { kickDeliveries } from '../delivery'
 import { instrumentContextAt } from '../instruments'
+import { observeEngine } from '../metrics'
 import { acquisitionHead, resultView, type AcquisitionHead, type AcquisitionResultView } from '../results'
 import { countSchemaUse } from '../schemas'
 import { recordAccepted } from './acceptedWrites'
@@ -77,9 +78,11 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
       geometryVersion: geo.version,
       compatibility: input.processing?.engine,
     }
+    const started = performance.now()
     engine = input.mzSpectrum
       ? processMzSpectrum(input.mzSpectrum.mz, input.mzSpectrum.values, input.mzSpectrum.unit, options)
       : processReadings(geometrySchema.parse(geo.params), readingsOf(input), options)
+    observeEngine(engine.mode, (performance.now() - started) / 1000)
   }
   catch (error) { engineProblem(error) }
 
