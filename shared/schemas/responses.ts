@@ -145,6 +145,7 @@ export const acquisitionListView = z.object({
   items: z.array(z.object({
     id: z.uuid(), runId: z.string(), instrument: z.string(), acquiredAt: z.iso.datetime({ offset: true }), sampleRef: z.string().nullable(),
     status: z.enum(['processed', 'failed']), points: z.number().int(), receivedAt: z.iso.datetime({ offset: true }),
+    reviewState: z.enum(reviewStates).nullable().describe('the latest result version\'s review state'),
   }).strict()),
   nextCursor: z.string().nullable(),
 }).strict()

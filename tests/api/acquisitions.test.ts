@@ -37,7 +37,7 @@ describe('POST /api/v1/acquisitions', () => {
     const [peakRows] = await sql<[{ n: number }]>`select count(*)::int as n from peaks where lab_id = ${lab.id}`
     expect(peakRows.n).toBe(r.peaks.length)
     const [event] = await sql`select sequence::int as sequence, type from events where lab_id = ${lab.id}`
-    expect(event).toEqual({ sequence: 1, type: 'result.created' })
+    expect(event).toEqual({ sequence: 1, type: 'result.released' })
   })
 
   it('takes on-peak-zero readings or baseline regions, and every peak number comes with its uncertainty', async () => {

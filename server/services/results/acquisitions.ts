@@ -1,6 +1,7 @@
 import { and, desc, eq, gte, lte, sql, type SQL } from 'drizzle-orm'
 import type { z } from 'zod'
 import type { acquisitionListQuery } from '#shared/schemas/acquisitions'
+import type { ReviewState } from '#shared/schemas/lifecycle'
 import { alias } from 'drizzle-orm/pg-core'
 import { acquisitions, geometryVersions, instruments, results, users } from '../../database/schema'
 import { acquisitionHead, resultView } from './view'
@@ -32,6 +33,7 @@ export async function listAcquisitions(labId: string, query: z.output<typeof acq
   const rows = await useDb().select({
     id: acquisitions.id, runId: acquisitions.externalId, instrument: instruments.slug, acquiredAt: acquisitions.acquiredAt,
     sampleRef: acquisitions.sampleRef, status: acquisitions.status, points: acquisitions.pointCount, createdAt: acquisitions.createdAt,
+    reviewState: sql<ReviewState | null>`(select r.review_state from ${results} r where r.acquisition_id = ${acquisitions.id} order by r.version desc limit 1)`,
     at: sql<string>`${sortColumn}::text`,
   }).from(acquisitions).innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .where(and(...conditions)).orderBy(desc(sortColumn), desc(acquisitions.id)).limit(query.limit + 1)
