@@ -2,7 +2,7 @@ import { z } from 'zod'
 import { sequenceRoles, type SequenceRole } from '../engine/isotopes/types'
 import { acquisitionInput } from './acquisitions'
 import { slug } from './common'
-import { reviewStates } from './lifecycle'
+import { releasePolicies, reviewStates } from './lifecycle'
 import { methodDefinition } from './methods'
 
 // Sequences as a lab system posts them (issue 19): a whole sequence at once, or one opened
@@ -68,6 +68,8 @@ export const methodInput = z.object({
   validFrom: z.iso.datetime({ offset: true, error: 'must be an ISO 8601 date and time with an offset' }),
   definition: methodDefinition,
   note: z.string().trim().max(500).optional(),
+  releasePolicy: z.enum(releasePolicies, { error: `must be one of ${releasePolicies.join(', ')}` }).optional()
+    .describe('overrides the lab\'s release policy for sequences processed under this version; absent: the lab\'s'),
 }).strict()
 export type MethodInput = z.infer<typeof methodInput>
 
@@ -137,6 +139,7 @@ export type SequenceView = z.infer<typeof sequenceView>
 export const methodView = z.object({
   id: z.uuid(), instrument: z.string(), version: z.number().int(), name: z.string(), validFrom: z.string(),
   definition: methodDefinition, note: z.string().nullable(), createdAt: z.string(),
+  releasePolicy: z.enum(releasePolicies).nullable().describe('null: the lab\'s release policy applies'),
 })
 export type MethodView = z.infer<typeof methodView>
 

@@ -213,6 +213,38 @@ describe('retraction', () => {
   })
 })
 
+describe('corrections', () => {
+  it('a later version released over a released one goes out as result.corrected, naming the previous result and the reason; partners then read the new version', async () => {
+    const ctx = await reviewedLab()
+    const acq = await ctx.post()
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {})).status).toBe(200)
+    // Version 2 as reprocessing writes it: held, superseding version 1, with its reason.
+    const reason = 'Calibration of 2026-11-28 re-fitted with the corrected reference gas.'
+    const [v2] = await ctx.sql<{ id: string }[]>`
+      insert into results (acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason)
+      select acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, 2, id, ${reason} from results where id = ${acq.result.id} returning id`
+    await ctx.sql`update results set superseded_by = ${v2!.id} where id = ${acq.result.id}`
+    // Held, it changes nothing for partners.
+    expect((await ctx.asPartner(`/api/v1/results/${acq.id}`)).body.result.review).toMatchObject({ version: 1, state: 'released' })
+    expect((await ctx.reviewer.get(`${ctx.base}/acquisitions/${acq.id}`)).body.result.review).toMatchObject({ version: 2, state: 'held', supersedes: acq.result.id, correctionReason: reason })
+
+    const released = await ctx.reviewer.post(`${ctx.base}/results/${v2!.id}/release`, { comment: 'Checked the new calibration.' })
+    expect(released.status).toBe(200)
+    expect(released.body.event).toBe('result.corrected')
+    const message = await until('the result.corrected message', () => ctx.messages().find(m => m.parsed.type === 'result.corrected'))
+    expect(message.parsed.data.correction).toEqual({ previousResultId: acq.result.id, previousVersion: 1, reason })
+    expect(message.parsed.data.result).toMatchObject({ id: v2!.id, review: { state: 'released', version: 2, supersedes: acq.result.id, correctionReason: reason } })
+    const read = await ctx.asPartner(`/api/v1/results/${acq.id}`)
+    expect(read.body.result).toMatchObject({ id: v2!.id, review: { version: 2 } })
+    expect((await partnerSees(ctx, acq.id)).feed.map(e => e.type)).toEqual(['result.released', 'result.corrected'])
+    const [audit] = await ctx.sql`select detail from audit_log where action = 'result.corrected' and target_id = ${v2!.id}`
+    expect(audit!.detail).toMatchObject({ previousResultId: acq.result.id, previousVersion: 1, reason, version: 2 })
+    // The older version cannot be released over the newer one.
+    await ctx.sql`update results set review_state = 'held' where id = ${acq.result.id}`
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {})).status).toBe(409)
+  })
+})
+
 describe('four eyes and automatic release', () => {
   it('under four eyes, whoever uploaded a result cannot release it; another reviewer can', async () => {
     const ctx = await reviewedLab()
