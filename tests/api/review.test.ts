@@ -368,4 +368,20 @@ describe('sequences are held like results', () => {
     const actions = (await ctx.sql`select action from audit_log where target_id = ${view.id} order by at`).map(r => r.action)
     expect(actions).toEqual(['sequence.released', 'sequence.retracted'])
   })
+
+  it('a method version that releases automatically overrides the lab\'s review policy for its sequences', async () => {
+    const ctx = await reviewedLab()
+    await setRelease(ctx.manager, ctx.lab.id, { releasePolicy: 'review', autoReleaseAllows: everyQcCode })
+    const method = await labApi(ctx.key.secret).post('/api/v1/instruments/ms-1/methods', { name: 'CO2 method', validFrom: '2026-01-01T00:00:00Z', definition: caseMethod(cases.CO2!), releasePolicy: 'auto' })
+    expect(method.status).toBe(201)
+    expect(method.body.releasePolicy).toBe('auto')
+    const built = buildSequence(cases.CO2!, 5, { noise: false, drawStandards: false })
+    const res = await labApi(ctx.key.secret).post('/api/v1/sequences', { instrument: 'ms-1', sequenceId: unique('seq'), acquisitions: membersOf(built.items) })
+    expect(res.status).toBe(201)
+    expect(res.body.review).toMatchObject({ state: 'released', reviewedBy: null })
+    const message = await until('the automatic sequence.processed message', () => ctx.messages().find(m => m.parsed.type === 'sequence.processed'))
+    expect(sequenceEventData.parse(message.parsed.data)).toMatchObject({ id: res.body.id, reviewedBy: null })
+    // The sequence's own acquisitions follow the lab's policy: held.
+    expect((await ctx.reviewer.get(`${ctx.base}/review`)).body.results.total).toBe(built.items.length)
+  })
 })
