@@ -20,7 +20,7 @@ export async function benchIngest(opts: { seconds?: number } = {}) {
   const seconds = opts.seconds ?? Number(process.env.BENCH_SECONDS ?? 10)
   const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, appUrl: base })
   const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
-  await seedDemo(stack.databaseUrl, { keysFile })
+  await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
   const sql = postgres(stack.databaseUrl, { max: 1, onnotice: () => {} })
   await sql`create table if not exists bench_baseline (id bigserial primary key, body jsonb not null)`
   buildIfStale()

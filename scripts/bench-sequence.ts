@@ -72,7 +72,7 @@ export async function benchSequence(opts: { runs?: number } = {}) {
   const runs = opts.runs ?? Number(process.env.BENCH_SEQUENCE_RUNS ?? 3)
   const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, appUrl: base })
   const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
-  await seedDemo(stack.databaseUrl, { keysFile })
+  await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
   buildIfStale()
   const server = startServer({ ...stack.serverEnv, NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
   try {

@@ -96,7 +96,7 @@ let gone: Server | null = await sinkServer(GONE)
 const appUrl = `http://127.0.0.1:${ports.A}`
 const stack = await startStack({ database: 'arcwise_chaos', fresh: true, smtpPort: 2529, mailHttpPort: 2584, appUrl })
 const keysFile = join(tmpdir(), `arcwise-chaos-keys-${process.pid}.json`)
-await seedDemo(stack.databaseUrl, { keysFile })
+await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
 buildIfStale()
 const env = {
   ...stack.serverEnv,
@@ -148,7 +148,7 @@ try {
     const endpointIds: Record<string, string> = {}
     for (const name of endpointNames) {
       const port = name === 'gone' ? GONE : SINK
-      const ep = await admin.call<{ id: string }>('POST', `/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${port}/${name}`, eventTypes: ['result.created'] })
+      const ep = await admin.call<{ id: string }>('POST', `/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${port}/${name}`, eventTypes: ['result.released'] })
       endpointIds[name] = ep.body.id
     }
 

@@ -4,6 +4,7 @@ import { buildIfStale } from './lib/build'
 import { log } from './lib/paths'
 import { postDemoHistory } from './lib/lab-system'
 import { postDemoArgonSequences, postDemoSequences } from './lib/demo-sequences'
+import { reviewDemo } from './lib/demo-review'
 import { demoKeysFile, printDemoSignIns, readDemoKeys, seedDemo } from './lib/seed'
 import { mailFile, startServer, startStack, waitForServer } from './lib/services'
 import { createDemoEndpoints, demoEndpointSecrets } from './lib/demo-webhooks'
@@ -48,6 +49,8 @@ if (seeded) {
   if (saltmarshKey) log(`posted ${await postDemoSequences(`http://127.0.0.1:${port}`, saltmarshKey)} demo CO2 sequences`)
   const halvardKey = readDemoKeys()['halvard-ridge']
   if (halvardKey) log(`posted ${await postDemoArgonSequences(`http://127.0.0.1:${port}`, halvardKey)} demo argon sequences`)
+  const review = await reviewDemo(`http://127.0.0.1:${port}`)
+  log(`demo review: ${review.released} results released (${review.retracted} since retracted), ${review.rejected} rejected, ${review.held} held; ${review.sequences} sequences released`)
 }
 printDemoSignIns(appUrl)
 log(`demo partner receiver (webhooks arriving): ${receiver.url}/`)

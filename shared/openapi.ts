@@ -6,7 +6,7 @@ import { acquisitionInput, acquisitionListQuery } from './schemas/acquisitions'
 import { idParams, problemDocument } from './schemas/common'
 import { schemaParams } from './schemas/exchange'
 import { eventFeedQuery, peakQuery, tokenRequest } from './schemas/partners'
-import { DEFAULT_RETRY_SCHEDULE_S, resultEventData, thinResultEventData, webhookMessage } from './schemas/webhooks'
+import { DEFAULT_RETRY_SCHEDULE_S, correctedEventData, resultEventData, retractedEventData, thinResultEventData, webhookMessage } from './schemas/webhooks'
 import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, exchangeSchemaList, jwksView, peakListView, tokenView, uploadAccepted, uploadStatusView } from './schemas/responses'
 import { registerSequencePaths } from './openapiSequences'
 
@@ -31,6 +31,7 @@ const WEBHOOK_GUIDE = `## Webhooks
 
 Integrators add endpoints in the console (one partner's endpoints, event types, labs within the partner's grants, payload schema version). Each message is a POST of JSON signed per [Standard Webhooks](https://www.standardwebhooks.com/) with the endpoint's \`whsec_\` secret.
 
+- **Only what a lab released.** Labs review results before release (or release them at once by their own rule). You receive \`result.released\` when a result is released, \`result.corrected\` when a later version replaces a released one (\`data.correction\` names the previous result and the reason), \`result.retracted\` when a lab withdraws one (it stays readable, marked), and \`sequence.processed\` when a sequence is released. Every result carries \`review\` (state, released at and by whom, version, supersedes, reasons), \`caution\`, \`calibrated\` and \`versions\`. \`result.created\` was retired with review.
 - **At least once.** A message can arrive more than once; every copy has the same \`webhook-id\`: deduplicate on it.
 - **Order.** Messages can arrive out of order. \`data.sequence\` increases by one per event of a lab: order by it, and fetch a gap from \`GET /api/v1/events\`.
 - **Answer fast.** Any 2xx within 15 s counts as received. Anything else is retried after ${DEFAULT_RETRY_SCHEDULE_S.map(human).join(', ')} (each ±10 %, about a day in all), or later when you send \`Retry-After\`. Then the delivery is dead; an integrator can replay it from the delivery log. 3xx is a failure (redirects are not followed); 410 Gone disables the endpoint at once; an endpoint failing for 3 days is disabled and its integrators are e-mailed.
@@ -155,11 +156,25 @@ export function buildOpenApiDocument() {
     'webhook-timestamp': z.string().describe('Unix seconds of this attempt; refuse messages older than a few minutes'),
     'webhook-signature': z.string().describe('space-separated `v1,<base64 HMAC-SHA256>` signatures of `id.timestamp.body`; two during a secret rotation'),
   })
+  const released = { eventId: '5b0f…', lab: 'saltmarsh-isotopes', sequence: 412, id: '0d6c…', runId: 'carb-2026-11-30-017', instrument: 'irms-north', acquiredAt: '2026-11-30T14:05:00Z', sampleRef: 'CARB-1017', status: 'processed', receivedAt: '2026-11-30T14:05:02.118Z', result: '…' }
+  const responses = { 200: { description: 'Any 2xx: received. 3xx is a failure (redirects are not followed); 410 disables the endpoint; 429 and 503 may carry Retry-After.' } }
   registry.registerWebhook({
-    method: 'post', path: 'result.created', tags: ['Webhooks'], summary: 'A result was computed',
-    description: `Sent to each of your endpoints that takes this event type from a lab that granted you access. \`data\` is the acquisition and its result, as \`GET /api/v1/results/{id}\` answers it, with \`eventId\`, \`lab\` and the lab's \`sequence\`. A message over ${256} KiB is sent thin: the summary, \`thin: true\` and \`resultUrl\` to fetch the rest.`,
-    request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage.extend({ data: z.union([resultEventData, thinResultEventData]) }).openapi({ example: { type: 'result.created', timestamp: '2026-11-30T14:05:02.118Z', data: { eventId: '5b0f…', lab: 'saltmarsh-isotopes', sequence: 412, id: '0d6c…', runId: 'carb-2026-11-30-017', instrument: 'irms-north', acquiredAt: '2026-11-30T14:05:00Z', sampleRef: 'CARB-1017', status: 'processed', receivedAt: '2026-11-30T14:05:02.118Z', result: '…' } } }) } } } },
-    responses: { 200: { description: 'Any 2xx: received. 3xx is a failure (redirects are not followed); 410 disables the endpoint; 429 and 503 may carry Retry-After.' } },
+    method: 'post', path: 'result.released', tags: ['Webhooks'], summary: 'A lab released a result',
+    description: `Sent when a lab releases an acquisition's result for the first time: by a reviewer, or at once by the lab's automatic rule (\`review.reviewedBy\` null). Results are held for the lab's review first; a held or rejected result is never sent. \`data\` is the acquisition and its result, as \`GET /api/v1/results/{id}\` answers it (with its \`review\` block, \`caution\`, \`calibrated\` and \`versions\`), with \`eventId\`, \`lab\` and the lab's \`sequence\`. A message over ${256} KiB is sent thin: the summary, \`thin: true\` and \`resultUrl\` to fetch the rest. This event replaced \`result.created\` (sent for every computed result before review existed).`,
+    request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage.extend({ data: z.union([resultEventData, thinResultEventData]) }).openapi({ example: { type: 'result.released', timestamp: '2026-11-30T14:05:02.118Z', data: released } }) } } } },
+    responses,
+  })
+  registry.registerWebhook({
+    method: 'post', path: 'result.corrected', tags: ['Webhooks'], summary: 'A lab released a corrected version of a result it had released',
+    description: 'Sent when a later version of an acquisition\'s result (reprocessed under a new calibration, geometry, method or engine) is released while an earlier version had been released. `data` is the new version as in `result.released`, with `correction`: the result it replaces and the lab\'s reason. Both versions stay stored; reads answer the newest released one.',
+    request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage.extend({ data: correctedEventData }).openapi({ example: { type: 'result.corrected', timestamp: '2026-12-02T09:00:00Z', data: { ...released, correction: { previousResultId: '7a1e…', previousVersion: 1, reason: 'Calibration of 2026-11-28 re-fitted with the corrected reference gas.' } } } }) } } } },
+    responses,
+  })
+  registry.registerWebhook({
+    method: 'post', path: 'result.retracted', tags: ['Webhooks'], summary: 'A lab withdrew a result it had released',
+    description: 'Sent when a lab retracts a released result, with the reason. The result stays readable, marked `review.state: retracted`; do not use it.',
+    request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage.extend({ data: retractedEventData }).openapi({ example: { type: 'result.retracted', timestamp: '2026-12-03T10:00:00Z', data: { eventId: '6c2d…', lab: 'saltmarsh-isotopes', sequence: 415, kind: 'retraction', resultId: '9e4b…', id: '0d6c…', runId: 'carb-2026-11-30-017', instrument: 'irms-north', version: 1, reason: 'Sample label mix-up found at the weekly audit.', retractedAt: '2026-12-03T10:00:00Z', review: '…' } } }) } } } },
+    responses,
   })
   registerSequencePaths(registry, labKey.name, problems, signedHeaders)
   registry.registerWebhook({

@@ -146,7 +146,7 @@ function consoleRequests(t: FuzzTarget): fc.Arbitrary<BadRequest> {
       .map(scopes => send('POST', `/api/console/labs/${t.labId}/keys`, { name: 'fuzz key', scopes }, 'no scope, or an unknown one')),
     fc.date({ min: new Date('2000-01-01'), max: new Date('2026-01-01') }).map(d => send('POST', `/api/console/labs/${t.labId}/keys`, { name: 'fuzz key', scopes: ['results:read'], expiresAt: d.toISOString() }, 'a key that expired already')),
     refusedUrl(t).map(url => send('POST', `/api/console/partners/${t.partnerId}/endpoints`, { url }, 'an endpoint URL to refuse')),
-    fc.string({ maxLength: 12 }).filter(r => !['admin', 'lab_manager', 'integrator', 'viewer'].includes(r)).map(role => send('PATCH', `/api/console/users/${t.userId}`, { role }, 'an unknown role')),
+    fc.string({ maxLength: 12 }).filter(r => !['admin', 'lab_manager', 'lab_reviewer', 'integrator', 'viewer'].includes(r)).map(role => send('PATCH', `/api/console/users/${t.userId}`, { role }, 'an unknown role')),
     fc.string({ maxLength: 20 }).filter(s => !s.includes('@')).map(email => send('POST', '/api/console/invitations', { email, role: 'viewer' }, 'an invitation to no e-mail')),
     fc.oneof(fc.integer({ min: -5, max: 0 }), fc.integer({ min: 201, max: 9999 })).map(l => send('GET', `/api/console/labs/${t.labId}/acquisitions?limit=${l}`, undefined, 'a bad page size')),
     fc.string({ minLength: 1, maxLength: 10 }).map(s => send('GET', `/api/console/labs/${t.labId}/acquisitions?sort=x${encodeURIComponent(s)}`, undefined, 'an unknown order')),

@@ -2,7 +2,7 @@ import { createHash, randomBytes } from 'node:crypto'
 import { existsSync, readFileSync, writeFileSync } from 'node:fs'
 import { join } from 'node:path'
 import postgres from 'postgres'
-import { demoLabs, demoPartners, demoUsers } from './demo'
+import { demoLabs, demoPartners, demoReleaseRules, demoUsers, everyQcCode } from './demo'
 import { demoCalibration, demoInstruments } from './demo-instruments'
 import { hashPassword } from './password'
 import { dataDir, log } from './paths'
@@ -13,8 +13,12 @@ export function readDemoKeys(): Record<string, string> {
   return existsSync(demoKeysFile) ? JSON.parse(readFileSync(demoKeysFile, 'utf8')) as Record<string, string> : {}
 }
 
-/** Seeds the demo consortium once: a database that has labs already is left alone. */
-export async function seedDemo(url: string, opts: { keysFile?: string } = {}): Promise<boolean> {
+/**
+ * Seeds the demo consortium once: a database that has labs already is left alone. With
+ * `releaseAll` (benchmarks, the soak) every lab releases every result at once, so what they
+ * post reaches partners as it did before review existed.
+ */
+export async function seedDemo(url: string, opts: { keysFile?: string, releaseAll?: boolean } = {}): Promise<boolean> {
   const sql = postgres(url, { max: 1, onnotice: () => {} })
   try {
     const [{ count }] = await sql<[{ count: number }]>`select count(*)::int as count from labs`
@@ -22,7 +26,9 @@ export async function seedDemo(url: string, opts: { keysFile?: string } = {}): P
     await sql.begin(async (tx) => {
       const labIds = new Map<string, string>()
       for (const lab of demoLabs) {
-        const [row] = await tx`insert into labs (slug, name, site, contact_email) values (${lab.slug}, ${lab.name}, ${lab.site}, ${lab.contactEmail}) returning id`
+        const rule = opts.releaseAll ? { policy: 'auto', allows: everyQcCode, fourEyes: false } : demoReleaseRules[lab.slug] ?? { policy: 'review', allows: [], fourEyes: false }
+        const [row] = await tx`insert into labs (slug, name, site, contact_email, release_policy, auto_release_allows, four_eyes)
+                               values (${lab.slug}, ${lab.name}, ${lab.site}, ${lab.contactEmail}, ${rule.policy}, ${rule.allows}, ${rule.fourEyes}) returning id`
         labIds.set(lab.slug, row!.id)
       }
       const partnerIds = new Map<string, string>()
@@ -61,10 +67,11 @@ export async function seedDemo(url: string, opts: { keysFile?: string } = {}): P
                  values (${labId}, 'Lab simulator (demo)', ${prefix}, ${createHash('sha256').update(secret).digest('hex')}, ${['acquisitions:write', 'results:read']})`
         keys[inst.lab] = secret
       }
-      // Grants: each partner receives one lab's results, normalised too once a sequence is processed; each partner has one client.
+      // Grants: each partner receives one lab's released results (and their corrections and
+      // retractions), normalised too once a sequence is released; each partner has one client.
       const demoGrants: [string, string][] = [['saltmarsh-isotopes', 'northgate-water'], ['kestrel-leaktest', 'northgate-water'], ['halvard-ridge', 'tidewater-clinical']]
       for (const [lab, partner] of demoGrants) {
-        await tx`insert into grants (lab_id, partner_id, event_types) values (${labIds.get(lab)!}, ${partnerIds.get(partner)!}, ${['result.created', 'sequence.processed']})`
+        await tx`insert into grants (lab_id, partner_id, event_types) values (${labIds.get(lab)!}, ${partnerIds.get(partner)!}, ${['result.released', 'result.corrected', 'result.retracted', 'sequence.processed']})`
       }
       for (const p of demoPartners) {
         const clientId = `awc_${randomBytes(9).toString('base64url')}`

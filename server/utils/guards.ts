@@ -5,7 +5,7 @@ import type { LabKey } from '../services/access'
 import type { PartnerToken } from '../services/partners'
 import { eq } from 'drizzle-orm'
 import { labs, partners } from '../database/schema'
-import { can, permissions, type Permission, type Role, type SessionUser } from '#shared/types/roles'
+import { can, isLabScoped, permissions, type Permission, type Role, type SessionUser } from '#shared/types/roles'
 
 /**
  * The signed-in user, reloaded from the database with their session row so that role
@@ -41,13 +41,14 @@ export function requirePermission(event: H3Event, permission: Permission): Promi
 
 /**
  * The signed-in user when they may see (or, with `write`, change) lab `labId`'s instruments
- * and keys: admins any lab, viewers read any, a lab manager only their own (another lab is
- * 404, as if it were not there); integrators never.
+ * and keys (or, with `review`, release its results): admins any lab, viewers read any, a lab
+ * manager or lab reviewer only their own (another lab is 404, as if it were not there);
+ * integrators never.
  */
-export async function requireLabAccess(event: H3Event, labId: string, access: 'read' | 'write'): Promise<SessionUser> {
+export async function requireLabAccess(event: H3Event, labId: string, access: 'read' | 'write' | 'review'): Promise<SessionUser> {
   const user = await requireUser(event)
-  if (user.role === 'lab_manager' && user.labId !== labId) throw problem(404, 'lab-not-found', 'No such lab.')
-  if (!can(user.role, access === 'read' ? 'labs:read' : 'labs:manage')) throw problem(403, 'forbidden', 'Your role may not do this.')
+  if (isLabScoped(user.role) && user.labId !== labId) throw problem(404, 'lab-not-found', 'No such lab.')
+  if (!can(user.role, access === 'read' ? 'labs:read' : access === 'write' ? 'labs:manage' : 'results:review')) throw problem(403, 'forbidden', 'Your role may not do this.')
   const lab = await useDb().query.labs.findFirst({ where: eq(labs.id, labId), columns: { id: true } })
   if (!lab) throw problem(404, 'lab-not-found', 'No such lab.')
   return user

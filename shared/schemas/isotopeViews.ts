@@ -1,6 +1,7 @@
 import { z } from 'zod'
 import { methodDefinition } from './methods'
 import { methodView, workingStandardView } from './sequences'
+import { reviewStates } from './lifecycle'
 
 // What the console's isotope routes answer (sequences, control charts, methods, standards and
 // reference materials), as the browser sees them: dates arrive as ISO strings. The console's
@@ -27,6 +28,8 @@ export const sequenceListItem = z.object({
   closedAt: isoDate.nullable(),
   /** False when an acceptance rule of the method failed (not to be released); null before processing. */
   accepted: z.boolean().nullable(),
+  /** Where the outcome stands in the lab's review (partners receive it once released). */
+  reviewState: z.enum(reviewStates),
   flags: z.array(flag),
   violations: z.number().int().describe('control-chart rule violations this sequence raised'),
 })
@@ -84,6 +87,10 @@ export const driftView = z.object({
 
 export const sequenceDetail = sequenceListItem.extend({
   labId: z.string(),
+  review: z.object({
+    state: z.enum(reviewStates), releasedAt: isoDate.nullable(), reviewedBy: z.string().nullable(), comment: z.string().nullable(),
+    retractionReason: z.string().nullable(), retractedAt: isoDate.nullable(),
+  }),
   method: z.object({ version: z.number().int(), definition: methodDefinition }).nullable(),
   quantities: z.array(z.string()),
   failure: z.object({ code: z.string(), message: z.string(), field: z.string().optional() }).nullable(),

@@ -11,8 +11,17 @@ export const partnerClientInput = z.object({
 }).strict()
 export type PartnerClientInput = z.infer<typeof partnerClientInput>
 
-/** `sequence.processed` reaches endpoints on result-event v2 or later (v1 does not describe it). */
-export const eventTypes = ['result.created', 'sequence.processed'] as const
+/**
+ * What partners can subscribe to. Results reach partners only once the lab releases them:
+ * `result.released` (first release), `result.corrected` (a later version released over a
+ * released one), `result.retracted`. `result.created` (every computed result at once) was
+ * retired with the review lifecycle. `sequence.processed` (sent when the sequence's outcome
+ * is released) reaches endpoints on result-event v2 or later (v1 does not describe it).
+ */
+export const eventTypes = ['result.released', 'result.corrected', 'result.retracted', 'sequence.processed'] as const
+export type EventType = (typeof eventTypes)[number]
+/** The event types a partner reads results under (grants naming any of them let its reads through). */
+export const resultEventTypes = ['result.released', 'result.corrected', 'result.retracted'] as const
 
 export const grantInput = z.object({
   partnerId: z.uuid({ error: 'must be a partner id' }),

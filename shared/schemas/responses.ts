@@ -1,5 +1,6 @@
 import { z } from 'zod'
 import { problemDocument } from './common'
+import { reviewStates } from './lifecycle'
 
 // The shapes of API answers: the OpenAPI document is generated from these, and the API
 // tests check real responses against them.
@@ -84,6 +85,23 @@ export const calibrationStatus = z.object({
 
 export const qcFlag = z.object({ code: z.string(), message: z.string(), peak: z.number().int().optional() }).strict()
 
+/**
+ * Where a result stands in the lab's review (ISO/IEC 17025:2017 §7.8.1, authorisation before
+ * reporting): every partner-facing result carries it (webhook data, feed entries, reads,
+ * peaks), and the console shows it beside the review actions.
+ */
+export const resultReview = z.object({
+  state: z.enum(reviewStates).describe('held: waiting for the lab\'s review; released: authorised; rejected: refused by a reviewer; retracted: released, then withdrawn by the lab (still readable, marked)'),
+  releasedAt: z.iso.datetime({ offset: true }).nullable(),
+  reviewedBy: z.string().nullable().describe('the reviewer\'s name; null when released automatically by the lab\'s rule (or not yet reviewed)'),
+  version: z.number().int().describe('1 for the first result of an acquisition; a reprocessed result is the next version'),
+  supersedes: z.uuid().nullable().describe('the result this version replaces'),
+  correctionReason: z.string().nullable().describe('why this version corrects an earlier one'),
+  retractionReason: z.string().nullable(),
+  retractedAt: z.iso.datetime({ offset: true }).nullable(),
+}).strict()
+export type ResultReview = z.infer<typeof resultReview>
+
 export const engineResultView = z.object({
   id: z.uuid(),
   mode: z.enum(['sweep', 'static']),
@@ -104,7 +122,12 @@ export const engineResultView = z.object({
   peaks: z.array(resultPeak),
   ratios: z.array(ratioResult),
   qc: z.array(qcFlag),
-  versions: z.object({ engine: z.string(), constants: z.string(), geometry: z.number().int(), calibration: z.number().int().nullable() }).strict(),
+  versions: z.object({
+    engine: z.string(), constants: z.string(), geometry: z.number().int(), calibration: z.number().int().nullable(),
+    method: z.number().int().nullable().describe('the method version applied; null: a single acquisition is processed without a method (methods apply to sequences)'),
+  }).strict(),
+  review: resultReview,
+  caution: z.string().describe('the caution in short: results are only as good as what the lab registered, and decisions need the lab\'s own review'),
 }).strict()
 
 export const acquisitionView = z.object({
@@ -122,14 +145,33 @@ export const acquisitionListView = z.object({
   items: z.array(z.object({
     id: z.uuid(), runId: z.string(), instrument: z.string(), acquiredAt: z.iso.datetime({ offset: true }), sampleRef: z.string().nullable(),
     status: z.enum(['processed', 'failed']), points: z.number().int(), receivedAt: z.iso.datetime({ offset: true }),
+    reviewState: z.enum(reviewStates).nullable().describe('the latest result version\'s review state'),
   }).strict()),
   nextCursor: z.string().nullable(),
 }).strict()
 
+/** What `result.retracted` carries: which result was withdrawn, when and why (it stays readable, marked). */
+export const resultRetractedData = z.object({
+  kind: z.literal('retraction'),
+  resultId: z.uuid(), id: z.uuid().describe('the acquisition'), runId: z.string(), instrument: z.string(), version: z.number().int(),
+  reason: z.string(), retractedAt: z.iso.datetime({ offset: true }),
+  review: resultReview,
+}).strict()
+
+/** What `result.corrected` carries besides the new result: the version it replaces and why. */
+export const resultCorrection = z.object({
+  previousResultId: z.uuid(), previousVersion: z.number().int(), reason: z.string().nullable(),
+}).strict()
+
+export const resultReleasedData = acquisitionView
+export const resultCorrectedData = acquisitionView.extend({ correction: resultCorrection })
+
 export const eventFeedView = z.object({
   items: z.array(z.object({
-    id: z.uuid(), type: z.string(), lab: z.string(), sequence: z.number().int().describe('per-lab sequence number, for ordering'),
-    createdAt: z.iso.datetime({ offset: true }), data: acquisitionView,
+    id: z.uuid(), type: z.string().describe('result.released, result.corrected, result.retracted or sequence.processed (result.created before the review lifecycle)'),
+    lab: z.string(), sequence: z.number().int().describe('per-lab sequence number, for ordering'),
+    createdAt: z.iso.datetime({ offset: true }),
+    data: z.union([resultCorrectedData, acquisitionView, resultRetractedData, z.record(z.string(), z.unknown()).describe('sequence.processed: the sequence\'s outcome')]),
   }).strict()),
   nextCursor: z.string().describe('pass back as `cursor` to get what came after; unchanged when nothing new arrived'),
 }).strict()
@@ -137,7 +179,13 @@ export const eventFeedView = z.object({
 export const peakListView = z.object({
   items: z.array(z.object({
     id: z.number().int(), mz: z.number(), area: z.number(), species: z.string().nullable(), charge: z.number().int().nullable(),
-    lab: z.string(), acquisitionId: z.uuid(), acquiredAt: z.iso.datetime({ offset: true }),
+    mzU: z.number().nullable().describe('standard uncertainty of the m/z (the result\'s centroidU)'),
+    areaU: z.number().nullable().describe('standard uncertainty of the area'),
+    lab: z.string(), acquisitionId: z.uuid(), resultId: z.uuid(), acquiredAt: z.iso.datetime({ offset: true }),
+    calibrated: z.boolean(),
+    versions: engineResultView.shape.versions,
+    review: resultReview,
+    caution: z.string(),
   }).strict()),
   nextCursor: z.string().nullable(),
 }).strict()

@@ -2,6 +2,7 @@ import { z } from 'zod'
 import { sequenceRoles, type SequenceRole } from '../engine/isotopes/types'
 import { acquisitionInput } from './acquisitions'
 import { slug } from './common'
+import { releasePolicies, reviewStates } from './lifecycle'
 import { methodDefinition } from './methods'
 
 // Sequences as a lab system posts them (issue 19): a whole sequence at once, or one opened
@@ -67,6 +68,8 @@ export const methodInput = z.object({
   validFrom: z.iso.datetime({ offset: true, error: 'must be an ISO 8601 date and time with an offset' }),
   definition: methodDefinition,
   note: z.string().trim().max(500).optional(),
+  releasePolicy: z.enum(releasePolicies, { error: `must be one of ${releasePolicies.join(', ')}` }).optional()
+    .describe('overrides the lab\'s release policy for sequences processed under this version; absent: the lab\'s'),
 }).strict()
 export type MethodInput = z.infer<typeof methodInput>
 
@@ -125,6 +128,10 @@ export const sequenceView = z.object({
   acquisitions: z.array(z.object({ position: z.number().int(), role: z.string(), material: z.string().nullable(), acquisitionId: z.uuid(), runId: z.string(), acquiredAt: z.string() })),
   outcome: sequenceOutcomeView.nullable(),
   createdAt: z.string(), closedAt: z.string().nullable(), processedAt: z.string().nullable(),
+  review: z.object({
+    state: z.enum(reviewStates), releasedAt: z.string().nullable(), reviewedBy: z.string().nullable().describe('null: automatic, or not yet reviewed'),
+    comment: z.string().nullable(), retractionReason: z.string().nullable(), retractedAt: z.string().nullable(),
+  }).describe('held: waiting for the lab\'s review (partners receive sequence.processed once released)'),
   caution: z.string(),
 })
 export type SequenceView = z.infer<typeof sequenceView>
@@ -132,6 +139,7 @@ export type SequenceView = z.infer<typeof sequenceView>
 export const methodView = z.object({
   id: z.uuid(), instrument: z.string(), version: z.number().int(), name: z.string(), validFrom: z.string(),
   definition: methodDefinition, note: z.string().nullable(), createdAt: z.string(),
+  releasePolicy: z.enum(releasePolicies).nullable().describe('null: the lab\'s release policy applies'),
 })
 export type MethodView = z.infer<typeof methodView>
 
@@ -151,6 +159,8 @@ export const sequenceEventData = z.object({
   kind: z.literal('sequence'),
   id: z.uuid(), sequenceId: z.string(), instrument: z.string(), status: z.enum(['processed']),
   processedAt: z.string(), accepted: z.boolean(), flagged: z.boolean(),
+  releasedAt: z.string().describe('when the lab released the outcome (this message is sent at release)'),
+  reviewedBy: z.string().nullable().describe('the reviewer\'s name; null: released automatically by the lab\'s rule'),
   method: z.object({ id: z.uuid(), version: z.number().int(), name: z.string(), gas: z.string() }),
   samples: z.array(z.object({
     position: z.number().int(), acquisitionId: z.uuid(), runId: z.string(), sampleRef: z.string().nullable(), acquiredAt: z.string(),
@@ -185,6 +195,7 @@ export const sequenceListView = z.object({
     declaredLength: z.number().int().nullable(), received: z.number().int(), methodVersion: z.number().int().nullable(),
     flagged: z.boolean(), accepted: z.boolean().nullable().describe('false: an acceptance rule of the method failed; null: not processed'),
     failure: z.string().nullable(), createdAt: z.string(), processedAt: z.string().nullable(),
+    reviewState: z.enum(reviewStates),
   })),
   nextCursor: z.string().nullable(),
 })

@@ -1,11 +1,11 @@
 import { z } from 'zod'
-import { roles } from '../types/roles'
+import { isLabScoped, roleLabels, roles } from '../types/roles'
 import { displayName, email, uuid } from './common'
 
 const role = z.enum(roles, { error: `must be one of ${roles.join(', ')}` })
 
 /**
- * A role with its scope: a lab manager names one lab, an integrator one partner, and
+ * A role with its scope: a lab manager or lab reviewer names one lab, an integrator one partner, and
  * the other roles name neither.
  */
 export const roleAssignment = z
@@ -15,9 +15,9 @@ export const roleAssignment = z
     partnerId: uuid.nullish(),
   })
   .superRefine((v, ctx) => {
-    if (v.role === 'lab_manager' && !v.labId) ctx.addIssue({ code: 'custom', path: ['labId'], message: 'a lab manager needs a lab' })
+    if (isLabScoped(v.role) && !v.labId) ctx.addIssue({ code: 'custom', path: ['labId'], message: `a ${roleLabels[v.role].toLowerCase()} needs a lab` })
     if (v.role === 'integrator' && !v.partnerId) ctx.addIssue({ code: 'custom', path: ['partnerId'], message: 'an integrator needs a partner' })
-    if (v.role !== 'lab_manager' && v.labId) ctx.addIssue({ code: 'custom', path: ['labId'], message: 'only a lab manager has a lab' })
+    if (!isLabScoped(v.role) && v.labId) ctx.addIssue({ code: 'custom', path: ['labId'], message: 'only a lab manager or lab reviewer has a lab' })
     if (v.role !== 'integrator' && v.partnerId) ctx.addIssue({ code: 'custom', path: ['partnerId'], message: 'only an integrator has a partner' })
   })
   .transform(v => ({ role: v.role, labId: v.labId ?? null, partnerId: v.partnerId ?? null }))

@@ -1,6 +1,6 @@
 import { z } from 'zod'
 import { uuid } from './common'
-import { acquisitionView } from './responses'
+import { acquisitionView, resultCorrection, resultRetractedData } from './responses'
 import { eventTypes } from './partners'
 
 // Webhook endpoints, their deliveries and replays: the shapes the console API validates and
@@ -65,12 +65,18 @@ export const replayFilter = deliveryFilter.omit({ status: true }).extend({
   status: z.enum(['failing', 'dead']).default('dead'),
 }).strict()
 
-/** What a `result.created` message carries in `data`: the result, with where it came from. */
+/** What a `result.released` message carries in `data`: the released result with its review block, with where it came from. */
 export const resultEventData = acquisitionView.extend({
   eventId: z.uuid(),
   lab: z.string().describe('slug of the lab the result came from'),
   sequence: z.number().int().describe('per-lab sequence number, increasing by one per event: order by it'),
 })
+
+/** What a `result.corrected` message carries: the newly released version, and the one it replaces with the reason. */
+export const correctedEventData = resultEventData.extend({ correction: resultCorrection })
+
+/** What a `result.retracted` message carries. */
+export const retractedEventData = resultRetractedData.extend({ eventId: z.uuid(), lab: z.string(), sequence: z.number().int() })
 
 /** A message too large to send whole: the summary and where to fetch the rest (never truncated). */
 export const thinResultEventData = acquisitionView.pick({ id: true, runId: true, instrument: true, acquiredAt: true, sampleRef: true, status: true, receivedAt: true }).extend({
@@ -81,7 +87,7 @@ export const thinResultEventData = acquisitionView.pick({ id: true, runId: true,
 
 /** The Standard Webhooks envelope every message uses. */
 export const webhookMessage = z.object({
-  type: z.string().describe('result.created, or webhook.test for a test message'),
+  type: z.string().describe('result.released, result.corrected, result.retracted, sequence.processed, or webhook.test for a test message (result.created was retired with the review lifecycle)'),
   timestamp: z.string().describe('when the event happened (ISO 8601); the same on every retry'),
   data: z.union([resultEventData, thinResultEventData, z.record(z.string(), z.unknown())]),
 })

@@ -6,6 +6,12 @@
 export const roles = ['admin', 'lab_manager', 'lab_reviewer', 'integrator', 'viewer'] as const
 export type Role = (typeof roles)[number]
 
+/** The roles that belong to one lab: another lab's records answer 404 to them. */
+export const labScopedRoles = ['lab_manager', 'lab_reviewer'] as const satisfies readonly Role[]
+export function isLabScoped(role: Role | undefined | null): boolean {
+  return !!role && (labScopedRoles as readonly Role[]).includes(role)
+}
+
 export const roleLabels: Record<Role, string> = {
   admin: 'Admin',
   lab_manager: 'Lab manager',

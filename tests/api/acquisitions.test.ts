@@ -30,14 +30,14 @@ describe('POST /api/v1/acquisitions', () => {
     expect(r.ratios[0]).toMatchObject({ deltaName: 'δ13C', standard: 'VPDB' })
     expect(r.ratios[0].deltaPermil).toBeCloseTo(-10, 0)
     expect(r.ratios[0].deltaU).toBeGreaterThan(0)
-    expect(r.versions).toEqual({ engine: '2.0.0', constants: 'CODATA 2022', geometry: 1, calibration: null })
+    expect(r.versions).toEqual({ engine: '2.0.0', constants: 'CODATA 2022', geometry: 1, calibration: null, method: null })
     expect(r.physics).toEqual({ relativistic: true, compatibility: '2.x' })
     expect(r.qc.map((q: any) => q.code)).toContain('uncalibrated')
     expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
     const [peakRows] = await sql<[{ n: number }]>`select count(*)::int as n from peaks where lab_id = ${lab.id}`
     expect(peakRows.n).toBe(r.peaks.length)
     const [event] = await sql`select sequence::int as sequence, type from events where lab_id = ${lab.id}`
-    expect(event).toEqual({ sequence: 1, type: 'result.created' })
+    expect(event).toEqual({ sequence: 1, type: 'result.released' })
   })
 
   it('takes on-peak-zero readings or baseline regions, and every peak number comes with its uncertainty', async () => {

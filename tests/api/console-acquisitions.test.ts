@@ -48,9 +48,11 @@ describe('acquisitions in the console', () => {
     const base = `/api/console/labs/${lab.id}/acquisitions/${posted.body.id}`
     const detail = await admin.get(base)
     expect(detail.status).toBe(200)
-    const { instrumentId, instrumentName, geometryKind, payload, ...view } = detail.body
+    const { instrumentId, instrumentName, geometryKind, payload, reviewComment, submittedBy, ...view } = detail.body
     acquisitionView.parse(view)
     expect({ instrumentName, geometryKind }).toEqual({ instrumentName: 'Sector one', geometryKind: 'potential-sector' })
+    // Posted with a lab key, not reviewed yet: no uploader, no comment.
+    expect({ reviewComment, submittedBy }).toEqual({ reviewComment: null, submittedBy: null })
     expect(instrumentId).toMatch(/^[0-9a-f-]{36}$/)
     const [stored] = await sql<[{ chars: number }]>`select length(payload::text)::int as chars from acquisitions where id = ${posted.body.id}`
     expect(payload).toMatchObject({ chars: stored.chars, truncated: true })

@@ -82,7 +82,7 @@ describe('partners see only what labs granted them (OWASP API1:2023)', () => {
     expect(feed.status).toBe(200)
     eventFeedView.parse(feed.body)
     expect(feed.body.items.map((e: any) => e.data.id)).toEqual([mine.body.id])
-    expect(feed.body.items[0]).toMatchObject({ type: 'result.created', lab: granted.lab.slug, sequence: 1 })
+    expect(feed.body.items[0]).toMatchObject({ type: 'result.released', lab: granted.lab.slug, sequence: 1 })
     const again = await asPartner(t, `/api/v1/events?cursor=${feed.body.nextCursor}`)
     expect(again.body.items).toEqual([])
     expect(again.body.nextCursor).toBe(feed.body.nextCursor)

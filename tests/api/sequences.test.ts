@@ -237,7 +237,7 @@ describe('delivery to partners', () => {
     const { admin, api, lab: l } = await co2Lab()
     const partner = (await admin.post('/api/console/partners', { slug: unique('p'), name: 'Normalised Partner', kind: 'data_team', contactEmail: 'n@example.org' })).body
     const grant = await admin.post(`/api/console/labs/${l.id}/grants`, { partnerId: partner.id })
-    expect(grant.body.eventTypes).toEqual(['result.created', 'sequence.processed'])
+    expect(grant.body.eventTypes).toEqual(['result.released', 'result.corrected', 'result.retracted', 'sequence.processed'])
     const v2Path = `/v2-${unique('x')}`
     const v1Path = `/v1-${unique('x')}`
     const v2 = await admin.post(`/api/console/partners/${partner.id}/endpoints`, { url: `http://127.0.0.1:${SINK_PORT}${v2Path}` })
@@ -271,7 +271,7 @@ describe('delivery to partners', () => {
     // Results still reach both endpoints; the processed sequence only the one on v2.
     await until('the results on v1', () => received.filter(r => r.path === v1Path).length >= built.items.length)
     await new Promise(r => setTimeout(r, 1000))
-    expect(received.filter(r => r.path === v1Path).every(r => r.body.includes('"result.created"'))).toBe(true)
+    expect(received.filter(r => r.path === v1Path).every(r => r.body.includes('"result.released"'))).toBe(true)
     const schema = await new ConsoleClient().get('/api/v1/schemas/result-event/1')
     expect(schema.headers.get('sunset')).toBeTruthy()
   })

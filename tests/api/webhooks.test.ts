@@ -63,11 +63,11 @@ describe('signed delivery of result events', () => {
     const [hit] = await until('the message at the sink', () => hitsTo(path).length ? hitsTo(path) : undefined)
     // Verified with the standardwebhooks package, as a receiver would.
     const payload = new Webhook(ctx.endpoint.secret).verify(hit!.body, hit!.headers) as any
-    expect(payload.type).toBe('result.created')
+    expect(payload.type).toBe('result.released')
     expect(payload.data).toMatchObject({ id: accepted.body.id, lab: ctx.lab.slug, sequence: expect.any(Number), runId: accepted.body.runId })
     expect(payload.data.result.peaks.length).toBeGreaterThan(0)
     // A tampered body fails verification.
-    expect(() => new Webhook(ctx.endpoint.secret).verify(hit!.body.replace('result.created', 'result.created '), hit!.headers)).toThrow()
+    expect(() => new Webhook(ctx.endpoint.secret).verify(hit!.body.replace('result.released', 'result.created '), hit!.headers)).toThrow()
     const done = await ctx.delivery('succeeded')
     expect(hit!.headers['webhook-id']).toBe(done.id)
     const detail = await ctx.detail(done.id)
@@ -77,7 +77,7 @@ describe('signed delivery of result events', () => {
     // The log shows the request as the receiver got it: the body byte for byte (it is rebuilt
     // from the event rather than stored with each attempt) and headers it verifies with.
     expect(detail.attempts[0].requestBody).toBe(hit!.body)
-    expect(new Webhook(ctx.endpoint.secret).verify(detail.attempts[0].requestBody, detail.attempts[0].requestHeaders)).toMatchObject({ type: 'result.created' })
+    expect(new Webhook(ctx.endpoint.secret).verify(detail.attempts[0].requestBody, detail.attempts[0].requestHeaders)).toMatchObject({ type: 'result.released' })
   })
 
   it('the delivery rows are written with the acquisition: one per entitled endpoint, none for a paused-then-deleted or ungranted one', async () => {

@@ -53,7 +53,7 @@ describe('lab keys in the console', () => {
     await page.getByLabel('Partner', { exact: true }).selectOption({ label: 'Tidewater Clinical Research' })
     await page.getByRole('button', { name: 'Grant access' }).click()
     const row = page.getByRole('row', { name: /Tidewater Clinical Research/ })
-    await expect.poll(() => row.textContent()).toContain('result.created')
+    await expect.poll(() => row.textContent()).toContain('result.released')
     await expectAccessible(page)
     await shot(page, 'lab-partner-access')
     page.once('dialog', dialog => dialog.accept())

@@ -9,13 +9,15 @@ await useArcwise({ browser: true })
 
 const menus: Record<Role, string[]> = {
   admin: ['Overview', 'Labs', 'Partners', 'Reference materials', 'Exchange schemas', 'Users and invitations', 'Audit log'],
-  lab_manager: ['Overview', 'Labs', 'Sequences', 'Control charts', 'Reference materials', 'Exchange schemas'],
+  lab_manager: ['Overview', 'Labs', 'Review', 'Sequences', 'Control charts', 'Reference materials', 'Exchange schemas'],
+  lab_reviewer: ['Overview', 'Labs', 'Review', 'Sequences', 'Control charts', 'Reference materials', 'Exchange schemas'],
   integrator: ['Overview', 'Partners', 'Webhooks', 'Deliveries', 'Reference materials', 'Exchange schemas'],
   viewer: ['Overview', 'Labs', 'Partners', 'Reference materials', 'Exchange schemas', 'Users and invitations', 'Audit log'],
 }
 const refused: Record<Role, string[]> = {
   admin: [],
   lab_manager: ['/console/users', '/console/audit', '/console/partners'],
+  lab_reviewer: ['/console/users', '/console/audit', '/console/partners'],
   integrator: ['/console/users', '/console/audit', '/console/labs'],
   viewer: [],
 }

@@ -1,13 +1,27 @@
 import { geometry, isotope, formulaSpecies, simulateFieldSweep } from '../../shared/engine'
+import { everyQcCode } from '../../scripts/lib/demo'
 import { demoUser } from './demo'
 import { ConsoleClient, testDb, unique } from './server'
 
 export const sectorGeometry = { kind: 'potential-sector', analyzerRadius: { value: 27, unit: 'cm', u: 0.01 } } as const
 
-/** A lab of its own with an instrument and a key of both scopes, set up through the console API. */
-export async function labWithInstrument(opts: { validFrom?: string } = {}) {
+
+/** Sets a lab's release rule through the console (an admin or the lab's manager). */
+export async function setRelease(client: ConsoleClient, labId: string, settings: { releasePolicy: 'review' | 'auto', autoReleaseAllows?: string[], fourEyes?: boolean }) {
+  const res = await client.request('PUT', `/api/console/labs/${labId}/release-settings`, { autoReleaseAllows: [], fourEyes: false, ...settings })
+  if (res.status !== 200) throw new Error(`release settings: ${res.status} ${JSON.stringify(res.body)}`)
+  return res.body
+}
+
+/**
+ * A lab of its own with an instrument and a key of both scopes, set up through the console
+ * API. Its results are released automatically whatever flags they raise (`release: 'auto'`,
+ * the default, for tests about what happens after release), or held for review (`'review'`).
+ */
+export async function labWithInstrument(opts: { validFrom?: string, release?: 'auto' | 'review' } = {}) {
   const admin = await new ConsoleClient().signIn(demoUser('admin').email, demoUser('admin').password)
   const lab = (await admin.post('/api/console/labs', { slug: unique('lab'), name: 'Test Lab', site: 'Bench 1', contactEmail: 'bench@example.org' })).body
+  if ((opts.release ?? 'auto') === 'auto') await setRelease(admin, lab.id, { releasePolicy: 'auto', autoReleaseAllows: everyQcCode })
   const instrument = (await admin.post(`/api/console/labs/${lab.id}/instruments`, { slug: 'ms-1', name: 'Sector one', geometry: sectorGeometry, validFrom: opts.validFrom ?? '2026-01-01T00:00:00Z' })).body
   const key = (await admin.post(`/api/console/labs/${lab.id}/keys`, { name: 'lab PC', scopes: ['acquisitions:write', 'results:read'] })).body
   return { admin, lab, instrument, key, sql: testDb() }

@@ -7,8 +7,9 @@ import type { LabKey } from '../access'
 import { kickDeliveries } from '../delivery'
 import { instrumentContextAt } from '../instruments'
 import { observeEngine } from '../metrics'
-import { acquisitionHead, resultView, type AcquisitionHead, type AcquisitionResultView } from '../results'
+import { acquisitionHead, resultChoice, resultView, type AcquisitionHead, type AcquisitionResultView } from '../results'
 import { countSchemaUse } from '../schemas'
+import { releasesAutomatically } from '#shared/releaseRule'
 import { recordAccepted } from './acceptedWrites'
 
 // The body is serialised once per request: the Idempotency-Key check, the run-id check and
@@ -43,6 +44,8 @@ export interface AcceptOptions {
    * and its hash is the one taken when the lab sent it.
    */
   upload?: { id: string, bodyHash: string }
+  /** The console user who uploaded it (the four-eyes rule: they may not release it). */
+  submittedBy?: string
 }
 
 /**
@@ -91,11 +94,16 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
   const summary = { ...engine, geometryVersion: geo.version, calibrationVersion: applied?.version ?? null }
   const acq: AcquisitionHead = {
     id: randomUUID(), labId: key.labId, instrumentId: instrument.id, externalId: input.runId, acquiredAt, sampleRef: input.sampleRef ?? null,
-    status: 'processed', bodyHash: hash, pointCount: engine.points, createdAt: new Date(),
+    status: 'processed', bodyHash: hash, pointCount: engine.points, submittedBy: opts.submittedBy ?? null, createdAt: new Date(),
   }
+  // Held for the lab's review unless its rule releases it now (written in the same statement).
+  const released = releasesAutomatically(instrument.release.policy, instrument.release.allows, engine.qc.map(f => f.code))
   const res: typeof results.$inferSelect = {
     id: randomUUID(), acquisitionId: acq.id, labId: key.labId, geometryVersionId: geo.id, calibrationId: applied?.id ?? null,
-    engineVersion: engine.engineVersion, summary: summary as unknown as Record<string, unknown>, supersededBy: null, createdAt: acq.createdAt,
+    engineVersion: engine.engineVersion, summary: summary as unknown as Record<string, unknown>, createdAt: acq.createdAt,
+    version: 1, supersedes: null, supersededBy: null, correctionReason: null, reprocessJobId: null,
+    reviewState: released ? 'released' : 'held', reviewedBy: null, reviewedAt: released ? acq.createdAt : null, reviewComment: null,
+    releasedAt: released ? acq.createdAt : null, retractedBy: null, retractedAt: null, retractionReason: null,
   }
   const view = resultView(acq, res, instrument.slug)
   try {
@@ -116,7 +124,7 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
 
 async function findByRunId(labId: string, runId: string) {
   const [row] = await useDb().select({ acq: acquisitionHead, res: results }).from(acquisitions)
-    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice('latest')))
     .where(and(eq(acquisitions.labId, labId), eq(acquisitions.externalId, runId))).limit(1)
   return row
 }
@@ -131,7 +139,7 @@ function replayOrConflict(existing: { acq: AcquisitionHead, res: typeof results.
  * once, whatever its size (the console waits for it), and recorded in the audit log.
  */
 export async function uploadFromConsole(audit: AuditContext, labId: string, input: AcquisitionInput) {
-  const result = await acceptAcquisition({ labId }, input)
+  const result = await acceptAcquisition({ labId }, input, { submittedBy: audit.actor.id ?? undefined })
   if (result.status === 201) {
     await recordAudit(useDb(), { ...audit, action: 'acquisition.uploaded', targetType: 'acquisition', targetId: result.body.id, detail: { labId, runId: input.runId, points: result.body.result.points } })
   }

@@ -7,12 +7,15 @@ import type { AcquisitionHead, AcquisitionResultView } from '../results'
 
 // Writing accepted acquisitions. Every acquisition accepted in the same turn of the event
 // loop is written by ONE statement (one implicit transaction, one commit): its acquisition
-// row, result, peaks, outbox event and the deliveries the event owes. A group commit: under
+// row, result (held for review, or released by the lab's automatic rule), peaks and, for a
+// released result only, the `result.released` outbox event and the deliveries it owes. A group commit: under
 // load, the statement's fixed costs (executor start-up, the locks on some twenty relations
 // and indexes, the WAL flush at commit, the round trip) are paid once for the group, not
 // once per acquisition (batchPerTurn).
 
-const RESULT_EVENT = 'result.created'
+// Partners hear of a result when it is released; a held one waits for the lab's reviewer
+// (server/services/review), who emits the same event on release.
+const RESULT_EVENT = 'result.released'
 
 export interface AcceptedEntry {
   acq: AcquisitionHead
@@ -59,8 +62,9 @@ async function write(group: AcceptedEntry[]): Promise<Outcome<undefined>[]> {
  * One statement for a group. The entries travel as one JSON array whose payloads, summaries
  * and views are spliced in as text, never parsed and serialised again.
  *
- * Events are numbered per lab under the lab row's lock, so a lab's events commit in the
- * order of their numbers and the pull feed's per-lab cursor never skips one. Inside one
+ * Only released results (`owed`) get an event. Events are numbered per lab under the lab
+ * row's lock, so a lab's events commit in the order of their numbers and the pull feed's
+ * per-lab cursor never skips one. Inside one
  * statement that lock is held only until its own commit, never across a round trip.
  *
  * Order matters: PostgreSQL runs a data-modifying WITH clause when its output is first read,
@@ -77,6 +81,7 @@ function acceptedStatement(entries: AcceptedEntry[]) {
       acquiredAt: acq.acquiredAt.toISOString(), sampleRef: acq.sampleRef, bodyHash: acq.bodyHash, pointCount: acq.pointCount,
       at: acq.createdAt.toISOString(), geometryVersionId: res.geometryVersionId, calibrationId: res.calibrationId, engineVersion: res.engineVersion,
       uploadId: 'uploadId' in payload ? payload.uploadId : null,
+      submittedBy: acq.submittedBy, reviewState: res.reviewState, releasedAt: res.releasedAt?.toISOString() ?? null,
     }
     const peakRows = found.map(p => ({ mz: p.centroid, area: p.area, species: p.assignment?.species ?? null, charge: p.assignment?.z ?? null }))
     const body = 'json' in payload ? `,"payload":${payload.json}` : ''
@@ -87,16 +92,16 @@ function acceptedStatement(entries: AcceptedEntry[]) {
       select t.ord, t.r->'m' as m, t.r->'payload' as payload, t.r->'summary' as summary, t.r->'view' as view, t.r->'peaks' as peaks
       from jsonb_array_elements(${`[${items.join(',')}]`}::jsonb) with ordinality as t(r, ord)),
     acq as (
-      insert into ${acquisitions} (id, lab_id, instrument_id, external_id, acquired_at, sample_ref, status, body_hash, payload, point_count, created_at)
+      insert into ${acquisitions} (id, lab_id, instrument_id, external_id, acquired_at, sample_ref, status, body_hash, payload, point_count, submitted_by, created_at)
       select (m->>'acqId')::uuid, (m->>'labId')::uuid, (m->>'instrumentId')::uuid, m->>'runId', (m->>'acquiredAt')::timestamptz, m->>'sampleRef',
              'processed', m->>'bodyHash', coalesce(payload, (select u.body from ${uploads} u where u.id = (m->>'uploadId')::uuid)),
-             (m->>'pointCount')::int, (m->>'at')::timestamptz
+             (m->>'pointCount')::int, (m->>'submittedBy')::uuid, (m->>'at')::timestamptz
       from input
       returning 1 as n),
     res as (
-      insert into ${results} (id, acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, created_at)
+      insert into ${results} (id, acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, review_state, reviewed_at, released_at, created_at)
       select (m->>'resId')::uuid, (m->>'acqId')::uuid, (m->>'labId')::uuid, (m->>'geometryVersionId')::uuid, (m->>'calibrationId')::uuid,
-             m->>'engineVersion', summary, (m->>'at')::timestamptz
+             m->>'engineVersion', summary, (m->>'reviewState')::review_state, (m->>'releasedAt')::timestamptz, (m->>'releasedAt')::timestamptz, (m->>'at')::timestamptz
       from input
       returning 1 as n),
     pk as (
@@ -106,8 +111,10 @@ function acceptedStatement(entries: AcceptedEntry[]) {
       returning 1 as n),
     written as (
       select (select count(*) from acq) + (select count(*) from res) + (select count(*) from pk) as n),
+    owed as (
+      select * from input where m->>'reviewState' = 'released'),
     counts as (
-      select (m->>'labId')::uuid as lab_id, count(*) as c from input group by 1),
+      select (m->>'labId')::uuid as lab_id, count(*) as c from owed group by 1),
     locked as materialized (
       select l.id from ${labs} l where l.id in (select lab_id from counts) and (select n from written) > 0
       order by l.id for no key update),
@@ -118,7 +125,7 @@ function acceptedStatement(entries: AcceptedEntry[]) {
     ev as (
       insert into ${events} (lab_id, sequence, type, payload, created_at)
       select s.lab_id, s.last - s.c + row_number() over (partition by s.lab_id order by i.ord), ${RESULT_EVENT}, i.view, (i.m->>'at')::timestamptz
-      from input i join seq s on s.lab_id = (i.m->>'labId')::uuid
+      from owed i join seq s on s.lab_id = (i.m->>'labId')::uuid
       returning id, lab_id)
     ${fanOut(RESULT_EVENT, sql`ev.lab_id`)}`
 }

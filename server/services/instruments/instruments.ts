@@ -4,7 +4,7 @@ import { fitCalibration, formulaSpecies, geometry as geometrySchema, isotope, pr
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import type { calibrationInput, CalibrationFromReferenceInput, InstrumentInput, InstrumentUpdate } from '#shared/schemas/instruments'
 import type { Geometry } from '#shared/engine'
-import { acquisitions, calibrations, geometryVersions, instruments } from '../../database/schema'
+import { acquisitions, calibrations, geometryVersions, instruments, labs } from '../../database/schema'
 
 export async function listInstruments(labId: string) {
   const rows = await useDb().select().from(instruments).where(eq(instruments.labId, labId)).orderBy(asc(instruments.name), asc(instruments.id))
@@ -176,13 +176,15 @@ export interface InstrumentContext {
   /** The species the instrument measures, when registered. */
   measuredSpecies: string[] | null
   runSeen: boolean
+  /** The lab's release rule (issue 20): 'auto' releases a result whose QC codes are all in `allows`. */
+  release: { policy: 'review' | 'auto', allows: string[] }
 }
 
 interface ContextQuery { labId: string, slug: string, at: string, runId: string }
 
 // The lookups of one event-loop turn go to PostgreSQL as one statement (batchPerTurn).
 const lookUpTogether = batchPerTurn<ContextQuery, InstrumentContext | undefined>(async (queries) => {
-  const rows = await useDb().execute<{ ord: number, id: string | null, slug: string, geometry: InstrumentContext['geometry'], calibration: InstrumentContext['calibration'], measured_species: string[] | null, run_seen: boolean }>(sql`
+  const rows = await useDb().execute<{ ord: number, id: string | null, slug: string, geometry: InstrumentContext['geometry'], calibration: InstrumentContext['calibration'], measured_species: string[] | null, run_seen: boolean, release: InstrumentContext['release'] }>(sql`
     select q.ord, i.id, i.slug, i.measured_species,
       (select json_build_object('id', g.id, 'version', g.version, 'params', g.params) from ${geometryVersions} g
         where g.instrument_id = i.id and g.valid_from <= q.at order by g.valid_from desc, g.version desc limit 1) as geometry,
@@ -190,14 +192,15 @@ const lookUpTogether = batchPerTurn<ContextQuery, InstrumentContext | undefined>
           (select g2.version from ${geometryVersions} g2 where g2.instrument_id = i.id and g2.valid_from <= c.valid_from order by g2.valid_from desc, g2.version desc limit 1)))
         from ${calibrations} c
         where c.instrument_id = i.id and c.valid_from <= q.at order by c.valid_from desc, c.version desc limit 1) as calibration,
-      exists (select 1 from ${acquisitions} a where a.lab_id = q.lab_id and a.external_id = q.run_id) as run_seen
+      exists (select 1 from ${acquisitions} a where a.lab_id = q.lab_id and a.external_id = q.run_id) as run_seen,
+      (select json_build_object('policy', l.release_policy, 'allows', l.auto_release_allows) from ${labs} l where l.id = q.lab_id) as release
     from jsonb_to_recordset(${JSON.stringify(queries.map((q, ord) => ({ ord, lab_id: q.labId, slug: q.slug, at: q.at, run_id: q.runId })))}::jsonb)
       as q(ord int, lab_id uuid, slug text, at timestamptz, run_id text)
     left join ${instruments} i on i.lab_id = q.lab_id and i.slug = q.slug`)
   const byOrd = new Map([...rows].map(r => [Number(r.ord), r]))
   return queries.map((_, ord) => {
     const row = byOrd.get(ord)
-    return { value: row?.id ? { id: row.id, slug: row.slug, geometry: row.geometry, calibration: row.calibration, measuredSpecies: row.measured_species, runSeen: row.run_seen } : undefined }
+    return { value: row?.id ? { id: row.id, slug: row.slug, geometry: row.geometry, calibration: row.calibration, measuredSpecies: row.measured_species, runSeen: row.run_seen, release: row.release } : undefined }
   })
 })
 

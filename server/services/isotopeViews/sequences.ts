@@ -1,7 +1,7 @@
 import { and, count, desc, eq, inArray, sql, type SQL } from 'drizzle-orm'
 import type { OutcomeItem, SequenceOutcome } from '#shared/engine/isotopes/types'
 import type { DriftView, NormalisationView, SequenceDetail, SequenceListItem, SequenceListPage, StandardComparison } from '#shared/schemas/isotopeViews'
-import { acquisitions, controlPoints, instruments, methods, sequenceItems, sequences } from '../../database/schema'
+import { acquisitions, controlPoints, instruments, methods, sequenceItems, sequences, users } from '../../database/schema'
 import { sequenceMaterialsAt, type SequenceMaterialInfo } from './materials'
 
 // The console's reading of sequences: the lab's list and one sequence laid out for review
@@ -29,7 +29,7 @@ function listItem(s: SequenceRow, inst: { id: string, slug: string, name: string
     id: s.id, externalId: s.externalId, instrument: inst, gas: outcome?.gas ?? null, status: s.status,
     methodVersion: method?.version ?? null, items: stats.items, samples: stats.samples,
     startedAt: stats.startedAt ? new Date(stats.startedAt).toISOString() : null, closedAt: s.closedAt?.toISOString() ?? null,
-    accepted: outcome ? outcome.accepted : null, flags, violations,
+    accepted: outcome ? outcome.accepted : null, reviewState: s.reviewState, flags, violations,
   }
 }
 
@@ -96,9 +96,14 @@ export async function getSequenceView(labId: string, id: string): Promise<Sequen
       raw: o?.raw ?? {}, final: o?.final ?? {}, residual: o?.residual ?? {}, flags: o?.flags ?? [],
     }
   })
+  const reviewer = row.s.reviewedBy ? await db.query.users.findFirst({ where: eq(users.id, row.s.reviewedBy), columns: { name: true } }) : undefined
   return {
     ...base,
     labId,
+    review: {
+      state: row.s.reviewState, releasedAt: row.s.releasedAt?.toISOString() ?? null, reviewedBy: reviewer?.name ?? null, comment: row.s.reviewComment,
+      retractionReason: row.s.retractionReason, retractedAt: row.s.retractedAt?.toISOString() ?? null,
+    },
     method: row.method ? { version: row.method.version, definition: row.method.definition } : null,
     quantities: outcome?.quantities ?? [],
     failure: row.s.failure ?? null,

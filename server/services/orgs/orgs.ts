@@ -1,7 +1,7 @@
 import { asc, eq } from 'drizzle-orm'
 import { labs, partners } from '../../database/schema'
 import type { LabInput, PartnerInput } from '#shared/schemas/orgs'
-import type { SessionUser } from '#shared/types/roles'
+import { isLabScoped, type SessionUser } from '#shared/types/roles'
 
 // Labs and partners: the two kinds of organisation in the hub. A lab manager sees and
 // edits only their own lab and an integrator only their own partner; "not yours" is 404.
@@ -10,7 +10,7 @@ type Org = 'lab' | 'partner'
 const tables = { lab: labs, partner: partners } as const
 
 function ownScope(user: SessionUser, org: Org): string | null | undefined {
-  if (org === 'lab' && user.role === 'lab_manager') return user.labId
+  if (org === 'lab' && isLabScoped(user.role)) return user.labId
   if (org === 'partner' && user.role === 'integrator') return user.partnerId
   return undefined // admins and viewers see all
 }

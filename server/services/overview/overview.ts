@@ -1,6 +1,6 @@
 import { and, count, desc, eq, gt, inArray, isNull, sql } from 'drizzle-orm'
 import { acquisitions, auditLog, deliveries, invitations, labs, partners, results, users, webhookEndpoints } from '../../database/schema'
-import { can, type SessionUser } from '#shared/types/roles'
+import { can, isLabScoped, type SessionUser } from '#shared/types/roles'
 import { listOrgs } from '../orgs'
 
 /** The figures on the console's front page, each within what the user may read. */
@@ -22,7 +22,7 @@ export async function overviewFor(user: SessionUser) {
   const ownLab = user.labId ? (await db.select().from(labs).where(inArray(labs.id, [user.labId])))[0] ?? null : null
   const ownPartner = user.partnerId ? (await db.select().from(partners).where(eq(partners.id, user.partnerId)))[0] ?? null : null
   const deliveries = can(user.role, 'partners:read') ? await deliveryHealth(user.role === 'integrator' ? user.partnerId : null) : null
-  const activity = can(user.role, 'labs:read') ? await acquisitionActivity(user.role === 'lab_manager' ? user.labId : null) : null
+  const activity = can(user.role, 'labs:read') ? await acquisitionActivity(isLabScoped(user.role) ? user.labId : null) : null
   return { labCount, partnerCount, userCount, pendingInvitations, recentAudit, ownLab, ownPartner, deliveries, activity }
 }
 

@@ -1,4 +1,5 @@
 import { and, eq, sql } from 'drizzle-orm'
+import { resultEventTypes } from '#shared/schemas/partners'
 import { grants, labs, partners } from '../../database/schema'
 
 export function listGrants(labId: string) {
@@ -26,10 +27,10 @@ export async function revokeGrant(audit: AuditContext, labId: string, grantId: s
   return row
 }
 
-/** Labs whose events of `eventType` a partner may see. */
-export async function grantedLabIds(partnerId: string, eventType = 'result.created'): Promise<string[]> {
+/** Labs that grant a partner any of `eventTypes` (by default the result events: the labs whose released results it may read). */
+export async function grantedLabIds(partnerId: string, eventTypes: readonly string[] = resultEventTypes): Promise<string[]> {
   const rows = await useDb().select({ labId: grants.labId }).from(grants)
-    .where(and(eq(grants.partnerId, partnerId), sql`${eventType} = any(${grants.eventTypes})`))
+    .where(and(eq(grants.partnerId, partnerId), sql`${grants.eventTypes} && array[${sql.join(eventTypes.map(t => sql`${t}`), sql`, `)}]::text[]`))
   return rows.map(r => r.labId)
 }
 

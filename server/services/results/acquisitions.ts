@@ -1,8 +1,26 @@
 import { and, desc, eq, gte, lte, sql, type SQL } from 'drizzle-orm'
 import type { z } from 'zod'
 import type { acquisitionListQuery } from '#shared/schemas/acquisitions'
-import { acquisitions, geometryVersions, instruments, results } from '../../database/schema'
+import type { ReviewState } from '#shared/schemas/lifecycle'
+import { alias } from 'drizzle-orm/pg-core'
+import { acquisitions, geometryVersions, instruments, results, users } from '../../database/schema'
 import { acquisitionHead, resultView } from './view'
+
+const reviewer = alias(users, 'reviewer')
+
+/**
+ * Which of an acquisition's result versions to show. `latest`: the lab's own view (console,
+ * lab key), whatever its review state. `published`: what partners see, the highest version
+ * that was released (or released and then retracted, shown marked); held and rejected
+ * versions never reach them.
+ */
+export type ResultChoice = 'latest' | 'published'
+export function resultChoice(choice: ResultChoice): SQL {
+  return choice === 'latest'
+    ? sql`${results.version} = (select max(r2.version) from ${results} r2 where r2.acquisition_id = ${results.acquisitionId})`
+    : sql`${results.reviewState} in ('released', 'retracted') and ${results.version} = (select max(r2.version) from ${results} r2
+        where r2.acquisition_id = ${results.acquisitionId} and r2.review_state in ('released', 'retracted'))`
+}
 
 export async function listAcquisitions(labId: string, query: z.output<typeof acquisitionListQuery>) {
   const conditions: (SQL | undefined)[] = [eq(acquisitions.labId, labId)]
@@ -15,6 +33,7 @@ export async function listAcquisitions(labId: string, query: z.output<typeof acq
   const rows = await useDb().select({
     id: acquisitions.id, runId: acquisitions.externalId, instrument: instruments.slug, acquiredAt: acquisitions.acquiredAt,
     sampleRef: acquisitions.sampleRef, status: acquisitions.status, points: acquisitions.pointCount, createdAt: acquisitions.createdAt,
+    reviewState: sql<ReviewState | null>`(select r.review_state from ${results} r where r.acquisition_id = ${acquisitions.id} order by r.version desc limit 1)`,
     at: sql<string>`${sortColumn}::text`,
   }).from(acquisitions).innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .where(and(...conditions)).orderBy(desc(sortColumn), desc(acquisitions.id)).limit(query.limit + 1)
@@ -25,14 +44,18 @@ export async function listAcquisitions(labId: string, query: z.output<typeof acq
   }
 }
 
-/** One acquisition of the lab with its current result; another lab's is 404 like a missing one. */
-export async function getAcquisition(labId: string, id: string) {
-  const [row] = await useDb().select({ acq: acquisitionHead, res: results, slug: instruments.slug }).from(acquisitions)
-    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+/**
+ * One acquisition of the lab with its latest result (or, for partners, its published one);
+ * another lab's is 404 like a missing one, and so is one with nothing published yet.
+ */
+export async function getAcquisition(labId: string, id: string, choice: ResultChoice = 'latest') {
+  const [row] = await useDb().select({ acq: acquisitionHead, res: results, slug: instruments.slug, reviewer: reviewer.name }).from(acquisitions)
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice(choice)))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
+    .leftJoin(reviewer, eq(reviewer.id, results.reviewedBy))
     .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
-  return resultView(row.acq, row.res, row.slug)
+  return resultView(row.acq, row.res, row.slug, row.reviewer)
 }
 
 const PAYLOAD_PREVIEW_CHARS = 6000
@@ -44,16 +67,20 @@ const PAYLOAD_PREVIEW_CHARS = 6000
  */
 export async function acquisitionDetail(labId: string, id: string) {
   const [row] = await useDb().select({
-    acq: acquisitionHead, res: results, slug: instruments.slug, instrumentName: instruments.name, geometryKind: geometryVersions.kind,
+    acq: acquisitionHead, res: results, slug: instruments.slug, instrumentName: instruments.name, geometryKind: geometryVersions.kind, reviewer: reviewer.name,
+    submittedBy: acquisitions.submittedBy,
     head: sql<string>`left(jsonb_pretty(${acquisitions.payload}), ${PAYLOAD_PREVIEW_CHARS})`, chars: sql<number>`length(${acquisitions.payload}::text)`,
   }).from(acquisitions)
-    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice('latest')))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
+    .leftJoin(reviewer, eq(reviewer.id, results.reviewedBy))
     .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
   return {
-    ...resultView(row.acq, row.res, row.slug),
+    ...resultView(row.acq, row.res, row.slug, row.reviewer),
+    // For the console's review actions: the comment the reviewer left, and who uploaded it (four eyes).
+    reviewComment: row.res.reviewComment, submittedBy: row.submittedBy,
     instrumentId: row.acq.instrumentId, instrumentName: row.instrumentName, geometryKind: row.geometryKind,
     payload: { head: row.head, chars: Number(row.chars), truncated: row.head.length >= PAYLOAD_PREVIEW_CHARS },
   }

@@ -2,6 +2,7 @@ import { and, eq } from 'drizzle-orm'
 import { applyCalibrationColumn, collectorDetector, detectorParams, detectorSignal, geometry as geometrySchema, physicsFor, staticCollectorMz, staticColumn, sweepToMz } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import { acquisitions, calibrations, geometryVersions, instruments, labs, results } from '../../database/schema'
+import { resultChoice } from './acquisitions'
 
 export interface Spectrum { runId: string, lab: string, instrument: string, acquiredAt: Date, mz: Float64Array, signal: Float64Array, unit: 'A' | 'cps' }
 
@@ -9,7 +10,8 @@ export interface Spectrum { runId: string, lab: string, instrument: string, acqu
 export async function spectrumOf(labId: string, id: string): Promise<Spectrum> {
   const [row] = await useDb().select({ acq: acquisitions, geo: geometryVersions, cal: calibrations, slug: instruments.slug, lab: labs.name })
     .from(acquisitions)
-    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+    // The latest result version's geometry and calibration (a reprocessed acquisition has several).
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice('latest')))
     .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
     .leftJoin(calibrations, eq(calibrations.id, results.calibrationId))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))

@@ -1,5 +1,7 @@
 import { getTableColumns } from 'drizzle-orm'
 import type { EngineResult } from '#shared/engine'
+import { CAUTION_SHORT } from '#shared/caution'
+import type { ResultReview } from '#shared/schemas/responses'
 import { acquisitions, type results } from '../../database/schema'
 
 /**
@@ -10,8 +12,24 @@ const { payload: _payload, ...acquisitionHead } = getTableColumns(acquisitions)
 export { acquisitionHead }
 export type AcquisitionHead = Omit<typeof acquisitions.$inferSelect, 'payload'>
 
+type ResultRow = typeof results.$inferSelect
+
+/** Where a result stands in the lab's review; `reviewer` is the releasing user's name (null: automatic, or not reviewed). */
+export function reviewOf(res: ResultRow, reviewer: string | null = null): ResultReview {
+  return {
+    state: res.reviewState,
+    releasedAt: res.releasedAt?.toISOString() ?? null,
+    reviewedBy: res.reviewState === 'held' ? null : reviewer,
+    version: res.version,
+    supersedes: res.supersedes,
+    correctionReason: res.correctionReason,
+    retractionReason: res.retractionReason,
+    retractedAt: res.retractedAt?.toISOString() ?? null,
+  }
+}
+
 /** What the API answers for one acquisition and its result. */
-export function resultView(acq: AcquisitionHead, res: typeof results.$inferSelect, instrumentSlug: string) {
+export function resultView(acq: AcquisitionHead, res: ResultRow, instrumentSlug: string, reviewer: string | null = null) {
   const summary = res.summary as unknown as EngineResult & { geometryVersion: number, calibrationVersion: number | null }
   return {
     id: acq.id,
@@ -37,7 +55,9 @@ export function resultView(acq: AcquisitionHead, res: typeof results.$inferSelec
       peaks: summary.peaks,
       ratios: summary.ratios,
       qc: summary.qc,
-      versions: { engine: res.engineVersion, constants: summary.constants, geometry: summary.geometryVersion, calibration: summary.calibrationVersion },
+      versions: { engine: res.engineVersion, constants: summary.constants, geometry: summary.geometryVersion, calibration: summary.calibrationVersion, method: null },
+      review: reviewOf(res, reviewer),
+      caution: CAUTION_SHORT,
     },
   }
 }

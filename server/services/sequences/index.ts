@@ -3,7 +3,7 @@
 // the capability; the rest of the folder is private to it.
 export { openSequence, addToSequence, closeSequence, sequenceBodyHash, type SequenceKey } from './intake'
 export { getSequence, getSequenceById, listSequences } from './views'
-export { SEQUENCE_EVENT, processSequence } from './processing'
+export { SEQUENCE_EVENT, processSequence, sequenceEventData } from './processing'
 export { createMethodVersion, currentMethod, listMethodVersions, methodsByInstrument } from './methods'
 export { createWorkingStandardVersion, listReferenceMaterials, listWorkingStandards, seedReferenceMaterials } from './materials'
 export { controlChart, listControlCharts, recentViolations } from './charts'

@@ -10,7 +10,7 @@ type MethodRow = typeof methods.$inferSelect
 export function methodView(row: MethodRow, instrument: string): MethodView {
   return {
     id: row.id, instrument, version: row.version, name: row.name, validFrom: row.validFrom.toISOString(),
-    definition: row.definition, note: row.note, createdAt: row.createdAt.toISOString(),
+    definition: row.definition, note: row.note, createdAt: row.createdAt.toISOString(), releasePolicy: row.releasePolicy,
   }
 }
 
@@ -40,6 +40,8 @@ export async function createMethodVersion(labId: string, instrumentSlug: string,
     const [{ last } = { last: 0 }] = await tx.select({ last: max(methods.version) }).from(methods).where(eq(methods.instrumentId, instrument.id))
     const row = firstRow(await tx.insert(methods).values({
       instrumentId: instrument.id, version: (last ?? 0) + 1, name: input.name, definition: input.definition, validFrom, note: input.note ?? null,
+      // The four-eyes rule: whoever registered the method version may not release what it produced.
+      createdBy: ctx.actor.id, releasePolicy: input.releasePolicy ?? null,
     }).returning())
     await recordAudit(tx, { ...ctx, action: 'method.version-created', targetType: 'method', targetId: row.id, detail: { labId, instrument: instrument.slug, version: row.version } })
     return methodView(row, instrument.slug)

@@ -3,7 +3,8 @@ import { EngineError, acceptedValue, cyclesFromStaticReadings, geometry as geome
 import type { MaterialValues, SequenceItem, SequenceOutcome } from '#shared/engine/isotopes/types'
 import { CAUTION } from '#shared/caution'
 import { standardRoles, type SequenceEventData } from '#shared/schemas/sequences'
-import { acquisitions, geometryVersions, instruments, results, sequenceItems, sequences, type methods } from '../../database/schema'
+import { releasesAutomatically } from '#shared/releaseRule'
+import { acquisitions, geometryVersions, instruments, labs, methods, results, sequenceItems, sequences } from '../../database/schema'
 import { kickDeliveries, recordLabEvent } from '../delivery'
 import { methodInForce, methodVersion } from './methods'
 import { materialsAt, type ResolvedMaterial } from './materials'
@@ -12,8 +13,11 @@ import { appendControlPoints, type NewControlPoint } from './charts'
 // Processing a closed sequence: every acquisition was processed by the engine at ingest; here
 // their results become the engine's sequence items, the method version and the standards in
 // force at each acquisition's time are loaded, and the δ engine (CO2, N2, O2, H2) or the
-// mass-bias engine (Ar) runs over the whole sequence. The outcome, the standards' control-chart
-// points and the `sequence.processed` event (with its deliveries) commit together.
+// mass-bias engine (Ar) runs over the whole sequence. The outcome and the standards' control-chart
+// points commit together; the outcome is held for the lab's review unless the release rule
+// (the method's policy, else the lab's) releases it at once, in which case the
+// `sequence.processed` event (with its deliveries) commits with it. A held outcome's event
+// is recorded when a reviewer releases it (server/services/review, `sequenceEventData`).
 
 export const SEQUENCE_EVENT = 'sequence.processed'
 
@@ -73,6 +77,23 @@ export async function processSequence(row: SequenceRow): Promise<void> {
   }
 }
 
+/**
+ * The standards' materials and those the method names that the sequence did not measure (the
+ * engine says which anchors are missing): each of the latter is resolved at the sequence's
+ * last acquisition.
+ */
+async function withMethodMaterials(row: SequenceRow, method: MethodRow, list: Member[], found: Map<unknown, ResolvedMaterial>) {
+  const materials = new Map<string, ResolvedMaterial>()
+  for (const material of found.values()) materials.set(material.id, material)
+  const named = methodMaterials(method).filter(id => !materials.has(id))
+  if (named.length) {
+    const last = list.at(-1)?.acquiredAt ?? new Date()
+    const more = await materialsAt(row.labId, named.map(material => ({ material, at: last })))
+    for (const material of more.found.values()) materials.set(material.id, material)
+  }
+  return materials
+}
+
 async function runSequence(row: SequenceRow): Promise<void> {
   const list = await members(row.id)
   const method = await methodFor(row)
@@ -84,16 +105,7 @@ async function runSequence(row: SequenceRow): Promise<void> {
     const m = list[standardsAt[missing[0]!]!]!
     return fail(row, method, { code: 'unknown-material', field: `position.${m.position}.material`, message: `no material "${m.material}" valid at ${m.acquiredAt.toISOString()}` })
   }
-  // The method's materials that the sequence did not measure still take part (the engine says
-  // which anchors are missing): each is resolved at the sequence's last acquisition.
-  const materials = new Map<string, ResolvedMaterial>()
-  for (const material of found.values()) materials.set(material.id, material)
-  const named = methodMaterials(method).filter(id => !materials.has(id))
-  if (named.length) {
-    const last = list.at(-1)?.acquiredAt ?? new Date()
-    const more = await materialsAt(row.labId, named.map(material => ({ material, at: last })))
-    for (const material of more.found.values()) materials.set(material.id, material)
-  }
+  const materials = await withMethodMaterials(row, method, list, found)
 
   let outcome: SequenceOutcome
   try {
@@ -114,13 +126,34 @@ async function runSequence(row: SequenceRow): Promise<void> {
     const flagged = appended.some(p => p.violations.length > 0)
     const flags = appended.filter(p => p.violations.length).map(p => ({ code: 'control-chart-violation', message: `${p.material} ${p.quantity}: ${p.violations.join(', ')}`, position: p.position ?? undefined }))
     const stored: SequenceOutcome = { ...outcome, flags: [...outcome.flags, ...flags] }
-    await tx.update(sequences).set({ status: 'processed', outcome: stored, methodId: method.id, flagged, failure: null, processedAt: sql`now()` }).where(eq(sequences.id, row.id))
+    const lab = await tx.query.labs.findFirst({ where: eq(labs.id, row.labId), columns: { releasePolicy: true, autoReleaseAllows: true } })
+    const released = releasesAutomatically(method.releasePolicy ?? lab?.releasePolicy ?? 'review', lab?.autoReleaseAllows ?? [], stored.flags.map(f => f.code))
+    const [processed] = await tx.update(sequences).set({
+      status: 'processed', outcome: stored, methodId: method.id, flagged, failure: null, processedAt: sql`now()`,
+      reviewState: released ? 'released' : 'held', releasedAt: released ? sql`now()` : null, reviewedBy: null, reviewedAt: released ? sql`now()` : null,
+    }).where(eq(sequences.id, row.id)).returning()
+    if (!released) return
     const instrument = await tx.query.instruments.findFirst({ where: eq(instruments.id, row.instrumentId), columns: { slug: true } })
-    const data = eventData(row, instrument?.slug ?? '', method, stored, list, materials, flagged)
+    const data = eventData(processed!, instrument?.slug ?? '', method, stored, list, materials, flagged)
     // result-event v1 does not describe this message: endpoints on v2 or later only.
     await recordLabEvent(tx, row.labId, SEQUENCE_EVENT, data, 2)
   })
   kickDeliveries()
+}
+
+/**
+ * The `sequence.processed` message of a processed sequence, rebuilt from what is stored (its
+ * members' results, its method, the materials in force), for its release by a reviewer.
+ */
+export async function sequenceEventData(row: SequenceRow, reviewer: string | null = null): Promise<SequenceEventData> {
+  const list = await members(row.id)
+  const method = row.methodId ? await useDb().query.methods.findFirst({ where: eq(methods.id, row.methodId) }) : undefined
+  if (!method || !row.outcome) throw problem(409, 'sequence-not-processed', 'This sequence has no processed outcome to release.')
+  const standardsAt = list.map((m, i) => m.material ? i : -1).filter(i => i >= 0)
+  const { found } = await materialsAt(row.labId, standardsAt.map(i => ({ material: list[i]!.material ?? '', at: list[i]!.acquiredAt })))
+  const materials = await withMethodMaterials(row, method, list, found)
+  const instrument = await useDb().query.instruments.findFirst({ where: eq(instruments.id, row.instrumentId), columns: { slug: true } })
+  return { ...eventData(row, instrument?.slug ?? '', method, row.outcome, list, materials, row.flagged), reviewedBy: reviewer }
 }
 
 /** A member as the engine's sequence item; static readings with cycle times carry their cycles. */
@@ -178,7 +211,8 @@ function safeAccepted(material: MaterialValues, quantity: string, scale: string)
 function eventData(row: SequenceRow, instrument: string, method: MethodRow, outcome: SequenceOutcome, list: Member[], materials: Map<string, ResolvedMaterial>, flagged: boolean): SequenceEventData {
   const byPosition = new Map(list.map(m => [m.position, m]))
   return {
-    kind: 'sequence', id: row.id, sequenceId: row.externalId, instrument, status: 'processed', processedAt: new Date().toISOString(),
+    kind: 'sequence', id: row.id, sequenceId: row.externalId, instrument, status: 'processed', processedAt: (row.processedAt ?? new Date()).toISOString(),
+    releasedAt: (row.releasedAt ?? new Date()).toISOString(), reviewedBy: null,
     accepted: outcome.accepted, flagged,
     method: { id: method.id, version: method.version, name: method.name, gas: method.definition.gas },
     samples: outcome.items.filter(i => i.role === 'sample').map((item) => {

@@ -2,7 +2,7 @@ import { and, asc, desc, eq, sql, type SQL } from 'drizzle-orm'
 import type { z } from 'zod'
 import { CAUTION } from '#shared/caution'
 import type { SequenceView, sequenceListQuery } from '#shared/schemas/sequences'
-import { acquisitions, controlPoints, instruments, methods, sequenceItems, sequences } from '../../database/schema'
+import { acquisitions, controlPoints, instruments, methods, sequenceItems, sequences, users } from '../../database/schema'
 
 // What the API and the console answer for sequences.
 
@@ -15,7 +15,7 @@ export async function findSequence(labId: string, externalId: string): Promise<S
 
 /** One sequence with its acquisitions, method, outcome and control-chart violations. */
 export async function sequenceViewOf(row: SequenceRow): Promise<SequenceView> {
-  const [members, method, instrument, violated] = await Promise.all([
+  const [members, method, instrument, violated, reviewer] = await Promise.all([
     useDb().select({ position: sequenceItems.position, role: sequenceItems.role, material: sequenceItems.material, acquisitionId: sequenceItems.acquisitionId, runId: acquisitions.externalId, acquiredAt: acquisitions.acquiredAt })
       .from(sequenceItems).innerJoin(acquisitions, eq(acquisitions.id, sequenceItems.acquisitionId))
       .where(eq(sequenceItems.sequenceId, row.id)).orderBy(asc(sequenceItems.position)),
@@ -23,6 +23,7 @@ export async function sequenceViewOf(row: SequenceRow): Promise<SequenceView> {
     useDb().query.instruments.findFirst({ where: eq(instruments.id, row.instrumentId), columns: { slug: true } }),
     useDb().select({ material: controlPoints.material, quantity: controlPoints.quantity, position: controlPoints.position, rules: controlPoints.violations })
       .from(controlPoints).where(and(eq(controlPoints.sequenceId, row.id), sql`cardinality(${controlPoints.violations}) > 0`)).orderBy(asc(controlPoints.position)),
+    row.reviewedBy ? useDb().query.users.findFirst({ where: eq(users.id, row.reviewedBy), columns: { name: true } }) : undefined,
   ])
   return {
     id: row.id, sequenceId: row.externalId, instrument: instrument?.slug ?? '', status: row.status, declaredLength: row.declaredLength,
@@ -30,6 +31,10 @@ export async function sequenceViewOf(row: SequenceRow): Promise<SequenceView> {
     acquisitions: members.map(m => ({ ...m, acquiredAt: m.acquiredAt.toISOString() })),
     outcome: row.outcome ?? null,
     createdAt: row.createdAt.toISOString(), closedAt: row.closedAt?.toISOString() ?? null, processedAt: row.processedAt?.toISOString() ?? null,
+    review: {
+      state: row.reviewState, releasedAt: row.releasedAt?.toISOString() ?? null, reviewedBy: reviewer?.name ?? null, comment: row.reviewComment,
+      retractionReason: row.retractionReason, retractedAt: row.retractedAt?.toISOString() ?? null,
+    },
     caution: CAUTION,
   }
 }
@@ -73,7 +78,7 @@ export async function listSequences(labId: string, query: z.output<typeof sequen
     methodVersion: methods.version, flagged: sequences.flagged,
     accepted: sql<boolean | null>`(${sequences.outcome}->>'accepted')::boolean`,
     failure: sql<string | null>`${sequences.failure}->>'message'`,
-    createdAt: sequences.createdAt, processedAt: sequences.processedAt, at: sql<string>`${sequences.createdAt}::text`,
+    createdAt: sequences.createdAt, processedAt: sequences.processedAt, reviewState: sequences.reviewState, at: sql<string>`${sequences.createdAt}::text`,
   }).from(sequences).innerJoin(instruments, eq(instruments.id, sequences.instrumentId)).leftJoin(methods, eq(methods.id, sequences.methodId))
     .where(and(...conditions)).orderBy(desc(sequences.createdAt), desc(sequences.id)).limit(query.limit + 1)
   const items = rows.slice(0, query.limit)
