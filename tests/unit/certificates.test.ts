@@ -5,7 +5,7 @@ import { join } from 'node:path'
 import { extractText, getDocumentProxy } from 'unpdf'
 import { describe, expect, it } from 'vitest'
 import { canonicalJson, isCanonicalJson } from '../../server/services/certificates/canonical'
-import type { ResultCertificateDocument, SequenceCertificateDocument } from '../../server/services/certificates/document'
+import type { ResultCertificateDocument, SequenceCertificateDocument } from '../../server/services/certificates/types'
 import { certificatePdf, describeValue, formatMeasured, type CertificateFonts } from '../../server/services/certificates/pdf'
 import { CAUTION, CAUTION_SHORT } from '../../shared/caution'
 

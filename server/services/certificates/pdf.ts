@@ -1,5 +1,5 @@
 import PDFDocument from 'pdfkit'
-import type { CertificateDocument, CertifiedValue, ResultCertificateDocument, SequenceCertificateDocument } from './document'
+import type { CertificateDocument, CertifiedValue, ResultCertificateDocument, SequenceCertificateDocument } from './types'
 
 // The certificate of analysis as a PDF, drawn from the signed document (pdfkit). Pure: the
 // fonts come in as bytes (server/assets/fonts; tests read the same files from disk).
