@@ -259,7 +259,7 @@ describe('exports say what they are', () => {
     expect(parsed.spectra[0]!.data.x).toHaveLength(4000)
     const info = parsed.meta as Record<string, unknown>
     expect(info).toMatchObject({
-      'ARCWISE REVIEW STATE': 'released', 'ARCWISE CALIBRATED': 'false', 'ARCWISE GEOMETRY VERSION': 1, 'ARCWISE CALIBRATION VERSION': 'none',
+      'ARCWISE REVIEW STATE': 'released', 'ARCWISE CALIBRATED': false, 'ARCWISE GEOMETRY VERSION': 1, 'ARCWISE CALIBRATION VERSION': 'none',
       'ARCWISE METHOD': 'none', 'ARCWISE RESULT VERSION': 1, 'ARCWISE CAUTION': CAUTION_SHORT,
     })
     expect(String(info['ARCWISE CONSTANTS'])).toContain('CODATA')
