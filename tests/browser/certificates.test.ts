@@ -57,7 +57,7 @@ describe('verifying a certificate in the console', () => {
     expect(await allViolations(page)).toEqual([])
     await shot(page, 'certificate-valid')
 
-    // One byte of the JSON changed: the signature no longer matches.
+    // The JSON changed (calibrated false → true): the signature no longer matches.
     await page.getByLabel('Signed JSON, exactly as issued').fill(canonical.replace('"calibrated":false', '"calibrated":true'))
     await page.getByRole('button', { name: 'Verify', exact: true }).click()
     await expect.poll(() => page.getByRole('status').getByRole('heading').textContent()).toBe('Not valid')
