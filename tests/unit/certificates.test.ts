@@ -110,6 +110,19 @@ describe('the PDF', () => {
     expect(text.replace(/\s+/g, ' ')).toContain(CAUTION)
   })
 
+  it('carries the signed JSON and its JWS as embedded files', async () => {
+    const canonical = canonicalJson(result)
+    const bytes = await certificatePdf(result, seal, { retracted: null, correctedBy: null }, fonts, { canonical, jws: 'eyJhbGciOiJFUzI1NiJ9..c2ln' })
+    // The catalogue's name tree of embedded files (PDF 1.7 §7.7.4) lists both; pdf.js as bundled
+    // by unpdf does not read pdfkit's direct name-tree dictionary, so the tree is read as text.
+    const raw = bytes.toString('latin1')
+    const tree = raw.slice(raw.indexOf('/EmbeddedFiles'), raw.indexOf('/EmbeddedFiles') + 200)
+    expect(tree).toContain('(AW-2026-000042.json)')
+    expect(tree).toContain('(AW-2026-000042.jws)')
+    expect(raw).toContain('/Subtype /application#2Fjson')
+    expect((await pdfText(bytes)).replace(/\s+/g, ' ')).toContain('Both files are embedded in this PDF')
+  })
+
   it('says so when the result was retracted or corrected since', async () => {
     const text = await pdfText(await certificatePdf(result, seal, { retracted: { at: '2026-12-04T09:00:00.000Z', reason: 'wrong reference gas' }, correctedBy: { version: 2, reason: 'back-dated calibration', releasedAt: '2026-12-05T09:00:00.000Z' } }, fonts))
     expect(text).toContain('RETRACTED')

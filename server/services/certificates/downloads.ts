@@ -32,6 +32,6 @@ export async function certificateDownload(cert: Certificate, format: Certificate
   }, {
     retracted: state?.reviewState === 'retracted' ? { at: state.retractedAt?.toISOString() ?? null, reason: state.retractionReason } : null,
     correctedBy: state?.correctedBy ?? null,
-  }, await certificateFonts())
+  }, await certificateFonts(), { canonical: cert.canonical, jws: cert.jws })
   return { contentType: formats.pdf, disposition, body }
 }

@@ -144,8 +144,12 @@ function sequenceValues(w: Writer, doc: SequenceCertificateDocument) {
   }
 }
 
-/** The PDF of a certificate: the document's content, its status now, and how to verify it. */
-export function certificatePdf(doc: CertificateDocument, seal: CertificateSeal, status: CertificateStatus, fonts: CertificateFonts): Promise<Buffer> {
+/**
+ * The PDF of a certificate: the document's content, its status now, and how to verify it.
+ * With `files`, the signed JSON and its JWS ride along as embedded files (PDF 1.7 §7.11.4),
+ * so the PDF alone is enough to verify.
+ */
+export function certificatePdf(doc: CertificateDocument, seal: CertificateSeal, status: CertificateStatus, fonts: CertificateFonts, files?: { canonical: string, jws: string }): Promise<Buffer> {
   const pdf = new PDFDocument({
     size: 'A4', margin: 50,
     info: { Title: `Certificate of analysis ${doc.certificate.number}`, Author: doc.lab.name, Subject: isResult(doc) ? doc.acquisition.runId : doc.subject.sequenceId, Creator: 'Arcwise' },
@@ -203,6 +207,12 @@ export function certificatePdf(doc: CertificateDocument, seal: CertificateSeal, 
   w.heading('Verify this certificate')
   w.line(`Signed by the hub with key ${seal.kid} (${seal.alg}), published at ${seal.jwksUrl}: a detached JWS (RFC 7515, Appendix F) over the RFC 8785 canonical JSON of what is certified, SHA-256 ${seal.sha256}.`, { size: 9 })
   w.line(`Check it at ${seal.verifyUrl} with the certificate number ${doc.certificate.number}, or with the .json and .jws files, by POST /api/v1/certificates/verify or with any JOSE library.`, { size: 9 })
+  if (files) {
+    w.line('Both files are embedded in this PDF as attachments.', { size: 9 })
+    // Buffers: pdfkit reads a string as a path or a data URI.
+    pdf.file(Buffer.from(files.canonical, 'utf8'), { name: `${doc.certificate.number}.json`, type: 'application/json', description: 'The certified content, RFC 8785 canonical JSON (the signed bytes)' })
+    pdf.file(Buffer.from(files.jws, 'utf8'), { name: `${doc.certificate.number}.jws`, type: 'application/jose', description: 'Detached JWS (RFC 7515 Appendix F) over the JSON' })
+  }
   pdf.end()
   return done
 }
