@@ -15,7 +15,7 @@ A released result (its acquisition's newest released version) and a released seq
 
 - \`certificate.json\`: what is certified, as RFC 8785 canonical JSON (keep it byte for byte): lab, instrument, run or sequence, the geometry, calibration, method, engine and constants versions, whether calibrated, each value with its standard uncertainty \`u\`, coverage factor \`k\` and \`U = k·u\`, the review that released it (who, when, the version it corrects), and the caution.
 - \`certificate.jws\`: a detached JWS (RFC 7515 Appendix F) over those bytes, signed with a key of the hub's JWKS (\`/.well-known/jwks.json\`, the same keys as access tokens). The payload part is empty; put back the base64url of the JSON to verify.
-- \`certificate.pdf\`: the same content to read and file, with the key id and how to verify it; it says when the result was since corrected or retracted.
+- \`certificate.pdf\`: the same content to read and file, with the key id and how to verify it, and both files above embedded as attachments; it says when the result was since corrected or retracted.
 
 A result still held for review, or rejected, has none: 409 \`not-released\` to its lab, 404 to partners (who never learn of unreleased results). A correction is a new version with a certificate of its own; the old certificate keeps verifying, and the verify route says it was corrected.
 
