@@ -37,8 +37,11 @@ export const sha256Hex = (text: string) => createHash('sha256').update(text, 'ut
 /** The next number of the year: AW-<year>-<6 digits>, counted under an advisory lock held to commit. */
 async function nextNumber(db: Queryable, year: number): Promise<string> {
   const prefix = `AW-${year}-`
+  // split_part, not substring(… from $1): with an untyped parameter PostgreSQL picks the
+  // regular-expression form of substring, which matched nothing and numbered every
+  // certificate after the first 1 again (a unique violation).
   const [row] = await db.execute<{ n: number | null }>(sql`
-    select max(substring(${certificates.number} from ${prefix.length + 1})::int) as n from ${certificates} where ${certificates.number} like ${`${prefix}%`}`)
+    select max(split_part(${certificates.number}, '-', 3)::int) as n from ${certificates} where ${certificates.number} like ${`${prefix}%`}`)
   return `${prefix}${String(Number(row?.n ?? 0) + 1).padStart(6, '0')}`
 }
 
