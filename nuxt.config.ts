@@ -34,7 +34,8 @@ export default defineNuxtConfig({
     signIn: { maxFailures: 5, lockMinutes: 15 },
     // Requests per API key per minute; console changes (non-GET console calls) per user per
     // minute. perMinute 0 turns both off (a deployment whose gateway limits everything).
-    rateLimit: { perMinute: 1200, consolePerMinute: 120 },
+    // verifyPerMinute: public certificate checks per client address (0 = off).
+    rateLimit: { perMinute: 1200, consolePerMinute: 120, verifyPerMinute: 60 },
     // CIDRs of the reverse proxies whose X-Forwarded-For and X-Forwarded-Proto are believed.
     trustedProxies: '',
     // NUXT_SEALING_KEYS: "id:secret" pairs, oldest first; the newest seals (server/utils/keyring.ts).

@@ -9,6 +9,7 @@ import { eventFeedQuery, peakQuery, tokenRequest } from './schemas/partners'
 import { DEFAULT_RETRY_SCHEDULE_S, correctedEventData, resultEventData, retractedEventData, thinResultEventData, webhookMessage } from './schemas/webhooks'
 import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, exchangeSchemaList, jwksView, peakListView, tokenView, uploadAccepted, uploadStatusView } from './schemas/responses'
 import { registerSequencePaths } from './openapiSequences'
+import { CERTIFICATE_GUIDE, registerCertificatePaths } from './openapiCertificates'
 
 
 // The OpenAPI 3.1 document of API v1, generated from the zod schemas that the routes
@@ -177,6 +178,7 @@ export function buildOpenApiDocument() {
     responses,
   })
   registerSequencePaths(registry, labKey.name, problems, signedHeaders)
+  registerCertificatePaths(registry, { labKey: labKey.name, partnerToken: partnerToken.name }, problems)
   registry.registerWebhook({
     method: 'post', path: 'webhook.test', tags: ['Webhooks'], summary: 'A test message sent from the console',
     request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage } } } },
@@ -195,6 +197,8 @@ export function buildOpenApiDocument() {
         'Errors are RFC 9457 problem documents (`application/problem+json`) naming each bad field in `errors[].path`.',
         '',
         WEBHOOK_GUIDE,
+        '',
+        CERTIFICATE_GUIDE,
       ].join('\n'),
     },
     servers: [{ url: '/' }],

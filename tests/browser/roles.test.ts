@@ -8,11 +8,11 @@ import { useArcwise } from '../support/server'
 await useArcwise({ browser: true })
 
 const menus: Record<Role, string[]> = {
-  admin: ['Overview', 'Labs', 'Partners', 'Reference materials', 'Exchange schemas', 'Users and invitations', 'Audit log'],
-  lab_manager: ['Overview', 'Labs', 'Review', 'Sequences', 'Control charts', 'Reference materials', 'Exchange schemas'],
-  lab_reviewer: ['Overview', 'Labs', 'Review', 'Sequences', 'Control charts', 'Reference materials', 'Exchange schemas'],
-  integrator: ['Overview', 'Partners', 'Webhooks', 'Deliveries', 'Reference materials', 'Exchange schemas'],
-  viewer: ['Overview', 'Labs', 'Partners', 'Reference materials', 'Exchange schemas', 'Users and invitations', 'Audit log'],
+  admin: ['Overview', 'Labs', 'Partners', 'Reference materials', 'Exchange schemas', 'Verify a certificate', 'Users and invitations', 'Audit log'],
+  lab_manager: ['Overview', 'Labs', 'Review', 'Sequences', 'Control charts', 'Reference materials', 'Exchange schemas', 'Verify a certificate'],
+  lab_reviewer: ['Overview', 'Labs', 'Review', 'Sequences', 'Control charts', 'Reference materials', 'Exchange schemas', 'Verify a certificate'],
+  integrator: ['Overview', 'Partners', 'Webhooks', 'Deliveries', 'Reference materials', 'Exchange schemas', 'Verify a certificate'],
+  viewer: ['Overview', 'Labs', 'Partners', 'Reference materials', 'Exchange schemas', 'Verify a certificate', 'Users and invitations', 'Audit log'],
 }
 const refused: Record<Role, string[]> = {
   admin: [],

@@ -14,11 +14,11 @@ const ALG = 'ES256'
 const issuer = () => useRuntimeConfig().appUrl
 export const AUDIENCE = 'arcwise-api-v1'
 
-interface ActiveKey { kid: string, privateKey: CryptoKey, publicJwk: JWK }
+export interface ActiveKey { kid: string, privateKey: CryptoKey, publicJwk: JWK }
 let active: Promise<ActiveKey> | undefined
 
-/** The current signing key, made on first use and shared by every app process through the database. */
-function signingKey(): Promise<ActiveKey> {
+/** The current signing key, made on first use and shared by every app process through the database (access tokens and certificates of analysis). */
+export function signingKey(): Promise<ActiveKey> {
   active ??= (async () => {
     const db = useDb()
     let [row] = await db.select().from(signingKeys).where(isNull(signingKeys.retiredAt)).orderBy(desc(signingKeys.createdAt)).limit(1)

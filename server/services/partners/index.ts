@@ -1,5 +1,5 @@
 // Partners: labs' grants to them, their API clients and access tokens (JWKS), and what
 // they read: the event feed, released results, peaks by m/z.
-export { jwks, createPartnerClient, listPartnerClients, revokePartnerClient, basicCredentials, issueAccessToken, verifyPartnerToken, type PartnerToken, type TokenRequest } from './clients'
-export { listGrants, grantPartner, revokeGrant, labsGrantingPartner, grantablePartners } from './grants'
+export { jwks, signingKey as hubSigningKey, createPartnerClient, listPartnerClients, revokePartnerClient, basicCredentials, issueAccessToken, verifyPartnerToken, type PartnerToken, type TokenRequest } from './clients'
+export { listGrants, grantPartner, revokeGrant, labsGrantingPartner, grantablePartners, grantedLabIds } from './grants'
 export { eventFeed, partnerResult, peaksInWindow } from './reads'

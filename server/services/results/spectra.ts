@@ -1,23 +1,53 @@
-import { and, eq } from 'drizzle-orm'
+import { and, desc, eq, sql } from 'drizzle-orm'
+import { CAUTION_SHORT } from '#shared/caution'
 import { applyCalibrationColumn, collectorDetector, detectorParams, detectorSignal, geometry as geometrySchema, physicsFor, staticCollectorMz, staticColumn, sweepToMz } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
-import { acquisitions, calibrations, geometryVersions, instruments, labs, results } from '../../database/schema'
-import { resultChoice } from './acquisitions'
+import { acquisitions, calibrations, geometryVersions, instruments, labs, methods, results, sequenceItems, sequences } from '../../database/schema'
 
-export interface Spectrum { runId: string, lab: string, instrument: string, acquiredAt: Date, mz: Float64Array, signal: Float64Array, unit: 'A' | 'cps' }
+/**
+ * What an export says about itself (issue 20, "every output says what it is"): the result
+ * version it comes from, its review state, whether the m/z were calibrated, the versions it
+ * was computed with, and the caution's short form.
+ */
+export interface ExportAbout {
+  resultVersion: number
+  reviewState: string
+  releasedAt: Date | null
+  calibrated: boolean
+  geometryVersion: number
+  calibrationVersion: number | null
+  method: { name: string, version: number } | null
+  engineVersion: string
+  constants: string
+  caution: string
+}
+
+export interface Spectrum { runId: string, lab: string, instrument: string, acquiredAt: Date, mz: Float64Array, signal: Float64Array, unit: 'A' | 'cps', about: ExportAbout }
 
 /** The profile (or the collector readings) of an acquisition, recomputed from its raw payload with the versions its result used. */
 export async function spectrumOf(labId: string, id: string): Promise<Spectrum> {
-  const [row] = await useDb().select({ acq: acquisitions, geo: geometryVersions, cal: calibrations, slug: instruments.slug, lab: labs.name })
+  const [row] = await useDb().select({
+    acq: acquisitions, geo: geometryVersions, cal: calibrations, slug: instruments.slug, lab: labs.name,
+    res: { version: results.version, reviewState: results.reviewState, releasedAt: results.releasedAt, engineVersion: results.engineVersion,
+      constants: sql<string | null>`${results.summary}->>'constants'`, calibrated: sql<boolean>`coalesce((${results.summary}->>'calibrated')::boolean, false)` },
+  })
     .from(acquisitions)
-    // The latest result version's geometry and calibration (a reprocessed acquisition has several).
-    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice('latest')))
+    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
     .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
     .leftJoin(calibrations, eq(calibrations.id, results.calibrationId))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .innerJoin(labs, eq(labs.id, acquisitions.labId))
-    .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
+    .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).orderBy(desc(results.version)).limit(1)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
+  // A result has a method only through the sequence its acquisition was measured in.
+  const [method] = await useDb().select({ name: methods.name, version: methods.version }).from(sequenceItems)
+    .innerJoin(sequences, eq(sequences.id, sequenceItems.sequenceId)).innerJoin(methods, eq(methods.id, sequences.methodId))
+    .where(eq(sequenceItems.acquisitionId, id)).limit(1)
+  const about: ExportAbout = {
+    resultVersion: row.res.version, reviewState: row.res.reviewState, releasedAt: row.res.releasedAt, calibrated: row.res.calibrated,
+    geometryVersion: row.geo.version, calibrationVersion: row.cal?.version ?? null, method: method ?? null,
+    engineVersion: row.res.engineVersion, constants: row.res.constants ?? 'unrecorded (engine 1)', caution: CAUTION_SHORT,
+  }
   const input = row.acq.payload as unknown as AcquisitionInput
   const geo = geometrySchema.parse(row.geo.params)
   // Each column through the detector registered for its collector (volts through the
@@ -51,11 +81,26 @@ export async function spectrumOf(labId: string, id: string): Promise<Spectrum> {
   // The calibration the result applied (a retired one is not recorded on the result, so not joined here).
   if (row.cal && !input.mzSpectrum) applyCalibrationColumn(row.cal.fit as { center: number, halfRange: number, coefficients: number[] }, mz)
   if (mz.length > 1 && mz[1]! < mz[0]!) { mz.reverse(); signal.reverse() }
-  return { runId: row.acq.externalId, lab: row.lab, instrument: row.slug, acquiredAt: row.acq.acquiredAt, mz, signal, unit }
+  return { runId: row.acq.externalId, lab: row.lab, instrument: row.slug, acquiredAt: row.acq.acquiredAt, mz, signal, unit, about }
 }
 
+/** The self-description of an export as (key, value) pairs, in the order files print them. */
+export function aboutFields(s: Spectrum): [string, string][] {
+  const a = s.about
+  return [
+    ['run', s.runId], ['lab', s.lab], ['instrument', s.instrument], ['acquiredAt', s.acquiredAt.toISOString()],
+    ['resultVersion', String(a.resultVersion)], ['reviewState', a.reviewState], ['releasedAt', a.releasedAt?.toISOString() ?? 'not released'],
+    ['calibrated', String(a.calibrated)], ['geometryVersion', String(a.geometryVersion)], ['calibrationVersion', a.calibrationVersion === null ? 'none' : String(a.calibrationVersion)],
+    ['method', a.method ? `${a.method.name} v${a.method.version}` : 'none'], ['engineVersion', a.engineVersion], ['constants', a.constants], ['caution', a.caution],
+  ]
+}
+
+/** A header value on one line: line breaks in names a lab typed would end the comment early. */
+const oneLine = (v: string) => v.replace(/[\r\n]+/g, ' ')
+
+/** CSV with `# key: value` comment lines first (the form Arcwise's own CSV intake reads), then m/z and signal. */
 export function spectrumCsv(s: Spectrum): string {
-  const lines = [`mz,signal_${s.unit === 'A' ? 'A' : 'cps'}`]
+  const lines = ['# Arcwise spectrum export', ...aboutFields(s).map(([k, v]) => `# ${k}: ${oneLine(v)}`), `mz,signal_${s.unit === 'A' ? 'A' : 'cps'}`]
   for (let i = 0; i < s.mz.length; i++) lines.push(`${s.mz[i]!.toPrecision(10)},${s.signal[i]!.toPrecision(8)}`)
   return `${lines.join('\n')}\n`
 }
@@ -92,6 +137,9 @@ export function spectrumJcamp(s: Spectrum): string {
     `##OWNER=${s.lab}`,
     `##SPECTROMETER/DATA SYSTEM=${s.instrument}`,
     `##LONGDATE=${s.acquiredAt.toISOString()}`,
+    // User-defined labels: JCAMP-DX reserves "##$" for them (McDonald & Wilks 1988, from memory).
+    ...aboutFields(s).filter(([k]) => k !== 'run' && k !== 'lab' && k !== 'instrument' && k !== 'acquiredAt')
+      .map(([k, v]) => `##$ARCWISE ${k.replace(/[A-Z]/g, c => ` ${c}`).toUpperCase()}=${oneLine(v)}`),
     '##XUNITS=M/Z',
     `##YUNITS=${s.unit === 'A' ? 'AMPERES' : 'COUNTS/S'}`,
     '##XFACTOR=1',
