@@ -5,7 +5,7 @@ import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import { acquisitions, results } from '../../database/schema'
 import type { LabKey } from '../access'
 import { kickDeliveries } from '../delivery'
-import { instrumentContextAt } from '../instruments'
+import { instrumentContextAt, type InstrumentContext } from '../instruments'
 import { acquisitionHead, resultView, type AcquisitionHead, type AcquisitionResultView } from '../results'
 import { countSchemaUse } from '../schemas'
 import { recordAccepted } from './acceptedWrites'
@@ -45,23 +45,13 @@ export interface AcceptOptions {
 }
 
 /**
- * Accepts one acquisition for the key's lab: normalises it with the geometry and calibration
- * in force at `acquiredAt`, and stores the acquisition, its result, its peaks and the outbox
- * event in one transaction. The same run id with the same body answers the stored result;
- * with another body, 409.
+ * The engine's result for an acquisition body under a geometry and calibration version: what
+ * ingest stores, and what reprocessing (server/services/reprocessing) recomputes from a stored
+ * payload under the versions in force now. A retired calibration (fitted under another
+ * geometry version) was not applied, and the result does not cite it. Engine refusals leave as
+ * problem documents naming the field.
  */
-export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: AcquisitionInput, opts: AcceptOptions = {}): Promise<{ status: 200 | 201, body: AcquisitionResultView }> {
-  const hash = opts.upload?.bodyHash ?? bodyHash(input)
-  const acquiredAt = new Date(input.acquiredAt)
-  const instrument = await instrumentContextAt(key.labId, input.instrument, acquiredAt, input.runId)
-  if (!instrument) throw fieldProblem('instrument', 'no instrument with this slug in your lab')
-  if (instrument.runSeen) {
-    const existing = await findByRunId(key.labId, input.runId)
-    if (existing) return replayOrConflict(existing, hash, instrument.slug)
-  }
-  const geo = instrument.geometry
-  if (!geo) throw fieldProblem('acquiredAt', 'is before the first geometry registered for this instrument')
-  const calibration = instrument.calibration
+export function computeResult(input: AcquisitionInput, geo: NonNullable<InstrumentContext['geometry']>, calibration: InstrumentContext['calibration']) {
   let engine: EngineResult
   try {
     const options = {
@@ -81,17 +71,39 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
       : processReadings(geometrySchema.parse(geo.params), readingsOf(input), options)
   }
   catch (error) { engineProblem(error) }
-
-  // A retired calibration (fitted under another geometry version) was not applied: the result does not cite it.
   const applied = engine.calibration.state === 'applied' ? calibration : null
   const summary = { ...engine, geometryVersion: geo.version, calibrationVersion: applied?.version ?? null }
+  return { engine, summary, applied }
+}
+
+/**
+ * Accepts one acquisition for the key's lab: normalises it with the geometry and calibration
+ * in force at `acquiredAt`, and stores the acquisition, its result, its peaks and the outbox
+ * event in one transaction. The same run id with the same body answers the stored result;
+ * with another body, 409.
+ */
+export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: AcquisitionInput, opts: AcceptOptions = {}): Promise<{ status: 200 | 201, body: AcquisitionResultView }> {
+  const hash = opts.upload?.bodyHash ?? bodyHash(input)
+  const acquiredAt = new Date(input.acquiredAt)
+  const instrument = await instrumentContextAt(key.labId, input.instrument, acquiredAt, input.runId)
+  if (!instrument) throw fieldProblem('instrument', 'no instrument with this slug in your lab')
+  if (instrument.runSeen) {
+    const existing = await findByRunId(key.labId, input.runId)
+    if (existing) return replayOrConflict(existing, hash, instrument.slug)
+  }
+  const geo = instrument.geometry
+  if (!geo) throw fieldProblem('acquiredAt', 'is before the first geometry registered for this instrument')
+  const { engine, summary, applied } = computeResult(input, geo, instrument.calibration)
   const acq: AcquisitionHead = {
     id: randomUUID(), labId: key.labId, instrumentId: instrument.id, externalId: input.runId, acquiredAt, sampleRef: input.sampleRef ?? null,
-    status: 'processed', bodyHash: hash, pointCount: engine.points, createdAt: new Date(),
+    status: 'processed', bodyHash: hash, pointCount: engine.points, submittedBy: null, createdAt: new Date(),
   }
   const res: typeof results.$inferSelect = {
     id: randomUUID(), acquisitionId: acq.id, labId: key.labId, geometryVersionId: geo.id, calibrationId: applied?.id ?? null,
     engineVersion: engine.engineVersion, summary: summary as unknown as Record<string, unknown>, supersededBy: null, createdAt: acq.createdAt,
+    // A first version, held for review (the columns' defaults; acceptedWrites.ts writes none of them).
+    version: 1, supersedes: null, correctionReason: null, reprocessJobId: null, reviewState: 'held', reviewedBy: null, reviewedAt: null,
+    reviewComment: null, releasedAt: null, retractedBy: null, retractedAt: null, retractionReason: null,
   }
   const view = resultView(acq, res, instrument.slug)
   try {

@@ -50,7 +50,8 @@ export async function acquisitionDetail(labId: string, id: string) {
     .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
-    .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
+    // The console shows the newest version; its versions and their diff are the reprocessing capability's.
+    .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).orderBy(desc(results.version)).limit(1)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
   return {
     ...resultView(row.acq, row.res, row.slug),
