@@ -21,6 +21,10 @@ const workerId = `${hostname()}:${process.pid}:${randomUUID().slice(0, 8)}`
 
 const WORKER_ACTOR = { id: null, label: 'reprocessing worker' }
 
+// At most this many points per batch (besides its first item): about 20 MB of payload JSON
+// (ingest/uploads.ts: 10^6 points) and its parsed arrays, whatever the batch size (common practice, no source).
+const MAX_BATCH_POINTS = 1_000_000
+
 let settings: ReturnType<typeof readSettings> | undefined
 function readSettings() {
   const r = useRuntimeConfig().reprocess
@@ -113,15 +117,22 @@ export async function processBatch(jobId: string): Promise<'more' | 'finished' |
       where id = ${jobId}::uuid and lease_owner = ${workerId} and state = 'running' for update`)
     if (!job) return 'lost'
     // The newest version of each pending item's result as it stands now: the one the new version supersedes.
+    // A batch is also bounded by points, so that large uploads (up to 10^6 points, tens of MB of
+    // payload each) are taken one or a few at a time; the first pending item always goes.
     const items = await tx.execute<PendingItem>(sql`
-      select i.acquisition_id, a.external_id as run_id, (extract(epoch from a.acquired_at) * 1000)::text as acquired_ms, a.payload, ins.slug, a.lab_id,
+      with next as (
+        select i.acquisition_id, i.ord, sum(a.point_count) over (order by i.ord) as points_so_far
+        from ${reprocessItems} i join ${acquisitions} a on a.id = i.acquisition_id
+        where i.job_id = ${jobId}::uuid and i.state = 'pending'
+        order by i.ord limit ${batchSize})
+      select n.acquisition_id, a.external_id as run_id, (extract(epoch from a.acquired_at) * 1000)::text as acquired_ms, a.payload, ins.slug, a.lab_id,
              r.id as res_id, r.version as res_version, r.summary
-      from ${reprocessItems} i
-      join ${acquisitions} a on a.id = i.acquisition_id
+      from next n
+      join ${acquisitions} a on a.id = n.acquisition_id
       join ${instruments} ins on ins.id = a.instrument_id
       join lateral (select id, version, summary from ${results} where acquisition_id = a.id order by version desc limit 1) r on true
-      where i.job_id = ${jobId}::uuid and i.state = 'pending'
-      order by i.ord limit ${batchSize}`)
+      where n.points_so_far <= ${MAX_BATCH_POINTS} or n.ord = (select min(ord) from next)
+      order by n.ord`)
     if (!items.length) {
       await tx.update(reprocessJobs).set({ state: 'done', finishedAt: new Date(), leaseOwner: null, leaseUntil: null }).where(sql`${reprocessJobs.id} = ${jobId}::uuid`)
       await recordAudit(tx, {
