@@ -120,11 +120,12 @@ export async function processBatch(jobId: string): Promise<'more' | 'finished' |
     // A batch is also bounded by points, so that large uploads (up to 10^6 points, tens of MB of
     // payload each) are taken one or a few at a time; the first pending item always goes.
     const items = await tx.execute<PendingItem>(sql`
-      with next as (
-        select i.acquisition_id, i.ord, sum(a.point_count) over (order by i.ord) as points_so_far
-        from ${reprocessItems} i join ${acquisitions} a on a.id = i.acquisition_id
-        where i.job_id = ${jobId}::uuid and i.state = 'pending'
-        order by i.ord limit ${batchSize})
+      with head as (
+        select acquisition_id, ord from ${reprocessItems}
+        where job_id = ${jobId}::uuid and state = 'pending' order by ord limit ${batchSize}),
+      next as (
+        select h.acquisition_id, h.ord, sum(a.point_count) over (order by h.ord) as points_so_far
+        from head h join ${acquisitions} a on a.id = h.acquisition_id)
       select n.acquisition_id, a.external_id as run_id, (extract(epoch from a.acquired_at) * 1000)::text as acquired_ms, a.payload, ins.slug, a.lab_id,
              r.id as res_id, r.version as res_version, r.summary
       from next n
