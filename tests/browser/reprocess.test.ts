@@ -60,8 +60,9 @@ describe('reprocessing in the console', () => {
 
     await changed.getByRole('link', { name: runs[0]! }).click()
     await page.waitForURL(/\/acquisitions\/[0-9a-f-]{36}#versions$/)
-    const versions = page.getByRole('region', { name: 'Result versions' })
+    const versions = page.getByRole('region', { name: 'Result versions' }).getByRole('table', { name: 'Versions of this acquisition\'s result, oldest first' })
     await expect.poll(() => versions.getByRole('row').count()).toBe(3)
+    expect(await versions.textContent()).toMatch(/v1.*v2/)
     const diff = page.getByTestId('version-diff')
     await expect.poll(() => diff.textContent()).toContain('What changed from v1 to v2')
     expect(await diff.textContent()).toContain('+30.00 ppm')
