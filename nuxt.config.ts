@@ -80,6 +80,17 @@ export default defineNuxtConfig({
       testSendsPerMinute: 10,
       replaysPerMinute: 30,
     },
+    reprocess: {
+      // Whether this process's background work takes reprocessing jobs (NUXT_REPROCESS_WORKER=false: leave them to others).
+      worker: true,
+      // Acquisitions per batch: one transaction writes a batch's versions and marks its items done.
+      batchSize: 25,
+      // Pause between batches, leaving ingest its share of the cores (0: none).
+      pauseMs: 0,
+      // A worker's hold on a job, extended by each batch; a killed worker's job is taken over once it runs out.
+      leaseSeconds: 60,
+      pollMs: 2000,
+    },
     public: { mailCapture: false },
   },
   nitro: {

@@ -1,6 +1,6 @@
 // `npm run bench`: every benchmark, each beside its baseline in the same run, as one JSON
 // report under reports/ and a table. Starts what it needs (its own database `arcwise_bench`,
-// the built server, local sinks on loopback) and stops it; about five minutes.
+// the built server, local sinks on loopback) and stops it; about seven minutes.
 // Figures are ratios where a baseline exists: the machine is shared and noisy.
 import { execFileSync } from 'node:child_process'
 import { mkdirSync, readFileSync, writeFileSync } from 'node:fs'
@@ -10,6 +10,7 @@ import { benchDelivery } from './bench-delivery'
 import { benchEngine } from './bench-engine'
 import { benchIngest } from './bench-ingest'
 import { benchLatency } from './bench-latency'
+import { benchReprocess } from './bench-reprocess'
 import { benchSequence } from './bench-sequence'
 import { log, root } from './lib/paths'
 import { findPgBin } from './lib/pg'
@@ -24,19 +25,21 @@ function versions() {
 }
 
 const machine = { cores: cpus().length, cpu: cpus()[0]?.model ?? 'unknown', memoryGb: Math.round(totalmem() / 2 ** 30) }
-log(`benchmarks on ${machine.cores} cores (${machine.cpu}); about five minutes`)
-log('1/5 engine')
+log(`benchmarks on ${machine.cores} cores (${machine.cpu}); about seven minutes`)
+log('1/6 engine')
 const engine = benchEngine()
-log('2/5 ingest and the 10^6-point upload')
+log('2/6 ingest and the 10^6-point upload')
 const ingest = await benchIngest()
-log('3/5 delivery')
+log('3/6 delivery')
 const delivery = await benchDelivery()
-log('4/5 ingest-to-receipt latency')
+log('4/6 ingest-to-receipt latency')
 const latency = await benchLatency()
-log('5/5 a 200-acquisition sequence')
+log('5/6 a 200-acquisition sequence')
 const sequence = await benchSequence()
+log('6/6 reprocessing 10,000 stored acquisitions')
+const reprocess = await benchReprocess()
 
-const report = { kind: 'bench', at: new Date().toISOString(), machine, versions: versions(), engine, ingest, delivery, latency, sequence }
+const report = { kind: 'bench', at: new Date().toISOString(), machine, versions: versions(), engine, ingest, delivery, latency, sequence, reprocess }
 mkdirSync(join(root, 'reports'), { recursive: true })
 const file = join(root, 'reports', `bench-${report.at.replace(/[:.]/g, '-')}.json`)
 writeFileSync(file, JSON.stringify(report, null, 2))
@@ -68,6 +71,10 @@ const rows: Record<string, { figure: string, baseline: string, ratio: string, go
   },
   'ingest-to-receipt latency': { figure: `p50 ${latency.latencyMs.p50} ms, p99 ${latency.latencyMs.p99} ms`, baseline: '', ratio: '', goal: '', verdict: `${latency.received}/${latency.acquisitions} received` },
   'sequence: 200 acquisitions (1,000 points) end to end': { figure: `median ${sequence.medianMs} ms`, baseline: `runs ${sequence.runs.join(', ')} ms`, ratio: '', goal: '< 2 s', verdict: met(sequence.met) },
+  'reprocess: 10,000 stored acquisitions (1,000 points)': { figure: `${reprocess.resultsPerSecond} results/s`, baseline: `${reprocess.seconds} s, ${reprocess.changed} changed`, ratio: '', goal: '', verdict: '' },
+  'reprocess: server memory growth, 10,000 vs 1,000': {
+    figure: `+${reprocess.memory.growthAtEndMb} MB`, baseline: `+${reprocess.memory.growthAt1000Mb} MB at 1,000`, ratio: `${reprocess.memory.differenceMb} MB more`, goal: '≤ 100 MB more', verdict: met(reprocess.memory.met),
+  },
 }
 console.log(`\n  Arcwise benchmarks · ${machine.cores} cores · ${machine.cpu} · Node ${process.version} · ${report.versions.postgresql}`)
 console.table(rows)

@@ -26,6 +26,9 @@ export type InvitationView = Item<Answer<'/api/console/invitations'>>
 export type AuditEntry = Item<Answer<'/api/console/audit'>>
 export type AcquisitionActivityView = NonNullable<Answer<'/api/console/overview'>['activity']>
 export type CalibrationProposal = Answer<'/api/console/labs/:id/instruments/:instrumentId/calibrations/preview', 'post'>
+// Seven-segment paths as well: their $fetch is typed by name (reprocessing's cancel and release).
+export type CancelledReprocessJob = Answer<'/api/console/labs/:id/reprocess-jobs/:jobId/cancel', 'post'>
+export type ReleasedCorrection = Answer<'/api/console/labs/:id/results/:resultId/release-correction', 'post'>
 
 /** The engine's result as the API defines it (shared/schemas/responses.ts). */
 export type ResultView = z.infer<typeof acquisitionView>['result']

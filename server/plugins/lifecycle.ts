@@ -16,11 +16,18 @@ export default defineNitroPlugin((nitro) => {
   }, 5000)
   timer.unref()
   if (background) startDeliveryWorker()
+  // Reprocessing jobs (server/services/reprocessing); NUXT_REPROCESS_WORKER=false leaves them to other processes.
+  if (background && reprocessWorkerOn()) startReprocessWorker()
   nitro.hooks.hook('close', async () => {
     clearInterval(timer)
     // Leases this process holds are handed back, so another worker need not wait them out.
     if (background) await stopDeliveryWorker().catch(error => logError('[delivery] stop failed', error))
+    if (background && reprocessWorkerOn()) await stopReprocessWorker().catch(error => logError('[reprocess] stop failed', error))
     await flushSchemaUses().catch(() => {})
     await closeDb()
   })
 })
+
+function reprocessWorkerOn() {
+  return String(useRuntimeConfig().reprocess.worker) !== 'false'
+}

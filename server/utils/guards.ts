@@ -41,14 +41,16 @@ export function requirePermission(event: H3Event, permission: Permission): Promi
 
 /**
  * The signed-in user when they may see (or, with `write`, change) lab `labId`'s instruments
- * and keys (or, with `review`, release its results): admins any lab, viewers read any, a lab
- * manager or lab reviewer only their own (another lab is 404, as if it were not there);
- * integrators never.
+ * and keys (with `review`, release its results; with `reprocess`, start reprocessing jobs):
+ * admins any lab, viewers read any, a lab manager or lab reviewer only their own (another lab
+ * is 404, as if it were not there); integrators never.
  */
-export async function requireLabAccess(event: H3Event, labId: string, access: 'read' | 'write' | 'review'): Promise<SessionUser> {
+const labAccessPermission = { read: 'labs:read', write: 'labs:manage', review: 'results:review', reprocess: 'results:reprocess' } as const satisfies Record<string, Permission>
+
+export async function requireLabAccess(event: H3Event, labId: string, access: keyof typeof labAccessPermission): Promise<SessionUser> {
   const user = await requireUser(event)
   if (isLabScoped(user.role) && user.labId !== labId) throw problem(404, 'lab-not-found', 'No such lab.')
-  if (!can(user.role, access === 'read' ? 'labs:read' : access === 'write' ? 'labs:manage' : 'results:review')) throw problem(403, 'forbidden', 'Your role may not do this.')
+  if (!can(user.role, labAccessPermission[access])) throw problem(403, 'forbidden', 'Your role may not do this.')
   const lab = await useDb().query.labs.findFirst({ where: eq(labs.id, labId), columns: { id: true } })
   if (!lab) throw problem(404, 'lab-not-found', 'No such lab.')
   return user

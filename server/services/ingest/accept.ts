@@ -5,7 +5,7 @@ import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import { acquisitions, results } from '../../database/schema'
 import type { LabKey } from '../access'
 import { kickDeliveries } from '../delivery'
-import { instrumentContextAt } from '../instruments'
+import { instrumentContextAt, type InstrumentContext } from '../instruments'
 import { observeEngine } from '../metrics'
 import { acquisitionHead, resultChoice, resultView, type AcquisitionHead, type AcquisitionResultView } from '../results'
 import { countSchemaUse } from '../schemas'
@@ -49,6 +49,42 @@ export interface AcceptOptions {
 }
 
 /**
+ * The engine's result for an acquisition body under a geometry and calibration version: what
+ * ingest stores, and what reprocessing (server/services/reprocessing) recomputes from a stored
+ * payload under the versions in force now. A retired calibration (fitted under another
+ * geometry version) was not applied, and the result does not cite it. Engine refusals leave as
+ * problem documents naming the field. `measuredSpecies`: the instrument's registered list,
+ * used when the acquisition names none.
+ */
+export function computeResult(input: AcquisitionInput, geo: NonNullable<InstrumentContext['geometry']>, calibration: InstrumentContext['calibration'], measuredSpecies: string[] | null = null) {
+  let engine: EngineResult
+  try {
+    const options = {
+      tolerance: { ppm: input.processing?.tolerancePpm ?? 50 },
+      formulas: input.processing?.formulas,
+      isotopes: input.processing?.isotopes,
+      maxCharge: input.processing?.maxCharge,
+      ratios: input.processing?.ratios,
+      // The acquisition's own list, else the species its instrument is registered to measure.
+      measuredSpecies: input.processing?.measuredSpecies ?? measuredSpecies ?? undefined,
+      baseline: input.baseline,
+      calibration: calibration ? { ...calibration.fit as unknown as AppliedCalibration, geometryVersion: calibration.geometryVersion } : null,
+      geometryVersion: geo.version,
+      compatibility: input.processing?.engine,
+    }
+    const started = performance.now()
+    engine = input.mzSpectrum
+      ? processMzSpectrum(input.mzSpectrum.mz, input.mzSpectrum.values, input.mzSpectrum.unit, options)
+      : processReadings(geometrySchema.parse(geo.params), readingsOf(input), options)
+    observeEngine(engine.mode, (performance.now() - started) / 1000)
+  }
+  catch (error) { engineProblem(error) }
+  const applied = engine.calibration.state === 'applied' ? calibration : null
+  const summary = { ...engine, geometryVersion: geo.version, calibrationVersion: applied?.version ?? null }
+  return { engine, summary, applied }
+}
+
+/**
  * Accepts one acquisition for the key's lab: normalises it with the geometry and calibration
  * in force at `acquiredAt`, and stores the acquisition, its result, its peaks and the outbox
  * event in one transaction. The same run id with the same body answers the stored result;
@@ -65,33 +101,7 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
   }
   const geo = instrument.geometry
   if (!geo) throw fieldProblem('acquiredAt', 'is before the first geometry registered for this instrument')
-  const calibration = instrument.calibration
-  let engine: EngineResult
-  try {
-    const options = {
-      tolerance: { ppm: input.processing?.tolerancePpm ?? 50 },
-      formulas: input.processing?.formulas,
-      isotopes: input.processing?.isotopes,
-      maxCharge: input.processing?.maxCharge,
-      ratios: input.processing?.ratios,
-      // The acquisition's own list, else the species its instrument is registered to measure.
-      measuredSpecies: input.processing?.measuredSpecies ?? instrument.measuredSpecies ?? undefined,
-      baseline: input.baseline,
-      calibration: calibration ? { ...calibration.fit as unknown as AppliedCalibration, geometryVersion: calibration.geometryVersion } : null,
-      geometryVersion: geo.version,
-      compatibility: input.processing?.engine,
-    }
-    const started = performance.now()
-    engine = input.mzSpectrum
-      ? processMzSpectrum(input.mzSpectrum.mz, input.mzSpectrum.values, input.mzSpectrum.unit, options)
-      : processReadings(geometrySchema.parse(geo.params), readingsOf(input), options)
-    observeEngine(engine.mode, (performance.now() - started) / 1000)
-  }
-  catch (error) { engineProblem(error) }
-
-  // A retired calibration (fitted under another geometry version) was not applied: the result does not cite it.
-  const applied = engine.calibration.state === 'applied' ? calibration : null
-  const summary = { ...engine, geometryVersion: geo.version, calibrationVersion: applied?.version ?? null }
+  const { engine, summary, applied } = computeResult(input, geo, instrument.calibration, instrument.measuredSpecies)
   const acq: AcquisitionHead = {
     id: randomUUID(), labId: key.labId, instrumentId: instrument.id, externalId: input.runId, acquiredAt, sampleRef: input.sampleRef ?? null,
     status: 'processed', bodyHash: hash, pointCount: engine.points, submittedBy: opts.submittedBy ?? null, createdAt: new Date(),

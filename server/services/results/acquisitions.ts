@@ -75,6 +75,7 @@ export async function acquisitionDetail(labId: string, id: string) {
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
     .leftJoin(reviewer, eq(reviewer.id, results.reviewedBy))
+    // The console shows the newest version; its versions and their diff are the reprocessing capability's.
     .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
   return {
