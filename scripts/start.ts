@@ -49,8 +49,8 @@ if (seeded) {
   if (saltmarshKey) log(`posted ${await postDemoSequences(`http://127.0.0.1:${port}`, saltmarshKey)} demo CO2 sequences`)
   const halvardKey = readDemoKeys()['halvard-ridge']
   if (halvardKey) log(`posted ${await postDemoArgonSequences(`http://127.0.0.1:${port}`, halvardKey)} demo argon sequences`)
-  const review = await reviewDemo(`http://127.0.0.1:${port}`)
-  log(`demo review: ${review.released} results released (${review.retracted} since retracted), ${review.rejected} rejected, ${review.held} held; ${review.sequences} sequences released`)
+  const review = await reviewDemo(`http://127.0.0.1:${port}`, saltmarshKey)
+  log(`demo review: ${review.released} results released (${review.retracted} since retracted), ${review.rejected} rejected, ${review.held} held; ${review.sequences} sequences released; ${review.certificates} certificates issued`)
 }
 printDemoSignIns(appUrl)
 log(`demo partner receiver (webhooks arriving): ${receiver.url}/`)

@@ -2,14 +2,26 @@
 // queue the demo history left, as a person would in the console: most results released, one
 // rejected with a comment, one released result retracted with a reason, the rest still held;
 // and all but the two latest held CO2 sequences released, so the partner has normalised δ.
+// Then the lab system asks for a few certificates of analysis, as a client's order would.
 import { demoSignIn } from './console-client'
 
-interface Held { resultId: string, runId: string }
+interface Held { resultId: string, acquisitionId: string, runId: string }
 
-export async function reviewDemo(base: string) {
+/** Certificates are issued on first request: the lab key asks for the PDF of each. */
+async function certify(base: string, labKey: string, paths: string[]) {
+  let issued = 0
+  for (const path of paths) {
+    const res = await fetch(`${base}${path}`, { headers: { authorization: `Bearer ${labKey}` } })
+    await res.arrayBuffer()
+    if (res.ok) issued++
+  }
+  return issued
+}
+
+export async function reviewDemo(base: string, labKey?: string) {
   const reviewer = await demoSignIn(base, 'lab_reviewer')
   const [lab] = (await reviewer.call<{ items: { id: string }[] }>('GET', '/api/console/labs')).body.items
-  if (!lab) return { released: 0, rejected: 0, retracted: 0, sequences: 0, held: 0 }
+  if (!lab) return { released: 0, rejected: 0, retracted: 0, sequences: 0, held: 0, certificates: 0 }
   const queue = (await reviewer.call<{ results: { items: Held[] }, sequences: { id: string }[] }>('GET', `/api/console/labs/${lab.id}/review?limit=200`)).body
   const held = queue.results.items
   const toRelease = held.slice(0, Math.max(0, held.length - 3))
@@ -20,5 +32,11 @@ export async function reviewDemo(base: string) {
   if (toRetract) await reviewer.call('POST', `/api/console/labs/${lab.id}/results/${toRetract.resultId}/retract`, { reason: 'Sample label mix-up found at the weekly audit: this run belongs to another client\'s vial.' })
   const sequences = queue.sequences.slice(0, Math.max(0, queue.sequences.length - 2))
   for (const s of sequences) await reviewer.call('POST', `/api/console/labs/${lab.id}/sequences/${s.id}/release`, {})
-  return { released: toRelease.length, rejected: toReject ? 1 : 0, retracted: toRetract ? 1 : 0, sequences: sequences.length, held: held.length - toRelease.length - (toReject ? 1 : 0) }
+  const certificates = labKey
+    ? await certify(base, labKey, [
+        ...toRelease.slice(1, 4).map(r => `/api/v1/results/${r.acquisitionId}/certificate.pdf`),
+        ...sequences.slice(-2).map(s => `/api/v1/sequences/${s.id}/certificate.pdf`),
+      ])
+    : 0
+  return { released: toRelease.length, rejected: toReject ? 1 : 0, retracted: toRetract ? 1 : 0, sequences: sequences.length, held: held.length - toRelease.length - (toReject ? 1 : 0), certificates }
 }
