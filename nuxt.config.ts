@@ -84,8 +84,21 @@ export default defineNuxtConfig({
     // auto-imported, the rest of the folder stays private to it.
     imports: { dirs: ['./server/services/*/index.ts'] },
     experimental: { tasks: false },
+    // Static assets ship with .gz and .br siblings that Nitro serves by Accept-Encoding: the
+    // entry script and fonts were sent uncompressed (issue 21, point 10).
+    compressPublicAssets: { gzip: true, brotli: true },
   },
   hooks: {
+    // Every page announced the API reference's 2.7 MB bundle and each of the 60 font subsets
+    // as <link rel="prefetch">: a first visit to /sign-in moved 3.6 MB. Pages already load
+    // their own chunks on navigation and the browser fetches a font face only when a glyph
+    // needs it, so neither is prefetched; /docs loads its bundle when it is opened.
+    'build:manifest'(manifest) {
+      for (const chunk of Object.values(manifest)) {
+        if (chunk.isEntry) chunk.dynamicImports = []
+        if (chunk.resourceType === 'font' || /\.woff2?$/.test(chunk.file)) chunk.prefetch = false
+      }
+    },
     'nitro:config'(config) {
       const existing = [config.errorHandler].flat().filter((h): h is string => typeof h === 'string')
       config.errorHandler = [problemErrorHandler, ...existing]
