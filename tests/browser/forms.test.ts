@@ -4,6 +4,7 @@ import { describe, expect, it } from 'vitest'
 import { expectAccessible, shot, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
 import type { Role } from '../../shared/types/roles'
+import { labWithInstrument } from '../support/lab'
 import { testDb, unique, useArcwise } from '../support/server'
 
 await useArcwise({ browser: true })
@@ -19,6 +20,10 @@ async function signIn(role: Role) {
 }
 const labId = async (slug: string) => (await testDb()<{ id: string }[]>`select id from labs where slug = ${slug}`)[0]!.id
 const partnerId = async (slug: string) => (await testDb()<{ id: string }[]>`select id from partners where slug = ${slug}`)[0]!.id
+async function darkTheme(page: Page) {
+  await page.getByRole('button', { name: 'Dark theme' }).click()
+  await expect.poll(() => page.evaluate(() => document.documentElement.classList.contains('dark'))).toBe(true)
+}
 const hydrated = (page: Page) => page.waitForFunction(() => (window as unknown as { useNuxtApp?: () => { isHydrating: boolean } }).useNuxtApp?.().isHydrating === false)
 
 describe('forms in the console', () => {
@@ -94,5 +99,57 @@ describe('forms in the console', () => {
     await page.goto(url(`/console/labs/${await labId('saltmarsh-isotopes')}/keys`), { waitUntil: 'hydration' })
     await expect.poll(() => page.getByRole('main').textContent()).toContain('API documentation')
     expect(await page.getByRole('main').textContent()).not.toContain('npm run')
+  })
+})
+
+describe('upload help (point 4)', () => {
+  it('describes each format with a template; the templates upload as they are, several at once; a run older than the geometry is refused with the fix', async () => {
+    const { lab } = await labWithInstrument()
+    const page = await signIn('admin')
+    await page.goto(url(`/console/labs/${lab.id}/acquisitions`), { waitUntil: 'hydration' })
+    const form = page.getByRole('form', { name: 'Upload acquisition files' })
+    // The form comes before the table.
+    expect(await page.evaluate(() => {
+      const f = document.querySelector('form[aria-label="Upload acquisition files"]')
+      const t = document.querySelector('main table') ?? document.querySelector('main [class*="empty"]')
+      return !!f && (!t || !!(f.compareDocumentPosition(t) & Node.DOCUMENT_POSITION_FOLLOWING))
+    })).toBe(true)
+    await form.getByText('Accepted formats and templates').click()
+    await expect.poll(() => form.textContent()).toContain('# ratio: ID heavy light')
+    const templates: { name: string, mimeType: string, buffer: Buffer }[] = []
+    for (const [format, file, mimeType] of [['CSV', 'acquisition.csv', 'text/csv'], ['JCAMP-DX', 'acquisition.jdx', 'chemical/x-jcamp-dx'], ['mzML', 'acquisition.mzML', 'application/mzml+xml'], ['JSON', 'acquisition.json', 'application/json']] as const) {
+      const href = await form.getByRole('link', { name: `Download the ${format} template` }).getAttribute('href')
+      expect(href).toBe(`/templates/${file}`)
+      const res = await page.request.get(url(href!))
+      expect(res.status()).toBe(200)
+      templates.push({ name: file, mimeType, buffer: await res.body() })
+    }
+    await expectAccessible(page)
+    await shot(page, 'upload-formats-help')
+
+    // Dropped on the form: a CSV acquired before the instrument's first geometry.
+    const old = templates[0]!.buffer.toString().replace('# acquiredAt: 2026-11-30T09:00:00Z', '# acquiredAt: 2025-06-01T09:00:00Z').replace('CO2-2026-0412', 'CO2-2025-0001')
+    const dataTransfer = await page.evaluateHandle((text) => {
+      const dt = new DataTransfer()
+      dt.items.add(new File([text], 'old-run.csv', { type: 'text/csv' }))
+      return dt
+    }, old)
+    await form.locator('.border-dashed').dispatchEvent('drop', { dataTransfer })
+    await expect.poll(() => form.getByRole('list', { name: 'Files to upload' }).textContent()).toContain('old-run.csv')
+    await form.getByRole('button', { name: 'Upload' }).click()
+    await expect.poll(() => form.textContent()).toContain('is before the first geometry of ms-1')
+    expect(await form.textContent()).toContain('register a geometry version valid from 2025-06-01 or earlier')
+    await expect.poll(() => form.getByRole('link', { name: /register a geometry valid from that date/ }).getAttribute('href')).toBe(`/console/labs/${lab.id}/instruments`)
+    await shot(page, 'upload-predates-geometry')
+
+    // The four templates at once: each stored and linked, the page stays on the list.
+    await form.getByLabel('Files', { exact: true }).setInputFiles(templates)
+    await form.getByRole('button', { name: 'Upload' }).click()
+    await expect.poll(() => form.getByRole('list', { name: 'Files to upload' }).getByText('stored', { exact: true }).count(), { timeout: 60_000 }).toBe(4)
+    await expect.poll(() => page.getByRole('main').textContent()).toContain('4 acquisitions uploaded and processed.')
+    for (const run of ['CO2-2026-0412', 'CO2-2026-0413', 'CO2-2026-0414', 'CO2-2026-0415']) expect(await page.getByRole('table').textContent()).toContain(run)
+    await darkTheme(page)
+    await expectAccessible(page)
+    await shot(page, 'upload-several-files-dark')
   })
 })
