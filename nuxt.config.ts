@@ -117,6 +117,12 @@ export default defineNuxtConfig({
     agent: { disabled: true },
     showDeveloperTools: 'never',
     telemetry: false,
+    // Arcwise's own colours (app/assets/css/main.css) and fonts, so /docs reads as part of the hub.
+    customCss: [
+      'body.light-mode, body.light-mode .t-doc__sidebar { --scalar-background-1: rgb(255 255 255); --scalar-background-2: rgb(247 246 243); --scalar-background-3: rgb(240 238 233); --scalar-border-color: rgb(214 211 203); --scalar-color-1: rgb(28 30 33); --scalar-color-2: rgb(88 92 99); --scalar-color-3: rgb(88 92 99); --scalar-color-accent: rgb(14 107 110); --scalar-sidebar-color-active: rgb(14 107 110); --scalar-button-1: rgb(14 107 110); --scalar-button-1-color: rgb(255 255 255); }',
+      'body.dark-mode, body.dark-mode .t-doc__sidebar { --scalar-background-1: rgb(20 22 25); --scalar-background-2: rgb(29 32 36); --scalar-background-3: rgb(38 42 47); --scalar-border-color: rgb(62 67 74); --scalar-color-1: rgb(232 230 225); --scalar-color-2: rgb(168 172 178); --scalar-color-3: rgb(168 172 178); --scalar-color-accent: rgb(86 196 193); --scalar-sidebar-color-active: rgb(86 196 193); --scalar-button-1: rgb(86 196 193); --scalar-button-1-color: rgb(10 30 30); }',
+      ':root { --scalar-font: Inter, ui-sans-serif, system-ui, sans-serif; --scalar-font-code: "JetBrains Mono", ui-monospace, monospace; --scalar-radius: 6px; }',
+    ].join('\n'),
   },
   build: { transpile: [/@scalar/] },
   routeRules: { '/docs': { ssr: false }, '/docs/**': { ssr: false } },
