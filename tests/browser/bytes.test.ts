@@ -17,8 +17,8 @@ interface Transfer { path: string, bytes: number, requests: number, files: { url
 async function firstVisit(path: string, cookie?: string): Promise<Transfer & { page: Page }> {
   const page = await createPage()
   if (cookie) {
-    const [name, value] = cookie.split('=') as [string, string]
-    await page.context().addCookies([{ name, value, url: url('/') }])
+    const at = cookie.indexOf('=')
+    await page.context().addCookies([{ name: cookie.slice(0, at), value: cookie.slice(at + 1), url: url('/') }])
   }
   const cdp = await page.context().newCDPSession(page)
   await cdp.send('Network.enable')
