@@ -58,7 +58,10 @@ describe('bytes a first visit moves', () => {
     signInScripts = new Set(visit.files.filter(f => f.mime.includes('javascript')).map(f => f.url))
     const assets = visit.files.filter(f => new URL(f.url).pathname.startsWith('/_nuxt/') && /\.(?:js|css)$/.test(new URL(f.url).pathname))
     expect(assets.length).toBeGreaterThan(0)
-    expect(assets.filter(f => !['br', 'gzip'].includes(f.encoding)).map(f => f.url)).toEqual([])
+    // Nitro leaves files under 1 KB as they are (compressing them gains nothing): anything
+    // bigger arrives encoded. 2 KB on the wire is above 1 KB of body plus its headers.
+    expect(assets.filter(f => f.bytes > 2048 && !['br', 'gzip'].includes(f.encoding)).map(f => f.url)).toEqual([])
+    expect(assets.some(f => ['br', 'gzip'].includes(f.encoding))).toBe(true)
     expect(visit.bytes).toBeLessThan(500 * 1024)
   })
 
