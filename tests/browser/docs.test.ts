@@ -24,8 +24,9 @@ describe('API documentation at /docs', () => {
     const page = await createPage('/docs')
     await expect.poll(() => page.locator('body').textContent(), { timeout: 30_000 }).toContain('Post an acquisition')
     // Arcwise's accent and fonts, not the renderer's own.
-    const look = await page.evaluate(() => ({ accent: getComputedStyle(document.body).getPropertyValue('--scalar-color-accent').trim(), font: getComputedStyle(document.body).getPropertyValue('--scalar-font') }))
-    expect(look.accent).toBe('rgb(14 107 110)')
+    const look = await page.evaluate(() => ({ dark: document.body.classList.contains('dark-mode'), accent: getComputedStyle(document.body).getPropertyValue('--scalar-color-accent').trim(), font: getComputedStyle(document.body).getPropertyValue('--scalar-font') }))
+    // The console's accent of the same theme (app/assets/css/main.css).
+    expect(look.accent).toBe(look.dark ? 'rgb(86 196 193)' : 'rgb(14 107 110)')
     expect(look.font).toContain('Inter')
     const back = page.getByRole('link', { name: /Back to the Arcwise console/ }).first()
     expect(await back.getAttribute('href')).toBe('/console')

@@ -44,8 +44,12 @@ async function signIn(role: Role) {
 }
 const palette = (page: Page) => page.getByRole('dialog', { name: 'Search' })
 async function openPaletteAndType(page: Page, text: string) {
-  await page.keyboard.press('Control+k')
-  await expect.poll(() => palette(page).isVisible()).toBe(true)
+  // The shortcut is heard once the console layout has mounted (its search button is there).
+  await page.getByRole('button', { name: /Search runs, samples/ }).waitFor()
+  await expect.poll(async () => {
+    if (!await palette(page).isVisible()) await page.keyboard.press('Control+k')
+    return palette(page).isVisible()
+  }).toBe(true)
   const box = palette(page).getByRole('combobox')
   await expect.poll(() => page.evaluate(() => document.activeElement?.id)).toBe('aw-search-input')
   await box.fill(text)
