@@ -103,7 +103,7 @@ describe('a lab manager\'s main flow in the console', () => {
     await page.getByRole('button', { name: 'Save calibration' }).click()
     await expect.poll(() => page.getByRole('alert').first().textContent()).toContain('Calibration saved.')
     const calibrations = page.getByRole('region', { name: 'Calibrations' })
-    expect(await calibrations.getByRole('row').nth(1).textContent()).toMatch(/^v1\s*v1\s*1\s*4/)
+    expect(await calibrations.getByRole('row').nth(1).textContent()).toMatch(/^v1\s*in force\s*v1\s*1\s*4/)
     await expectAccessible(page)
     await shot(page, 'flow-06-calibrated')
   })
