@@ -98,8 +98,21 @@ export default defineNuxtConfig({
     // auto-imported, the rest of the folder stays private to it.
     imports: { dirs: ['./server/services/*/index.ts'] },
     experimental: { tasks: false },
+    // Static assets ship with .gz and .br siblings that Nitro serves by Accept-Encoding: the
+    // entry script and fonts were sent uncompressed (issue 21, point 10).
+    compressPublicAssets: { gzip: true, brotli: true },
   },
   hooks: {
+    // Every page announced the API reference's 2.7 MB bundle and each of the 60 font subsets
+    // as <link rel="prefetch">: a first visit to /sign-in moved 3.6 MB. Pages already load
+    // their own chunks on navigation and the browser fetches a font face only when a glyph
+    // needs it, so neither is prefetched; /docs loads its bundle when it is opened.
+    'build:manifest'(manifest) {
+      for (const chunk of Object.values(manifest)) {
+        if (chunk.isEntry) chunk.dynamicImports = []
+        if (chunk.resourceType === 'font' || /\.woff2?$/.test(chunk.file)) chunk.prefetch = false
+      }
+    },
     'nitro:config'(config) {
       const existing = [config.errorHandler].flat().filter((h): h is string => typeof h === 'string')
       config.errorHandler = [problemErrorHandler, ...existing]
@@ -118,6 +131,12 @@ export default defineNuxtConfig({
     agent: { disabled: true },
     showDeveloperTools: 'never',
     telemetry: false,
+    // Arcwise's own colours (app/assets/css/main.css) and fonts, so /docs reads as part of the hub.
+    customCss: [
+      'body.light-mode, body.light-mode .t-doc__sidebar { --scalar-background-1: rgb(255 255 255); --scalar-background-2: rgb(247 246 243); --scalar-background-3: rgb(240 238 233); --scalar-border-color: rgb(214 211 203); --scalar-color-1: rgb(28 30 33); --scalar-color-2: rgb(88 92 99); --scalar-color-3: rgb(88 92 99); --scalar-color-accent: rgb(14 107 110); --scalar-sidebar-color-active: rgb(14 107 110); --scalar-button-1: rgb(14 107 110); --scalar-button-1-color: rgb(255 255 255); }',
+      'body.dark-mode, body.dark-mode .t-doc__sidebar { --scalar-background-1: rgb(20 22 25); --scalar-background-2: rgb(29 32 36); --scalar-background-3: rgb(38 42 47); --scalar-border-color: rgb(62 67 74); --scalar-color-1: rgb(232 230 225); --scalar-color-2: rgb(168 172 178); --scalar-color-3: rgb(168 172 178); --scalar-color-accent: rgb(86 196 193); --scalar-sidebar-color-active: rgb(86 196 193); --scalar-button-1: rgb(86 196 193); --scalar-button-1-color: rgb(10 30 30); }',
+      ':root { --scalar-font: Inter, ui-sans-serif, system-ui, sans-serif; --scalar-font-code: "JetBrains Mono", ui-monospace, monospace; --scalar-radius: 6px; }',
+    ].join('\n'),
   },
   build: { transpile: [/@scalar/] },
   routeRules: { '/docs': { ssr: false }, '/docs/**': { ssr: false } },

@@ -61,6 +61,27 @@ printf '%s.%s.%s' "$WEBHOOK_ID" "$WEBHOOK_TIMESTAMP" "$(cat body.json)" | openss
 \`\`\`
 `
 
+/** For partners: how access is granted and the three ways to take results (issue 21, point 8). */
+const PARTNER_GUIDE = `A partner (a client lab, a regulator, a data team) receives the results of the labs that grant it access. A lab manager grants a partner the lab's results in the console, choosing the event types; nothing of a lab that has not granted you access is ever shown, and "not granted" answers 404 like "not there".
+
+Your integrators work in the console: they create **API clients** (an id \`awc_…\` and a secret shown once) and **webhook endpoints**. With a client, trade the id and secret for a 5-minute access token, then call the partner routes with it:
+
+\`\`\`sh
+curl -s -X POST https://arcwise.example.org/api/v1/oauth/token \\
+  -d grant_type=client_credentials -d client_id=awc_Jd93kQx0LmPz \\
+  -d client_secret="$ARCWISE_CLIENT_SECRET" -d scope="results:read events:read"
+# {"access_token":"eyJhbGciOiJFUzI1NiIs…","token_type":"Bearer","expires_in":300,"scope":"results:read events:read"}
+curl -s -H "Authorization: Bearer $TOKEN" "https://arcwise.example.org/api/v1/events?limit=50"
+\`\`\`
+
+Three ways to take results, to mix as suits you:
+
+- **Webhooks** (pushed as they are computed, signed): see *Webhooks* below.
+- **The event feed** (\`GET /api/v1/events\`, pulled): for systems behind a firewall, or to fill a gap in the webhook sequence. Keep \`nextCursor\` and pass it back.
+- **Reads** of one result (\`GET /api/v1/results/{id}\`) and **peaks by m/z** across every granted lab (\`GET /api/v1/peaks?mzMin=43.98&mzMax=44.00\`).
+
+A token is refused (401) once expired or once its client is revoked; ask a new one rather than keeping it.`
+
 export function buildOpenApiDocument() {
   const registry = new OpenAPIRegistry()
   const labKey = registry.registerComponent('securitySchemes', 'labKey', { type: 'http', scheme: 'bearer', description: 'A lab key (`awk_…`), issued in the console by a lab manager or admin.' })
@@ -114,8 +135,8 @@ export function buildOpenApiDocument() {
   registry.registerPath({
     method: 'post', path: '/api/v1/oauth/token', tags: ['Partners'], summary: 'Get an access token (client credentials)',
     description: 'OAuth 2.0 client credentials (RFC 6749 §4.4). The token is a JWT in the RFC 9068 profile, valid for 5 minutes, verifiable with the keys at `/.well-known/jwks.json`.',
-    request: { body: { content: { 'application/x-www-form-urlencoded': { schema: tokenRequest } } } },
-    responses: { 200: { description: 'An access token', content: { 'application/json': { schema: tokenView } } }, ...problems(400, 401) },
+    request: { body: { content: { 'application/x-www-form-urlencoded': { schema: tokenRequest.openapi({ example: { grant_type: 'client_credentials', client_id: 'awc_Jd93kQx0LmPz', client_secret: 'awcs_q7VJ2mZ0cT9xWb4LrN8sKd1YhE6pGf3uAo5iMz2Xy0w', scope: 'results:read events:read' } }) } } } },
+    responses: { 200: { description: 'An access token', content: { 'application/json': { schema: tokenView.openapi({ example: { access_token: 'eyJhbGciOiJFUzI1NiIsImtpZCI6IjIwMjYtMTEtMzAifQ.eyJpc3MiOiJodHRwczovL2FyY3dpc2UuZXhhbXBsZS5vcmciLCJzdWIiOiJhd2NfSmQ5M2tReDBMbVB6In0.3bXhQ0sT', token_type: 'Bearer', expires_in: 300, scope: 'results:read events:read' } }) } } }, ...problems(400, 401) },
   })
   registry.registerPath({
     method: 'get', path: '/api/v1/events', tags: ['Partners'], summary: 'Pull the event feed', security: [{ [partnerToken.name]: ['events:read'] }],
@@ -128,7 +149,11 @@ export function buildOpenApiDocument() {
   })
   registry.registerPath({
     method: 'get', path: '/api/v1/peaks', tags: ['Partners'], summary: 'Peaks by m/z window across granted labs', security: [{ [partnerToken.name]: ['peaks:read'] }],
-    request: { query: peakQuery }, responses: { 200: { description: 'Peaks in the window', content: { 'application/json': { schema: peakListView } } }, ...problems(400, 401, 403, 429) },
+    description: 'Peaks whose centroid lies in [mzMin, mzMax], from every lab that granted you `results:read`, newest acquisition first. The window is at most 50 wide; narrow it to a line and its tolerance to find one species across labs.',
+    request: { query: peakQuery }, responses: { 200: { description: 'Peaks in the window', content: { 'application/json': { schema: peakListView.openapi({ example: { items: [
+      { id: 90211, mz: 43.98977, area: 3.918e-10, species: 'CO2', charge: 1, lab: 'saltmarsh-isotopes', acquisitionId: '0d6c2a4e-1f3b-4c8e-9a71-5e2d8b6f4c10', acquiredAt: '2026-11-30T14:05:00Z' },
+      { id: 90178, mz: 43.98991, area: 4.102e-10, species: 'CO2', charge: 1, lab: 'kestrel-leaktest', acquisitionId: '7a1e9c33-52d0-4b6f-8e24-c9b1d0a7e5f2', acquiredAt: '2026-11-30T11:42:00Z' },
+    ], nextCursor: '90178' } }) } } }, ...problems(400, 401, 403, 429) },
   })
   registry.registerPath({
     method: 'get', path: '/api/v1/uploads/{id}', tags: ['Lab systems'], summary: 'Status of an upload processed in the background', security: [{ [labKey.name]: [] }],
@@ -190,6 +215,8 @@ export function buildOpenApiDocument() {
     info: {
       title: 'Arcwise API', version: '1.0.0',
       description: [
+        '[← Back to the Arcwise console](/console)',
+        '',
         'Lab systems post raw acquisitions from magnetic-sector mass spectrometers with a lab key; Arcwise converts them to m/z with the instrument\'s registered geometry, assigns peaks, computes isotope ratios with uncertainties, and makes results available to granted partners by pull feed.',
         '',
         `**Caution.** ${CAUTION}`,
@@ -202,5 +229,9 @@ export function buildOpenApiDocument() {
       ].join('\n'),
     },
     servers: [{ url: '/' }],
+    tags: [
+      { name: 'Lab systems', description: 'For a lab\'s own software: post acquisitions (JSON, CSV, JCAMP-DX, mzML) with a lab key and read back results. The console\'s upload form offers a template of each format.' },
+      { name: 'Partners', description: PARTNER_GUIDE },
+    ],
   })
 }

@@ -12,15 +12,17 @@ export type GeometryDraft =
   | { kind: 'wien-sector', analyzerRadius: LengthDraft, plateGap: LengthDraft, detector?: DetectorDraft }
   | { kind: 'multi-collector', collectors: { id: string, effectiveRadius: LengthDraft, detector?: DetectorDraft }[] }
 
-export const emptyLength = (): LengthDraft => ({ value: null, unit: 'cm', u: 0 })
+// Uncertainties start empty, never 0: a zero the person did not type would claim an exact value
+// (issue 21); the schema refuses an empty one, so 0 must be typed when it is meant.
+export const emptyLength = (): LengthDraft => ({ value: null, unit: 'cm', u: null })
 
 export function emptyDetector(type: DetectorDraft['type']): DetectorDraft {
-  if (type === 'faraday') return { type, resistor: { value: null, unit: 'GΩ', u: 0 }, gain: { value: 1, u: 0 } }
-  return { type, deadTime: { value: null, unit: 'ns', u: 0 }, model: 'non-paralysable' }
+  if (type === 'faraday') return { type, resistor: { value: null, unit: 'GΩ', u: null }, gain: { value: 1, u: null } }
+  return { type, deadTime: { value: null, unit: 'ns', u: null }, model: 'non-paralysable' }
 }
 
 export function emptyGeometry(kind: GeometryKind): GeometryDraft {
-  if (kind === 'wien-sector') return { kind, analyzerRadius: emptyLength(), plateGap: { value: null, unit: 'mm', u: 0 } }
+  if (kind === 'wien-sector') return { kind, analyzerRadius: emptyLength(), plateGap: { value: null, unit: 'mm', u: null } }
   if (kind === 'multi-collector') return { kind, collectors: [{ id: 'L1', effectiveRadius: emptyLength() }, { id: 'C', effectiveRadius: emptyLength() }, { id: 'H1', effectiveRadius: emptyLength() }] }
   return { kind, analyzerRadius: emptyLength() }
 }

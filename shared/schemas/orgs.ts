@@ -29,7 +29,11 @@ export const partnerUpdate = partnerInput.partial().refine(v => Object.keys(v).l
 
 export const auditQuery = z.object({
   action: z.string().max(60).optional(),
+  // Part of the actor's name or e-mail.
   actor: z.string().max(254).optional(),
+  // What the entry is about: its kind (lab, user, webhook-endpoint, …) and optionally its id.
+  targetType: z.string().max(40).optional(),
+  target: z.string().max(80).optional(),
   from: z.coerce.date().optional(),
   to: z.coerce.date().optional(),
   limit: z.coerce.number().int().min(1).max(200).default(50),

@@ -30,7 +30,7 @@ export const grantInput = z.object({
 
 /** The token endpoint's form body (RFC 6749 §4.4.2). */
 export const tokenRequest = z.object({
-  grant_type: z.string({ error: 'is required' }),
+  grant_type: z.string({ error: 'is required' }).describe('Always client_credentials.'),
   client_id: z.string().max(100).optional(),
   client_secret: z.string().max(200).optional(),
   scope: z.string().max(200).optional(),
@@ -43,11 +43,11 @@ export const eventFeedQuery = z.object({
 })
 
 export const peakQuery = z.object({
-  mzMin: z.coerce.number().positive(),
-  mzMax: z.coerce.number().positive(),
-  species: z.string().max(64).optional(),
-  limit: z.coerce.number().int().min(1).max(500).default(100),
-  cursor: z.coerce.number().int().positive().optional(),
+  mzMin: z.coerce.number().positive().describe('Lower end of the window, inclusive: the measured m/z of the peak\'s centroid (u per elementary charge), e.g. 43.98.'),
+  mzMax: z.coerce.number().positive().describe('Upper end of the window, inclusive; greater than mzMin and at most 50 above it, e.g. 44.00.'),
+  species: z.string().max(64).optional().describe('Only peaks assigned to this species, as the results name it (e.g. CO2, [13C]O2, [40Ar]).'),
+  limit: z.coerce.number().int().min(1).max(500).default(100).describe('Peaks per page, 1 to 500.'),
+  cursor: z.coerce.number().int().positive().optional().describe('The previous page\'s nextCursor, to read on.'),
 }).refine(q => q.mzMax > q.mzMin, { path: ['mzMax'], message: 'must be greater than mzMin' })
   .refine(q => q.mzMax - q.mzMin <= 50, { path: ['mzMax'], message: 'the m/z window may be at most 50 wide' })
 

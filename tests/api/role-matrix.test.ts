@@ -78,6 +78,9 @@ const matrix: Row[] = [
   { method: 'PATCH', path: () => `/api/console/partners/${ids.otherPartner}`, body: () => ({ contactEmail: 'lims@tidewater.example' }), expect: S(403, { admin: 200, integrator: 404 }) },
   { method: 'GET', path: () => '/api/console/audit', expect: S(403, { admin: 200, viewer: 200 }) },
   { method: 'GET', path: () => '/api/console/audit/actions', expect: S(403, { admin: 200, viewer: 200 }) },
+  { method: 'GET', path: () => '/api/console/audit/target-types', expect: S(403, { admin: 200, viewer: 200 }) },
+  { method: 'GET', path: () => '/api/console/audit.csv', expect: S(403, { admin: 200, viewer: 200 }) },
+  { method: 'GET', path: () => '/api/console/search?q=saltmarsh', expect: S(200) },
   // Open to all where the SMTP fake runs, so a person not signed in can open their link.
   { method: 'GET', path: () => '/api/console/dev/mail', expect: { else: 200 } },
   { method: 'POST', path: () => '/api/console/password-resets', body: () => ({ email: 'nobody@example.org' }), expect: { else: 202 } },

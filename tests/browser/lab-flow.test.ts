@@ -103,7 +103,7 @@ describe('a lab manager\'s main flow in the console', () => {
     await page.getByRole('button', { name: 'Save calibration' }).click()
     await expect.poll(() => page.getByRole('alert').first().textContent()).toContain('Calibration saved.')
     const calibrations = page.getByRole('region', { name: 'Calibrations' })
-    expect(await calibrations.getByRole('row').nth(1).textContent()).toMatch(/^v1\s*v1\s*1\s*4/)
+    expect(await calibrations.getByRole('row').nth(1).textContent()).toMatch(/^v1\s*in force\s*v1\s*1\s*4/)
     await expectAccessible(page)
     await shot(page, 'flow-06-calibrated')
   })
@@ -114,8 +114,8 @@ describe('a lab manager\'s main flow in the console', () => {
     await page.goto(url(`/console/labs/${labId}/acquisitions`), { waitUntil: 'hydration' } as never)
     const ref = referenceAcquisition(unique('csv-run'), '2026-11-30T10:00:00Z', 'irms-north')
     const csv = ['# acceleratingVoltage: 3 kV ± 0.0006', '# formulas: CO2, [13C]O2, N2, [40Ar]', 'field [T],detector [fA]', ...ref.sweep.values.map((b, i) => `${b},${ref.detectors[0]!.values[i]}`)].join('\n')
-    await page.getByLabel('File', { exact: true }).setInputFiles({ name: 'reference.csv', mimeType: 'text/csv', buffer: Buffer.from(csv) })
-    const form = page.getByRole('form', { name: 'Upload an acquisition file' })
+    await page.getByLabel('Files', { exact: true }).setInputFiles({ name: 'reference.csv', mimeType: 'text/csv', buffer: Buffer.from(csv) })
+    const form = page.getByRole('form', { name: 'Upload acquisition files' })
     await form.getByLabel('Instrument').selectOption('irms-north')
     await form.getByLabel('Run id').fill(ref.runId)
     await form.getByLabel('Acquired at').fill('2026-11-30T10:00')
@@ -127,9 +127,9 @@ describe('a lab manager\'s main flow in the console', () => {
 
     // A file the parser refuses shows why and stays on the form.
     await page.goto(url(`/console/labs/${labId}/acquisitions`), { waitUntil: 'hydration' } as never)
-    await page.getByLabel('File', { exact: true }).setInputFiles({ name: 'bad.csv', mimeType: 'text/csv', buffer: Buffer.from('field,detector [fA]\n0.4,1\n') })
+    await page.getByLabel('Files', { exact: true }).setInputFiles({ name: 'bad.csv', mimeType: 'text/csv', buffer: Buffer.from('field,detector [fA]\n0.4,1\n') })
     await page.getByRole('button', { name: 'Upload' }).click()
-    await expect.poll(() => page.getByRole('form', { name: 'Upload an acquisition file' }).textContent()).toContain('needs its unit in brackets')
+    await expect.poll(() => page.getByRole('form', { name: 'Upload acquisition files' }).textContent()).toContain('needs its unit in brackets')
     await expectAccessible(page)
   })
 

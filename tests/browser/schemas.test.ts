@@ -18,6 +18,16 @@ describe('exchange schemas in the console', () => {
     await item.getByRole('button', { name: 'Save status' }).click()
     await expect.poll(() => item.getByRole('alert').first().textContent()).toContain('sunset')
     await item.getByLabel('Sunset', { exact: true }).fill('2027-06-30')
+    // The error goes once the field is fixed, before anything is sent.
+    await expect.poll(() => item.getByRole('alert').count()).toBe(0)
+    // Deprecating asks first: declined, nothing changes.
+    let question = ''
+    page.once('dialog', (dialog) => { question = dialog.message(); void dialog.dismiss() })
+    await item.getByRole('button', { name: 'Save status' }).click()
+    await expect.poll(() => question).toContain('Deprecate acquisition v1?')
+    expect(question).toContain('refused after 2027-06-30')
+    expect((await new ConsoleClient().request('GET', '/api/v1/schemas/acquisition/1')).headers.get('deprecation')).toBeNull()
+    page.once('dialog', dialog => void dialog.accept())
     await item.getByRole('button', { name: 'Save status' }).click()
     // The badge (not the field labels or the status options) says what was saved.
     const badge = () => page.getByRole('listitem', { name: 'acquisition v1' }).locator('.aw-badge').first().textContent()

@@ -1,2 +1,2 @@
-// The audit log as the console reads it (rows are written by recordAudit, server/utils/audit.ts).
-export { listAudit, auditActions } from './trail'
+// The audit log as the console reads it, in sentences with names (rows are written by recordAudit, server/utils/audit.ts).
+export { listAudit, auditActions, auditTargetTypes, auditCsv, describeAudit } from './trail'

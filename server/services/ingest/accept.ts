@@ -5,7 +5,7 @@ import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import { acquisitions, results } from '../../database/schema'
 import type { LabKey } from '../access'
 import { kickDeliveries } from '../delivery'
-import { instrumentContextAt, type InstrumentContext } from '../instruments'
+import { firstGeometryFrom, instrumentContextAt, type InstrumentContext } from '../instruments'
 import { observeEngine } from '../metrics'
 import { acquisitionHead, resultChoice, resultView, type AcquisitionHead, type AcquisitionResultView } from '../results'
 import { countSchemaUse } from '../schemas'
@@ -100,7 +100,7 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
     if (existing) return replayOrConflict(existing, hash, instrument.slug)
   }
   const geo = instrument.geometry
-  if (!geo) throw fieldProblem('acquiredAt', 'is before the first geometry registered for this instrument')
+  if (!geo) throw await predatesGeometry(instrument, acquiredAt)
   const { engine, summary, applied } = computeResult(input, geo, instrument.calibration, instrument.measuredSpecies)
   const acq: AcquisitionHead = {
     id: randomUUID(), labId: key.labId, instrumentId: instrument.id, externalId: input.runId, acquiredAt, sampleRef: input.sampleRef ?? null,
@@ -154,4 +154,15 @@ export async function uploadFromConsole(audit: AuditContext, labId: string, inpu
     await recordAudit(useDb(), { ...audit, action: 'acquisition.uploaded', targetType: 'acquisition', targetId: result.body.id, detail: { labId, runId: input.runId, points: result.body.result.points } })
   }
   return result
+}
+
+/**
+ * The refusal of a run acquired before the instrument's first geometry, saying what to do: the
+ * geometry a lab registers is valid from a time it chooses (now, when left empty), and runs
+ * from before it cannot be converted to m/z.
+ */
+async function predatesGeometry(instrument: { id: string, slug: string }, acquiredAt: Date) {
+  const first = await firstGeometryFrom(instrument.id)
+  const from = first ? ` (valid from ${first.toISOString()})` : ''
+  return fieldProblem('acquiredAt', `${acquiredAt.toISOString()} is before the first geometry of ${instrument.slug}${from}. To process older runs, register a geometry version valid from ${acquiredAt.toISOString().slice(0, 10)} or earlier on the instrument's page in the console (Instruments, ${instrument.slug}, Register a new geometry version), then send the run again.`)
 }

@@ -212,6 +212,13 @@ export function instrumentContextAt(labId: string, slug: string, at: Date, runId
   return lookUpTogether({ labId, slug, at: at.toISOString(), runId })
 }
 
+/** When the instrument's earliest geometry version becomes valid (null: none registered). */
+export async function firstGeometryFrom(instrumentId: string): Promise<Date | null> {
+  const [row] = await useDb().select({ validFrom: geometryVersions.validFrom }).from(geometryVersions)
+    .where(eq(geometryVersions.instrumentId, instrumentId)).orderBy(asc(geometryVersions.validFrom)).limit(1)
+  return row?.validFrom ?? null
+}
+
 /** The geometry version in force at `at`: the latest one valid from at or before it. */
 export async function geometryAt(instrumentId: string, at: Date, db: Queryable = useDb()) {
   const [row] = await db.select().from(geometryVersions)

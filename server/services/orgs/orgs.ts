@@ -49,6 +49,15 @@ export async function createOrg(audit: AuditContext, org: Org, input: LabInput |
 
 export async function updateOrg(audit: AuditContext, actor: SessionUser, org: Org, id: string, change: Partial<LabInput & PartnerInput>) {
   const before = await getOrg(actor, org, id)
+  // A slug names the organisation in URLs, keys and partners' systems, and a partner's kind
+  // decides what it is shown: only a hub admin changes them (issue 21). Sent unchanged is fine.
+  if (actor.role !== 'admin') {
+    for (const field of ['slug', 'kind'] as const) {
+      if (change[field] !== undefined && change[field] !== (before as Record<string, unknown>)[field]) {
+        throw fieldProblem(field, 'only a hub admin may change this', 403, 'admin-only-field')
+      }
+    }
+  }
   if (change.slug) await assertSlugFree(org, change.slug, id)
   return useDb().transaction(async (tx) => {
     const table = tables[org]

@@ -1,6 +1,7 @@
 import { and, count, desc, eq, gt, inArray, isNull, sql } from 'drizzle-orm'
 import { acquisitions, auditLog, deliveries, invitations, labs, partners, results, users, webhookEndpoints } from '../../database/schema'
 import { can, isLabScoped, type SessionUser } from '#shared/types/roles'
+import { describeAudit } from '../audit'
 import { listOrgs } from '../orgs'
 
 /** The figures on the console's front page, each within what the user may read. */
@@ -16,9 +17,9 @@ export async function overviewFor(user: SessionUser) {
       .where(and(isNull(invitations.acceptedAt), isNull(invitations.revokedAt), gt(invitations.expiresAt, new Date())))).n
   }
   // Without audit:read a person sees only their own entries.
-  const recentAudit = await db.select().from(auditLog)
+  const recentAudit = await describeAudit(await db.select().from(auditLog)
     .where(can(user.role, 'audit:read') ? undefined : eq(auditLog.actorUserId, user.id))
-    .orderBy(desc(auditLog.id)).limit(8)
+    .orderBy(desc(auditLog.id)).limit(8))
   const ownLab = user.labId ? (await db.select().from(labs).where(inArray(labs.id, [user.labId])))[0] ?? null : null
   const ownPartner = user.partnerId ? (await db.select().from(partners).where(eq(partners.id, user.partnerId)))[0] ?? null : null
   const deliveries = can(user.role, 'partners:read') ? await deliveryHealth(user.role === 'integrator' ? user.partnerId : null) : null

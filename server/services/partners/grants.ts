@@ -12,6 +12,11 @@ export async function grantPartner(audit: AuditContext, labId: string, input: { 
   if (!await useDb().query.partners.findFirst({ where: eq(partners.id, input.partnerId), columns: { id: true } })) {
     throw fieldProblem('partnerId', 'no such partner')
   }
+  // Granting what is granted already would change nothing and say so nowhere (issue 21).
+  const existing = await useDb().query.grants.findFirst({ where: and(eq(grants.labId, labId), eq(grants.partnerId, input.partnerId)), columns: { eventTypes: true } })
+  if (existing && [...existing.eventTypes].sort().join() === [...input.eventTypes].sort().join()) {
+    throw fieldProblem('partnerId', 'already receives this lab\'s results with these events; change the events or revoke the grant', 409, 'grant-exists')
+  }
   return useDb().transaction(async (tx) => {
     const row = firstRow(await tx.insert(grants).values({ labId, partnerId: input.partnerId, eventTypes: input.eventTypes, createdBy: audit.actor.id })
       .onConflictDoUpdate({ target: [grants.labId, grants.partnerId], set: { eventTypes: input.eventTypes } }).returning())
