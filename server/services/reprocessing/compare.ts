@@ -1,4 +1,4 @@
-import type { EngineResult } from '#shared/engine'
+import type { EngineResult } from '../../../shared/engine'
 
 // What a partner would see of a result, and how two versions differ. Reprocessing writes a
 // new version only when one of these changed: the peaks' m/z and areas (with their
