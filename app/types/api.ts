@@ -26,6 +26,9 @@ export type InvitationView = Item<Answer<'/api/console/invitations'>>
 export type AuditEntry = Item<Answer<'/api/console/audit'>>
 export type AcquisitionActivityView = NonNullable<Answer<'/api/console/overview'>['activity']>
 export type CalibrationProposal = Answer<'/api/console/labs/:id/instruments/:instrumentId/calibrations/preview', 'post'>
+// A lab's or partner's row as OrgForm saves it: its path is built from the kind.
+export type SavedOrg = Answer<'/api/console/labs/:id', 'patch'> | Answer<'/api/console/partners/:id', 'patch'>
+export type CreatedOrg = Answer<'/api/console/labs', 'post'> | Answer<'/api/console/partners', 'post'>
 // Seven-segment paths as well: their $fetch is typed by name (reprocessing's cancel and release).
 export type CancelledReprocessJob = Answer<'/api/console/labs/:id/reprocess-jobs/:jobId/cancel', 'post'>
 export type ReleasedCorrection = Answer<'/api/console/labs/:id/results/:resultId/release-correction', 'post'>

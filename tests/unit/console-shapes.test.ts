@@ -17,6 +17,11 @@ const allowedGenerics: [file: string, generic: string][] = [
   ['app/components/calibration/CalibrationFromReferenceForm.vue', '$fetch<CalibrationProposal>'],
   ['app/pages/console/partners/[id]/deliveries/[deliveryId].vue', 'useFetch<Answer<\'/api/console/partners/:id/deliveries/:deliveryId\'>>'],
   ['app/pages/console/labs/[id]/instruments/[instrumentId].vue', 'useFetch<InstrumentDetail>'],
+  // The public verify route's answer, named by its zod schema (shared/schemas/certificates.ts).
+  ['app/pages/console/certificates/verify.vue', '$fetch<CertificateVerdict>'],
+  // A path built from the organisation's kind, past the same depth limit.
+  ['app/components/org/OrgForm.vue', '$fetch<SavedOrg>'],
+  ['app/components/org/OrgForm.vue', '$fetch<CreatedOrg>'],
   // Seven-segment paths, past TypeScript's depth limit like calibrations/preview.
   ['app/pages/console/labs/[id]/reprocess-jobs/[jobId].vue', '$fetch<CancelledReprocessJob>'],
   ['app/pages/console/labs/[id]/reprocess-jobs/[jobId].vue', '$fetch<ReleasedCorrection>'],

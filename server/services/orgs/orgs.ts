@@ -8,6 +8,7 @@ import { isLabScoped, type SessionUser } from '#shared/types/roles'
 
 type Org = 'lab' | 'partner'
 const tables = { lab: labs, partner: partners } as const
+type OrgRow = typeof labs.$inferSelect | typeof partners.$inferSelect
 
 function ownScope(user: SessionUser, org: Org): string | null | undefined {
   if (org === 'lab' && isLabScoped(user.role)) return user.labId
@@ -61,7 +62,9 @@ export async function updateOrg(audit: AuditContext, actor: SessionUser, org: Or
   if (change.slug) await assertSlugFree(org, change.slug, id)
   return useDb().transaction(async (tx) => {
     const table = tables[org]
-    const row = firstRow(await tx.update(table).set({ ...change, updatedAt: new Date() }).where(eq(table.id, id)).returning())
+    // Named, because Drizzle's answer for an update of one of two tables is too wide for the
+    // console's inferred route types to follow (they read it as unknown).
+    const row: OrgRow = firstRow(await tx.update(table).set({ ...change, updatedAt: new Date() }).where(eq(table.id, id)).returning())
     const changed = Object.keys(change).filter(k => (before as Record<string, unknown>)[k] !== (row as Record<string, unknown>)[k])
     await recordAudit(tx, { ...audit, action: `${org}.updated`, targetType: org, targetId: id, detail: { changed } })
     return row
