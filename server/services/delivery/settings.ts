@@ -20,6 +20,11 @@ function readConfig() {
     timeoutMs: Number(w.timeoutMs),
     leaseSeconds: Number(w.leaseSeconds),
     concurrency: Number(w.concurrency),
+    endpointInFlight: Number(w.endpointInFlight),
+    endpointMaxInFlight: Number(w.endpointMaxInFlight),
+    endpointMaxRatePerSecond: Number(w.endpointMaxRatePerSecond),
+    circuitFailures: Number(w.circuitFailures),
+    circuitProbeSeconds: Number(w.circuitProbeSeconds),
     maxPayloadBytes: Number(w.maxPayloadBytes),
     disableAfterMs: Number(w.disableAfterHours) * 3600_000,
     // Thin messages name where the whole result is read.
