@@ -60,7 +60,7 @@ export async function claimDueDeliveries(limit: number, leaseSeconds: number): P
           select x.id, row_number() over (order by x.next_attempt_at) as turn from (
             select d.id, d.next_attempt_at from ${deliveries} d
             where not a.ordered and d.endpoint_id = a.id and d.status = 'pending' and d.next_attempt_at <= now() and (d.lease_until is null or d.lease_until < now())
-            order by d.next_attempt_at limit a.n) x
+            order by d.next_attempt_at limit greatest(a.n, 0)) x
           union all
           -- An ordered endpoint: its oldest waiting delivery (events in the order recorded, a
           -- lab's by its sequence), and only once due; nothing after it goes first.
