@@ -116,6 +116,7 @@ describe('per-endpoint fairness', () => {
     expect(leased!.n).toBe(5)
     const drain = setInterval(() => release(slow), 200)
     await until('every delivery', () => distinct(slow) === 30, 60_000).finally(() => clearInterval(drain))
+    release(slow, true)
     expect(mostOpen.get(slow)).toBe(5)
     // Each delivered once: 30 messages, 30 recorded attempts.
     expect(hitsTo(slow)).toHaveLength(30)
