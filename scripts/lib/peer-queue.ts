@@ -26,7 +26,7 @@ export async function drainThroughPeer(opts: { databaseUrl: string, url: string,
     for (let i = 0; i < opts.messages.length; i += 500) {
       const chunk = JSON.stringify(opts.messages.slice(i, i + 500))
       await sql`select count(*) from graphile_worker.add_jobs(array(
-        select row('deliver', p, null, null, null, null, null, null)::graphile_worker.job_spec from json_array_elements(${chunk}::json) p))`
+        select row('deliver', p, null, null, null, null, null, null)::graphile_worker.job_spec from json_array_elements(${chunk}::text::json) p))`
     }
     const cpuBefore = cpuSeconds(opts.serverPid)
     const started = performance.now()
