@@ -1,6 +1,7 @@
 import { hostname } from 'node:os'
 import { randomUUID } from 'node:crypto'
 import { DEFAULT_RETRY_SCHEDULE_S } from '#shared/schemas/webhooks'
+import { parseRetrySchedule } from './retry'
 
 // What the delivery worker's phases share: this worker's lease name and its settings.
 
@@ -14,9 +15,8 @@ export const deliverySettings = () => (settings ??= readConfig())
 
 function readConfig() {
   const { webhooks: w, appUrl } = useRuntimeConfig()
-  const schedule = String(w.retrySchedule ?? '').split(',').map(Number).filter(n => Number.isFinite(n) && n >= 0)
   return {
-    schedule: schedule.length ? schedule : DEFAULT_RETRY_SCHEDULE_S,
+    schedule: parseRetrySchedule(w.retrySchedule, DEFAULT_RETRY_SCHEDULE_S),
     timeoutMs: Number(w.timeoutMs),
     leaseSeconds: Number(w.leaseSeconds),
     concurrency: Number(w.concurrency),
