@@ -70,7 +70,19 @@ export default defineNuxtConfig({
       maxPayloadBytes: 256 * 1024,
       // The shortest lease; a batch is leased for as long as its sends could take at worst.
       leaseSeconds: 30,
-      concurrency: 16,
+      // Sends in flight at once per process: receivers are latency-bound (a send waits on the
+      // network, not the CPU), so hundreds; each costs a socket and its buffers.
+      concurrency: 256,
+      // Sends in flight at once per endpoint, across every worker process, unless the endpoint
+      // sets its own: a slow receiver fills these slots only (issue 22). Integrators may set
+      // up to endpointMaxInFlight and a rate up to endpointMaxRatePerSecond.
+      endpointInFlight: 16,
+      endpointMaxInFlight: 64,
+      endpointMaxRatePerSecond: 200,
+      // After this many failed attempts in a row the endpoint's circuit opens: one delivery
+      // probes it every circuitProbeSeconds, and the backlog waits for a success.
+      circuitFailures: 10,
+      circuitProbeSeconds: 30,
       // How often a worker looks for due deliveries (it is also woken by each new event).
       pollMs: 1000,
       // Endpoints one partner may have (409 past it): each owes a delivery per event, so the

@@ -10,6 +10,9 @@
 // Beside the rate, for the reader: the worker's send path alone (sign, guard, send, classify),
 // run by the server with no claim and no record (`/_bench/send-loop`). What separates the
 // worker from it is the durable queue; what separates it from the bare sender is the send path.
+// And the peer, side by side: the same messages through graphile-worker 0.16, the usual
+// PostgreSQL job queue on Node.js (scripts/lib/peer-queue.ts; goal: Arcwise at least 3 times
+// its rate, and all processes' CPU per delivery at most twice the bare sender's).
 import { createServer } from 'node:http'
 import { cpus, tmpdir } from 'node:os'
 import { join } from 'node:path'
@@ -21,6 +24,7 @@ import { cpuSeconds, cpuShares } from './lib/cpu'
 import { demoInstruments, thousandPointAcquisition } from './lib/demo-instruments'
 import { demoAdmin } from './lib/console-client'
 import { noteArrival, openLoopLatency } from './lib/open-loop'
+import { drainThroughPeer } from './lib/peer-queue'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
 import { startServer, startStack, waitForServer } from './lib/services'
@@ -41,7 +45,7 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
   const latencySeconds = opts.latencySeconds ?? 5
   // What the sink received, by path: the worker's messages, the bare sender's, and for the
   // latency measure the moment each run's result arrived.
-  const inbox = { worker: new Map<string, Message>(), bare: new Map<string, Message>(), loop: new Map<string, Message>() }
+  const inbox = { worker: new Map<string, Message>(), bare: new Map<string, Message>(), loop: new Map<string, Message>(), peer: new Map<string, Message>() }
   const arrived = new Map<string, number>()
   const sink = createServer((req, res) => {
     const chunks: Buffer[] = []
@@ -53,7 +57,7 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
       }
       else {
         const headers = Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)]))
-        inbox[req.url === '/bare' ? 'bare' : req.url === '/loop' ? 'loop' : 'worker'].set(headers['webhook-id']!, { headers, body })
+        inbox[req.url === '/bare' ? 'bare' : req.url === '/loop' ? 'loop' : req.url === '/peer' ? 'peer' : 'worker'].set(headers['webhook-id']!, { headers, body })
       }
       res.writeHead(200).end()
     })
@@ -131,6 +135,13 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
     const loopSeconds = (performance.now() - loopStarted) / 1000
     const loopCpu = cpuShares(loopCpuBefore, cpuSeconds(server.pid!), loopSeconds)
     const loopRate = inbox.loop.size / loopSeconds
+
+    // The peer: graphile-worker with the same messages, concurrency and database.
+    const peer = await drainThroughPeer({
+      databaseUrl: stack.databaseUrl, url: `http://127.0.0.1:${SINK_PORT}/peer`, messages, concurrency: CONCURRENCY, received: () => inbox.peer.size, serverPid: server.pid!,
+    })
+    if (peer.recorded !== messages.length) throw new Error(`the peer recorded ${peer.recorded} of ${messages.length} attempts`)
+    const peerRate = inbox.peer.size / peer.seconds
     const deliveryRate = inbox.worker.size / workerSeconds
     const bareRate = inbox.bare.size / bareSeconds
     const ratio = Number((deliveryRate / bareRate).toFixed(2))
@@ -158,8 +169,17 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
       bareSender: { seconds: Number(bareSeconds.toFixed(2)), requestsPerSecond: Math.round(bareRate), cpuPercent: bareCpu },
       ratio: { value: ratio, goal: '>= 0.7', met: ratio >= 0.7 },
       sendPathOnly: { seconds: Number(loopSeconds.toFixed(2)), requestsPerSecond: Math.round(loopRate), cpuPercent: loopCpu, ratioToBare: Number((loopRate / bareRate).toFixed(2)) },
+      peer: {
+        queue: 'graphile-worker 0.16.6', seconds: Number(peer.seconds.toFixed(2)), deliveriesPerSecond: Math.round(peerRate), cpuPercent: peer.cpu, ratioToBare: Number((peerRate / bareRate).toFixed(2)),
+        arcwiseTimesPeer: { value: Number((deliveryRate / peerRate).toFixed(2)), goal: '>= 3', met: deliveryRate / peerRate >= 3 },
+      },
       cpuMicrosecondsPerMessage: {
         worker: perMessage(workerCpu, workerSeconds, inbox.worker.size), bareSender: perMessage(bareCpu, bareSeconds, inbox.bare.size), sendPathOnly: perMessage(loopCpu, loopSeconds, inbox.loop.size),
+        peer: perMessage(peer.cpu, peer.seconds, inbox.peer.size),
+      },
+      cpuPerDeliveryToBare: {
+        value: Number((perMessage(workerCpu, workerSeconds, inbox.worker.size) / perMessage(bareCpu, bareSeconds, inbox.bare.size)).toFixed(2)), goal: '<= 2',
+        met: perMessage(workerCpu, workerSeconds, inbox.worker.size) <= 2 * perMessage(bareCpu, bareSeconds, inbox.bare.size),
       },
       latency: {
         eventsPerSecond: latencyRate, postedPerSecond: timed.postedPerSecond, events: count, received: timed.received, points: template.sweep!.values.length,

@@ -8,6 +8,7 @@ import { cpus, totalmem } from 'node:os'
 import { join } from 'node:path'
 import { benchDelivery } from './bench-delivery'
 import { benchEngine } from './bench-engine'
+import { benchFairness } from './bench-fairness'
 import { benchIngest } from './bench-ingest'
 import { benchLatency } from './bench-latency'
 import { benchReprocess } from './bench-reprocess'
@@ -26,20 +27,22 @@ function versions() {
 
 const machine = { cores: cpus().length, cpu: cpus()[0]?.model ?? 'unknown', memoryGb: Math.round(totalmem() / 2 ** 30) }
 log(`benchmarks on ${machine.cores} cores (${machine.cpu}); about seven minutes`)
-log('1/6 engine')
+log('1/7 engine')
 const engine = benchEngine()
-log('2/6 ingest and the 10^6-point upload')
+log('2/7 ingest and the 10^6-point upload')
 const ingest = await benchIngest()
-log('3/6 delivery')
+log('3/7 delivery, beside the bare sender and graphile-worker')
 const delivery = await benchDelivery()
-log('4/6 ingest-to-receipt latency')
+log('4/7 fairness: healthy endpoints beside slow and failing ones')
+const fairness = await benchFairness()
+log('5/7 ingest-to-receipt latency')
 const latency = await benchLatency()
-log('5/6 a 200-acquisition sequence')
+log('6/7 a 200-acquisition sequence')
 const sequence = await benchSequence()
-log('6/6 reprocessing 10,000 stored acquisitions')
+log('7/7 reprocessing 10,000 stored acquisitions')
 const reprocess = await benchReprocess()
 
-const report = { kind: 'bench', at: new Date().toISOString(), machine, versions: versions(), engine, ingest, delivery, latency, sequence, reprocess }
+const report = { kind: 'bench', at: new Date().toISOString(), machine, versions: versions(), engine, ingest, delivery, fairness, latency, sequence, reprocess }
 mkdirSync(join(root, 'reports'), { recursive: true })
 const file = join(root, 'reports', `bench-${report.at.replace(/[:.]/g, '-')}.json`)
 writeFileSync(file, JSON.stringify(report, null, 2))
@@ -63,11 +66,22 @@ const rows: Record<string, { figure: string, baseline: string, ratio: string, go
   'delivery: send path alone (no claim, no record)': {
     figure: `${delivery.sendPathOnly.requestsPerSecond}/s`, baseline: `bare sender ${delivery.bareSender.requestsPerSecond}/s`, ratio: String(delivery.sendPathOnly.ratioToBare), goal: '', verdict: '',
   },
+  'delivery: peer, graphile-worker 0.16 (same messages, concurrency, database)': {
+    figure: `${delivery.peer.deliveriesPerSecond}/s`, baseline: `Arcwise ${delivery.worker.deliveriesPerSecond}/s`, ratio: `Arcwise ${delivery.peer.arcwiseTimesPeer.value}×`, goal: '≥ 3×', verdict: met(delivery.peer.arcwiseTimesPeer.met),
+  },
   'delivery: CPU of all processes per message': {
-    figure: `worker ${delivery.cpuMicrosecondsPerMessage.worker} µs`, baseline: `bare ${delivery.cpuMicrosecondsPerMessage.bareSender} µs, send path ${delivery.cpuMicrosecondsPerMessage.sendPathOnly} µs`, ratio: '', goal: '', verdict: '',
+    figure: `worker ${delivery.cpuMicrosecondsPerMessage.worker} µs`, baseline: `bare ${delivery.cpuMicrosecondsPerMessage.bareSender} µs, send path ${delivery.cpuMicrosecondsPerMessage.sendPathOnly} µs, peer ${delivery.cpuMicrosecondsPerMessage.peer} µs`,
+    ratio: String(delivery.cpuPerDeliveryToBare.value), goal: '≤ 2× bare', verdict: met(delivery.cpuPerDeliveryToBare.met),
   },
   'delivery: ingest answer to receipt, 200 events/s': {
     figure: `p50 ${delivery.latency.ms.p50} ms, p99 ${delivery.latency.ms.p99} ms`, baseline: '', ratio: '', goal: 'p99 < 250 ms', verdict: met(delivery.latency.met),
+  },
+  'fairness: 20 healthy endpoints, 200 events/s, with 10 s, hanging and 503 endpoints': {
+    figure: `p50 ${fairness.withBadEndpoints.ms.p50} ms, p99 ${fairness.withBadEndpoints.ms.p99} ms (${fairness.withBadEndpoints.received}/${fairness.withBadEndpoints.events})`,
+    baseline: `alone p99 ${fairness.alone.ms.p99} ms`, ratio: '', goal: 'p99 < 1 s', verdict: met(fairness.p99.met),
+  },
+  'fairness: worst healthy endpoint, p99 with the bad ones / alone': {
+    figure: `${fairness.worstEndpointP99Ratio.withBad.p99} ms`, baseline: `alone ${fairness.worstEndpointP99Ratio.alone.p99} ms`, ratio: String(fairness.worstEndpointP99Ratio.value), goal: '≤ 2', verdict: met(fairness.worstEndpointP99Ratio.met),
   },
   'ingest-to-receipt latency': { figure: `p50 ${latency.latencyMs.p50} ms, p99 ${latency.latencyMs.p99} ms`, baseline: '', ratio: '', goal: '', verdict: `${latency.received}/${latency.acquisitions} received` },
   'sequence: 200 acquisitions (1,000 points) end to end': { figure: `median ${sequence.medianMs} ms`, baseline: `runs ${sequence.runs.join(', ')} ms`, ratio: '', goal: '< 2 s', verdict: met(sequence.met) },

@@ -108,6 +108,12 @@ const env = {
   NUXT_WEBHOOKS_TIMEOUT_MS: '1000',
   NUXT_WEBHOOKS_LEASE_SECONDS: '5',
   NUXT_WEBHOOKS_POLL_MS: '250',
+  // An open circuit (10 failures in a row) holds an endpoint's retries until a probe is
+  // received, so "never" cannot spend its schedule: it ends dead the production way, disabled
+  // after failing without a success for a while (72 s here, 3 days by default), with the
+  // circuit probing every 2 s (30 s by default) so the outages' backlogs resume quickly.
+  NUXT_WEBHOOKS_CIRCUIT_PROBE_SECONDS: '2',
+  NUXT_WEBHOOKS_DISABLE_AFTER_HOURS: '0.02',
   NUXT_DIAGNOSTICS: 'true',
 }
 const processes: Partial<Record<Name, ChildProcess>> = {}

@@ -18,6 +18,15 @@ export const TEST_EVENT = 'webhook.test'
 const endpointUrl = z.string({ error: 'is required' }).trim().max(2000, 'must be at most 2000 characters')
   .pipe(z.url({ protocol: /^https?$/, error: 'must be an http or https URL' }))
 
+// Per-endpoint delivery limits (issue 22). These are the widest bounds; the hub's admins set
+// the ones integrators may use (the server names the field when a value is past them).
+const maxInFlight = z.number({ error: 'must be a whole number' }).int('must be a whole number').min(1, 'must be at least 1').max(1000, 'may be at most 1000')
+  .nullable().describe('sends in flight at once to this endpoint, across every worker; null: the hub\'s default')
+const ratePerSecond = z.number({ error: 'must be a number' }).min(0.1, 'must be at least 0.1 a second').max(100_000, 'may be at most 100000 a second')
+  .nullable().describe('sends per second at most; null: no limit beyond the in-flight one')
+const ordered = z.boolean({ error: 'must be true or false' })
+  .describe('deliver one at a time in the order events were recorded: the next waits until the one before succeeds or dies')
+
 export const endpointInput = z.object({
   url: endpointUrl,
   description: z.string().trim().max(500).default(''),
@@ -26,6 +35,9 @@ export const endpointInput = z.object({
   labIds: z.array(uuid).max(100).default([]).transform(s => [...new Set(s)]),
   // result-event v2: v1 (deprecated) does not describe processed sequences.
   schemaVersion: z.number().int().min(1).default(2),
+  maxInFlight: maxInFlight.default(null),
+  ratePerSecond: ratePerSecond.default(null),
+  ordered: ordered.default(false),
 }).strict()
 export type EndpointInput = z.infer<typeof endpointInput>
 
@@ -37,6 +49,9 @@ export const endpointUpdate = z.object({
   schemaVersion: z.number().int().min(1).optional(),
   // Pause and resume; `active` also brings a disabled endpoint back.
   status: z.enum(['active', 'paused'], { error: 'must be active or paused' }).optional(),
+  maxInFlight: maxInFlight.optional(),
+  ratePerSecond: ratePerSecond.optional(),
+  ordered: ordered.optional(),
 }).strict()
 export type EndpointUpdate = z.infer<typeof endpointUpdate>
 

@@ -18,6 +18,8 @@ const webhookEnv = {
   NUXT_WEBHOOKS_LEASE_SECONDS: '2',
   NUXT_WEBHOOKS_CONCURRENCY: '4',
   NUXT_WEBHOOKS_POLL_MS: '200',
+  // An endpoint's circuit (after 10 failures in a row) probes every 2 s rather than 30.
+  NUXT_WEBHOOKS_CIRCUIT_PROBE_SECONDS: '2',
 }
 await useArcwise({ env: { ...webhookEnv, NUXT_PROCESS_ROLE: 'web' } })
 
@@ -97,8 +99,8 @@ describe('deliveries survive faults', () => {
   })
 
   it('a backlog larger than one claim drains from a single wake-up, without waiting for the next poll', async () => {
-    // A claim of 128 (16 sends in flight) takes at most 64 from each endpoint while two are
-    // active, so this backlog of 100 needs two claims; the poll is ten minutes away.
+    // An endpoint has at most 16 deliveries leased (its in-flight limit), so this backlog of
+    // 100 needs seven claims, each woken by the record before it; the poll is ten minutes away.
     const { ids, tally } = await owedDeliveries(100)
     await grantedPartnerWithEndpoint(`http://127.0.0.1:${SINK_PORT}/idle`)
     const [active] = await testDb()`select count(*)::int as n from webhook_endpoints where status = 'active'`

@@ -53,6 +53,18 @@ describe('webhooks in the console', () => {
     await page.getByRole('button', { name: 'Save endpoint' }).click()
     await expect.poll(() => page.getByRole('listitem').first().textContent()).toContain('LIMS intake, night shift')
 
+    // Its delivery limits (issue 22): past the hub's bound the field says so; within it they are kept.
+    await page.getByRole('button', { name: 'Edit' }).click()
+    const edit = page.getByRole('form', { name: 'Edit the endpoint' })
+    await edit.getByLabel('Sends in flight at most').fill('100')
+    await page.getByRole('button', { name: 'Save endpoint' }).click()
+    await expect.poll(() => edit.textContent()).toContain('may be at most 64 on this hub')
+    await edit.getByLabel('Sends in flight at most').fill('8')
+    await edit.getByLabel('Deliver in order').check()
+    await shot(page, 'webhooks-endpoint-limits')
+    await page.getByRole('button', { name: 'Save endpoint' }).click()
+    await expect.poll(() => page.getByRole('listitem').first().textContent()).toContain('8 in flight, in order')
+
     // A bad URL is refused on the field it names: a private address, and a host name that
     // resolves to loopback (looked up when the endpoint is saved).
     await page.getByLabel('Endpoint URL').fill('http://10.0.0.5/hook')

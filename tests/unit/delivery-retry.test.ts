@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest'
-import { nextDelaySeconds, retryAfterSeconds } from '../../server/services/delivery/retry'
+import { nextDelaySeconds, parseRetrySchedule, retryAfterSeconds } from '../../server/services/delivery/retry'
 
 // Retry-After (RFC 9110 §10.2.3): delay-seconds or an HTTP-date; the retry schedule with
 // ±10 % jitter, and Retry-After honoured when it asks for longer (capped at a day).
@@ -64,5 +64,15 @@ describe('nextDelaySeconds', () => {
     expect(nextDelaySeconds(1, 3600, schedule, () => 0.5)).toBe(3600)
     expect(nextDelaySeconds(1, 5, schedule, () => 0.5)).toBeCloseTo(10)
     expect(nextDelaySeconds(1, 10 * 86_400, schedule, () => 0.5)).toBe(86_400)
+  })
+})
+
+describe('the retry schedule setting', () => {
+  const fallback = [5, 300]
+  it.each([
+    ['', fallback], [undefined, fallback], [' , ', fallback], ['x', fallback],
+    ['1,1,1', [1, 1, 1]], [' 2, 3 ', [2, 3]], ['0', [0]], ['4,-1,6', [4, 6]],
+  ] as const)('%j reads as %j (an empty setting is the default, not one immediate retry)', (text, expected) => {
+    expect(parseRetrySchedule(text, fallback)).toEqual(expected)
   })
 })

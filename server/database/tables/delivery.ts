@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm'
-import { bigserial, boolean, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
+import { bigserial, boolean, doublePrecision, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
 import { createdAt, updatedAt } from './columns'
 import { users } from './access'
 import { partners } from './orgs'
@@ -26,6 +26,21 @@ export const webhookEndpoints = pgTable('webhook_endpoints', {
   previousSecretUntil: timestamp('previous_secret_until', { withTimezone: true }),
   // Start of the current run of failures (null after a success).
   failingSince: timestamp('failing_since', { withTimezone: true }),
+  // Fairness (issue 22). Sends in flight at once to this endpoint, across every worker
+  // process; null takes the hub's default (`webhooks.endpointInFlight`).
+  maxInFlight: integer('max_in_flight'),
+  // Sends per second at most (null: no limit), kept by a generic cell rate algorithm whose
+  // theoretical arrival time is `rateNextAt` (ITU-T I.371, as in ATM traffic policing).
+  ratePerSecond: doublePrecision('rate_per_second'),
+  rateNextAt: timestamp('rate_next_at', { withTimezone: true }),
+  // Deliveries one at a time in the order their events were recorded: the next waits until
+  // the one before succeeds or dies.
+  ordered: boolean('ordered').notNull().default(false),
+  // Nothing is sent before this time: a Retry-After (429, 503), or the circuit's next probe.
+  blockedUntil: timestamp('blocked_until', { withTimezone: true }),
+  // Failed attempts since the last success; at `webhooks.circuitFailures` the circuit opens
+  // and one delivery probes the endpoint before the backlog is sent.
+  consecutiveFailures: integer('consecutive_failures').notNull().default(0),
   createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
   createdAt: createdAt(),
   updatedAt: updatedAt(),
@@ -60,6 +75,10 @@ export const deliveries = pgTable('deliveries', {
   // The claim walks each active endpoint's due deliveries in time order, so its cost follows
   // the number of endpoints rather than the backlog (a paused endpoint's pile is never read).
   index('deliveries_endpoint_due_idx').on(t.endpointId, t.nextAttemptAt).where(sql`status = 'pending'`),
+  // An endpoint's sends in flight (leased rows), counted by every claim for its in-flight limit.
+  index('deliveries_endpoint_leased_idx').on(t.endpointId, t.leaseUntil).where(sql`status = 'pending' and lease_until is not null`),
+  // An ordered endpoint's next delivery: its oldest waiting one.
+  index('deliveries_endpoint_order_idx').on(t.endpointId, t.createdAt).where(sql`status = 'pending'`),
   index('deliveries_endpoint_idx').on(t.endpointId, t.createdAt),
   uniqueIndex('deliveries_event_endpoint_idx').on(t.eventId, t.endpointId),
 ])

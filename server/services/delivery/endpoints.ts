@@ -7,6 +7,7 @@ import { GuardRefusal } from './addressGuard'
 import { checkOutboundUrlResolved } from './outbound'
 import { deliveryMessage, signedHeaders } from './message'
 import { secretsOf, sendOnce } from './send'
+import { deliverySettings } from './settings'
 
 // A partner's webhook endpoints. The signing secret is Standard Webhooks' `whsec_` + base64
 // of 32 random bytes, sealed at rest, shown when made and on an explicit reveal.
@@ -15,7 +16,9 @@ const publicColumns = {
   id: webhookEndpoints.id, partnerId: webhookEndpoints.partnerId, url: webhookEndpoints.url, description: webhookEndpoints.description,
   eventTypes: webhookEndpoints.eventTypes, labIds: webhookEndpoints.labIds, schemaVersion: webhookEndpoints.schemaVersion,
   status: webhookEndpoints.status, disabledReason: webhookEndpoints.disabledReason, failingSince: webhookEndpoints.failingSince,
-  previousSecretUntil: webhookEndpoints.previousSecretUntil, createdAt: webhookEndpoints.createdAt, updatedAt: webhookEndpoints.updatedAt,
+  previousSecretUntil: webhookEndpoints.previousSecretUntil,
+  maxInFlight: webhookEndpoints.maxInFlight, ratePerSecond: webhookEndpoints.ratePerSecond, ordered: webhookEndpoints.ordered,
+  consecutiveFailures: webhookEndpoints.consecutiveFailures, blockedUntil: webhookEndpoints.blockedUntil, createdAt: webhookEndpoints.createdAt, updatedAt: webhookEndpoints.updatedAt,
 }
 
 function newSecret() {
@@ -70,6 +73,13 @@ async function checkLabsGranted(partnerId: string, labIds: string[]) {
   if (i >= 0) throw fieldProblem(`labIds.${i}`, 'this lab has not granted your partner access to its results')
 }
 
+/** The per-endpoint limits within the bounds the hub's admins set (runtime config). */
+function checkLimits(input: { maxInFlight?: number | null, ratePerSecond?: number | null }) {
+  const { endpointMaxInFlight, endpointMaxRatePerSecond } = deliverySettings()
+  if (input.maxInFlight != null && input.maxInFlight > endpointMaxInFlight) throw fieldProblem('maxInFlight', `may be at most ${endpointMaxInFlight} on this hub`)
+  if (input.ratePerSecond != null && input.ratePerSecond > endpointMaxRatePerSecond) throw fieldProblem('ratePerSecond', `may be at most ${endpointMaxRatePerSecond} a second on this hub`)
+}
+
 async function checkSchemaVersion(version: number) {
   const row = await useDb().query.exchangeSchemas.findFirst({ where: (s, { and, eq }) => and(eq(s.name, 'result-event'), eq(s.version, version)) })
   if (!row || row.status === 'retired') throw fieldProblem('schemaVersion', `no current result-event schema v${version}`)
@@ -86,6 +96,7 @@ export async function getEndpoint(partnerId: string, endpointId: string) {
 }
 
 export async function createEndpoint(audit: AuditContext, partnerId: string, input: EndpointInput) {
+  checkLimits(input)
   await checkUrlField(input.url)
   await checkLabsGranted(partnerId, input.labIds)
   await checkSchemaVersion(input.schemaVersion)
@@ -106,13 +117,14 @@ export async function createEndpoint(audit: AuditContext, partnerId: string, inp
 
 export async function updateEndpoint(audit: AuditContext, partnerId: string, endpointId: string, input: EndpointUpdate) {
   const current = await getEndpoint(partnerId, endpointId)
+  checkLimits(input)
   if (input.url) await checkUrlField(input.url)
   if (input.labIds) await checkLabsGranted(partnerId, input.labIds)
   if (input.schemaVersion) await checkSchemaVersion(input.schemaVersion)
   return useDb().transaction(async (tx) => {
     const resumed = input.status === 'active' && current.status !== 'active'
     const [row] = await tx.update(webhookEndpoints).set({
-      ...input, updatedAt: new Date(), ...(resumed ? { disabledReason: null, failingSince: null } : {}),
+      ...input, updatedAt: new Date(), ...(resumed ? { disabledReason: null, failingSince: null, consecutiveFailures: 0, blockedUntil: null } : {}),
     }).where(and(eq(webhookEndpoints.id, endpointId), eq(webhookEndpoints.partnerId, partnerId))).returning(publicColumns)
     const action = input.status && input.status !== current.status ? (input.status === 'paused' ? 'endpoint.paused' : 'endpoint.resumed') : 'endpoint.updated'
     await recordAudit(tx, { ...audit, action, targetType: 'webhook-endpoint', targetId: endpointId, detail: { partnerId, ...input } })

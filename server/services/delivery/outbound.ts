@@ -70,9 +70,12 @@ function guardedLookup(hostname: string, options: { all?: boolean }, callback: L
 
 let guardedAgent: Agent | undefined
 let openAgent: Agent | undefined
+// No cap on connections per origin: the claim bounds each endpoint's sends in flight, and a
+// pool cap per host made a slow endpoint's hanging sends hold up every other endpoint on the
+// same host (one partner's paths, or the benchmark's receivers on one port).
 function agentFor(url: URL): Agent {
-  if (isAllowlisted(url)) return (openAgent ??= new Agent({ connections: 64 }))
-  return (guardedAgent ??= new Agent({ connections: 64, connect: { lookup: guardedLookup as never } }))
+  if (isAllowlisted(url)) return (openAgent ??= new Agent())
+  return (guardedAgent ??= new Agent({ connect: { lookup: guardedLookup as never } }))
 }
 
 export interface OutboundResponse { statusCode: number, headers: Record<string, string>, excerpt: string }

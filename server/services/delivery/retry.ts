@@ -19,3 +19,12 @@ export function nextDelaySeconds(attempts: number, retryAfterS: number | null, s
   return Math.max(jittered, Math.min(retryAfterS ?? 0, 86_400))
 }
 
+
+/**
+ * The retry schedule from its setting (seconds, comma-separated), or `fallback` when it names
+ * none. An empty setting once read as [0] (Number('') is 0): one immediate retry, then dead.
+ */
+export function parseRetrySchedule(text: unknown, fallback: readonly number[]): readonly number[] {
+  const steps = String(text ?? '').split(',').map(s => s.trim()).filter(s => s !== '').map(Number).filter(n => Number.isFinite(n) && n >= 0)
+  return steps.length ? steps : fallback
+}

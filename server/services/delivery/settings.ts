@@ -1,6 +1,7 @@
 import { hostname } from 'node:os'
 import { randomUUID } from 'node:crypto'
 import { DEFAULT_RETRY_SCHEDULE_S } from '#shared/schemas/webhooks'
+import { parseRetrySchedule } from './retry'
 
 // What the delivery worker's phases share: this worker's lease name and its settings.
 
@@ -14,12 +15,16 @@ export const deliverySettings = () => (settings ??= readConfig())
 
 function readConfig() {
   const { webhooks: w, appUrl } = useRuntimeConfig()
-  const schedule = String(w.retrySchedule ?? '').split(',').map(Number).filter(n => Number.isFinite(n) && n >= 0)
   return {
-    schedule: schedule.length ? schedule : DEFAULT_RETRY_SCHEDULE_S,
+    schedule: parseRetrySchedule(w.retrySchedule, DEFAULT_RETRY_SCHEDULE_S),
     timeoutMs: Number(w.timeoutMs),
     leaseSeconds: Number(w.leaseSeconds),
     concurrency: Number(w.concurrency),
+    endpointInFlight: Number(w.endpointInFlight),
+    endpointMaxInFlight: Number(w.endpointMaxInFlight),
+    endpointMaxRatePerSecond: Number(w.endpointMaxRatePerSecond),
+    circuitFailures: Number(w.circuitFailures),
+    circuitProbeSeconds: Number(w.circuitProbeSeconds),
     maxPayloadBytes: Number(w.maxPayloadBytes),
     disableAfterMs: Number(w.disableAfterHours) * 3600_000,
     // Thin messages name where the whole result is read.

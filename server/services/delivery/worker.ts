@@ -1,6 +1,6 @@
 import { and, eq } from 'drizzle-orm'
 import { deliveries } from '../../database/schema'
-import { claimDueDeliveries, SHARE_MIN } from './claim'
+import { claimDueDeliveries } from './claim'
 import { recordAttempts } from './record'
 import { send, withMessages, type Queued, type Sent } from './send'
 import { deliverySettings, workerId } from './settings'
@@ -73,7 +73,7 @@ class DeliveryPipeline {
       })
     }
     // The next claim runs while the last of the queue is sent, unless recording lags behind.
-    const batch = concurrency * GROUP_PER_SLOT
+    const batch = claimSize(concurrency)
     if (!this.stopped && this.more && !this.claiming && this.queue.length < concurrency * 2 && this.finished.length < batch * 4) {
       this.more = false
       this.claiming = true
@@ -91,9 +91,9 @@ class DeliveryPipeline {
     try {
       const rows = await claimDueDeliveries(batch, lease)
       this.queue.push(...withMessages(rows))
-      // A claim can come back short of the batch while more is due (each endpoint offers only
-      // its share), but not short of the least share.
-      if (rows.length >= Math.min(batch, SHARE_MIN)) this.more = true
+      // A full claim may have left due work behind. A short one took all that the endpoints'
+      // limits allowed: the next record frees slots and claims again.
+      if (rows.length >= batch) this.more = true
     }
     catch (error) {
       logError('[delivery] claiming failed; the next poll tries again', error)
@@ -106,7 +106,7 @@ class DeliveryPipeline {
     if (this.recording || !this.finished.length) return
     // A group waits (at most RECORD_WAIT_MS) to grow while sends are in flight; what finished
     // when nothing else is being sent, or when stopping, is recorded at once.
-    if (this.finished.length < deliverySettings().concurrency * GROUP_PER_SLOT && this.sending && !this.stopped) {
+    if (this.finished.length < Math.min(RECORD_GROUP, deliverySettings().concurrency * GROUP_PER_SLOT) && this.sending && !this.stopped) {
       this.recordTimer ??= setTimeout(() => {
         this.recordTimer = undefined
         this.recordNow()
@@ -126,6 +126,8 @@ class DeliveryPipeline {
       .catch(error => logError('[delivery] recording attempts failed; their leases run out and they are sent again', error))
       .finally(() => {
         this.recording = false
+        // The recorded deliveries' slots are free again: their endpoints may have due work.
+        this.more = true
         this.record()
         this.pump()
       })
@@ -139,11 +141,13 @@ class DeliveryPipeline {
 }
 
 // A claim, and the group a record waits for, is this many deliveries per send slot (128 at
-// the default concurrency of 16). At most RECORD_GROUP attempts are recorded by one
-// statement, and a smaller group waits at most RECORD_WAIT_MS for more.
+// a concurrency of 16), a claim at most CLAIM_MAX. At most RECORD_GROUP attempts are
+// recorded by one statement, and a smaller group waits at most RECORD_WAIT_MS for more.
 const GROUP_PER_SLOT = 8
+const CLAIM_MAX = 512
 const RECORD_GROUP = 256
 const RECORD_WAIT_MS = 25
+const claimSize = (concurrency: number) => Math.min(CLAIM_MAX, concurrency * GROUP_PER_SLOT)
 
 const worker = new DeliveryPipeline()
 let timer: NodeJS.Timeout | undefined
