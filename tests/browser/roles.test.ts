@@ -29,7 +29,8 @@ describe('each role in the console', () => {
     await expectAccessible(page)
     await shot(page, 'signed-out-sign-in')
     await signInThroughForm(page, demoUser('admin').email, demoUser('admin').password)
-    await page.waitForURL(/\/console\/labs$/)
+    // By path: the sign-in URL itself ends in `next=/console/labs`.
+    await page.waitForURL(u => u.pathname === '/console/labs')
     await expect.poll(() => page.getByRole('heading', { level: 1 }).textContent()).toBe('Labs')
   })
 
