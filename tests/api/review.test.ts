@@ -245,6 +245,74 @@ describe('corrections', () => {
   })
 })
 
+/** A newer version of a result as reprocessing writes it: held, superseding `of`, with a reason. */
+async function newVersion(ctx: Reviewed, of: { id: string, version: number }, reason = 'Calibration re-fitted with the corrected reference gas.') {
+  const [row] = await ctx.sql<{ id: string }[]>`
+    insert into results (acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason)
+    select acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, ${of.version + 1}, id, ${reason} from results where id = ${of.id} returning id`
+  await ctx.sql`update results set superseded_by = ${row!.id} where id = ${of.id}`
+  return { id: row!.id, version: of.version + 1 }
+}
+
+describe('versions of one acquisition', () => {
+  it('a held version that a newer one replaces cannot be released and leaves the review queue, until the newer one is rejected', async () => {
+    const ctx = await reviewedLab()
+    const acq = await ctx.post()
+    const v2 = await newVersion(ctx, { id: acq.result.id, version: 1 })
+    const queue = (await ctx.reviewer.get(`${ctx.base}/review`)).body.results
+    expect(queue.items.map((r: any) => r.resultId)).toEqual([v2.id])
+    expect(queue.total).toBe(1)
+    const refused = await ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {})
+    expect(refused.status).toBe(409)
+    expect(refused.body.type).toBe('urn:arcwise:problem:superseded')
+    expect((await ctx.sql`select review_state from results where id = ${acq.result.id}`)[0]!.review_state).toBe('held')
+    expect((await ctx.sql`select count(*)::int as n from events where lab_id = ${ctx.lab.id}`)[0]!.n).toBe(0)
+    // The newer version rejected, the older one is the one to review again.
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v2.id}/reject`, { comment: 'Wrong reference gas chosen.' })).status).toBe(200)
+    expect((await ctx.reviewer.get(`${ctx.base}/review`)).body.results.items.map((r: any) => r.resultId)).toEqual([acq.result.id])
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {})).status).toBe(200)
+  })
+
+  it('two versions released at the same moment: one result.released, never two, and partners read the newer', async () => {
+    const ctx = await reviewedLab()
+    const acq = await ctx.post()
+    const v2 = await newVersion(ctx, { id: acq.result.id, version: 1 })
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v2.id}/reject`, { comment: 'Re-run the fit.' })).status).toBe(200)
+    const v3 = await newVersion(ctx, v2)
+    // Versions 1 and 3 are both held and releasable. The lab's row (its event counter) is held
+    // here, so that both releases are in flight at once before either commits.
+    let releases: Promise<{ status: number, body: any }>[] = []
+    await ctx.sql.begin(async (tx) => {
+      await tx`select 1 from labs where id = ${ctx.lab.id} for update`
+      releases = [ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {}), ctx.reviewer2.post(`${ctx.base}/results/${v3.id}/release`, {})]
+      await new Promise(r => setTimeout(r, 1500))
+    })
+    const answers = await Promise.all(releases)
+    expect(answers.map(a => a.status)).toContain(200)
+    const events = await ctx.sql<{ type: string }[]>`select type from events where lab_id = ${ctx.lab.id} order by sequence`
+    expect(events.filter(e => e.type === 'result.released')).toHaveLength(1)
+    expect((await ctx.asPartner(`/api/v1/results/${acq.id}`)).body.result.review).toMatchObject({ version: 3, state: 'released' })
+  })
+
+  it('partners are told a correction supersedes the version they were shown, not a rejected one in between', async () => {
+    const ctx = await reviewedLab()
+    const acq = await ctx.post()
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {})).status).toBe(200)
+    const v2 = await newVersion(ctx, { id: acq.result.id, version: 1 })
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v2.id}/reject`, { comment: 'Wrong reference gas chosen.' })).status).toBe(200)
+    const v3 = await newVersion(ctx, v2, 'Calibration re-fitted a second time.')
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v3.id}/release`, {})).body.event).toBe('result.corrected')
+    const message = await until('the result.corrected message', () => ctx.messages().find(m => m.parsed.type === 'result.corrected'))
+    expect(message.parsed.data.correction).toMatchObject({ previousResultId: acq.result.id, previousVersion: 1 })
+    expect(message.parsed.data.result.review).toMatchObject({ version: 3, supersedes: acq.result.id })
+    const seen = await partnerSees(ctx, acq.id)
+    expect(seen.read.body.result.review).toMatchObject({ version: 3, supersedes: acq.result.id })
+    expect(seen.feed.find(e => e.type === 'result.corrected')!.data.result.review.supersedes).toBe(acq.result.id)
+    // The lab's own view keeps the lineage as it is.
+    expect((await ctx.reviewer.get(`${ctx.base}/acquisitions/${acq.id}`)).body.result.review.supersedes).toBe(v2.id)
+  })
+})
+
 describe('four eyes and automatic release', () => {
   it('under four eyes, whoever uploaded a result cannot release it; another reviewer can', async () => {
     const ctx = await reviewedLab()
