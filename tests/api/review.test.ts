@@ -410,6 +410,12 @@ describe('bulk release', () => {
   })
 })
 
+/** The results of a sequence's members, by position. */
+async function memberResultIds(ctx: Reviewed, sequenceId: string) {
+  return ctx.sql<{ id: string, position: number }[]>`select r.id, si.position from sequence_items si join results r on r.acquisition_id = si.acquisition_id
+    where si.sequence_id = ${sequenceId} and r.superseded_by is null order by si.position`
+}
+
 describe('sequences are held like results', () => {
   it('a processed sequence sends sequence.processed only when released, with who released it', async () => {
     const ctx = await reviewedLab()
@@ -424,6 +430,13 @@ describe('sequences are held like results', () => {
     const queue = await ctx.reviewer.get(`${ctx.base}/review`)
     expect(queue.body.sequences.map((s: { id: string }) => s.id)).toEqual([view.id])
     expect((await ctx.reviewer.post(`${ctx.base}/sequences/${view.id}/reject`, {})).status).toBe(422)
+    // Its members' results are held: the outcome built on them cannot go out before them.
+    const early = await ctx.reviewer.post(`${ctx.base}/sequences/${view.id}/release`, {})
+    expect(early.status).toBe(409)
+    expect(early.body.type).toBe('urn:arcwise:problem:members-not-released')
+    const memberResults = await memberResultIds(ctx, view.id)
+    expect(early.body.detail).toContain(`position ${memberResults[0]!.position} `)
+    expect((await ctx.reviewer.post(`${ctx.base}/results/release`, { resultIds: memberResults.map(m => m.id) })).status).toBe(200)
     expect((await ctx.reviewer.post(`${ctx.base}/sequences/${view.id}/release`, { comment: 'Standards within limits.' })).status).toBe(200)
     const message = await until('the sequence.processed message', () => ctx.messages().find(m => m.parsed.type === 'sequence.processed'))
     const data = sequenceEventData.parse(message.parsed.data)
@@ -437,19 +450,25 @@ describe('sequences are held like results', () => {
     expect(actions).toEqual(['sequence.released', 'sequence.retracted'])
   })
 
-  it('a method version that releases automatically overrides the lab\'s review policy for its sequences', async () => {
+  it('a method version that releases automatically releases a sequence at once only when its members\' results are released', async () => {
     const ctx = await reviewedLab()
     await setRelease(ctx.manager, ctx.lab.id, { releasePolicy: 'review', autoReleaseAllows: everyQcCode })
     const method = await labApi(ctx.key.secret).post('/api/v1/instruments/ms-1/methods', { name: 'CO2 method', validFrom: '2026-01-01T00:00:00Z', definition: caseMethod(cases.CO2!), releasePolicy: 'auto' })
     expect(method.status).toBe(201)
     expect(method.body.releasePolicy).toBe('auto')
     const built = buildSequence(cases.CO2!, 5, { noise: false, drawStandards: false })
-    const res = await labApi(ctx.key.secret).post('/api/v1/sequences', { instrument: 'ms-1', sequenceId: unique('seq'), acquisitions: membersOf(built.items) })
+    const held = await labApi(ctx.key.secret).post('/api/v1/sequences', { instrument: 'ms-1', sequenceId: unique('seq'), acquisitions: membersOf(built.items) })
+    expect(held.status).toBe(201)
+    // The sequence's own acquisitions follow the lab's policy (held), so its outcome waits too.
+    expect((await ctx.reviewer.get(`${ctx.base}/review`)).body.results.total).toBe(built.items.length)
+    expect(held.body.review).toMatchObject({ state: 'held' })
+    // With the lab's results released at once, the method's rule releases the sequence at once.
+    await setRelease(ctx.manager, ctx.lab.id, { releasePolicy: 'auto', autoReleaseAllows: everyQcCode })
+    const res = await labApi(ctx.key.secret).post('/api/v1/sequences', { instrument: 'ms-1', sequenceId: unique('seq'), acquisitions: membersOf(buildSequence(cases.CO2!, 5, { noise: false, drawStandards: false }).items) })
     expect(res.status).toBe(201)
     expect(res.body.review).toMatchObject({ state: 'released', reviewedBy: null })
     const message = await until('the automatic sequence.processed message', () => ctx.messages().find(m => m.parsed.type === 'sequence.processed'))
     expect(sequenceEventData.parse(message.parsed.data)).toMatchObject({ id: res.body.id, reviewedBy: null })
-    // The sequence's own acquisitions follow the lab's policy: held.
-    expect((await ctx.reviewer.get(`${ctx.base}/review`)).body.results.total).toBe(built.items.length)
+    expect(ctx.messages().filter(m => m.parsed.type === 'sequence.processed').map(m => m.parsed.data.id)).toEqual([res.body.id])
   })
 })
