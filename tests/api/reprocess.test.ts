@@ -254,6 +254,35 @@ describe('a reprocessing job killed mid-way', () => {
   })
 })
 
+describe('a database fault while reprocessing', () => {
+  it('fails no item: the batch rolls back, the items stay pending, and the job finishes once the database answers again', async () => {
+    const { instrument, manager, acquired, base } = await labWithAcquisitions(2, 1000)
+    expect((await manager.post(`${base}/instruments/${instrument.id}/calibrations`, backDated)).status).toBe(201)
+    const state = async (id: string) => (await sql<[{ processed: number, failed: number, state: string, pending: number }]>`
+      select processed, failed, state, (select count(*) from reprocess_items where job_id = ${id} and state = 'pending')::int as pending
+      from reprocess_jobs where id = ${id}`)[0]
+    let jobId = ''
+    // The worker reads the calibration in force for each acquisition: with its table gone, that read fails.
+    await sql`alter table calibrations rename to calibrations_offline`
+    try {
+      const created = await manager.post(`${base}/reprocess-jobs`, { instrumentId: instrument.id, reason: 'Database fault drill' })
+      expect(created.status, JSON.stringify(created.body)).toBe(201)
+      jobId = created.body.id
+      await until('the worker to take the job', async () => (await state(jobId)).state !== 'queued', 30_000)
+      await new Promise(r => setTimeout(r, 2000))
+      expect(await state(jobId)).toMatchObject({ state: 'running', processed: 0, failed: 0, pending: 2 })
+    }
+    finally {
+      await sql`alter table calibrations_offline rename to calibrations`
+    }
+    // Taken again once the lease runs out: every acquisition reprocessed, none failed.
+    await until('the job to finish', async () => (await state(jobId)).state === 'done', 60_000)
+    expect(await state(jobId)).toMatchObject({ processed: 2, failed: 0, pending: 0 })
+    const [{ n }] = await sql<[{ n: number }]>`select count(*)::int as n from results where reprocess_job_id = ${jobId} and acquisition_id in ${sql(acquired.map(a => a.id))}`
+    expect(n).toBe(2)
+  })
+})
+
 describe('refusals', () => {
   it('names the field of each bad selection and stores nothing; other roles and labs are refused', async () => {
     const { instrument, manager, base, lab, admin } = await labWithAcquisitions(1, 1000)
