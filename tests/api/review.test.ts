@@ -4,6 +4,7 @@ import { Webhook } from 'standardwebhooks'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { hashPassword } from '../../scripts/lib/password'
 import { everyQcCode } from '../../scripts/lib/demo'
+import { exchangeSchemaSources } from '../../shared/schemas/exchange'
 import { acquisitionView, eventFeedView, peakListView, resultRetractedData } from '../../shared/schemas/responses'
 import { sequenceEventData, sequenceView } from '../../shared/schemas/sequences'
 import type { Role } from '../../shared/types/roles'
@@ -310,6 +311,32 @@ describe('versions of one acquisition', () => {
     expect(seen.feed.find(e => e.type === 'result.corrected')!.data.result.review.supersedes).toBe(acq.result.id)
     // The lab's own view keeps the lineage as it is.
     expect((await ctx.reviewer.get(`${ctx.base}/acquisitions/${acq.id}`)).body.result.review.supersedes).toBe(v2.id)
+  })
+})
+
+describe('lifecycle events and the exchange schemas', () => {
+  it('result.corrected and result.retracted are described by result-event v2 and go only to endpoints on v2; a v1 endpoint keeps result.released', async () => {
+    const ctx = await reviewedLab()
+    const v1Path = `/review-v1-${unique('x')}`
+    const v1Endpoint = await ctx.admin.post(`/api/console/partners/${ctx.partner.id}/endpoints`, { url: `http://127.0.0.1:${SINK_PORT}${v1Path}`, schemaVersion: 1 })
+    expect(v1Endpoint.status, JSON.stringify(v1Endpoint.body)).toBe(201)
+    const acq = await ctx.post()
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {})).status).toBe(200)
+    const v2 = await newVersion(ctx, { id: acq.result.id, version: 1 })
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v2.id}/release`, {})).body.event).toBe('result.corrected')
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v2.id}/retract`, { reason: 'Reference gas contaminated.' })).status).toBe(200)
+    await until('the retraction at the v2 endpoint', () => ctx.messages().some(m => m.parsed.type === 'result.retracted'))
+    const resultEventV2 = exchangeSchemaSources['result-event'][2]
+    for (const m of ctx.messages()) expect(() => resultEventV2.parse(withoutEventHead(m.parsed.data)), m.parsed.type).not.toThrow()
+    expect(ctx.messages().map(m => m.parsed.type)).toEqual(['result.released', 'result.corrected', 'result.retracted'])
+    // The published v2 document names both shapes.
+    const published = JSON.stringify((await new ConsoleClient().get('/api/v1/schemas/result-event/2')).body)
+    expect(published).toContain('"correction"')
+    expect(published).toContain('"retraction"')
+    await new Promise(r => setTimeout(r, 1500))
+    const atV1 = received.filter(r => r.path === v1Path).map(r => new Webhook(v1Endpoint.body.secret).verify(r.body, r.headers) as { type: string, data: any })
+    expect(atV1.map(m => m.type)).toEqual(['result.released'])
+    expect(() => exchangeSchemaSources['result-event'][1].parse(withoutEventHead(atV1[0]!.data))).not.toThrow()
   })
 })
 

@@ -111,7 +111,8 @@ export async function releaseResult(db: Queryable, audit: AuditContext, resultId
     const view = resultView(row.acq, res!, row.slug, await reviewerName(tx, reviewerId), previous?.id ?? null)
     const type = previous ? RESULT_CORRECTED : RESULT_RELEASED
     const correction = previous ? { previousResultId: previous.id, previousVersion: previous.version, reason: res!.correctionReason } : undefined
-    await recordLabEvent(tx, res!.labId, type, correction ? { ...view, correction } : view)
+    // result-event v1 describes the released result only (as result.created was): a correction goes to endpoints on v2 or later.
+    await recordLabEvent(tx, res!.labId, type, correction ? { ...view, correction } : view, correction ? 2 : 1)
     await recordAudit(tx, {
       ...audit, action: type, targetType: 'result', targetId: resultId,
       detail: { labId: res!.labId, acquisitionId: res!.acquisitionId, runId: row.acq.externalId, version: res!.version, comment: opts.comment ?? null, automatic: !!opts.automatic, ...(correction ?? {}) },
@@ -169,7 +170,7 @@ export async function retractResult(audit: AuditContext, labId: string, resultId
     await recordLabEvent(tx, labId, RESULT_RETRACTED, {
       kind: 'retraction', resultId, id: res!.acquisitionId, runId: row.acq.externalId, instrument: row.slug, version: res!.version,
       reason, retractedAt: now.toISOString(), review,
-    })
+    }, 2) // result-event v1 does not describe a retraction: endpoints on v2 or later only.
     await recordAudit(tx, { ...audit, action: 'result.retracted', targetType: 'result', targetId: resultId, detail: { labId, acquisitionId: res!.acquisitionId, runId: row.acq.externalId, version: res!.version, reason } })
     return { resultId, acquisitionId: res!.acquisitionId, review }
   })
