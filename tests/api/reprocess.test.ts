@@ -172,7 +172,7 @@ describe('reprocessing after a back-dated calibration', () => {
       expect(messages.map(m => m.data.correction.previousResultId).sort()).toEqual([acquired[0]!.resultId, acquired[1]!.resultId].sort())
       for (const m of messages) {
         expect(m.data.correction).toMatchObject({ previousVersion: 1, reason: 'Calibration of 1 November entered late' })
-        expect(m.data.review).toMatchObject({ state: 'released', version: 2, supersedes: m.data.correction.previousResultId, correctionReason: 'Calibration of 1 November entered late' })
+        expect(m.data.result.review).toMatchObject({ state: 'released', version: 2, supersedes: m.data.correction.previousResultId, correctionReason: 'Calibration of 1 November entered late' })
         expect(m.data.result.versions.calibration).toBe(1)
       }
       // The held version 1 was never published: its version 2 is a first release, not a correction.
