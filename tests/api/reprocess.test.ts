@@ -64,9 +64,10 @@ async function labManagerOf(admin: ConsoleClient, labId: string) {
   return new ConsoleClient().signIn(email, password)
 }
 
-/** A lab with an instrument, `count` CO2 acquisitions of `points` points an hour apart from 2026-11-30T00:00Z, and a lab manager. */
+/** A lab that holds results for review, with an instrument, `count` CO2 acquisitions of `points` points an hour apart from 2026-11-30T00:00Z, and a lab manager. */
 async function labWithAcquisitions(count: number, points = 1500) {
-  const ctx = await labWithInstrument()
+  // Held for review: the first test releases versions 1 itself (labWithInstrument() alone releases at once).
+  const ctx = await labWithInstrument({ release: 'review' })
   const manager = await labManagerOf(ctx.admin, ctx.lab.id)
   const acquired: { id: string, resultId: string }[] = []
   for (let i = 0; i < count; i++) {
