@@ -57,7 +57,8 @@ async function pdfText(bytes: Buffer) {
 }
 
 async function releasedResult() {
-  const ctx = await labWithInstrument()
+  // Held for review, as these tests expect; they release in SQL (labWithInstrument() alone releases at once).
+  const ctx = await labWithInstrument({ release: 'review' })
   const posted = await new ConsoleClient().request('POST', '/api/v1/acquisitions', co2Acquisition(), bearer(ctx.key.secret))
   expect(posted.status).toBe(201)
   return { ...ctx, id: posted.body.id as string }
@@ -213,9 +214,29 @@ describe('a released result\'s certificate', () => {
   })
 })
 
+describe('a certificate asked for while the result changes', () => {
+  it('is not issued for a result whose retraction commits while the certificate is being issued', async () => {
+    const { key, id } = await releasedResult()
+    await release('results', { acquisitionId: id })
+    let asked: Promise<{ status: number, body: any }> | undefined
+    // A retraction in flight, as the review capability makes it: the acquisition's row locked, the result retracted, not yet committed.
+    await sql.begin(async (tx) => {
+      await tx`select 1 from acquisitions where id = ${id} for update`
+      await tx`update results set review_state = 'retracted', retracted_at = now(), retraction_reason = 'Vial mix-up found at the audit.' where acquisition_id = ${id}`
+      asked = api(key.secret).get(`/api/v1/results/${id}/certificate.jws`)
+      await new Promise(r => setTimeout(r, 1000))
+    })
+    const res = await asked!
+    expect(res.status).toBe(409)
+    expect(res.body.type).toBe('urn:arcwise:problem:not-released')
+    const [{ n }] = await sql<[{ n: number }]>`select count(*)::int as n from certificates c join results r on r.id = c.subject_id where r.acquisition_id = ${id}`
+    expect(n).toBe(0)
+  })
+})
+
 describe('a released sequence\'s certificate', () => {
   it('certifies each sample\'s normalised δ with u and k, verifies with jose, and prints them', async () => {
-    const ctx = await labWithInstrument()
+    const ctx = await labWithInstrument({ release: 'review' })
     await registerMethod(ctx.key.secret, caseMethod(cases.CO2!))
     const built = buildSequence(cases.CO2!, 4, { noise: false, drawStandards: false })
     const sequenceId = unique('seq')

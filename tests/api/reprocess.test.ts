@@ -64,9 +64,10 @@ async function labManagerOf(admin: ConsoleClient, labId: string) {
   return new ConsoleClient().signIn(email, password)
 }
 
-/** A lab with an instrument, `count` CO2 acquisitions of `points` points an hour apart from 2026-11-30T00:00Z, and a lab manager. */
+/** A lab that holds results for review, with an instrument, `count` CO2 acquisitions of `points` points an hour apart from 2026-11-30T00:00Z, and a lab manager. */
 async function labWithAcquisitions(count: number, points = 1500) {
-  const ctx = await labWithInstrument()
+  // Held for review: the first test releases versions 1 itself (labWithInstrument() alone releases at once).
+  const ctx = await labWithInstrument({ release: 'review' })
   const manager = await labManagerOf(ctx.admin, ctx.lab.id)
   const acquired: { id: string, resultId: string }[] = []
   for (let i = 0; i < count; i++) {
@@ -172,7 +173,7 @@ describe('reprocessing after a back-dated calibration', () => {
       expect(messages.map(m => m.data.correction.previousResultId).sort()).toEqual([acquired[0]!.resultId, acquired[1]!.resultId].sort())
       for (const m of messages) {
         expect(m.data.correction).toMatchObject({ previousVersion: 1, reason: 'Calibration of 1 November entered late' })
-        expect(m.data.review).toMatchObject({ state: 'released', version: 2, supersedes: m.data.correction.previousResultId, correctionReason: 'Calibration of 1 November entered late' })
+        expect(m.data.result.review).toMatchObject({ state: 'released', version: 2, supersedes: m.data.correction.previousResultId, correctionReason: 'Calibration of 1 November entered late' })
         expect(m.data.result.versions.calibration).toBe(1)
       }
       // The held version 1 was never published: its version 2 is a first release, not a correction.
@@ -250,6 +251,35 @@ describe('a reprocessing job killed mid-way', () => {
     })
     expect(done.progress).toEqual({ total: 2, processed: 2, changed: 0, unchanged: 2, failed: 0 })
     const [{ n }] = await sql<[{ n: number }]>`select count(*)::int as n from results where acquisition_id in ${sql(acquired.map(a => a.id))}`
+    expect(n).toBe(2)
+  })
+})
+
+describe('a database fault while reprocessing', () => {
+  it('fails no item: the batch rolls back, the items stay pending, and the job finishes once the database answers again', async () => {
+    const { instrument, manager, acquired, base } = await labWithAcquisitions(2, 1000)
+    expect((await manager.post(`${base}/instruments/${instrument.id}/calibrations`, backDated)).status).toBe(201)
+    const state = async (id: string) => (await sql<[{ processed: number, failed: number, state: string, pending: number }]>`
+      select processed, failed, state, (select count(*) from reprocess_items where job_id = ${id} and state = 'pending')::int as pending
+      from reprocess_jobs where id = ${id}`)[0]
+    let jobId = ''
+    // The worker reads the calibration in force for each acquisition: with its table gone, that read fails.
+    await sql`alter table calibrations rename to calibrations_offline`
+    try {
+      const created = await manager.post(`${base}/reprocess-jobs`, { instrumentId: instrument.id, reason: 'Database fault drill' })
+      expect(created.status, JSON.stringify(created.body)).toBe(201)
+      jobId = created.body.id
+      await until('the worker to take the job', async () => (await state(jobId)).state !== 'queued', 30_000)
+      await new Promise(r => setTimeout(r, 2000))
+      expect(await state(jobId)).toMatchObject({ state: 'running', processed: 0, failed: 0, pending: 2 })
+    }
+    finally {
+      await sql`alter table calibrations_offline rename to calibrations`
+    }
+    // Taken again once the lease runs out: every acquisition reprocessed, none failed.
+    await until('the job to finish', async () => (await state(jobId)).state === 'done', 60_000)
+    expect(await state(jobId)).toMatchObject({ processed: 2, failed: 0, pending: 0 })
+    const [{ n }] = await sql<[{ n: number }]>`select count(*)::int as n from results where reprocess_job_id = ${jobId} and acquisition_id in ${sql(acquired.map(a => a.id))}`
     expect(n).toBe(2)
   })
 })

@@ -4,6 +4,7 @@ import { Webhook } from 'standardwebhooks'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { hashPassword } from '../../scripts/lib/password'
 import { everyQcCode } from '../../scripts/lib/demo'
+import { exchangeSchemaSources } from '../../shared/schemas/exchange'
 import { acquisitionView, eventFeedView, peakListView, resultRetractedData } from '../../shared/schemas/responses'
 import { sequenceEventData, sequenceView } from '../../shared/schemas/sequences'
 import type { Role } from '../../shared/types/roles'
@@ -245,6 +246,100 @@ describe('corrections', () => {
   })
 })
 
+/** A newer version of a result as reprocessing writes it: held, superseding `of`, with a reason. */
+async function newVersion(ctx: Reviewed, of: { id: string, version: number }, reason = 'Calibration re-fitted with the corrected reference gas.') {
+  const [row] = await ctx.sql<{ id: string }[]>`
+    insert into results (acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason)
+    select acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, ${of.version + 1}, id, ${reason} from results where id = ${of.id} returning id`
+  await ctx.sql`update results set superseded_by = ${row!.id} where id = ${of.id}`
+  return { id: row!.id, version: of.version + 1 }
+}
+
+describe('versions of one acquisition', () => {
+  it('a held version that a newer one replaces cannot be released and leaves the review queue, until the newer one is rejected', async () => {
+    const ctx = await reviewedLab()
+    const acq = await ctx.post()
+    const v2 = await newVersion(ctx, { id: acq.result.id, version: 1 })
+    const queue = (await ctx.reviewer.get(`${ctx.base}/review`)).body.results
+    expect(queue.items.map((r: any) => r.resultId)).toEqual([v2.id])
+    expect(queue.total).toBe(1)
+    const refused = await ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {})
+    expect(refused.status).toBe(409)
+    expect(refused.body.type).toBe('urn:arcwise:problem:superseded')
+    expect((await ctx.sql`select review_state from results where id = ${acq.result.id}`)[0]!.review_state).toBe('held')
+    expect((await ctx.sql`select count(*)::int as n from events where lab_id = ${ctx.lab.id}`)[0]!.n).toBe(0)
+    // The newer version rejected, the older one is the one to review again.
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v2.id}/reject`, { comment: 'Wrong reference gas chosen.' })).status).toBe(200)
+    expect((await ctx.reviewer.get(`${ctx.base}/review`)).body.results.items.map((r: any) => r.resultId)).toEqual([acq.result.id])
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {})).status).toBe(200)
+  })
+
+  it('two versions released at the same moment: one result.released, never two, and partners read the newer', async () => {
+    const ctx = await reviewedLab()
+    const acq = await ctx.post()
+    const v2 = await newVersion(ctx, { id: acq.result.id, version: 1 })
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v2.id}/reject`, { comment: 'Re-run the fit.' })).status).toBe(200)
+    const v3 = await newVersion(ctx, v2)
+    // Versions 1 and 3 are both held and releasable. The lab's row (its event counter) is held
+    // here, so that both releases are in flight at once before either commits.
+    let releases: Promise<{ status: number, body: any }>[] = []
+    await ctx.sql.begin(async (tx) => {
+      await tx`select 1 from labs where id = ${ctx.lab.id} for update`
+      releases = [ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {}), ctx.reviewer2.post(`${ctx.base}/results/${v3.id}/release`, {})]
+      await new Promise(r => setTimeout(r, 1500))
+    })
+    const answers = await Promise.all(releases)
+    expect(answers.map(a => a.status)).toContain(200)
+    const events = await ctx.sql<{ type: string }[]>`select type from events where lab_id = ${ctx.lab.id} order by sequence`
+    expect(events.filter(e => e.type === 'result.released')).toHaveLength(1)
+    expect((await ctx.asPartner(`/api/v1/results/${acq.id}`)).body.result.review).toMatchObject({ version: 3, state: 'released' })
+  })
+
+  it('partners are told a correction supersedes the version they were shown, not a rejected one in between', async () => {
+    const ctx = await reviewedLab()
+    const acq = await ctx.post()
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {})).status).toBe(200)
+    const v2 = await newVersion(ctx, { id: acq.result.id, version: 1 })
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v2.id}/reject`, { comment: 'Wrong reference gas chosen.' })).status).toBe(200)
+    const v3 = await newVersion(ctx, v2, 'Calibration re-fitted a second time.')
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v3.id}/release`, {})).body.event).toBe('result.corrected')
+    const message = await until('the result.corrected message', () => ctx.messages().find(m => m.parsed.type === 'result.corrected'))
+    expect(message.parsed.data.correction).toMatchObject({ previousResultId: acq.result.id, previousVersion: 1 })
+    expect(message.parsed.data.result.review).toMatchObject({ version: 3, supersedes: acq.result.id })
+    const seen = await partnerSees(ctx, acq.id)
+    expect(seen.read.body.result.review).toMatchObject({ version: 3, supersedes: acq.result.id })
+    expect(seen.feed.find(e => e.type === 'result.corrected')!.data.result.review.supersedes).toBe(acq.result.id)
+    // The lab's own view keeps the lineage as it is.
+    expect((await ctx.reviewer.get(`${ctx.base}/acquisitions/${acq.id}`)).body.result.review.supersedes).toBe(v2.id)
+  })
+})
+
+describe('lifecycle events and the exchange schemas', () => {
+  it('result.corrected and result.retracted are described by result-event v2 and go only to endpoints on v2; a v1 endpoint keeps result.released', async () => {
+    const ctx = await reviewedLab()
+    const v1Path = `/review-v1-${unique('x')}`
+    const v1Endpoint = await ctx.admin.post(`/api/console/partners/${ctx.partner.id}/endpoints`, { url: `http://127.0.0.1:${SINK_PORT}${v1Path}`, schemaVersion: 1 })
+    expect(v1Endpoint.status, JSON.stringify(v1Endpoint.body)).toBe(201)
+    const acq = await ctx.post()
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${acq.result.id}/release`, {})).status).toBe(200)
+    const v2 = await newVersion(ctx, { id: acq.result.id, version: 1 })
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v2.id}/release`, {})).body.event).toBe('result.corrected')
+    expect((await ctx.reviewer.post(`${ctx.base}/results/${v2.id}/retract`, { reason: 'Reference gas contaminated.' })).status).toBe(200)
+    await until('the retraction at the v2 endpoint', () => ctx.messages().some(m => m.parsed.type === 'result.retracted'))
+    const resultEventV2 = exchangeSchemaSources['result-event'][2]
+    for (const m of ctx.messages()) expect(() => resultEventV2.parse(withoutEventHead(m.parsed.data)), m.parsed.type).not.toThrow()
+    expect(ctx.messages().map(m => m.parsed.type)).toEqual(['result.released', 'result.corrected', 'result.retracted'])
+    // The published v2 document names both shapes.
+    const published = JSON.stringify((await new ConsoleClient().get('/api/v1/schemas/result-event/2')).body)
+    expect(published).toContain('"correction"')
+    expect(published).toContain('"retraction"')
+    await new Promise(r => setTimeout(r, 1500))
+    const atV1 = received.filter(r => r.path === v1Path).map(r => new Webhook(v1Endpoint.body.secret).verify(r.body, r.headers) as { type: string, data: any })
+    expect(atV1.map(m => m.type)).toEqual(['result.released'])
+    expect(() => exchangeSchemaSources['result-event'][1].parse(withoutEventHead(atV1[0]!.data))).not.toThrow()
+  })
+})
+
 describe('four eyes and automatic release', () => {
   it('under four eyes, whoever uploaded a result cannot release it; another reviewer can', async () => {
     const ctx = await reviewedLab()
@@ -342,6 +437,12 @@ describe('bulk release', () => {
   })
 })
 
+/** The results of a sequence's members, by position. */
+async function memberResultIds(ctx: Reviewed, sequenceId: string) {
+  return ctx.sql<{ id: string, position: number }[]>`select r.id, si.position from sequence_items si join results r on r.acquisition_id = si.acquisition_id
+    where si.sequence_id = ${sequenceId} and r.superseded_by is null order by si.position`
+}
+
 describe('sequences are held like results', () => {
   it('a processed sequence sends sequence.processed only when released, with who released it', async () => {
     const ctx = await reviewedLab()
@@ -356,6 +457,13 @@ describe('sequences are held like results', () => {
     const queue = await ctx.reviewer.get(`${ctx.base}/review`)
     expect(queue.body.sequences.map((s: { id: string }) => s.id)).toEqual([view.id])
     expect((await ctx.reviewer.post(`${ctx.base}/sequences/${view.id}/reject`, {})).status).toBe(422)
+    // Its members' results are held: the outcome built on them cannot go out before them.
+    const early = await ctx.reviewer.post(`${ctx.base}/sequences/${view.id}/release`, {})
+    expect(early.status).toBe(409)
+    expect(early.body.type).toBe('urn:arcwise:problem:members-not-released')
+    const memberResults = await memberResultIds(ctx, view.id)
+    expect(early.body.detail).toContain(`position ${memberResults[0]!.position} `)
+    expect((await ctx.reviewer.post(`${ctx.base}/results/release`, { resultIds: memberResults.map(m => m.id) })).status).toBe(200)
     expect((await ctx.reviewer.post(`${ctx.base}/sequences/${view.id}/release`, { comment: 'Standards within limits.' })).status).toBe(200)
     const message = await until('the sequence.processed message', () => ctx.messages().find(m => m.parsed.type === 'sequence.processed'))
     const data = sequenceEventData.parse(message.parsed.data)
@@ -369,19 +477,25 @@ describe('sequences are held like results', () => {
     expect(actions).toEqual(['sequence.released', 'sequence.retracted'])
   })
 
-  it('a method version that releases automatically overrides the lab\'s review policy for its sequences', async () => {
+  it('a method version that releases automatically releases a sequence at once only when its members\' results are released', async () => {
     const ctx = await reviewedLab()
     await setRelease(ctx.manager, ctx.lab.id, { releasePolicy: 'review', autoReleaseAllows: everyQcCode })
     const method = await labApi(ctx.key.secret).post('/api/v1/instruments/ms-1/methods', { name: 'CO2 method', validFrom: '2026-01-01T00:00:00Z', definition: caseMethod(cases.CO2!), releasePolicy: 'auto' })
     expect(method.status).toBe(201)
     expect(method.body.releasePolicy).toBe('auto')
     const built = buildSequence(cases.CO2!, 5, { noise: false, drawStandards: false })
-    const res = await labApi(ctx.key.secret).post('/api/v1/sequences', { instrument: 'ms-1', sequenceId: unique('seq'), acquisitions: membersOf(built.items) })
+    const held = await labApi(ctx.key.secret).post('/api/v1/sequences', { instrument: 'ms-1', sequenceId: unique('seq'), acquisitions: membersOf(built.items) })
+    expect(held.status).toBe(201)
+    // The sequence's own acquisitions follow the lab's policy (held), so its outcome waits too.
+    expect((await ctx.reviewer.get(`${ctx.base}/review`)).body.results.total).toBe(built.items.length)
+    expect(held.body.review).toMatchObject({ state: 'held' })
+    // With the lab's results released at once, the method's rule releases the sequence at once.
+    await setRelease(ctx.manager, ctx.lab.id, { releasePolicy: 'auto', autoReleaseAllows: everyQcCode })
+    const res = await labApi(ctx.key.secret).post('/api/v1/sequences', { instrument: 'ms-1', sequenceId: unique('seq'), acquisitions: membersOf(buildSequence(cases.CO2!, 5, { noise: false, drawStandards: false }).items) })
     expect(res.status).toBe(201)
     expect(res.body.review).toMatchObject({ state: 'released', reviewedBy: null })
     const message = await until('the automatic sequence.processed message', () => ctx.messages().find(m => m.parsed.type === 'sequence.processed'))
     expect(sequenceEventData.parse(message.parsed.data)).toMatchObject({ id: res.body.id, reviewedBy: null })
-    // The sequence's own acquisitions follow the lab's policy: held.
-    expect((await ctx.reviewer.get(`${ctx.base}/review`)).body.results.total).toBe(built.items.length)
+    expect(ctx.messages().filter(m => m.parsed.type === 'sequence.processed').map(m => m.parsed.data.id)).toEqual([res.body.id])
   })
 })
