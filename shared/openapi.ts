@@ -194,13 +194,13 @@ export function buildOpenApiDocument() {
   })
   registry.registerWebhook({
     method: 'post', path: 'result.corrected', tags: ['Webhooks'], summary: 'A lab released a corrected version of a result it had released',
-    description: 'Sent when a later version of an acquisition\'s result (reprocessed under a new calibration, geometry, method or engine) is released while an earlier version had been released. `data` is the new version as in `result.released`, with `correction`: the result it replaces and the lab\'s reason. Both versions stay stored; reads answer the newest released one.',
+    description: 'Sent when a later version of an acquisition\'s result (reprocessed under a new calibration, geometry, method or engine) is released while an earlier version had been released. `data` is the new version as in `result.released`, with `correction`: the result it replaces and the lab\'s reason. Both versions stay stored; reads answer the newest released one. Sent to endpoints on result-event v2 or later (v1 does not describe it). `review.supersedes` names the same earlier version as `correction.previousResultId`: the one you were shown before.',
     request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage.extend({ data: correctedEventData }).openapi({ example: { type: 'result.corrected', timestamp: '2026-12-02T09:00:00Z', data: { ...released, correction: { previousResultId: '7a1e…', previousVersion: 1, reason: 'Calibration of 2026-11-28 re-fitted with the corrected reference gas.' } } } }) } } } },
     responses,
   })
   registry.registerWebhook({
     method: 'post', path: 'result.retracted', tags: ['Webhooks'], summary: 'A lab withdrew a result it had released',
-    description: 'Sent when a lab retracts a released result, with the reason. The result stays readable, marked `review.state: retracted`; do not use it.',
+    description: 'Sent when a lab retracts a released result, with the reason. The result stays readable, marked `review.state: retracted`; do not use it. Sent to endpoints on result-event v2 or later (v1 does not describe it).',
     request: { headers: signedHeaders, body: { content: { 'application/json': { schema: webhookMessage.extend({ data: retractedEventData }).openapi({ example: { type: 'result.retracted', timestamp: '2026-12-03T10:00:00Z', data: { eventId: '6c2d…', lab: 'saltmarsh-isotopes', sequence: 415, kind: 'retraction', resultId: '9e4b…', id: '0d6c…', runId: 'carb-2026-11-30-017', instrument: 'irms-north', version: 1, reason: 'Sample label mix-up found at the weekly audit.', retractedAt: '2026-12-03T10:00:00Z', review: '…' } } }) } } } },
     responses,
   })

@@ -1,14 +1,16 @@
 import { z } from 'zod'
 import { acquisitionInput } from './acquisitions'
-import { acquisitionView } from './responses'
+import { acquisitionView, resultCorrectedData, resultRetractedData } from './responses'
 import { sequenceEventData } from './sequences'
 
 /** The exchange schemas Arcwise speaks, by name and version: the zod schema each is made from. */
 export const exchangeSchemaSources = {
   'acquisition': { 1: acquisitionInput },
   // v2 adds processed sequences (`sequence.processed`): per sample the δ normalised to the
-  // international scale, with u, k, the raw δ, the method version and the standards.
-  'result-event': { 1: acquisitionView, 2: z.union([acquisitionView, sequenceEventData]) },
+  // international scale, with u, k, the raw δ, the method version and the standards; and the
+  // review lifecycle's `result.corrected` (the result with `correction`) and `result.retracted`
+  // (kind 'retraction'). v1 describes neither: those events go to endpoints on v2 or later.
+  'result-event': { 1: acquisitionView, 2: z.union([acquisitionView, resultCorrectedData, resultRetractedData, sequenceEventData]) },
 } as const
 
 /**

@@ -95,7 +95,7 @@ export const resultReview = z.object({
   releasedAt: z.iso.datetime({ offset: true }).nullable(),
   reviewedBy: z.string().nullable().describe('the reviewer\'s name; null when released automatically by the lab\'s rule (or not yet reviewed)'),
   version: z.number().int().describe('1 for the first result of an acquisition; a reprocessed result is the next version'),
-  supersedes: z.uuid().nullable().describe('the result this version replaces'),
+  supersedes: z.uuid().nullable().describe('the result this version replaces; to partners, the version they were shown before (released or retracted), as correction.previousResultId names it'),
   correctionReason: z.string().nullable().describe('why this version corrects an earlier one'),
   retractionReason: z.string().nullable(),
   retractedAt: z.iso.datetime({ offset: true }).nullable(),

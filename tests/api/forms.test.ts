@@ -52,8 +52,8 @@ describe('slug and kind are the admin\'s', () => {
 describe('grants', () => {
   it('granting the same partner the same events again is refused on the partner field; other events update it', async () => {
     const { lab } = await labWithInstrument()
-    expect((await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: ids.northgate, eventTypes: ['result.created'] })).status).toBe(201)
-    const again = await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: ids.northgate, eventTypes: ['result.created'] })
+    expect((await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: ids.northgate, eventTypes: ['result.released'] })).status).toBe(201)
+    const again = await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: ids.northgate, eventTypes: ['result.released'] })
     expect(again.status).toBe(409)
     expect(again.body.errors).toEqual([expect.objectContaining({ path: 'partnerId' })])
     const changed = await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: ids.northgate, eventTypes: ['result.created', 'sequence.processed'] })

@@ -46,12 +46,16 @@ describe('labs and partners', () => {
     expect(await count('partners')).toBe(before)
   })
 
-  it('a lab manager edits their own lab but cannot move it to another slug in use', async () => {
+  it('a lab manager edits their own lab but cannot change its slug (a hub admin\'s), and an admin cannot move it to a slug in use', async () => {
     const manager = await new ConsoleClient().signIn(demoUser('lab_manager').email, demoUser('lab_manager').password)
     const [own] = (await manager.get('/api/console/labs')).body.items
     const res = await manager.patch(`/api/console/labs/${own.id}`, { slug: 'halvard-ridge' })
-    expect(res.status).toBe(409)
+    expect(res.status).toBe(403)
     expect(res.body.errors[0].path).toBe('slug')
+    const admin = await new ConsoleClient().signIn(demoUser('admin').email, demoUser('admin').password)
+    const taken = await admin.patch(`/api/console/labs/${own.id}`, { slug: 'halvard-ridge' })
+    expect(taken.status).toBe(409)
+    expect(taken.body.errors[0].path).toBe('slug')
   })
 })
 

@@ -48,7 +48,7 @@ describe('webhooks in the console', () => {
     await page.getByRole('button', { name: 'Done' }).click()
 
     // Edit it in place.
-    await page.getByRole('button', { name: 'Edit' }).click()
+    await page.getByRole('button', { name: 'Edit', exact: true }).first().click()
     await page.getByRole('form', { name: 'Edit the endpoint' }).getByLabel('Description').fill('LIMS intake, night shift')
     await page.getByRole('button', { name: 'Save endpoint' }).click()
     await expect.poll(() => page.getByRole('listitem').first().textContent()).toContain('LIMS intake, night shift')

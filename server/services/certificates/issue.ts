@@ -1,5 +1,5 @@
 import { createHash } from 'node:crypto'
-import { and, desc, eq, inArray, sql } from 'drizzle-orm'
+import { and, desc, eq, gt, inArray, sql } from 'drizzle-orm'
 import { CompactSign } from 'jose'
 import { acquisitions, certificates, results, sequences } from '../../database/schema'
 import { grantedLabIds, hubSigningKey } from '../partners'
@@ -57,11 +57,7 @@ export async function issueCertificate(db: Queryable, audit: AuditContext, subje
     await tx.execute(sql`select pg_advisory_xact_lock(hashtext('arcwise:certificates'))`)
     const existing = await tx.query.certificates.findFirst({ where: and(eq(certificates.subject, subject), eq(certificates.subjectId, id)) })
     if (existing) return existing
-    const state = subject === 'result'
-      ? await tx.query.results.findFirst({ where: eq(results.id, id), columns: { reviewState: true, labId: true } })
-      : await tx.query.sequences.findFirst({ where: eq(sequences.id, id), columns: { reviewState: true, labId: true } })
-    if (!state) throw problem(404, 'certificate-subject-not-found', `No ${subject} with this id.`)
-    if (state.reviewState !== 'released') throw notReleased(subject, state.reviewState)
+    const state = subject === 'result' ? await lockPublishedResult(tx, id) : await lockSequence(tx, id)
     const issuedAt = new Date()
     const head: CertificateHead = { number: await nextNumber(tx, issuedAt.getUTCFullYear()), issuedAt: issuedAt.toISOString(), issuer: issuer() }
     const document = subject === 'result' ? await resultCertificateDocument(tx, id, head) : await sequenceCertificateDocument(tx, id, head)
@@ -72,6 +68,32 @@ export async function issueCertificate(db: Queryable, audit: AuditContext, subje
     await recordAudit(tx, { ...audit, action: 'certificate.issued', targetType: 'certificate', targetId: row!.id, detail: { number: head.number, subject, subjectId: id, kid, sha256: sha256Hex(canonical) } })
     return row!
   })
+}
+
+/**
+ * The result to certify, held FOR SHARE (its acquisition's row too) until the certificate
+ * commits: a retraction, or the release of a newer version (both lock those rows for
+ * update), waits for it, and one that committed first is seen here. It must still be the
+ * acquisition's published version: released, with no newer version released or retracted.
+ */
+async function lockPublishedResult(tx: Queryable, id: string) {
+  await tx.execute(sql`select 1 from ${acquisitions} where id = (select acquisition_id from ${results} where id = ${id}::uuid) for share`)
+  const [row] = await tx.select({ reviewState: results.reviewState, labId: results.labId, acquisitionId: results.acquisitionId, version: results.version })
+    .from(results).where(eq(results.id, id)).for('share')
+  if (!row) throw problem(404, 'certificate-subject-not-found', 'No result with this id.')
+  if (row.reviewState !== 'released') throw notReleased('result', row.reviewState)
+  const [newer] = await tx.select({ version: results.version }).from(results)
+    .where(and(eq(results.acquisitionId, row.acquisitionId), gt(results.version, row.version), inArray(results.reviewState, ['released', 'retracted']))).limit(1)
+  if (newer) throw problem(409, 'superseded', `Version ${newer.version} of this acquisition replaced this result: certify that one.`)
+  return row
+}
+
+/** The sequence to certify, held FOR SHARE until the certificate commits (a retraction waits); it must be released. */
+async function lockSequence(tx: Queryable, id: string) {
+  const [row] = await tx.select({ reviewState: sequences.reviewState, labId: sequences.labId }).from(sequences).where(eq(sequences.id, id)).for('share')
+  if (!row) throw problem(404, 'certificate-subject-not-found', 'No sequence with this id.')
+  if (row.reviewState !== 'released') throw notReleased('sequence', row.reviewState)
+  return row
 }
 
 function notReleased(subject: Subject, state: string) {

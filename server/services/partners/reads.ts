@@ -4,7 +4,7 @@ import type { eventFeedQuery, peakQuery } from '#shared/schemas/partners'
 import { alias } from 'drizzle-orm/pg-core'
 import { CAUTION_SHORT } from '#shared/caution'
 import { acquisitions, events, grants, labs, peaks, results, users } from '../../database/schema'
-import { getAcquisition, resultChoice, reviewOf } from '../results'
+import { getAcquisition, previousPublished, resultChoice, reviewOf } from '../results'
 import { grantedLabIds } from './grants'
 
 // What a partner sees: only labs that granted it, among those only the event types they
@@ -78,7 +78,7 @@ export async function peaksInWindow(partnerId: string, query: z.output<typeof pe
     // The peaks row was written from the same JSON number as the summary's centroid, so they compare equal.
     fitted: sql<{ mzU: number | null, areaU: number | null } | null>`(select jsonb_build_object('mzU', e->'centroidU', 'areaU', e->'areaU')
       from jsonb_array_elements(${results.summary}->'peaks') e where (e->>'centroid')::float8 = ${peaks.mz} limit 1)`,
-    lab: labs.slug, acquisitionId: results.acquisitionId, acquiredAt: acquisitions.acquiredAt, res: results, reviewer: reviewer.name,
+    lab: labs.slug, acquisitionId: results.acquisitionId, acquiredAt: acquisitions.acquiredAt, res: results, reviewer: reviewer.name, previous: previousPublished(),
   }).from(peaks)
     .innerJoin(results, and(eq(results.id, peaks.resultId), resultChoice('published')))
     .innerJoin(acquisitions, eq(acquisitions.id, results.acquisitionId))
@@ -89,13 +89,13 @@ export async function peaksInWindow(partnerId: string, query: z.output<typeof pe
     .orderBy(asc(peaks.id)).limit(query.limit + 1)
   const items = rows.slice(0, query.limit)
   return {
-    items: items.map(({ res, reviewer: name, fitted, ...r }) => {
+    items: items.map(({ res, reviewer: name, fitted, previous, ...r }) => {
       const summary = res.summary as { calibrated?: boolean, constants?: string, geometryVersion?: number, calibrationVersion?: number | null }
       return {
         ...r, acquiredAt: r.acquiredAt.toISOString(), mzU: fitted?.mzU ?? null, areaU: fitted?.areaU ?? null, resultId: res.id,
         calibrated: summary.calibrated ?? false,
         versions: { engine: res.engineVersion, constants: summary.constants ?? '', geometry: summary.geometryVersion ?? 0, calibration: summary.calibrationVersion ?? null, method: null },
-        review: reviewOf(res, name), caution: CAUTION_SHORT,
+        review: reviewOf(res, name, previous), caution: CAUTION_SHORT,
       }
     }),
     nextCursor: rows.length > query.limit ? String(items.at(-1)!.id) : null,

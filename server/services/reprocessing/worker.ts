@@ -1,7 +1,8 @@
 import { randomUUID } from 'node:crypto'
 import { hostname } from 'node:os'
 import { sql } from 'drizzle-orm'
-import type { EngineResult } from '#shared/engine'
+import { isError } from 'h3'
+import { EngineError, type EngineResult } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import { acquisitions, instruments, peaks, reprocessItems, reprocessJobs, results } from '../../database/schema'
 import { computeResult } from '../ingest'
@@ -166,10 +167,13 @@ async function reprocessOne(item: PendingItem): Promise<ItemOutcome> {
     }
   }
   catch (error) {
-    // An engine refusal is a problem document naming the field; anything else is logged and the item marked failed.
-    const detail = (error as { data?: { problem?: { detail?: string } } }).data?.problem?.detail
-    if (!detail) logError('[reprocess] an acquisition could not be reprocessed', error)
-    return { ...base, state: 'failed', changed: null, error: detail ?? 'the engine failed on this acquisition', newId: null }
+    // Only the engine's refusal of this acquisition (a problem document naming the field, or
+    // an EngineError) fails the item for good. Anything else (the database, a fault of our own)
+    // propagates: the batch's transaction rolls back and the job is taken again under its lease.
+    if (error instanceof EngineError) return { ...base, state: 'failed', changed: null, error: error.message, newId: null }
+    const problem = isError(error) ? (error.data as { problem?: { detail?: string } } | undefined)?.problem : undefined
+    if (!problem) throw error
+    return { ...base, state: 'failed', changed: null, error: problem.detail ?? 'the engine refused this acquisition', newId: null }
   }
 }
 

@@ -22,6 +22,14 @@ export function resultChoice(choice: ResultChoice): SQL {
         where r2.acquisition_id = ${results.acquisitionId} and r2.review_state in ('released', 'retracted'))`
 }
 
+/**
+ * The version partners were shown before this result (of the same acquisition): the highest
+ * lower version released or retracted, the one `correction.previousResultId` names; null
+ * when there is none.
+ */
+export const previousPublished = () => sql<string | null>`(select p.id from ${results} p where p.acquisition_id = ${results.acquisitionId}
+  and p.version < ${results.version} and p.review_state in ('released', 'retracted') order by p.version desc limit 1)`
+
 export async function listAcquisitions(labId: string, query: z.output<typeof acquisitionListQuery>) {
   const conditions: (SQL | undefined)[] = [eq(acquisitions.labId, labId)]
   if (query.instrument) conditions.push(eq(instruments.slug, query.instrument))
@@ -49,13 +57,14 @@ export async function listAcquisitions(labId: string, query: z.output<typeof acq
  * another lab's is 404 like a missing one, and so is one with nothing published yet.
  */
 export async function getAcquisition(labId: string, id: string, choice: ResultChoice = 'latest') {
-  const [row] = await useDb().select({ acq: acquisitionHead, res: results, slug: instruments.slug, reviewer: reviewer.name }).from(acquisitions)
+  const [row] = await useDb().select({ acq: acquisitionHead, res: results, slug: instruments.slug, reviewer: reviewer.name, previous: previousPublished() }).from(acquisitions)
     .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice(choice)))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .leftJoin(reviewer, eq(reviewer.id, results.reviewedBy))
     .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
-  return resultView(row.acq, row.res, row.slug, row.reviewer)
+  // The lab sees its lineage as it is; partners the version they were shown before.
+  return resultView(row.acq, row.res, row.slug, row.reviewer, choice === 'published' ? row.previous : undefined)
 }
 
 const PAYLOAD_PREVIEW_CHARS = 6000

@@ -14,22 +14,27 @@ export type AcquisitionHead = Omit<typeof acquisitions.$inferSelect, 'payload'>
 
 type ResultRow = typeof results.$inferSelect
 
-/** Where a result stands in the lab's review; `reviewer` is the releasing user's name (null: automatic, or not reviewed). */
-export function reviewOf(res: ResultRow, reviewer: string | null = null): ResultReview {
+/**
+ * Where a result stands in the lab's review; `reviewer` is the releasing user's name (null:
+ * automatic, or not reviewed). `supersedes`, when given, replaces the immediate predecessor:
+ * partners are told of the version they were shown before (`previousPublished`), never of a
+ * held or rejected one they never saw.
+ */
+export function reviewOf(res: ResultRow, reviewer: string | null = null, supersedes?: string | null): ResultReview {
   return {
     state: res.reviewState,
     releasedAt: res.releasedAt?.toISOString() ?? null,
     reviewedBy: res.reviewState === 'held' ? null : reviewer,
     version: res.version,
-    supersedes: res.supersedes,
+    supersedes: supersedes === undefined ? res.supersedes : supersedes,
     correctionReason: res.correctionReason,
     retractionReason: res.retractionReason,
     retractedAt: res.retractedAt?.toISOString() ?? null,
   }
 }
 
-/** What the API answers for one acquisition and its result. */
-export function resultView(acq: AcquisitionHead, res: ResultRow, instrumentSlug: string, reviewer: string | null = null) {
+/** What the API answers for one acquisition and its result (`supersedes`: see reviewOf). */
+export function resultView(acq: AcquisitionHead, res: ResultRow, instrumentSlug: string, reviewer: string | null = null, supersedes?: string | null) {
   const summary = res.summary as unknown as EngineResult & { geometryVersion: number, calibrationVersion: number | null }
   return {
     id: acq.id,
@@ -56,7 +61,7 @@ export function resultView(acq: AcquisitionHead, res: ResultRow, instrumentSlug:
       ratios: summary.ratios,
       qc: summary.qc,
       versions: { engine: res.engineVersion, constants: summary.constants, geometry: summary.geometryVersion, calibration: summary.calibrationVersion, method: null },
-      review: reviewOf(res, reviewer),
+      review: reviewOf(res, reviewer, supersedes),
       caution: CAUTION_SHORT,
     },
   }

@@ -26,6 +26,17 @@ export interface ReleaseOptions {
 
 const submitter = alias(users, 'submitter')
 
+/**
+ * Locks the acquisition a result belongs to (FOR UPDATE on its row) before anything else is
+ * read: every release and retraction of any version of one acquisition then runs one after
+ * the other, so two versions released at once cannot both miss each other (two
+ * result.released, or an older version released over a newer one). A result that is not
+ * there answers 404 later, in lockResult.
+ */
+async function lockAcquisitionOf(tx: Queryable, resultId: string) {
+  await tx.execute(sql`select 1 from ${acquisitions} where id = (select acquisition_id from ${results} where id = ${resultId}::uuid) for update`)
+}
+
 async function lockResult(tx: Queryable, resultId: string, labId?: string) {
   const [row] = await tx.select({
     res: results, acq: acquisitionHead, slug: instruments.slug, fourEyes: labs.fourEyes, jobCreatedBy: reprocessJobs.createdBy,
@@ -56,6 +67,14 @@ async function checkFourEyes(tx: Queryable, row: LockedResult, reviewerId: strin
   if (method?.createdBy === reviewerId) throw problem(403, 'four-eyes', 'You registered the method version in force for this acquisition; under the lab\'s four-eyes rule another reviewer must release it.')
 }
 
+/** The version of the same acquisition partners were shown before `res` (released or retracted), if any. */
+async function publishedBefore(tx: Queryable, res: { acquisitionId: string, version: number }) {
+  const [previous] = await tx.select({ id: results.id, version: results.version }).from(results)
+    .where(and(eq(results.acquisitionId, res.acquisitionId), lt(results.version, res.version), inArray(results.reviewState, ['released', 'retracted'])))
+    .orderBy(desc(results.version)).limit(1)
+  return previous
+}
+
 async function reviewerName(tx: Queryable, id: string | null) {
   if (!id) return null
   const [row] = await tx.select({ name: users.name }).from(users).where(eq(users.id, id))
@@ -71,23 +90,29 @@ async function reviewerName(tx: Queryable, id: string | null) {
  */
 export async function releaseResult(db: Queryable, audit: AuditContext, resultId: string, opts: ReleaseOptions = {}) {
   const outcome = await db.transaction(async (tx) => {
+    await lockAcquisitionOf(tx, resultId)
     const row = await lockResult(tx, resultId, opts.labId)
     if (row.res.reviewState !== 'held') throw problem(409, 'not-held', `This result is ${row.res.reviewState}; only a held result can be released.`)
+    if (row.res.supersededBy) {
+      // Reprocessing wrote a newer version (under the calibration now in force): this one may be released only if that was rejected.
+      const [next] = await tx.select({ version: results.version, reviewState: results.reviewState }).from(results).where(eq(results.id, row.res.supersededBy))
+      if (next && next.reviewState !== 'rejected') throw problem(409, 'superseded', `Version ${next.version} of this acquisition replaces this one (${next.reviewState}); release or reject that version instead.`)
+    }
     const reviewerId = opts.automatic ? null : audit.actor.id
     await checkFourEyes(tx, row, reviewerId)
     const [later] = await tx.select({ version: results.version }).from(results)
       .where(and(eq(results.acquisitionId, row.res.acquisitionId), gt(results.version, row.res.version), inArray(results.reviewState, ['released', 'retracted']))).limit(1)
     if (later) throw problem(409, 'superseded', `Version ${later.version} of this acquisition is already released; an older version cannot be released over it.`)
-    const [previous] = await tx.select({ id: results.id, version: results.version }).from(results)
-      .where(and(eq(results.acquisitionId, row.res.acquisitionId), lt(results.version, row.res.version), inArray(results.reviewState, ['released', 'retracted'])))
-      .orderBy(desc(results.version)).limit(1)
+    const previous = await publishedBefore(tx, row.res)
     const now = new Date()
     const [res] = await tx.update(results).set({ reviewState: 'released', reviewedBy: reviewerId, reviewedAt: now, reviewComment: opts.comment ?? null, releasedAt: now })
       .where(eq(results.id, resultId)).returning()
-    const view = resultView(row.acq, res!, row.slug, await reviewerName(tx, reviewerId))
+    // Partners are told of the version they were shown before, not of a held or rejected one in between.
+    const view = resultView(row.acq, res!, row.slug, await reviewerName(tx, reviewerId), previous?.id ?? null)
     const type = previous ? RESULT_CORRECTED : RESULT_RELEASED
     const correction = previous ? { previousResultId: previous.id, previousVersion: previous.version, reason: res!.correctionReason } : undefined
-    await recordLabEvent(tx, res!.labId, type, correction ? { ...view, correction } : view)
+    // result-event v1 describes the released result only (as result.created was): a correction goes to endpoints on v2 or later.
+    await recordLabEvent(tx, res!.labId, type, correction ? { ...view, correction } : view, correction ? 2 : 1)
     await recordAudit(tx, {
       ...audit, action: type, targetType: 'result', targetId: resultId,
       detail: { labId: res!.labId, acquisitionId: res!.acquisitionId, runId: row.acq.externalId, version: res!.version, comment: opts.comment ?? null, automatic: !!opts.automatic, ...(correction ?? {}) },
@@ -134,16 +159,18 @@ export async function rejectResult(audit: AuditContext, labId: string, resultId:
  */
 export async function retractResult(audit: AuditContext, labId: string, resultId: string, reason: string) {
   const outcome = await useDb().transaction(async (tx) => {
+    await lockAcquisitionOf(tx, resultId)
     const row = await lockResult(tx, resultId, labId)
     if (row.res.reviewState !== 'released') throw problem(409, 'not-released', `This result is ${row.res.reviewState}; only a released result can be retracted.`)
     const now = new Date()
     const [res] = await tx.update(results).set({ reviewState: 'retracted', retractedBy: audit.actor.id, retractedAt: now, retractionReason: reason })
       .where(eq(results.id, resultId)).returning()
-    const review = reviewOf(res!, await reviewerName(tx, res!.reviewedBy))
+    const previous = await publishedBefore(tx, res!)
+    const review = reviewOf(res!, await reviewerName(tx, res!.reviewedBy), previous?.id ?? null)
     await recordLabEvent(tx, labId, RESULT_RETRACTED, {
       kind: 'retraction', resultId, id: res!.acquisitionId, runId: row.acq.externalId, instrument: row.slug, version: res!.version,
       reason, retractedAt: now.toISOString(), review,
-    })
+    }, 2) // result-event v1 does not describe a retraction: endpoints on v2 or later only.
     await recordAudit(tx, { ...audit, action: 'result.retracted', targetType: 'result', targetId: resultId, detail: { labId, acquisitionId: res!.acquisitionId, runId: row.acq.externalId, version: res!.version, reason } })
     return { resultId, acquisitionId: res!.acquisitionId, review }
   })
@@ -160,6 +187,13 @@ function decodeCursor(cursor: string) {
   return { at, id }
 }
 
+/**
+ * Held versions a reviewer can still release: not those a newer version (held or released)
+ * replaces; one whose replacement was rejected comes back.
+ */
+const awaitingReview = () => and(eq(results.reviewState, 'held'),
+  sql`not exists (select 1 from ${results} n where n.id = ${results.supersededBy} and n.review_state <> 'rejected')`)
+
 /** The lab's held results, oldest first (the queue a reviewer works through), in cursor pages. */
 export async function heldResults(labId: string, limit: number, cursor?: string) {
   const after = cursor ? decodeCursor(cursor) : null
@@ -172,11 +206,11 @@ export async function heldResults(labId: string, limit: number, cursor?: string)
     .innerJoin(acquisitions, eq(acquisitions.id, results.acquisitionId))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .leftJoin(submitter, eq(submitter.id, acquisitions.submittedBy))
-    .where(and(eq(results.labId, labId), eq(results.reviewState, 'held'),
+    .where(and(eq(results.labId, labId), awaitingReview(),
       after ? sql`(${results.createdAt}, ${results.id}) > (${after.at}::timestamptz, ${after.id}::uuid)` : undefined))
     .orderBy(asc(results.createdAt), asc(results.id)).limit(limit + 1)
   const items = rows.slice(0, limit)
-  const [{ total } = { total: 0 }] = await useDb().select({ total: sql<number>`count(*)::int` }).from(results).where(and(eq(results.labId, labId), eq(results.reviewState, 'held')))
+  const [{ total } = { total: 0 }] = await useDb().select({ total: sql<number>`count(*)::int` }).from(results).where(and(eq(results.labId, labId), awaitingReview()))
   return {
     total,
     items: items.map(r => ({ ...r, acquiredAt: r.acquiredAt.toISOString(), createdAt: r.createdAt.toISOString() })),

@@ -1,5 +1,5 @@
-import { and, asc, eq, sql } from 'drizzle-orm'
-import { instruments, labs, methods, sequences, users } from '../../database/schema'
+import { and, asc, eq, isNull, ne, sql } from 'drizzle-orm'
+import { acquisitions, instruments, labs, methods, results, sequenceItems, sequences, users } from '../../database/schema'
 import { kickDeliveries, recordLabEvent } from '../delivery'
 import { SEQUENCE_EVENT, sequenceEventData } from '../sequences'
 
@@ -16,6 +16,20 @@ async function lockSequence(tx: Queryable, labId: string, sequenceId: string) {
   return row
 }
 
+/**
+ * The first member (by position) whose result, as the sequence used it (the newest version),
+ * is not released: a sequence's outcome stands on its members' results, so it is released
+ * only once they all are.
+ */
+async function firstUnreleasedMember(tx: Queryable, sequenceId: string) {
+  const [member] = await tx.select({ position: sequenceItems.position, runId: acquisitions.externalId, state: results.reviewState }).from(sequenceItems)
+    .innerJoin(acquisitions, eq(acquisitions.id, sequenceItems.acquisitionId))
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), isNull(results.supersededBy)))
+    .where(and(eq(sequenceItems.sequenceId, sequenceId), ne(results.reviewState, 'released')))
+    .orderBy(asc(sequenceItems.position)).limit(1)
+  return member
+}
+
 function audited(row: typeof sequences.$inferSelect) {
   return { labId: row.labId, sequenceId: row.externalId }
 }
@@ -29,6 +43,8 @@ export async function releaseSequence(audit: AuditContext, labId: string, sequen
     if (row.fourEyes && row.methodCreatedBy && row.methodCreatedBy === audit.actor.id) {
       throw problem(403, 'four-eyes', 'You registered the method version this sequence was processed under; under the lab\'s four-eyes rule another reviewer must release it.')
     }
+    const unreleased = await firstUnreleasedMember(tx, sequenceId)
+    if (unreleased) throw problem(409, 'members-not-released', `The result of position ${unreleased.position} (run ${unreleased.runId}) is ${unreleased.state}; release every member's result before the sequence.`)
     const [seq] = await tx.update(sequences).set({ reviewState: 'released', reviewedBy: audit.actor.id, reviewedAt: sql`now()`, reviewComment: comment ?? null, releasedAt: sql`now()` })
       .where(eq(sequences.id, sequenceId)).returning()
     const [reviewer] = await tx.select({ name: users.name }).from(users).where(eq(users.id, audit.actor.id ?? '00000000-0000-0000-0000-000000000000'))

@@ -29,7 +29,7 @@ async function members(sequenceId: string) {
   return useDb().select({
     position: sequenceItems.position, role: sequenceItems.role, material: sequenceItems.material,
     acquisitionId: acquisitions.id, runId: acquisitions.externalId, sampleRef: acquisitions.sampleRef, acquiredAt: acquisitions.acquiredAt,
-    summary: results.summary,
+    summary: results.summary, reviewState: results.reviewState,
     // Static-vacuum readings with their cycle times (noble gases' time-zero step): the columns
     // are read only for the acquisitions that gave `cycleSeconds`, not for every sweep.
     cycleSeconds: sql<number[] | null>`${acquisitions.payload}->'cycleSeconds'`,
@@ -127,7 +127,10 @@ async function runSequence(row: SequenceRow): Promise<void> {
     const flags = appended.filter(p => p.violations.length).map(p => ({ code: 'control-chart-violation', message: `${p.material} ${p.quantity}: ${p.violations.join(', ')}`, position: p.position ?? undefined }))
     const stored: SequenceOutcome = { ...outcome, flags: [...outcome.flags, ...flags] }
     const lab = await tx.query.labs.findFirst({ where: eq(labs.id, row.labId), columns: { releasePolicy: true, autoReleaseAllows: true } })
-    const released = releasesAutomatically(method.releasePolicy ?? lab?.releasePolicy ?? 'review', lab?.autoReleaseAllows ?? [], stored.flags.map(f => f.code))
+    // An outcome over members still held (or rejected) waits for review whatever the rule says:
+    // partners would receive values from results they may not see.
+    const membersReleased = list.every(m => m.reviewState === 'released')
+    const released = membersReleased && releasesAutomatically(method.releasePolicy ?? lab?.releasePolicy ?? 'review', lab?.autoReleaseAllows ?? [], stored.flags.map(f => f.code))
     const [processed] = await tx.update(sequences).set({
       status: 'processed', outcome: stored, methodId: method.id, flagged, failure: null, processedAt: sql`now()`,
       reviewState: released ? 'released' : 'held', releasedAt: released ? sql`now()` : null, reviewedBy: null, reviewedAt: released ? sql`now()` : null,
