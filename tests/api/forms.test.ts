@@ -56,9 +56,9 @@ describe('grants', () => {
     const again = await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: ids.northgate, eventTypes: ['result.released'] })
     expect(again.status).toBe(409)
     expect(again.body.errors).toEqual([expect.objectContaining({ path: 'partnerId' })])
-    const changed = await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: ids.northgate, eventTypes: ['result.created', 'sequence.processed'] })
+    const changed = await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: ids.northgate, eventTypes: ['result.released', 'sequence.processed'] })
     expect(changed.status).toBe(201)
     const rows = await testDb()<{ event_types: string[] }[]>`select event_types from grants where lab_id = ${lab.id}`
-    expect(rows).toEqual([{ event_types: ['result.created', 'sequence.processed'] }])
+    expect(rows).toEqual([{ event_types: ['result.released', 'sequence.processed'] }])
   })
 })

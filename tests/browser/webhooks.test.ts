@@ -29,7 +29,8 @@ afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
 describe('webhooks in the console', () => {
   it('an integrator adds an endpoint, keeps its secret, sees the delivery arrive and checks its signature', async () => {
     // A lab that grants the integrator's partner (the demo's Northgate Water Authority).
-    const { admin, lab, key } = await labWithInstrument()
+    // A name of its own: other tests' labs called "Test Lab" may grant the same partner.
+    const { admin, lab, key } = await labWithInstrument({ name: `Webhook Lab ${unique('w')}` })
     const northgate = (await admin.get('/api/console/partners')).body.items.find((p: { slug: string }) => p.slug === 'northgate-water')
     await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: northgate.id })
     const page = await createPage('/sign-in')

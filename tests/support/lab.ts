@@ -18,9 +18,9 @@ export async function setRelease(client: ConsoleClient, labId: string, settings:
  * API. Its results are released automatically whatever flags they raise (`release: 'auto'`,
  * the default, for tests about what happens after release), or held for review (`'review'`).
  */
-export async function labWithInstrument(opts: { validFrom?: string, release?: 'auto' | 'review' } = {}) {
+export async function labWithInstrument(opts: { validFrom?: string, release?: 'auto' | 'review', name?: string } = {}) {
   const admin = await new ConsoleClient().signIn(demoUser('admin').email, demoUser('admin').password)
-  const lab = (await admin.post('/api/console/labs', { slug: unique('lab'), name: 'Test Lab', site: 'Bench 1', contactEmail: 'bench@example.org' })).body
+  const lab = (await admin.post('/api/console/labs', { slug: unique('lab'), name: opts.name ?? 'Test Lab', site: 'Bench 1', contactEmail: 'bench@example.org' })).body
   if ((opts.release ?? 'auto') === 'auto') await setRelease(admin, lab.id, { releasePolicy: 'auto', autoReleaseAllows: everyQcCode })
   const instrument = (await admin.post(`/api/console/labs/${lab.id}/instruments`, { slug: 'ms-1', name: 'Sector one', geometry: sectorGeometry, validFrom: opts.validFrom ?? '2026-01-01T00:00:00Z' })).body
   const key = (await admin.post(`/api/console/labs/${lab.id}/keys`, { name: 'lab PC', scopes: ['acquisitions:write', 'results:read'] })).body
