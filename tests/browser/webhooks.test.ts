@@ -91,7 +91,7 @@ describe('webhooks in the console', () => {
     // The signature checker, with what the receiver got.
     await page.getByRole('link', { name: 'Signature check' }).click()
     await page.getByLabel('Signing secret').fill(secret)
-    await page.getByLabel('webhook-id').fill(hit.headers['webhook-id']!)
+    await page.getByLabel('webhook-id', { exact: true }).fill(hit.headers['webhook-id']!)
     await page.getByLabel('webhook-timestamp').fill(hit.headers['webhook-timestamp']!)
     await page.getByLabel('webhook-signature').fill(hit.headers['webhook-signature']!)
     await page.getByLabel('Body, exactly as received').fill(hit.body)
