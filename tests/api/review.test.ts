@@ -1,7 +1,6 @@
-import { createServer } from 'node:http'
 import { url } from '@nuxt/test-utils/e2e'
 import { Webhook } from 'standardwebhooks'
-import { afterAll, beforeAll, describe, expect, it } from 'vitest'
+import { beforeAll, describe, expect, it } from 'vitest'
 import { hashPassword } from '../../scripts/lib/password'
 import { everyQcCode } from '../../scripts/lib/demo'
 import { exchangeSchemaSources } from '../../shared/schemas/exchange'
@@ -12,7 +11,7 @@ import { buildSequence, caseMethod, cases } from '../support/deltaSequences'
 import { bearer, co2Acquisition, labWithInstrument, setRelease } from '../support/lab'
 import { lab as labApi, membersOf, registerMethod } from '../support/sequences'
 import { ConsoleClient, testDb, unique, useArcwise } from '../support/server'
-import { until } from '../support/webhooks'
+import { recordingSink, until } from '../support/webhooks'
 
 // Review before release (issue 20): results are held until a reviewer of the lab releases
 // them, and no partner sees a held or rejected result by any route (webhook, event feed,
@@ -22,17 +21,7 @@ import { until } from '../support/webhooks'
 const SINK_PORT = 4193
 await useArcwise({ env: { NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}`, NUXT_WEBHOOKS_POLL_MS: '200' } })
 
-const received: { path: string, headers: Record<string, string>, body: string }[] = []
-const sink = createServer((req, res) => {
-  const chunks: Buffer[] = []
-  req.on('data', c => chunks.push(c as Buffer))
-  req.on('end', () => {
-    received.push({ path: req.url!, headers: Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)])), body: Buffer.concat(chunks).toString() })
-    res.writeHead(200).end('ok')
-  })
-})
-await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
-afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
+const received = await recordingSink(SINK_PORT)
 
 const PASSWORD = 'review-test-passphrase'
 let passwordHash = ''

@@ -1,13 +1,12 @@
-import { createServer } from 'node:http'
 import { Webhook } from 'standardwebhooks'
-import { afterAll, describe, expect, it } from 'vitest'
+import { describe, expect, it } from 'vitest'
 import { ATMOSPHERIC_ARGON, fieldForMz, ionMz, isotope, processRatioSequence, simulateArgonSequence, type SequenceItem } from '../../shared/engine'
 import type { MethodDefinition } from '../../shared/schemas/methods'
 import { sequenceEventData, sequenceView } from '../../shared/schemas/sequences'
 import { labWithInstrument } from '../support/lab'
 import { lab } from '../support/sequences'
 import { unique, useArcwise } from '../support/server'
-import { until } from '../support/webhooks'
+import { recordingSink, until } from '../support/webhooks'
 
 // Argon sequences of static multi-collector acquisitions over the API (issue 19): each acquisition
 // posts its per-cycle detector columns (volts through the registered feedback resistors, on-peak
@@ -28,17 +27,7 @@ import { until } from '../support/webhooks'
 const SINK_PORT = 4194
 await useArcwise({ env: { NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}`, NUXT_WEBHOOKS_POLL_MS: '200' } })
 
-const received: { path: string, headers: Record<string, string>, body: string }[] = []
-const sink = createServer((req, res) => {
-  const chunks: Buffer[] = []
-  req.on('data', c => chunks.push(c as Buffer))
-  req.on('end', () => {
-    received.push({ path: req.url!, headers: Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)])), body: Buffer.concat(chunks).toString() })
-    res.writeHead(200).end('ok')
-  })
-})
-await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
-afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
+const received = await recordingSink(SINK_PORT)
 
 // Collectors at 36Ar⁺, 38Ar⁺ and 40Ar⁺ at one field: r ∝ √(m/z) for a magnetic sector at fixed
 // accelerating voltage (non-relativistic to 1e-9 at 5 kV; AME2020 masses through the engine).

@@ -1,12 +1,11 @@
-import { createServer } from 'node:http'
 import { Webhook } from 'standardwebhooks'
-import { afterAll, describe, expect, it } from 'vitest'
+import { describe, expect, it } from 'vitest'
 import { sequenceEventData, sequenceListView, sequenceView } from '../../shared/schemas/sequences'
 import { buildSequence, caseMethod, cases } from '../support/deltaSequences'
 import { labWithInstrument } from '../support/lab'
 import { lab, membersOf, registerMethod } from '../support/sequences'
 import { ConsoleClient, unique, useArcwise } from '../support/server'
-import { until } from '../support/webhooks'
+import { recordingSink, until } from '../support/webhooks'
 
 // Sequences over the API (issue 19): CO2 sequences simulated from first principles by the
 // isotope engine's simulator (true δ known; instrument scale compression, offset and drift),
@@ -15,17 +14,7 @@ import { until } from '../support/webhooks'
 const SINK_PORT = 4191
 await useArcwise({ env: { NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}`, NUXT_WEBHOOKS_POLL_MS: '200' } })
 
-const received: { path: string, headers: Record<string, string>, body: string }[] = []
-const sink = createServer((req, res) => {
-  const chunks: Buffer[] = []
-  req.on('data', c => chunks.push(c as Buffer))
-  req.on('end', () => {
-    received.push({ path: req.url!, headers: Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)])), body: Buffer.concat(chunks).toString() })
-    res.writeHead(200).end('ok')
-  })
-})
-await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
-afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
+const received = await recordingSink(SINK_PORT)
 
 const co2 = cases.CO2!
 /** A CO2 sequence with noise off and standards at their accepted values: the truth is exact. */
