@@ -5,6 +5,7 @@ import type { Role } from '../../shared/types/roles'
 import { demoUser } from '../support/demo'
 import { bearer, co2Acquisition, labWithInstrument, sectorGeometry } from '../support/lab'
 import { ConsoleClient, testDb, unique, useArcwise } from '../support/server'
+import { insertPausedEndpoint } from '../support/webhooks'
 import { url } from '@nuxt/test-utils/e2e'
 
 await useArcwise()
@@ -36,8 +37,8 @@ beforeAll(async () => {
   ids.otherRun = (await post(other.key.secret, co2Acquisition(`${tok}-other`, 1000))).id
   // One finished webhook message to each of two partners (the worker leaves them alone).
   for (const partner of [ids.northgate, ids.tidewater]) {
-    const [ep] = await sql<{ id: string }[]>`insert into webhook_endpoints (partner_id, url, event_types, status, sealed_secret) values (${partner}, ${`https://hooks.example.org/${tok}`}, ${['webhook.test']}, 'paused', 'unused') returning id`
-    const [d] = await sql<{ id: string }[]>`insert into deliveries (endpoint_id, event_type, test_payload, status, attempts, finished_at) values (${ep!.id}, 'webhook.test', ${sql.json({ test: true })}, 'succeeded', 1, now()) returning id`
+    const endpointId = await insertPausedEndpoint(partner, `https://hooks.example.org/${tok}`)
+    const [d] = await sql<{ id: string }[]>`insert into deliveries (endpoint_id, event_type, test_payload, status, attempts, finished_at) values (${endpointId}, 'webhook.test', ${sql.json({ test: true })}, 'succeeded', 1, now()) returning id`
     if (partner === ids.northgate) ids.ownDelivery = d!.id
     else ids.otherDelivery = d!.id
   }

@@ -73,10 +73,22 @@ describe('reprocessing in the console', () => {
 
     await page.goBack()
     await page.waitForURL(/\/reprocess-jobs\/[0-9a-f-]{36}$/)
+    // The demo stable-isotope lab reviews with four eyes: whoever started the reprocessing
+    // cannot release what it produced, and the page says why; nothing is released.
     await changed.getByRole('button', { name: `Release correction of ${runs[0]}` }).click()
-    await expect.poll(() => page.getByRole('main').textContent()).toContain('Correction released')
-    await expect.poll(() => changed.textContent()).toContain('released')
-    await expectAccessible(page)
-    await shot(page, 'reprocess-04-released')
+    await expect.poll(() => page.getByRole('main').textContent()).toContain('another reviewer must release it')
+    expect(await changed.getByRole('row').filter({ hasText: runs[0] }).textContent()).toContain('held')
+
+    // The lab's reviewer releases it from the same job page.
+    const jobUrl = page.url()
+    const reviewer = await createPage('/sign-in')
+    await signInThroughForm(reviewer, demoUser('lab_reviewer').email, demoUser('lab_reviewer').password)
+    await reviewer.goto(jobUrl, { waitUntil: 'hydration' } as never)
+    const changedForReviewer = reviewer.getByRole('region', { name: 'Results that changed' })
+    await changedForReviewer.getByRole('button', { name: `Release correction of ${runs[0]}` }).click()
+    await expect.poll(() => reviewer.getByRole('main').textContent()).toContain('Correction released')
+    await expect.poll(() => changedForReviewer.getByRole('row').filter({ hasText: runs[0] }).textContent()).toContain('released')
+    await expectAccessible(reviewer)
+    await shot(reviewer, 'reprocess-04-released')
   })
 })

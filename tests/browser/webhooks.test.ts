@@ -48,14 +48,15 @@ describe('webhooks in the console', () => {
     await shot(page, 'webhooks-endpoint-added')
     await page.getByRole('button', { name: 'Done' }).click()
 
-    // Edit it in place.
-    await page.getByRole('button', { name: 'Edit', exact: true }).first().click()
+    // Edit it in place (the demo partner has other tests' endpoints too: this one by its URL).
+    const mine = page.getByRole('listitem', { name: `Endpoint http://127.0.0.1:${SINK_PORT}${path}` })
+    await mine.getByRole('button', { name: 'Edit', exact: true }).click()
     await page.getByRole('form', { name: 'Edit the endpoint' }).getByLabel('Description').fill('LIMS intake, night shift')
     await page.getByRole('button', { name: 'Save endpoint' }).click()
-    await expect.poll(() => page.getByRole('listitem').first().textContent()).toContain('LIMS intake, night shift')
+    await expect.poll(() => mine.textContent()).toContain('LIMS intake, night shift')
 
     // Its delivery limits (issue 22): past the hub's bound the field says so; within it they are kept.
-    await page.getByRole('button', { name: 'Edit' }).click()
+    await mine.getByRole('button', { name: 'Edit', exact: true }).click()
     const edit = page.getByRole('form', { name: 'Edit the endpoint' })
     await edit.getByLabel('Sends in flight at most').fill('100')
     await page.getByRole('button', { name: 'Save endpoint' }).click()
@@ -64,7 +65,7 @@ describe('webhooks in the console', () => {
     await edit.getByLabel('Deliver in order').check()
     await shot(page, 'webhooks-endpoint-limits')
     await page.getByRole('button', { name: 'Save endpoint' }).click()
-    await expect.poll(() => page.getByRole('listitem').first().textContent()).toContain('8 in flight, in order')
+    await expect.poll(() => mine.textContent()).toContain('8 in flight, in order')
 
     // A bad URL is refused on the field it names: a private address, and a host name that
     // resolves to loopback (looked up when the endpoint is saved).

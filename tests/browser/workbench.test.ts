@@ -5,6 +5,7 @@ import { expectAccessible, shot, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { bearer, co2Acquisition, labWithInstrument, sectorGeometry } from '../support/lab'
 import { ConsoleClient, testDb, unique, useArcwise } from '../support/server'
+import { insertPausedEndpoint } from '../support/webhooks'
 import type { Role } from '../../shared/types/roles'
 
 await useArcwise({ browser: true })
@@ -32,8 +33,8 @@ beforeAll(async () => {
   ids.ownRun = await post(key.secret, { ...co2Acquisition(`${tok}-own`, 1000), instrument: slug, sampleRef: `${tok}-core` })
   const other = await labWithInstrument()
   ids.otherRun = await post(other.key.secret, co2Acquisition(`${tok}-other`, 1000))
-  const [ep] = await sql<{ id: string }[]>`insert into webhook_endpoints (partner_id, url, event_types, status, sealed_secret) values (${ids.northgate}, ${`https://hooks.example.org/${tok}`}, ${['webhook.test']}, 'paused', 'unused') returning id`
-  const [d] = await sql<{ id: string }[]>`insert into deliveries (endpoint_id, event_type, test_payload, status, attempts, finished_at) values (${ep!.id}, 'webhook.test', ${sql.json({ test: true })}, 'succeeded', 1, now()) returning id`
+  const endpointId = await insertPausedEndpoint(ids.northgate, `https://hooks.example.org/${tok}`)
+  const [d] = await sql<{ id: string }[]>`insert into deliveries (endpoint_id, event_type, test_payload, status, attempts, finished_at) values (${endpointId}, 'webhook.test', ${sql.json({ test: true })}, 'succeeded', 1, now()) returning id`
   ids.delivery = d!.id
 })
 

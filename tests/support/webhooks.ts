@@ -1,7 +1,10 @@
 import { createServer } from 'node:http'
+import { randomBytes } from 'node:crypto'
 import { afterAll } from 'vitest'
+import { parseSealingKeys, sealWith } from '../../server/utils/keyring'
+import { testEnv } from './env'
 import { labWithInstrument } from './lab'
-import { unique } from './server'
+import { testDb, unique } from './server'
 
 /** Polls `probe` until it gives something truthy, which it returns; fails after `timeoutMs`. */
 export async function until<T>(what: string, probe: () => Promise<T | undefined | false> | T | undefined | false, timeoutMs = 30_000): Promise<T> {
@@ -12,6 +15,18 @@ export async function until<T>(what: string, probe: () => Promise<T | undefined 
     if (Date.now() > deadline) throw new Error(`timed out waiting for ${what}`)
     await new Promise(r => setTimeout(r, 100))
   }
+}
+
+/**
+ * A paused endpoint written straight into the database (for tests that need a delivery row to
+ * find, not a send). Its secret is sealed under the test keyring like any other, so that
+ * `npm run keys:rotate` (tests/api/secrets.test.ts) can open every stored value.
+ */
+export async function insertPausedEndpoint(partnerId: string, endpointUrl: string): Promise<string> {
+  const env = testEnv().serverEnv
+  const sealed = sealWith(parseSealingKeys(env.NUXT_SEALING_KEYS ?? '', env.NUXT_SESSION_PASSWORD), `whsec_${randomBytes(24).toString('base64')}`)
+  const [row] = await testDb()<{ id: string }[]>`insert into webhook_endpoints (partner_id, url, event_types, status, sealed_secret) values (${partnerId}, ${endpointUrl}, ${['webhook.test']}, 'paused', ${sealed}) returning id`
+  return row!.id
 }
 
 /** A new lab (instrument, key) that grants a new partner, and one endpoint of that partner at `endpointUrl`. */
