@@ -6,17 +6,20 @@
 // partner has normalised δ. Then the lab system asks for a few certificates of analysis, as a
 // client's order would.
 import { demoSignIn } from './console-client'
+import { log } from './paths'
 
 interface Held { resultId: string, acquisitionId: string, runId: string }
-interface Queue { results: { items: Held[], nextCursor: string | null }, sequences: { id: string }[] }
+interface Queue { results: { items: Held[], nextCursor: string | null }, sequences: { id: string, sequenceId: string }[] }
 
 /** Certificates are issued on first request: the lab key asks for the PDF of each. */
 async function certify(base: string, labKey: string, paths: string[]) {
   let issued = 0
   for (const path of paths) {
     const res = await fetch(`${base}${path}`, { headers: { authorization: `Bearer ${labKey}` } })
-    await res.arrayBuffer()
+    const body = await res.arrayBuffer()
     if (res.ok) issued++
+    // Said, not skipped: a demo without its certificates is a demo that misleads.
+    else log(`demo certificate ${path} refused: ${res.status} ${Buffer.from(body).toString('utf8').slice(0, 200)}`)
   }
   return issued
 }
@@ -45,12 +48,13 @@ export async function reviewDemo(base: string, labKey?: string) {
   // A sequence whose members' results are not all released is refused (409): counted only when released.
   const releasedSequences: string[] = []
   for (const s of sequences) {
-    if ((await reviewer.call('POST', `/api/console/labs/${lab.id}/sequences/${s.id}/release`, {})).status === 200) releasedSequences.push(s.id)
+    if ((await reviewer.call('POST', `/api/console/labs/${lab.id}/sequences/${s.id}/release`, {})).status === 200) releasedSequences.push(s.sequenceId)
   }
   const certificates = labKey
     ? await certify(base, labKey, [
         ...toRelease.slice(1, 4).map(r => `/api/v1/results/${r.acquisitionId}/certificate.pdf`),
-        ...releasedSequences.slice(-2).map(id => `/api/v1/sequences/${id}/certificate.pdf`),
+        // The lab API names a sequence by the lab's own id for it, as the lab system posted it.
+        ...releasedSequences.slice(-2).map(id => `/api/v1/sequences/${encodeURIComponent(id)}/certificate.pdf`),
       ])
     : 0
   return { released: toRelease.length, rejected: toReject ? 1 : 0, retracted: toRetract ? 1 : 0, sequences: releasedSequences.length, held: held.length - toRelease.length - (toReject ? 1 : 0), certificates }

@@ -113,7 +113,10 @@ export function demoCo2Sequences(now = Date.now()): DemoSequence[] {
       { 'δ13C': -3.4 + (k % 3) * 0.5, 'δ18O': -2.8 + (k % 4) * 0.2 },
       { 'δ13C': 0.9 - (k % 6) * 0.3, 'δ18O': -1.5 - (k % 2) * 0.4 },
     ]
-    cores.forEach((c, j) => { ref(); layout.push({ role: 'sample', truth: c, majorA: 1e-8, sampleRef: `SM-CORE-${String(k * 4 + j + 101).padStart(4, '0')}` }) })
+    // The cores' own compositions are not round numbers: with the simulator's noise off (for
+    // the charts above), a round truth came back to the last digit and looked invented.
+    const composition = (c: { 'δ13C': number, 'δ18O': number }, j: number) => ({ 'δ13C': c['δ13C'] + scatter(k + 2 * j, 0.137), 'δ18O': c['δ18O'] + scatter(k + 3 * j + 1, 0.093) })
+    cores.forEach((c, j) => { ref(); layout.push({ role: 'sample', truth: composition(c, j), majorA: 1e-8, sampleRef: `SM-CORE-${String(k * 4 + j + 101).padStart(4, '0')}` }) })
     ref(); std('IAEA-603', 'working-standard', a, a18)
     ref(); std('LSVEC', 'working-standard', -b, -b18)
     ref(); std('IAEA-603', 'working-standard', a * -14 / 18, a18 * -14 / 18)

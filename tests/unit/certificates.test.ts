@@ -56,6 +56,10 @@ describe('values as the certificate prints them', () => {
     [3.2e-5, 1.1e-7, '3.200e-5', '0.011e-5'],
     [2.5e-12, 3.1e-15, '2.5000e-12', '0.0031e-12'],
     [12.3, null, '12.3', null],
+    // A sample at δ ≈ 0: printed at u's digits, not as 5.0e-7 ± 251069.5e-7 (seen in the demo).
+    [5.0e-7, 0.0251, '0.000', '0.025'],
+    [-2e-5, 0.0251, '0.000', '0.025'],
+    [0, 0.0251, '0.000', '0.025'],
   ])('%s ± %s → %s ± %s (u to two significant digits, GUM 7.2.6)', (value, u, v, uText) => {
     const f = formatMeasured(value, u)
     expect(f.value).toBe(v)

@@ -26,14 +26,18 @@ export function formatMeasured(value: number, u: number | null): { value: string
   const sign = (s: string) => s.replace(/^-/, MINUS)
   if (u === null || !(u > 0) || !Number.isFinite(u)) return { value: sign(Number(value.toPrecision(7)).toString()), u: null, decimals: null }
   const uExp = Math.floor(Math.log10(u))
-  const magnitude = value === 0 ? uExp : Math.floor(Math.log10(Math.abs(value)))
+  // The scale is the larger of the value's and u's: a value that rounds to zero at u's digits
+  // (a sample at δ ≈ 0 ‰) prints as 0.000 ± 0.025, not in the powers of ten of its last digits.
+  const magnitude = value === 0 ? uExp : Math.max(uExp, Math.floor(Math.log10(Math.abs(value))))
   if (magnitude >= 6 || magnitude <= -4 || uExp <= -9) {
     const digits = Math.min(12, Math.max(1, magnitude - uExp + 1))
     const scale = 10 ** magnitude
     return { value: sign(`${(value / scale).toFixed(digits)}e${magnitude}`), u: `${(u / scale).toFixed(digits)}e${magnitude}`, decimals: null }
   }
   const decimals = Math.min(12, Math.max(0, 1 - uExp))
-  return { value: sign(value.toFixed(decimals)), u: u.toFixed(decimals), decimals }
+  const fixed = value.toFixed(decimals)
+  // A negative value that rounds to zero prints without its sign (−0.000 says nothing more).
+  return { value: sign(Number(fixed) === 0 ? fixed.replace(/^-/, '') : fixed), u: u.toFixed(decimals), decimals }
 }
 
 function formatK(k: number) {
