@@ -94,13 +94,18 @@ export function assignPeak(table: CandidateTable, mz: number, fwhm: number, tol:
 
 /** Pairs of peaks that are the z=1 and z=2 lines of one species: [index of z=1, index of z=2]. */
 export function linkChargeStates(assignments: (Assignment | null)[]): [number, number][] {
-  const byKey = new Map<string, number>()
-  assignments.forEach((a, i) => { if (a?.best) byKey.set(`${a.best.species}|${a.best.z}`, i) })
+  // The last peak of each species at z = 1 and at z = 2, species in the order first seen at
+  // z = 1 (keyed by species alone: keys built from strings were a measurable share of a
+  // small spectrum's cost, DEVELOPERS.md, Measured).
+  const single = new Map<string, number>()
+  const double = new Map<string, number>()
+  assignments.forEach((a, i) => {
+    if (a?.best?.z === 1) single.set(a.best.species, i)
+    else if (a?.best?.z === 2) double.set(a.best.species, i)
+  })
   const links: [number, number][] = []
-  for (const [key, i] of byKey) {
-    const [species, z] = key.split('|')
-    if (z !== '1') continue
-    const j = byKey.get(`${species}|2`)
+  for (const [species, i] of single) {
+    const j = double.get(species)
     if (j !== undefined) links.push([i, j])
   }
   return links

@@ -133,16 +133,23 @@ function candidateSpecies(options: EngineOptions): Species[] {
   return list
 }
 
-// Candidate tables are rebuilt only when the candidate set changes (a few recent sets kept).
-const tableCache = new Map<string, CandidateTable>()
+// Candidate tables are rebuilt only when the candidate set changes (the 16 latest sets kept).
+// The set is compared field by field with copies of the lists: a JSON key per call was about
+// 0.5 µs (DEVELOPERS.md, Measured).
+interface TableEntry { isotopes: boolean, formulas: string[], maxCharge: number, measured: string[], table: CandidateTable }
+const tableCache: TableEntry[] = []
+const sameList = (a: readonly string[], b: readonly string[]) => a.length === b.length && a.every((x, i) => x === b[i])
 function candidateTable(options: EngineOptions): CandidateTable {
-  const key = JSON.stringify([options.isotopes ?? !options.formulas?.length, options.formulas ?? [], options.maxCharge ?? 3, options.measuredSpecies ?? []])
-  let table = tableCache.get(key)
-  if (!table) {
-    table = new CandidateTable(candidateSpecies(options), options.maxCharge ?? 3, options.measuredSpecies)
-    if (tableCache.size >= 16) tableCache.delete(tableCache.keys().next().value!)
-    tableCache.set(key, table)
+  const isotopes = options.isotopes ?? !options.formulas?.length
+  const formulas = options.formulas ?? []
+  const maxCharge = options.maxCharge ?? 3
+  const measured = options.measuredSpecies ?? []
+  for (const e of tableCache) {
+    if (e.isotopes === isotopes && e.maxCharge === maxCharge && sameList(e.formulas, formulas) && sameList(e.measured, measured)) return e.table
   }
+  const table = new CandidateTable(candidateSpecies(options), maxCharge, options.measuredSpecies)
+  if (tableCache.length >= 16) tableCache.pop()
+  tableCache.unshift({ isotopes, formulas: [...formulas], maxCharge, measured: [...measured], table })
   return table
 }
 
@@ -162,8 +169,11 @@ function detectorSI(d: { unit: string, values: ArrayLike<number>, dwell?: { valu
   return { values: signal.values, unit: signal.unit }
 }
 
+/** The calibration a call applies: the fit in force, or null with the reason. */
+interface CalibrationInForce { fit: AppliedCalibration | null, state: CalibrationStatus['state'], fittedUnder: number | null }
+
 /** The calibration to apply, or null with the reason when the geometry version moved on. */
-function calibrationInForce(options: EngineOptions): { fit: AppliedCalibration | null, state: CalibrationStatus['state'], fittedUnder: number | null } {
+function calibrationInForce(options: EngineOptions): CalibrationInForce {
   const fit = options.calibration
   if (!fit) return { fit: null, state: 'none', fittedUnder: null }
   const fittedUnder = fit.geometryVersion ?? null
@@ -176,14 +186,13 @@ export function processReadings(geo: Geometry, readings: RawReadings, options: E
   if (!readings.detectors?.length) throw new EngineError('detectors', 'missing', 'at least one detector column is required')
   const table = candidateTable(options)
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE
-  const { fit, state, fittedUnder } = calibrationInForce(options)
-  const opts = { ...options, calibration: fit, calibrationState: state, calibrationFittedUnder: fittedUnder }
-  return readings.sweep ? processSweep(geo, readings, opts, table, tolerance) : processStatic(geo, readings, opts, table, tolerance)
+  // The resolved calibration travels beside the caller's options, not merged into a copy of
+  // them: an object spread followed by new keys cost about 3 µs a call in Node 20 (DEVELOPERS.md, Measured).
+  const cal = calibrationInForce(options)
+  return readings.sweep ? processSweep(geo, readings, options, cal, table, tolerance) : processStatic(geo, readings, options, cal, table, tolerance)
 }
 
-type ResolvedOptions = EngineOptions & { calibrationState: CalibrationStatus['state'], calibrationFittedUnder?: number | null }
-
-function processSweep(geo: Geometry, readings: RawReadings, options: ResolvedOptions, table: CandidateTable, tolerance: Tolerance): EngineResult {
+function processSweep(geo: Geometry, readings: RawReadings, options: EngineOptions, cal: CalibrationInForce, table: CandidateTable, tolerance: Tolerance): EngineResult {
   const n = readings.sweep!.values.length
   const columns: Column[] = []
   const reports: DetectorReport[] = []
@@ -203,15 +212,16 @@ function processSweep(geo: Geometry, readings: RawReadings, options: ResolvedOpt
       collector = c.id
     }
     const conv = sweepToMz(geo, readings, radius, physics)
-    if (options.calibration) {
-      applyCalibrationColumn(options.calibration, conv.mz)
-      conv.relU = calibratedRelU(options.calibration, conv.relU)
+    if (cal.fit) {
+      applyCalibrationColumn(cal.fit, conv.mz)
+      conv.relU = calibratedRelU(cal.fit, conv.relU)
     }
     if (sweepDirection(conv.mz) < 0) { conv.mz.reverse(); values.reverse() }
     columns.push({ collector, mz: conv.mz, signal: values, relU: conv.relU })
   })
 
   const peaks: ResultPeak[] = []
+  const assignments: Assignment[] = []
   const shared: SharedBaseline[] = []
   let guessed = false
   let baseline: Baseline | null = null
@@ -223,12 +233,14 @@ function processSweep(geo: Geometry, readings: RawReadings, options: ResolvedOpt
     const found = findPeaks(col.mz, col.signal, { minSnr: options.minSnr, counting: detectorUnit === 'cps', dwellS: options.dwellS, input: baselineInput(options, col.collector, c, columns.length, detectorUnit) })
     baseline ??= found.baseline
     for (const p of found.peaks) {
-      peaks.push(profilePeak(p, col.collector, p.centroid * col.relU(p.centroid), table, tolerance))
+      const a = assignPeak(table, p.centroid, p.fwhm, tolerance, p.centroidU ?? 0)
+      assignments.push(a)
+      peaks.push(profilePeak(p, a, col.collector, p.centroid * col.relU(p.centroid)))
       shared.push({ column: c, areaPerBaseline: p.areaPerBaseline, levelVariance: found.baseline.levelU ** 2, noise: found.baseline.noise, windowFraction: p.windowFraction })
       guessed ||= found.baseline.source === 'estimated' && found.baseline.points < 2
     }
   })
-  return finish(peaks, options, { mode: 'sweep', points: n, mzMin, mzMax, detectorUnit, baseline, detectors: reports, cycles: null }, { baselineGuessed: guessed }, shared)
+  return finish(peaks, options, cal, { mode: 'sweep', points: n, mzMin, mzMax, detectorUnit, baseline, detectors: reports, cycles: null }, { baselineGuessed: guessed }, shared, assignments)
 }
 
 /** What peaks of one column share through its baseline: for correlations and detection limits. */
@@ -276,32 +288,34 @@ export function processMzSpectrum(mzValues: ArrayLike<number>, signalValues: Arr
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE
   const found = findPeaks(mz, signal, { minSnr: options.minSnr, counting: detectorUnit === 'cps', dwellS: options.dwellS, input: baselineInput(options, 'main', 0, 1, detectorUnit) })
   // The geometry is not applied, so there is no geometry uncertainty to give the centroid.
-  const peaks = found.peaks.map(p => profilePeak(p, 'main', 0, table, tolerance))
+  const assignments = found.peaks.map(p => assignPeak(table, p.centroid, p.fwhm, tolerance, p.centroidU ?? 0))
+  const peaks = found.peaks.map((p, i) => profilePeak(p, assignments[i]!, 'main', 0))
   const shared = found.peaks.map(p => ({ column: 0, areaPerBaseline: p.areaPerBaseline, levelVariance: found.baseline.levelU ** 2, noise: found.baseline.noise, windowFraction: p.windowFraction }))
-  return finish(peaks, { ...options, calibration: null, calibrationState: 'not-applicable' }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit, baseline: found.baseline, detectors: [], cycles: null }, { externalMz: true, baselineGuessed: found.baseline.source === 'estimated' && found.baseline.points < 2 }, shared)
+  return finish(peaks, options, { fit: null, state: 'not-applicable', fittedUnder: null }, { mode: 'sweep', points: mz.length, mzMin: mz[0]!, mzMax: mz[mz.length - 1]!, detectorUnit, baseline: found.baseline, detectors: [], cycles: null }, { externalMz: true, baselineGuessed: found.baseline.source === 'estimated' && found.baseline.points < 2 }, shared, assignments)
 }
 
-/** A profile peak with its assignment, as the result reports it. */
-function profilePeak(p: Peak, collector: string, geometryU: number, table: CandidateTable, tolerance: Tolerance): ResultPeak {
-  const a = assignPeak(table, p.centroid, p.fwhm, tolerance, p.centroidU ?? 0)
+/** A profile peak with its assignment `a` (kept by the caller until its rivals are weighed), as the result reports it. */
+function profilePeak(p: Peak, a: Assignment, collector: string, geometryU: number): ResultPeak {
   const centroidU = Math.hypot(geometryU, p.centroidU ?? 0)
-  const peak: ResultPeak = {
+  const f = assignmentFields(a, p.centroid, centroidU)
+  return {
     collector, centroid: p.centroid, centroidU, centroidUFit: p.centroidU, height: p.height, heightU: p.heightU, area: p.area, areaU: p.areaU,
     fwhm: p.fwhm, fwhmU: p.fwhmU, snr: p.snr, resolvingPower: p.resolvingPower, resolvingPowerU: p.resolvingPowerU,
     resolvingPower10Valley: p.resolvingPower10Valley, resolvingPower10ValleyU: p.resolvingPower10ValleyU, fitted: p.fitted,
-    overlapping: p.overlapping, ...assignmentFields(a, p.centroid, centroidU),
+    overlapping: p.overlapping, assignment: f.assignment, ambiguous: f.ambiguous, candidates: f.candidates, linkedPeak: f.linkedPeak,
   }
-  if (a.rivals?.length || a.first) pendingAssignments.set(peak, a)
-  return peak
 }
 
-// The assignment of each profile peak before its rivals are weighed against the spectrum.
-const pendingAssignments = new WeakMap<ResultPeak, Assignment>()
-
-function assignmentFields(a: Assignment, mz: number, mzU: number) {
+// Objects here are written out key by key rather than spread: in Node 20 a spread followed
+// by new keys cost about 3 µs each (a fresh hidden class each time), a spread after other
+// keys about 0.2 µs; together a third of a 1,000-point spectrum's cost (DEVELOPERS.md, Measured).
+function assignmentFields(a: Assignment, mz: number, mzU: number): Pick<ResultPeak, 'assignment' | 'ambiguous' | 'candidates' | 'linkedPeak'> {
+  const b = a.best
   return {
     // Neutral mass z·(m/z) + z·m_e: its u is z·u(m/z) (m_e's own u is 10^-10 of it).
-    assignment: a.best ? { ...a.best, impliedNeutralMass: neutralMassFromMz(mz, a.best.z), impliedNeutralMassU: a.best.z * mzU } : null,
+    assignment: b
+      ? { species: b.species, kind: b.kind, z: b.z, mz: b.mz, neutralMass: b.neutralMass, errorMz: b.errorMz, errorPpm: b.errorPpm, impliedNeutralMass: neutralMassFromMz(mz, b.z), impliedNeutralMassU: b.z * mzU }
+      : null,
     ambiguous: a.ambiguous, candidates: a.candidates.slice(0, 5), linkedPeak: null,
   }
 }
@@ -311,19 +325,20 @@ function assignmentFields(a: Assignment, mz: number, mzU: number) {
  * this spectrum shows, is below the noise cannot be what was measured, so it does not make
  * the peak ambiguous.
  */
-function weighRivals(peaks: ResultPeak[], shared: SharedBaseline[], sweep: { mzMin: number, mzMax: number }, minSnr: number) {
+function weighRivals(peaks: ResultPeak[], assignments: Assignment[], shared: SharedBaseline[], sweep: { mzMin: number, mzMax: number }, minSnr: number) {
   if (!peaks.some(p => p.ambiguous)) return
   const observed: (ObservedLine & { peak: number })[] = []
   peaks.forEach((p, i) => {
-    const a = pendingAssignments.get(p)
+    const a = assignments[i]
     if (a?.first) observed.push({ species: a.first.species, z: a.first.z, height: p.height, peak: i })
   })
   peaks.forEach((p, i) => {
-    const a = pendingAssignments.get(p)
+    const a = assignments[i]
     if (!a?.first || !a.rivals?.length) return
     const noise = shared[i]?.noise ?? 0
     const others = observed.filter(o => o.peak !== i)
-    const rivals = a.rivals.filter(r => expectedSignal(r, others, { ...sweep, detectionLimit: minSnr * noise }) >= noise)
+    const bounds = { mzMin: sweep.mzMin, mzMax: sweep.mzMax, detectionLimit: minSnr * noise }
+    const rivals = a.rivals.filter(r => expectedSignal(r, others, bounds) >= noise)
     if (rivals.length) return
     const settled: Assignment = { ...a, best: a.first, ambiguous: false, candidates: a.candidates.filter(c => c === a.first || !a.rivals!.includes(c)) }
     Object.assign(p, assignmentFields(settled, p.centroid, p.centroidU))
@@ -331,7 +346,7 @@ function weighRivals(peaks: ResultPeak[], shared: SharedBaseline[], sweep: { mzM
 }
 
 /** A static reading: each collector's cycles through its detector and baseline, ratios cycle by cycle. */
-function processStatic(geo: Geometry, readings: RawReadings, options: ResolvedOptions, table: CandidateTable, tolerance: Tolerance): EngineResult {
+function processStatic(geo: Geometry, readings: RawReadings, options: EngineOptions, cal: CalibrationInForce, table: CandidateTable, tolerance: Tolerance): EngineResult {
   const positions = staticCollectorMz(geo, readings, physicsFor(options.compatibility))
   let detectorUnit: 'A' | 'cps' = 'A'
   const reports: DetectorReport[] = []
@@ -350,33 +365,35 @@ function processStatic(geo: Geometry, readings: RawReadings, options: ResolvedOp
     reports.push({ collector: pos.collector, type: p.type, unit: col.unit, corrections: col.corrections, commonRelU: p.type === 'unregistered' ? null : Math.hypot(p.resistorU / (p.resistorOhm || 1), p.gainU / p.gain), baseline: col.baseline })
     let mz = pos.mz
     let centroidU = mz * pos.relU
-    if (options.calibration) {
-      mz = applyCalibrationColumn(options.calibration, new Float64Array([mz]))[0]!
-      centroidU = mz * calibratedRelU(options.calibration, () => pos.relU)(mz)
+    if (cal.fit) {
+      mz = applyCalibrationColumn(cal.fit, new Float64Array([mz]))[0]!
+      centroidU = mz * calibratedRelU(cal.fit, () => pos.relU)(mz)
     }
     // A collector's width is not known from one reading: ambiguity uses the tolerance window.
     const window = Math.max(tolerance.abs ?? 0, mz * (tolerance.ppm ?? 0) * 1e-6)
     const a = assignPeak(table, mz, window, tolerance)
+    const f = assignmentFields(a, mz, centroidU)
     // A static reading has no profile: width, resolving power and a centroid fit are not estimated.
     return {
       collector: pos.collector, centroid: mz, centroidU, centroidUFit: null, height: col.mean, heightU: col.meanU, area: col.mean, areaU: col.meanU,
       fwhm: 0, fwhmU: null, snr: col.meanU > 0 ? col.mean / col.meanU : Number.MAX_VALUE, resolvingPower: 0, resolvingPowerU: null,
-      resolvingPower10Valley: null, resolvingPower10ValleyU: null, fitted: false, overlapping: false, ...assignmentFields(a, mz, centroidU),
+      resolvingPower10Valley: null, resolvingPower10ValleyU: null, fitted: false, overlapping: false,
+      assignment: f.assignment, ambiguous: f.ambiguous, candidates: f.candidates, linkedPeak: f.linkedPeak,
     }
   })
   const mzs = peaks.map(p => p.centroid)
   const cycleRatio = (heavy: number, light: number) => staticRatio(inputs[heavy]!, inputs[light]!)
-  return finish(peaks, options, {
+  return finish(peaks, options, cal, {
     mode: 'static', points: readings.detectors[0]!.values.length, mzMin: Math.min(...mzs), mzMax: Math.max(...mzs), detectorUnit, baseline: null,
     detectors: reports, cycles: { count: readings.detectors[0]!.values.length, rule: REJECTION_RULE },
-  }, {}, [], cycleRatio)
+  }, {}, [], [], cycleRatio)
 }
 
 function finish(
-  peaks: ResultPeak[], options: ResolvedOptions, head: Pick<EngineResult, 'mode' | 'points' | 'mzMin' | 'mzMax' | 'detectorUnit' | 'baseline' | 'detectors' | 'cycles'>,
-  source: { externalMz?: boolean, baselineGuessed?: boolean } = {}, shared: SharedBaseline[] = [], cycleRatio?: (heavy: number, light: number) => ReturnType<typeof staticRatio>,
+  peaks: ResultPeak[], options: EngineOptions, cal: CalibrationInForce, head: Pick<EngineResult, 'mode' | 'points' | 'mzMin' | 'mzMax' | 'detectorUnit' | 'baseline' | 'detectors' | 'cycles'>,
+  source: { externalMz?: boolean, baselineGuessed?: boolean } = {}, shared: SharedBaseline[] = [], assignments: Assignment[] = [], cycleRatio?: (heavy: number, light: number) => ReturnType<typeof staticRatio>,
 ): EngineResult {
-  if (head.mode === 'sweep') weighRivals(peaks, shared, head, options.minSnr ?? 10)
+  if (head.mode === 'sweep') weighRivals(peaks, assignments, shared, head, options.minSnr ?? 10)
   for (const [i, j] of linkChargeStates(peaks.map(p => (p.assignment ? { candidates: [], ambiguous: false, best: p.assignment } : null)))) {
     peaks[i]!.linkedPeak = j
     peaks[j]!.linkedPeak = i
@@ -395,9 +412,9 @@ function finish(
     if (sh.windowFraction !== undefined && sh.windowFraction < 0.99) qc.push({ code: 'area-window-cut', peak: i, message: `Peak at m/z ${peaks[i]!.centroid.toFixed(4)}: the sweep's end or a neighbour cuts its area window; ${((1 - sh.windowFraction) * 100).toFixed(1)} % of the fitted shape lies outside and is added from the fit.` })
   })
   if (source.externalMz) qc.push({ code: 'external-mz', message: 'm/z was computed by the instrument\'s own software; the registered geometry and calibration were not applied.' })
-  else if (options.calibrationState === 'retired') qc.push({ code: 'calibration-retired', message: `The latest calibration was fitted under geometry version ${options.calibrationFittedUnder}, not version ${options.geometryVersion} now in force: it is retired and was not applied, so m/z comes from the registered geometry alone.` })
-  else if (!options.calibration) qc.push({ code: 'uncalibrated', message: 'No calibration applied: m/z comes from the registered geometry alone.' })
-  const calibration = calibrationStatus(options, peaks)
+  else if (cal.state === 'retired') qc.push({ code: 'calibration-retired', message: `The latest calibration was fitted under geometry version ${cal.fittedUnder}, not version ${options.geometryVersion} now in force: it is retired and was not applied, so m/z comes from the registered geometry alone.` })
+  else if (!cal.fit) qc.push({ code: 'uncalibrated', message: 'No calibration applied: m/z comes from the registered geometry alone.' })
+  const calibration = calibrationStatus(cal, peaks)
   for (const i of calibration.outside) {
     qc.push({ code: 'outside-calibration', peak: i, message: `Peak at m/z ${peaks[i]!.centroid.toFixed(4)} lies outside the calibrated range m/z ${calibration.range![0].toFixed(3)}–${calibration.range![1].toFixed(3)} (reference span + ${CALIBRATION_MARGIN * 100} %): extrapolated.` })
   }
@@ -442,13 +459,13 @@ function finish(
   const physics: Physics = physicsFor(options.compatibility)
   return {
     engineVersion: ENGINE_VERSION, constants: physics.constants.name, physics: { relativistic: physics.relativistic, compatibility: physics.compatibility },
-    ...head, calibrated: !!options.calibration, calibration, peaks, ratios, qc, matches,
+    ...head, calibrated: !!cal.fit, calibration, peaks, ratios, qc, matches,
   }
 }
 
-function calibrationStatus(options: ResolvedOptions, peaks: ResultPeak[]): CalibrationStatus {
-  const fit = options.calibration
-  if (!fit) return { state: options.calibrationState === 'applied' ? 'none' : options.calibrationState, geometryVersion: options.calibrationFittedUnder ?? null, range: null, outside: [], uncertaintyPropagated: false }
+function calibrationStatus(cal: CalibrationInForce, peaks: ResultPeak[]): CalibrationStatus {
+  const fit = cal.fit
+  if (!fit) return { state: cal.state === 'applied' ? 'none' : cal.state, geometryVersion: cal.fittedUnder ?? null, range: null, outside: [], uncertaintyPropagated: false }
   const { from, to } = calibratedRange(fit)
   const outside: number[] = []
   peaks.forEach((p, i) => { if (p.centroid < from || p.centroid > to) outside.push(i) })

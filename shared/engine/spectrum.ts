@@ -488,7 +488,8 @@ export function normalCdf(z: number): number {
   return z >= 0 ? 0.5 * (1 + erf) : 0.5 * (1 - erf)
 }
 
-interface GaussianFit { height: number, centre: number, sigma: number, cov: number[] }
+/** The fitted parameters and the variances of (JᵀWJ)⁻¹'s diagonal. */
+interface GaussianFit { height: number, centre: number, sigma: number, heightVar: number, centreVar: number, sigmaVar: number }
 
 /**
  * Weighted least-squares fit of H·exp(−(x−μ)²/2s²) to the points within 2.5 s of μ
@@ -526,9 +527,13 @@ function fitGaussian(mz: Float64Array, y: Float64Array, apex: number, lo: number
     }
   }
   if (!(sigma > 0) || !(height > 0)) return null
-  const jtj = new Float64Array(9)
-  const jtr = new Float64Array(3)
-  let cov: number[] | null = null
+  // JᵀWJ (symmetric: six sums), JᵀWr and the inverse's entries are local numbers: arrays
+  // for them, allocated per iteration, were a tenth of a 1,000-point spectrum's cost
+  // (allocation and GC; DEVELOPERS.md, Measured). The arithmetic is the same, term by term.
+  let converged = false
+  let heightVar = 0
+  let centreVar = 0
+  let sigmaVar = 0
   for (let iteration = 0; iteration < 12; iteration++) {
     const half = FIT_WINDOW_SIGMAS * sigma
     let from = lowerBoundFrom(mz, centre - half, lo, hi)
@@ -539,8 +544,8 @@ function fitGaussian(mz: Float64Array, y: Float64Array, apex: number, lo: number
     from = Math.max(lo, Math.min(from, apex - 2))
     to = Math.min(hi, Math.max(to, apex + 2))
     if (to - from + 1 < 4) return null
-    jtj.fill(0)
-    jtr.fill(0)
+    let a = 0, b = 0, c = 0, e = 0, f2 = 0, i2 = 0
+    let r0 = 0, r1 = 0, r2 = 0
     const inv2s2 = 1 / (2 * sigma * sigma)
     for (let i = from; i <= to; i++) {
       const dx = mz[i]! - centre
@@ -551,16 +556,28 @@ function fitGaussian(mz: Float64Array, y: Float64Array, apex: number, lo: number
       const j0 = g
       const j1 = f * dx / (sigma * sigma)
       const j2 = f * dx * dx / (sigma * sigma * sigma)
-      jtj[0]! += w * j0 * j0; jtj[1]! += w * j0 * j1; jtj[2]! += w * j0 * j2
-      jtj[4]! += w * j1 * j1; jtj[5]! += w * j1 * j2; jtj[8]! += w * j2 * j2
-      jtr[0]! += w * j0 * r; jtr[1]! += w * j1 * r; jtr[2]! += w * j2 * r
+      a += w * j0 * j0; b += w * j0 * j1; c += w * j0 * j2
+      e += w * j1 * j1; f2 += w * j1 * j2; i2 += w * j2 * j2
+      r0 += w * j0 * r; r1 += w * j1 * r; r2 += w * j2 * r
     }
-    jtj[3] = jtj[1]!; jtj[6] = jtj[2]!; jtj[7] = jtj[5]!
-    cov = invert3(jtj)
-    if (!cov) return null
-    const dH = cov[0]! * jtr[0]! + cov[1]! * jtr[1]! + cov[2]! * jtr[2]!
-    const dMu = cov[3]! * jtr[0]! + cov[4]! * jtr[1]! + cov[5]! * jtr[2]!
-    const dS = cov[6]! * jtr[0]! + cov[7]! * jtr[1]! + cov[8]! * jtr[2]!
+    // (JᵀWJ)⁻¹ by cofactors: [[a b c] [b e f] [c f i]].
+    const A = e * i2 - f2 * f2
+    const B = c * f2 - b * i2
+    const C = b * f2 - c * e
+    const det = a * A + b * B + c * C
+    if (!(Math.abs(det) > 0) || !Number.isFinite(det)) return null
+    const D = a * i2 - c * c
+    const E = b * c - a * f2
+    const F = a * e - b * b
+    const c00 = A / det, c01 = B / det, c02 = C / det
+    const c11 = D / det, c12 = E / det, c22 = F / det
+    heightVar = c00
+    centreVar = c11
+    sigmaVar = c22
+    converged = true
+    const dH = c00 * r0 + c01 * r1 + c02 * r2
+    const dMu = c01 * r0 + c11 * r1 + c12 * r2
+    const dS = c02 * r0 + c12 * r1 + c22 * r2
     // Damped steps keep the fit inside the peak's own region.
     const scale = Math.min(1, 0.5 * sigma / Math.max(Math.abs(dMu), Math.abs(dS), 1e-300))
     height += dH * Math.min(1, scale * 2)
@@ -569,7 +586,7 @@ function fitGaussian(mz: Float64Array, y: Float64Array, apex: number, lo: number
     if (!(height > 0) || !(sigma > 0) || centre < mz[lo]! || centre > mz[hi]!) return null
     if (Math.abs(dMu) < 1e-9 * sigma && Math.abs(dS) < 1e-7 * sigma && Math.abs(dH) < 1e-7 * height) break
   }
-  return cov ? { height, centre, sigma, cov } : null
+  return converged ? { height, centre, sigma, heightVar, centreVar, sigmaVar } : null
 }
 
 function lowerBoundFrom(a: Float64Array, x: number, lo: number, hi: number): number {
@@ -577,20 +594,6 @@ function lowerBoundFrom(a: Float64Array, x: number, lo: number, hi: number): num
   let h = hi + 1
   while (l < h) { const mid = (l + h) >> 1; if (a[mid]! < x) l = mid + 1; else h = mid }
   return l
-}
-
-/** Inverse of a symmetric 3×3 matrix (row-major), or null when singular. */
-function invert3(m: Float64Array): number[] | null {
-  const [a, b, c, , e, f, , , i] = m as unknown as number[]
-  const A = e! * i! - f! * f!
-  const B = c! * f! - b! * i!
-  const C = b! * f! - c! * e!
-  const det = a! * A + b! * B + c! * C
-  if (!(Math.abs(det) > 0) || !Number.isFinite(det)) return null
-  const D = a! * i! - c! * c!
-  const E = b! * c! - a! * f!
-  const F = a! * e! - b! * b!
-  return [A / det, B / det, C / det, B / det, D / det, E / det, C / det, E / det, F / det]
 }
 
 function describePeak(mz: Float64Array, y: Float64Array, apex: number, lo: number, hi: number, limitLo: number, limitHi: number, baseline: Baseline, model: NoiseModel, overlapping: boolean): Peak {
@@ -615,12 +618,12 @@ function describePeak(mz: Float64Array, y: Float64Array, apex: number, lo: numbe
   let sigmaU: number | null
   if (fit) {
     centroid = fit.centre
-    centroidU = Math.sqrt(Math.max(0, fit.cov[4]!))
+    centroidU = Math.sqrt(Math.max(0, fit.centreVar))
     height = fit.height
     // The height is measured from the baseline, so the level's uncertainty adds to it.
-    heightU = Math.sqrt(Math.max(0, fit.cov[0]!) + baseline.levelU ** 2)
+    heightU = Math.sqrt(Math.max(0, fit.heightVar) + baseline.levelU ** 2)
     sigma = fit.sigma
-    sigmaU = Math.sqrt(Math.max(0, fit.cov[8]!))
+    sigmaU = Math.sqrt(Math.max(0, fit.sigmaVar))
   }
   else {
     let weighted = 0
