@@ -38,7 +38,18 @@ const CONCURRENCY = 16
 interface Message { headers: Record<string, string>, body: string }
 
 
-export async function benchDelivery(opts: { acquisitions?: number, endpoints?: number, latencyRate?: number, latencySeconds?: number } = {}) {
+/** The measures `BENCH_DELIVERY_PARTS` (a comma list) asks for; all of them by default. */
+const PARTS = ['rate', 'loop', 'peer', 'latency'] as const
+function benchParts(): Set<(typeof PARTS)[number]> {
+  const asked = process.env.BENCH_DELIVERY_PARTS?.split(',').map(p => p.trim()).filter(Boolean)
+  const unknown = asked?.filter(p => !(PARTS as readonly string[]).includes(p))
+  if (unknown?.length) throw new Error(`BENCH_DELIVERY_PARTS: unknown ${unknown.join(', ')} (known: ${PARTS.join(', ')})`)
+  return new Set(asked?.length ? asked as (typeof PARTS)[number][] : PARTS)
+}
+
+export async function benchDelivery(opts: { acquisitions?: number, endpoints?: number, latencyRate?: number, latencySeconds?: number, parts?: Set<(typeof PARTS)[number]> } = {}) {
+  const parts = opts.parts ?? new Set(PARTS)
+  if ((parts.has('loop') || parts.has('peer')) && !parts.has('rate')) throw new Error('the send loop and the peer send the rate measure\'s messages: ask for rate too')
   const acquisitionCount = opts.acquisitions ?? Number(process.env.BENCH_ACQUISITIONS ?? 1000)
   const endpointCount = opts.endpoints ?? 10
   const latencyRate = opts.latencyRate ?? 200
@@ -91,56 +102,68 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
       if (res.status !== 201) throw new Error(`posting an acquisition answered ${res.status}`)
     })
 
-    // 1. Rate. Acquisitions of a lab that grants the partner: each owes one delivery per endpoint.
     const inst = demoInstruments.find(i => i.lab === 'saltmarsh-isotopes')!
-    const body = inst.acquisition('RUN', new Date(), 3)
-    let next = 0
-    await Promise.all(Array.from({ length: 8 }, async () => {
-      while (next < acquisitionCount) await post({ ...body, runId: `bench-delivery-${process.pid}-${next++}` })
-    }))
     const owed = acquisitionCount * endpointCount
-    const cpuBefore = cpuSeconds(server.pid!)
-    const started = performance.now()
-    await setStatus('active')
-    const deadline = started + 300_000
-    while (inbox.worker.size < owed && performance.now() < deadline) await sleep(5)
-    const workerSeconds = (performance.now() - started) / 1000
-    const workerCpu = cpuShares(cpuBefore, cpuSeconds(server.pid!), workerSeconds)
+    // A measure left out (BENCH_DELIVERY_PARTS) reads NaN, printed as null.
+    const none = { server: NaN, bench: NaN, postgres: NaN, other: NaN }
+    let workerSeconds = NaN, workerCpu = none, bareSeconds = NaN, bareCpu = none, loopSeconds = NaN, loopCpu = none
+    let peer = { seconds: NaN, cpu: none, recorded: 0 }
+    let messages: Message[] = []
+    if (parts.has('rate')) {
+      // 1. Rate. Acquisitions of a lab that grants the partner: each owes one delivery per endpoint.
+      const body = inst.acquisition('RUN', new Date(), 3)
+      let next = 0
+      await Promise.all(Array.from({ length: 8 }, async () => {
+        while (next < acquisitionCount) await post({ ...body, runId: `bench-delivery-${process.pid}-${next++}` })
+      }))
+      const cpuBefore = cpuSeconds(server.pid!)
+      const started = performance.now()
+      await setStatus('active')
+      const deadline = started + 300_000
+      while (inbox.worker.size < owed && performance.now() < deadline) await sleep(5)
+      workerSeconds = (performance.now() - started) / 1000
+      workerCpu = cpuShares(cpuBefore, cpuSeconds(server.pid!), workerSeconds)
 
-    // The bare sender: the same signed bodies, the same concurrency, straight from this process.
-    const messages = [...inbox.worker.values()]
-    const agent = new Agent({ connections: 64 })
-    let i = 0
-    const bareCpuBefore = cpuSeconds(server.pid!)
-    const bareStarted = performance.now()
-    await Promise.all(Array.from({ length: CONCURRENCY }, async () => {
-      while (i < messages.length) {
-        const m = messages[i++]!
-        const res = await request(`http://127.0.0.1:${SINK_PORT}/bare`, { method: 'POST', headers: m.headers, body: m.body, dispatcher: agent })
-        await res.body.dump()
-      }
-    }))
-    const bareSeconds = (performance.now() - bareStarted) / 1000
-    const bareCpu = cpuShares(bareCpuBefore, cpuSeconds(server.pid!), bareSeconds)
-    await agent.close()
+      // The bare sender: the same signed bodies, the same concurrency, straight from this process.
+      messages = [...inbox.worker.values()]
+      const agent = new Agent({ connections: 64 })
+      let i = 0
+      const bareCpuBefore = cpuSeconds(server.pid!)
+      const bareStarted = performance.now()
+      await Promise.all(Array.from({ length: CONCURRENCY }, async () => {
+        while (i < messages.length) {
+          const m = messages[i++]!
+          const res = await request(`http://127.0.0.1:${SINK_PORT}/bare`, { method: 'POST', headers: m.headers, body: m.body, dispatcher: agent })
+          await res.body.dump()
+        }
+      }))
+      bareSeconds = (performance.now() - bareStarted) / 1000
+      bareCpu = cpuShares(bareCpuBefore, cpuSeconds(server.pid!), bareSeconds)
+      await agent.close()
+      await setStatus('paused')
+    }
 
-    // The worker's send path alone, in the server: as many messages, the same body and concurrency.
-    const loopCpuBefore = cpuSeconds(server.pid!)
-    const loopStarted = performance.now()
-    const loop: BenchSendLoop = { url: `http://127.0.0.1:${SINK_PORT}/loop`, count: messages.length, concurrency: CONCURRENCY, body: messages[0]!.body }
-    const loopAnswer = await fetch(`${base}/_bench/send-loop`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(loop) })
-    if (!loopAnswer.ok) throw new Error(`the send loop answered ${loopAnswer.status}: ${await loopAnswer.text()}`)
-    const { classes } = await loopAnswer.json() as { classes: Record<string, number> }
-    if (classes.success !== loop.count) throw new Error(`the send loop's sends did not all succeed: ${JSON.stringify(classes)}`)
-    const loopSeconds = (performance.now() - loopStarted) / 1000
-    const loopCpu = cpuShares(loopCpuBefore, cpuSeconds(server.pid!), loopSeconds)
+    if (parts.has('loop')) {
+      // The worker's send path alone, in the server: as many messages, the same body and concurrency.
+      const loopCpuBefore = cpuSeconds(server.pid!)
+      const loopStarted = performance.now()
+      const loop: BenchSendLoop = { url: `http://127.0.0.1:${SINK_PORT}/loop`, count: messages.length, concurrency: CONCURRENCY, body: messages[0]!.body }
+      const loopAnswer = await fetch(`${base}/_bench/send-loop`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(loop) })
+      if (!loopAnswer.ok) throw new Error(`the send loop answered ${loopAnswer.status}: ${await loopAnswer.text()}`)
+      const { classes } = await loopAnswer.json() as { classes: Record<string, number> }
+      if (classes.success !== loop.count) throw new Error(`the send loop's sends did not all succeed: ${JSON.stringify(classes)}`)
+      loopSeconds = (performance.now() - loopStarted) / 1000
+      loopCpu = cpuShares(loopCpuBefore, cpuSeconds(server.pid!), loopSeconds)
+    }
+
+    if (parts.has('peer')) {
+      // The peer: graphile-worker with the same messages, concurrency and database.
+      peer = await drainThroughPeer({
+        databaseUrl: stack.databaseUrl, url: `http://127.0.0.1:${SINK_PORT}/peer`, messages, concurrency: CONCURRENCY, received: () => inbox.peer.size, serverPid: server.pid!,
+      })
+      if (peer.recorded !== messages.length) throw new Error(`the peer recorded ${peer.recorded} of ${messages.length} attempts`)
+    }
     const loopRate = inbox.loop.size / loopSeconds
-
-    // The peer: graphile-worker with the same messages, concurrency and database.
-    const peer = await drainThroughPeer({
-      databaseUrl: stack.databaseUrl, url: `http://127.0.0.1:${SINK_PORT}/peer`, messages, concurrency: CONCURRENCY, received: () => inbox.peer.size, serverPid: server.pid!,
-    })
-    if (peer.recorded !== messages.length) throw new Error(`the peer recorded ${peer.recorded} of ${messages.length} attempts`)
     const peerRate = inbox.peer.size / peer.seconds
     const deliveryRate = inbox.worker.size / workerSeconds
     const bareRate = inbox.bare.size / bareSeconds
@@ -150,18 +173,20 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
     const perMessage = (shares: Record<string, number>, seconds: number, count: number) =>
       Math.round(Object.values(shares).reduce((a, b) => a + b, 0) / 100 * seconds / count * 1e6)
 
-    // 2. Latency, at a steady rate to one endpoint (the rate measure's endpoints paused), with
-    // 1,000-point acquisitions: the 12,000-point ones cannot be ingested 200 times a second here.
-    await setStatus('paused')
-    await asAdmin('POST', endpointsPath, { url: `http://127.0.0.1:${SINK_PORT}/latency` })
+    let timed = { postedPerSecond: NaN, received: 0, ms: { p50: NaN, p99: NaN } as Awaited<ReturnType<typeof openLoopLatency>>['ms'] }
     const template = thousandPointAcquisition(inst, 'x')
-    for (let w = 0; w < 20; w++) await post({ ...template, runId: `lat-warm-${process.pid}-${w}` })
     const count = latencyRate * latencySeconds
-    // Timed from the moment each post is answered.
-    const timed = await openLoopLatency({ count, rate: latencyRate, runIdPrefix: `lat-${process.pid}`, arrived, send: async (runId) => {
-      await post({ ...template, runId })
-      return performance.now()
-    } })
+    if (parts.has('latency')) {
+      // 2. Latency, at a steady rate to one endpoint (the rate measure's endpoints paused), with
+      // 1,000-point acquisitions: the 12,000-point ones cannot be ingested 200 times a second here.
+      await asAdmin('POST', endpointsPath, { url: `http://127.0.0.1:${SINK_PORT}/latency` })
+      for (let w = 0; w < 20; w++) await post({ ...template, runId: `lat-warm-${process.pid}-${w}` })
+      // Timed from the moment each post is answered.
+      timed = await openLoopLatency({ count, rate: latencyRate, runIdPrefix: `lat-${process.pid}`, arrived, send: async (runId) => {
+        await post({ ...template, runId })
+        return performance.now()
+      } })
+    }
 
     return {
       concurrency: CONCURRENCY, endpoints: endpointCount, deliveriesOwed: owed, delivered: inbox.worker.size,
@@ -197,6 +222,6 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
 
 if (import.meta.url === `file://${process.argv[1]}`) {
   log('delivery benchmark: this takes about two minutes')
-  const result = await benchDelivery()
+  const result = await benchDelivery({ parts: benchParts() })
   console.log(JSON.stringify({ benchmark: 'delivery', node: process.version, cores: cpus().length, ...result }, null, 2))
 }

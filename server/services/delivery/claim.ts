@@ -76,16 +76,17 @@ export async function claimDueDeliveries(limit: number, leaseSeconds: number): P
       due as (
         select d.id from ${deliveries} d
         where d.id = any(array(select id from candidates)) and d.status = 'pending' and (d.lease_until is null or d.lease_until < now())
-        for update of d skip locked),
+        for no key update of d skip locked),
       claimed as (
         update ${deliveries} d set lease_owner = ${workerId}, lease_until = now() + make_interval(secs => ${leaseSeconds})
         where d.id = any(array(select id from due))
         returning d.id, d.endpoint_id, d.event_id, d.event_type, d.test_payload, d.attempts, d.replay_requested),
       -- A rate-limited endpoint's theoretical arrival time moves on by the sends claimed (its
-      -- row locked in id order, as records lock endpoints, so the two cannot deadlock).
+      -- row locked in id order, as records lock endpoints, so the two cannot deadlock; FOR NO
+      -- KEY UPDATE, which the deliveries' foreign key checks in ingest's fan-out do not wait for).
       pacing as (
         select e.id from ${webhookEndpoints} e
-        where e.rate_per_second is not null and e.id = any(array(select endpoint_id from claimed)) order by e.id for update of e),
+        where e.rate_per_second is not null and e.id = any(array(select endpoint_id from claimed)) order by e.id for no key update of e),
       paced as (
         update ${webhookEndpoints} e set rate_next_at = greatest(coalesce(e.rate_next_at, now()), now()) + make_interval(secs => n.count / e.rate_per_second)
         from (select endpoint_id, count(*)::float8 as count from claimed group by endpoint_id) n

@@ -54,11 +54,13 @@ export async function recordAttempts(sent: Sent[]) {
       from upd, o, jsonb_to_record(o.by_id -> upd.id::text) as r(cls text, code int, error text, excerpt text, headers jsonb, body text, duration int, replay boolean)),
     h as (select * from jsonb_to_recordset(${JSON.stringify(health)}::jsonb) as h(id uuid, ok boolean, failures int, wait float8)),
     -- The endpoints this changes, locked in id order: records and claims in other processes
-    -- lock endpoints in the same order, so they cannot deadlock.
+    -- lock endpoints in the same order, so they cannot deadlock. FOR NO KEY UPDATE, not FOR
+    -- UPDATE: ingest's fan-out takes FOR KEY SHARE on endpoint rows (the deliveries' foreign
+    -- key) in its own order, and FOR UPDATE waited for it, a deadlock (DEVELOPERS.md, Measured).
     locked as (
       select e.id from ${webhookEndpoints} e join h on h.id = e.id
       where not h.ok or h.wait is not null or e.failing_since is not null or e.consecutive_failures > 0
-      order by e.id for update of e)
+      order by e.id for no key update of e)
     -- A success closes the circuit; failures count towards opening it (and each failure once
     -- it is open waits a probe interval); Retry-After blocks the endpoint until then.
     update ${webhookEndpoints} e set
