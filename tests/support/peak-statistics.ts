@@ -61,6 +61,30 @@ export function areaCoverage(e: EngineModule, snr: number, seeds: number, points
 }
 
 /**
+ * Centroid of one 40Ar peak at a given S/N in a field sweep, against the fit's own stated u
+ * (`centroidUFit`: the geometry's share is zero here, its radius being exact). The truth is the
+ * ion's m/z, the AME2020 atomic mass of 40Ar less one electron mass (CODATA 2022), as the
+ * simulator places it.
+ */
+export function centroidCoverage(e: EngineModule, snr: number, seeds: number, points = 1500): Coverage {
+  const geo = argonGeometry(e)
+  const ar40 = e.isotope('40Ar')
+  const noise = 1e-16
+  const errors: number[] = []
+  const us: number[] = []
+  const centre = ar40.mass - 5.48579909065e-4
+  for (let seed = 1; seed <= seeds; seed++) {
+    const raw = e.simulateFieldSweep({ geometry: geo, acceleratingVoltageV: 4500, mzFrom: 38.5, mzTo: 41.5, points, resolvingPower: 600, species: [{ species: ar40, currentA: snr * noise }], baselineA: 3e-16, noiseA: noise, seed, currentUnit: 'A' })
+    const result = e.processReadings(geo, raw, { isotopes: false, formulas: ['[40Ar]'], minSnr: 5 })
+    const peak = result.peaks.find(p => Math.abs(p.centroid - centre) < 0.05)
+    if (!peak || peak.centroidUFit === null) continue
+    errors.push(peak.centroid - centre)
+    us.push(peak.centroidUFit)
+  }
+  return summarise(errors, us, centre, seeds)
+}
+
+/**
  * 40Ar/36Ar of air argon (298.56, Lee et al., Geochim. Cosmochim. Acta 70 (2006) 4507) from a
  * field sweep over m/z 35..41 with 36Ar at a given S/N; 38Ar/36Ar = 0.1885 (Lee et al. 2006).
  */
