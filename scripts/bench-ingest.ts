@@ -18,7 +18,7 @@ const base = `http://127.0.0.1:${PORT}`
 
 export async function benchIngest(opts: { seconds?: number } = {}) {
   const seconds = opts.seconds ?? Number(process.env.BENCH_SECONDS ?? 10)
-  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, appUrl: base })
+  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, storePort: 4572, appUrl: base })
   const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
   await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
   const sql = postgres(stack.databaseUrl, { max: 1, onnotice: () => {} })
