@@ -82,9 +82,9 @@ function rssMb(pid: number): number {
 }
 
 /** Peak RSS growth of the server while it takes (and processes) a 1,000,000-point CSV upload. */
-async function uploadMemory(pid: number, key: string) {
+export async function uploadMemory(pid: number, key: string, runId = `bench-1m-${process.pid}`) {
   const inst = demoInstruments.find(i => i.slug === 'irms-north')!
-  const lines = ['# instrument: irms-north', `# runId: bench-1m-${process.pid}`, `# acquiredAt: ${new Date().toISOString()}`, '# acceleratingVoltage: 3 kV', '# formulas: CO2, [13C]O2', 'field [T],detector [fA]']
+  const lines = ['# instrument: irms-north', `# runId: ${runId}`, `# acquiredAt: ${new Date().toISOString()}`, '# acceleratingVoltage: 3 kV', '# formulas: CO2, [13C]O2', 'field [T],detector [fA]']
   const body = inst.acquisition('x', new Date(), 9)
   const b = body.sweep!.values
   const d = body.detectors[0]!.values
