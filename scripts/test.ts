@@ -8,7 +8,8 @@ import { log, root } from './lib/paths'
 import { seedDemo } from './lib/seed'
 import { startStack } from './lib/services'
 
-export const testPorts = { app: 3100, smtp: 2526, mailHttp: 2581, store: 4571 }
+// ARCWISE_TEST_APP_PORT moves the test server off 3100 (a server left running there by another checkout).
+export const testPorts = { app: Number(process.env.ARCWISE_TEST_APP_PORT || 3100), smtp: 2526, mailHttp: 2581, store: 4571 }
 
 function ensureChromium() {
   if (existsSync('/usr/bin/chromium')) return
