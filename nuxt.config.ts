@@ -46,6 +46,12 @@ export default defineNuxtConfig({
       // An acquiredAt later than the server's clock plus this is refused.
       clockSkewSeconds: 300,
     },
+    // The S3-compatible object store for raw data (issue 23; server/services/store): any
+    // service that speaks S3 (NUXT_STORE_ENDPOINT empty: AWS S3 itself). With the bucket
+    // empty the store is off and raw data stays in PostgreSQL. npm start and npm test run a
+    // local s3rver and set these. retentionMinutes: how often worker processes apply the
+    // labs' raw-data retention.
+    store: { endpoint: '', region: 'us-east-1', bucket: '', accessKeyId: '', secretAccessKey: '', forcePathStyle: false, retentionMinutes: 60 },
     // The benchmark's baseline route (server/routes/_bench), off unless NUXT_BENCH_ROUTES=true.
     benchRoutes: false,
     // /_bench/diagnostics (event-loop delay, peak RSS) for npm run chaos, off unless NUXT_DIAGNOSTICS=true.

@@ -18,7 +18,7 @@ const base = `http://127.0.0.1:${PORT}`
 
 export async function benchIngest(opts: { seconds?: number } = {}) {
   const seconds = opts.seconds ?? Number(process.env.BENCH_SECONDS ?? 10)
-  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, appUrl: base })
+  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, storePort: 4572, appUrl: base })
   const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
   await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
   const sql = postgres(stack.databaseUrl, { max: 1, onnotice: () => {} })
@@ -82,9 +82,9 @@ function rssMb(pid: number): number {
 }
 
 /** Peak RSS growth of the server while it takes (and processes) a 1,000,000-point CSV upload. */
-async function uploadMemory(pid: number, key: string) {
+export async function uploadMemory(pid: number, key: string, runId = `bench-1m-${process.pid}`) {
   const inst = demoInstruments.find(i => i.slug === 'irms-north')!
-  const lines = ['# instrument: irms-north', `# runId: bench-1m-${process.pid}`, `# acquiredAt: ${new Date().toISOString()}`, '# acceleratingVoltage: 3 kV', '# formulas: CO2, [13C]O2', 'field [T],detector [fA]']
+  const lines = ['# instrument: irms-north', `# runId: ${runId}`, `# acquiredAt: ${new Date().toISOString()}`, '# acceleratingVoltage: 3 kV', '# formulas: CO2, [13C]O2', 'field [T],detector [fA]']
   const body = inst.acquisition('x', new Date(), 9)
   const b = body.sweep!.values
   const d = body.detectors[0]!.values

@@ -31,7 +31,7 @@ export async function benchLatency(opts: { count?: number, ratePerSecond?: numbe
     })
   })
   await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
-  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, appUrl: base })
+  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, storePort: 4572, appUrl: base })
   const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
   await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
   buildIfStale()

@@ -29,7 +29,7 @@ function rssMb(pid: number): number {
 
 export async function benchReprocess(opts: { acquisitions?: number } = {}) {
   const count = opts.acquisitions ?? Number(process.env.BENCH_REPROCESS_ACQUISITIONS ?? 10_000)
-  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, appUrl: base })
+  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, storePort: 4572, appUrl: base })
   const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
   await seedDemo(stack.databaseUrl, { keysFile })
   const sql = postgres(stack.databaseUrl, { max: 1, onnotice: () => {} })
@@ -49,8 +49,10 @@ export async function benchReprocess(opts: { acquisitions?: number } = {}) {
       with gen as (select gen_random_uuid() as acq_id, gen_random_uuid() as res_id, g from generate_series(1, ${count}::int) g),
       t as (select a.*, r.id as res_id, r.geometry_version_id, r.calibration_id, r.engine_version, r.summary from acquisitions a join results r on r.acquisition_id = a.id where a.id = ${template.id}::uuid),
       acq as (
-        insert into acquisitions (id, lab_id, instrument_id, external_id, acquired_at, sample_ref, status, body_hash, payload, point_count)
-        select gen.acq_id, t.lab_id, t.instrument_id, 'bench-rp-' || gen.g, ${new Date(WINDOW_START).toISOString()}::timestamptz + make_interval(secs => gen.g), t.sample_ref, t.status, t.body_hash, t.payload, t.point_count
+        insert into acquisitions (id, lab_id, instrument_id, external_id, acquired_at, sample_ref, status, body_hash, payload, point_count,
+          raw_sha256, raw_bytes, raw_content_type, arrays_sha256, arrays_bytes)
+        select gen.acq_id, t.lab_id, t.instrument_id, 'bench-rp-' || gen.g, ${new Date(WINDOW_START).toISOString()}::timestamptz + make_interval(secs => gen.g), t.sample_ref, t.status, t.body_hash, t.payload, t.point_count,
+          t.raw_sha256, t.raw_bytes, t.raw_content_type, t.arrays_sha256, t.arrays_bytes
         from gen, t returning 1),
       res as (
         insert into results (id, acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, review_state, released_at)

@@ -70,7 +70,7 @@ function sequenceBody(n: number) {
 
 export async function benchSequence(opts: { runs?: number } = {}) {
   const runs = opts.runs ?? Number(process.env.BENCH_SEQUENCE_RUNS ?? 3)
-  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, appUrl: base })
+  const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, storePort: 4572, appUrl: base })
   const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
   await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
   buildIfStale()

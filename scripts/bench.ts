@@ -10,6 +10,7 @@ import { benchDelivery } from './bench-delivery'
 import { benchEngine } from './bench-engine'
 import { benchFairness } from './bench-fairness'
 import { benchIngest } from './bench-ingest'
+import { benchObjectStore } from './bench-ingest-store'
 import { benchLatency } from './bench-latency'
 import { benchReprocess } from './bench-reprocess'
 import { benchSequence } from './bench-sequence'
@@ -31,6 +32,8 @@ log('1/7 engine')
 const engine = benchEngine()
 log('2/7 ingest and the 10^6-point upload')
 const ingest = await benchIngest()
+log('2b/7 raw data in PostgreSQL against the object store')
+const objectStore = await benchObjectStore()
 log('3/7 delivery, beside the bare sender and graphile-worker')
 const delivery = await benchDelivery()
 log('4/7 fairness: healthy endpoints beside slow and failing ones')
@@ -42,7 +45,7 @@ const sequence = await benchSequence()
 log('7/7 reprocessing 10,000 stored acquisitions')
 const reprocess = await benchReprocess()
 
-const report = { kind: 'bench', at: new Date().toISOString(), machine, versions: versions(), engine, ingest, delivery, fairness, latency, sequence, reprocess }
+const report = { kind: 'bench', at: new Date().toISOString(), machine, versions: versions(), engine, ingest, objectStore, delivery, fairness, latency, sequence, reprocess }
 mkdirSync(join(root, 'reports'), { recursive: true })
 const file = join(root, 'reports', `bench-${report.at.replace(/[:.]/g, '-')}.json`)
 writeFileSync(file, JSON.stringify(report, null, 2))
@@ -58,6 +61,16 @@ const rows: Record<string, { figure: string, baseline: string, ratio: string, go
   'engine: cost per point, 10^3 vs 10^6': { figure: '', baseline: '', ratio: String(engine.costPerPointSpread.ratio), goal: '≤ 2', verdict: met(engine.costPerPointSpread.ratio <= 2) },
   'ingest: acquisitions/s (1,000 points)': {
     figure: `${ingest.ingest.requestsPerSecond}/s`, baseline: `baseline route ${ingest.baseline.requestsPerSecond}/s`, ratio: String(ingest.ratio.value), goal: '≥ 0.5', verdict: met(ingest.ratio.value >= 0.5),
+  },
+  'raw data: server memory, 10^6-point upload, store off → on': {
+    figure: `+${objectStore.storeOn.upload1M.growthMb} MB`, baseline: `store off +${objectStore.storeOff.upload1M.growthMb} MB`, ratio: '', goal: '', verdict: '',
+  },
+  'raw data: database bytes per 1,000-point acquisition, store off → on': {
+    figure: `${objectStore.storeOn.databaseBytesPerAcquisition1kPoints.toLocaleString('en')} B`, baseline: `store off ${objectStore.storeOff.databaseBytesPerAcquisition1kPoints.toLocaleString('en')} B`,
+    ratio: String((objectStore.storeOn.databaseBytesPerAcquisition1kPoints / objectStore.storeOff.databaseBytesPerAcquisition1kPoints).toFixed(2)), goal: '', verdict: '',
+  },
+  'raw data: database bytes for the 10^6-point upload, store off → on': {
+    figure: `${objectStore.storeOn.databaseBytesFor1MUpload.toLocaleString('en')} B`, baseline: `store off ${objectStore.storeOff.databaseBytesFor1MUpload.toLocaleString('en')} B`, ratio: '', goal: '', verdict: '',
   },
   'ingest: server memory, 10^6-point upload': { figure: `+${ingest.upload1M.growthMb} MB`, baseline: `${ingest.upload1M.rssBeforeMb} MB before`, ratio: '', goal: '< 250 MB', verdict: met(ingest.upload1M.growthMb < 250) },
   'delivery: webhooks/s': {

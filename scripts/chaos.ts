@@ -94,7 +94,7 @@ let gone: Server | null = await sinkServer(GONE)
 
 // ── The stack and three app processes of one build ─────────────────────────────────────
 const appUrl = `http://127.0.0.1:${ports.A}`
-const stack = await startStack({ database: 'arcwise_chaos', fresh: true, smtpPort: 2529, mailHttpPort: 2584, appUrl })
+const stack = await startStack({ database: 'arcwise_chaos', fresh: true, smtpPort: 2529, mailHttpPort: 2584, storePort: 4573, appUrl })
 const keysFile = join(tmpdir(), `arcwise-chaos-keys-${process.pid}.json`)
 await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
 buildIfStale()

@@ -5,7 +5,7 @@ import { log, root } from './lib/paths'
 import { demoKeysFile, printDemoSignIns, seedDemo } from './lib/seed'
 import { mailFile, startStack } from './lib/services'
 
-const stack = await startStack({ database: 'arcwise', smtpPort: 2525, mailHttpPort: 2580, appUrl: 'http://localhost:3000', mailFile })
+const stack = await startStack({ database: 'arcwise', smtpPort: 2525, mailHttpPort: 2580, storePort: 4570, appUrl: 'http://localhost:3000', mailFile })
 await seedDemo(stack.databaseUrl, { keysFile: demoKeysFile })
 const dev = spawn(join(root, 'node_modules', '.bin', 'nuxt'), ['dev', '--port', '3000'], { cwd: root, stdio: 'inherit', env: { ...process.env, ...stack.serverEnv } })
 printDemoSignIns('http://localhost:3000')

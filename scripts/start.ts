@@ -12,7 +12,7 @@ import { startReceiver } from './lib/receiver'
 
 const port = Number(process.env.PORT ?? 3000)
 const appUrl = `http://localhost:${port}`
-const stack = await startStack({ database: 'arcwise', smtpPort: 2525, mailHttpPort: 2580, appUrl, mailFile })
+const stack = await startStack({ database: 'arcwise', smtpPort: 2525, mailHttpPort: 2580, storePort: 4570, appUrl, mailFile })
 // The demo partner receiver, the one loopback address the SSRF guard lets webhooks reach here.
 const receiver = await startReceiver(2590, demoEndpointSecrets)
 let stopping = false

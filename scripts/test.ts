@@ -8,7 +8,8 @@ import { log, root } from './lib/paths'
 import { seedDemo } from './lib/seed'
 import { startStack } from './lib/services'
 
-export const testPorts = { app: 3100, smtp: 2526, mailHttp: 2581 }
+// ARCWISE_TEST_APP_PORT moves the test server off 3100 (a server left running there by another checkout).
+export const testPorts = { app: Number(process.env.ARCWISE_TEST_APP_PORT || 3100), smtp: 2526, mailHttp: 2581, store: 4571 }
 
 function ensureChromium() {
   if (existsSync('/usr/bin/chromium')) return
@@ -35,7 +36,7 @@ async function step(name: string, cmd: string, args: string[], env: Record<strin
 
 ensureChromium()
 const appUrl = `http://127.0.0.1:${testPorts.app}`
-const stack = await startStack({ database: 'arcwise_test', fresh: true, smtpPort: testPorts.smtp, mailHttpPort: testPorts.mailHttp, appUrl })
+const stack = await startStack({ database: 'arcwise_test', fresh: true, smtpPort: testPorts.smtp, mailHttpPort: testPorts.mailHttp, storePort: testPorts.store, appUrl })
 try {
   await seedDemo(stack.databaseUrl)
   await step('lint', bin('eslint'), ['.'])

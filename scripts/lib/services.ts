@@ -1,6 +1,8 @@
 import { spawn, type ChildProcess } from 'node:child_process'
+import { rmSync } from 'node:fs'
 import { join } from 'node:path'
 import { startMailFake, type MailFake } from './mail-fake'
+import { startStoreFake, type StoreFake } from './store-fake'
 import { applyMigrations } from './migrate'
 import { ensureDatabase, startCluster, type Cluster } from './pg'
 import { dataDir, localSecrets, log, root } from './paths'
@@ -9,21 +11,32 @@ export interface Stack {
   cluster: Cluster
   databaseUrl: string
   mail: MailFake
+  /** The local S3 fake (s3rver) holding raw data. */
+  store: StoreFake
   /** Environment for the built server (it reads no .env file). */
   serverEnv: Record<string, string>
   stop: () => Promise<void>
 }
 
-/** PostgreSQL, a migrated database, and the SMTP fake: what the server needs around it. */
-export async function startStack(opts: { database: string, fresh?: boolean, smtpPort: number, mailHttpPort: number, appUrl: string, mailFile?: string }): Promise<Stack> {
+/**
+ * PostgreSQL, a migrated database, the SMTP fake and the object-store fake (s3rver on
+ * `storePort`, its objects under .data/store-<database>/; fresh when the database is): what
+ * the server needs around it.
+ */
+export async function startStack(opts: { database: string, fresh?: boolean, smtpPort: number, mailHttpPort: number, storePort: number, appUrl: string, mailFile?: string }): Promise<Stack> {
   const cluster = await startCluster()
   let mail: MailFake | undefined
+  let store: StoreFake | undefined
   try {
     const databaseUrl = await ensureDatabase(cluster, opts.database, { fresh: opts.fresh })
     await applyMigrations(databaseUrl)
     log(`database ${opts.database} migrated`)
     mail = await startMailFake({ smtpPort: opts.smtpPort, httpPort: opts.mailHttpPort, file: opts.mailFile })
     log(`SMTP fake on 127.0.0.1:${mail.smtpPort}, captured mail at ${mail.httpUrl}`)
+    const storeDir = join(dataDir, `store-${opts.database}`)
+    if (opts.fresh) rmSync(storeDir, { recursive: true, force: true })
+    store = await startStoreFake({ port: opts.storePort, directory: storeDir })
+    log(`object-store fake (s3rver) on 127.0.0.1:${store.port}, bucket ${store.bucket}, objects in ${storeDir}`)
     const serverEnv = {
       NUXT_DATABASE_URL: databaseUrl,
       NUXT_SESSION_PASSWORD: localSecrets().sessionPassword,
@@ -38,15 +51,18 @@ export async function startStack(opts: { database: string, fresh?: boolean, smtp
       NUXT_SMTP_PORT: String(mail.smtpPort),
       NUXT_MAIL_CAPTURE_URL: mail.httpUrl,
       NUXT_PUBLIC_MAIL_CAPTURE: 'true',
+      ...store.env,
     }
     const m = mail
+    const st = store
     return {
-      cluster, databaseUrl, mail: m, serverEnv,
-      stop: async () => { await m.close(); cluster.stop() },
+      cluster, databaseUrl, mail: m, store: st, serverEnv,
+      stop: async () => { await m.close(); await st.close(); cluster.stop() },
     }
   }
   catch (error) {
     await mail?.close()
+    await store?.close()
     cluster.stop()
     throw error
   }

@@ -15,16 +15,22 @@ export default defineNitroPlugin((nitro) => {
     flushSchemaUses().catch(error => logError('[schemas] usage flush failed', error))
   }, 5000)
   timer.unref()
+  // Raw-data retention per lab (server/services/store): worker processes, every retentionMinutes.
+  const retentionMs = Number(useRuntimeConfig().store.retentionMinutes) * 60_000
+  const retention = background && retentionMs > 0 ? setInterval(kickRetention, retentionMs) : undefined
+  retention?.unref()
   if (background) startDeliveryWorker()
   // Reprocessing jobs (server/services/reprocessing); NUXT_REPROCESS_WORKER=false leaves them to other processes.
   if (background && reprocessWorkerOn()) startReprocessWorker()
   nitro.hooks.hook('close', async () => {
     clearInterval(timer)
+    clearInterval(retention)
     // Leases this process holds are handed back, so another worker need not wait them out.
     if (background) await stopDeliveryWorker().catch(error => logError('[delivery] stop failed', error))
     if (background && reprocessWorkerOn()) await stopReprocessWorker().catch(error => logError('[reprocess] stop failed', error))
     await flushSchemaUses().catch(() => {})
     await closeDb()
+    closeStore()
   })
 })
 

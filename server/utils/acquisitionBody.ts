@@ -15,6 +15,8 @@ function queryMeta(event: H3Event): QueryMeta {
  * body, or one multipart part), read through the request's byte counter.
  */
 export function readAcquisitionBody(event: H3Event): Promise<AcquisitionInput> {
+  // The bytes as received go to the object store once the acquisition is accepted (receivedBody).
+  keepReceivedBody(event)
   return acquisitionFromBody({
     contentType: getRequestHeader(event, 'content-type') ?? '',
     meta: queryMeta(event),

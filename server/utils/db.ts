@@ -21,6 +21,12 @@ export function useDb(): Database {
   return database
 }
 
+/** The postgres.js client under Drizzle, for code shared with the commands (server/services/store/maintenance.ts). */
+export function useSql(): postgres.Sql {
+  useDb()
+  return preparedStatements(client!)
+}
+
 type Callback = (sql: postgres.Sql) => unknown
 
 /**

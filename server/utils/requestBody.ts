@@ -12,7 +12,7 @@ import { problem } from './problem'
 export const JSON_BODY_LIMIT = 1024 * 1024
 
 const counted = Symbol('arcwise.countedBody')
-interface BodyGuard { cap: number, stream?: Readable, web?: ReadableStream }
+interface BodyGuard { cap: number, stream?: Readable, web?: ReadableStream, kept?: Buffer[] }
 type GuardedEvent = H3Event & { [counted]?: BodyGuard }
 
 /** The byte cap of a request body on this route: acquisition uploads take the configured upload limit. */
@@ -85,7 +85,10 @@ export function readBodyStream(event: H3Event): Readable {
   const limiter = new Transform({
     transform(chunk: Buffer, _encoding, done) {
       seen += chunk.length
-      if (seen <= guard.cap) return done(null, chunk)
+      if (seen <= guard.cap) {
+        guard.kept?.push(chunk)
+        return done(null, chunk)
+      }
       req.unpipe(limiter)
       done(bodyTooLarge(guard.cap))
     },
@@ -94,6 +97,22 @@ export function readBodyStream(event: H3Event): Readable {
   closeUnreadBody(event)
   guard.stream = req.pipe(limiter)
   return guard.stream
+}
+
+/**
+ * Keeps the request's bytes as they pass the counter, for ingest to store the body exactly as
+ * it was received (issue 23). Call before the body is read.
+ */
+export function keepReceivedBody(event: H3Event) {
+  const guard = (event as GuardedEvent)[counted]
+  if (guard && !guard.stream) guard.kept = []
+}
+
+/** The bytes keepReceivedBody kept and their Content-Type; undefined for requests it did not see. */
+export function receivedBody(event: H3Event): { bytes: Buffer, contentType: string } | undefined {
+  const kept = (event as GuardedEvent)[counted]?.kept
+  if (!kept) return undefined
+  return { bytes: Buffer.concat(kept), contentType: getRequestHeader(event, 'content-type') || 'application/octet-stream' }
 }
 
 /**

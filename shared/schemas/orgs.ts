@@ -6,6 +6,8 @@ export const labInput = z.object({
   name: displayName,
   site: z.string({ error: 'is required' }).trim().min(1, 'is required').max(120),
   contactEmail: email,
+  // Days the raw data of the lab's acquisitions is kept after receipt; null keeps it forever (issue 23).
+  rawRetentionDays: z.number({ error: 'must be a whole number of days, or null to keep raw data forever' }).int('must be a whole number of days').min(1, 'must be at least 1 day').max(36_500, 'at most 36,500 days (100 years); null keeps it forever').nullable().optional(),
 })
 export type LabInput = z.infer<typeof labInput>
 export const labUpdate = labInput.partial().refine(v => Object.keys(v).length > 0, 'change at least one field')

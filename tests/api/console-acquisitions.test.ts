@@ -48,16 +48,18 @@ describe('acquisitions in the console', () => {
     const base = `/api/console/labs/${lab.id}/acquisitions/${posted.body.id}`
     const detail = await admin.get(base)
     expect(detail.status).toBe(200)
-    const { instrumentId, instrumentName, geometryKind, payload, reviewComment, submittedBy, ...view } = detail.body
+    const { instrumentId, instrumentName, geometryKind, payload, rawData, reviewComment, submittedBy, ...view } = detail.body
     acquisitionView.parse(view)
     expect({ instrumentName, geometryKind }).toEqual({ instrumentName: 'Sector one', geometryKind: 'potential-sector' })
     // Posted with a lab key, not reviewed yet: no uploader, no comment.
     expect({ reviewComment, submittedBy }).toEqual({ reviewComment: null, submittedBy: null })
     expect(instrumentId).toMatch(/^[0-9a-f-]{36}$/)
-    const [stored] = await sql<[{ chars: number }]>`select length(payload::text)::int as chars from acquisitions where id = ${posted.body.id}`
-    expect(payload).toMatchObject({ chars: stored.chars, truncated: true })
+    // The start of the body as the lab sent it, from the object store (issue 23).
+    const [stored] = await sql<[{ bytes: number }]>`select raw_bytes::int as bytes from acquisitions where id = ${posted.body.id}`
+    expect(rawData).toMatchObject({ kept: 'object-store', bytes: stored.bytes, contentType: 'application/json' })
+    expect(payload).toMatchObject({ chars: stored.bytes, truncated: true })
     expect(payload.head.startsWith('{')).toBe(true)
-    expect(payload.head).toContain(`"runId": "${body.runId}"`)
+    expect(payload.head).toContain(`"runId":"${body.runId}"`)
 
     const res = await fetch(url(`${base}/spectrum`), { headers: { cookie: admin.cookie } })
     expect(res.headers.get('content-type')).toBe('application/octet-stream')

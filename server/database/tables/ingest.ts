@@ -1,4 +1,4 @@
-import { index, integer, jsonb, pgTable, primaryKey, text, timestamp, uuid } from 'drizzle-orm/pg-core'
+import { bigint, index, integer, jsonb, pgTable, primaryKey, text, timestamp, uuid } from 'drizzle-orm/pg-core'
 import { createdAt } from './columns'
 import { apiKeys } from './access'
 import { labs } from './orgs'
@@ -27,7 +27,13 @@ export const uploads = pgTable('uploads', {
   // SHA-256 of the body as the lab sent it: jsonb reorders keys, so it cannot be recomputed
   // from `body` (null on uploads stored before this column).
   bodyHash: text('body_hash'),
-  body: jsonb('body').$type<Record<string, unknown>>().notNull(),
+  // The body as JSON with the object store off; with it on, the references (as on acquisitions).
+  body: jsonb('body').$type<Record<string, unknown>>(),
+  rawSha256: text('raw_sha256'),
+  rawBytes: bigint('raw_bytes', { mode: 'number' }),
+  rawContentType: text('raw_content_type'),
+  arraysSha256: text('arrays_sha256'),
+  arraysBytes: bigint('arrays_bytes', { mode: 'number' }),
   acquisitionId: uuid('acquisition_id').references(() => acquisitions.id),
   problem: jsonb('problem').$type<Record<string, unknown>>(),
   leaseUntil: timestamp('lease_until', { withTimezone: true }),
@@ -35,3 +41,14 @@ export const uploads = pgTable('uploads', {
   finishedAt: timestamp('finished_at', { withTimezone: true }),
 }, t => [index('uploads_status_idx').on(t.status, t.createdAt)])
 
+
+/**
+ * Keys of the object store claimed by writers (server/services/store/objects.ts): a writer
+ * claims a key before it writes the object and references it; retention deletes only keys
+ * whose claim is old and that no live row references, under this row's lock.
+ */
+export const storeObjects = pgTable('store_objects', {
+  key: text('key').primaryKey(),
+  bytes: bigint('bytes', { mode: 'number' }).notNull(),
+  claimedAt: timestamp('claimed_at', { withTimezone: true }).notNull().defaultNow(),
+})

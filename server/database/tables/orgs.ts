@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm'
-import { bigint, boolean, pgEnum, pgTable, text, uuid } from 'drizzle-orm/pg-core'
+import { bigint, boolean, integer, pgEnum, pgTable, text, uuid } from 'drizzle-orm/pg-core'
 import { releasePolicies } from '../../../shared/schemas/lifecycle'
 import { partnerKinds } from '../../../shared/schemas/orgs'
 import { createdAt, updatedAt } from './columns'
@@ -23,6 +23,9 @@ export const labs = pgTable('labs', {
   autoReleaseAllows: text('auto_release_allows').array().notNull().default(sql`'{}'::text[]`),
   // Four eyes: whoever submitted a result (or last changed its method) may not release it.
   fourEyes: boolean('four_eyes').notNull().default(false),
+  // Days the raw data (the body as sent, the parsed arrays) is kept after an acquisition is
+  // received; null keeps it forever. Results and their numbers are kept either way (issue 23).
+  rawRetentionDays: integer('raw_retention_days'),
   createdAt: createdAt(),
   updatedAt: updatedAt(),
 })

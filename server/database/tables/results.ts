@@ -17,7 +17,18 @@ export const acquisitions = pgTable('acquisitions', {
   status: acquisitionStatusEnum('status').notNull(),
   // SHA-256 of the canonical body, to tell a replay from a different body under one run id.
   bodyHash: text('body_hash').notNull(),
-  payload: jsonb('payload').$type<Record<string, unknown>>().notNull(),
+  // The body as JSON, for rows from before the object store (and with the store off). With
+  // the store on it is null and the row references two objects by SHA-256 (server/services/
+  // store): raw/<rawSha256>, the body as the lab sent it, and arrays/<arraysSha256>, the
+  // parsed body with its arrays as float64.
+  payload: jsonb('payload').$type<Record<string, unknown>>(),
+  rawSha256: text('raw_sha256'),
+  rawBytes: bigint('raw_bytes', { mode: 'number' }),
+  rawContentType: text('raw_content_type'),
+  arraysSha256: text('arrays_sha256'),
+  arraysBytes: bigint('arrays_bytes', { mode: 'number' }),
+  // When the lab's retention removed the raw data (results stay).
+  rawRemovedAt: timestamp('raw_removed_at', { withTimezone: true }),
   pointCount: integer('point_count').notNull(),
   // The console user who uploaded it (null for lab-system posts with an API key): the four-eyes rule.
   submittedBy: uuid('submitted_by'),
@@ -26,6 +37,8 @@ export const acquisitions = pgTable('acquisitions', {
   uniqueIndex('acquisitions_lab_external_idx').on(t.labId, t.externalId),
   index('acquisitions_lab_created_idx').on(t.labId, t.createdAt, t.id),
   index('acquisitions_lab_acquired_idx').on(t.labId, t.acquiredAt, t.id),
+  index('acquisitions_raw_sha_idx').on(t.rawSha256),
+  index('acquisitions_arrays_sha_idx').on(t.arraysSha256),
 ])
 
 export const results = pgTable('results', {

@@ -9,6 +9,7 @@ import { firstGeometryFrom, instrumentContextAt, type InstrumentContext } from '
 import { observeEngine } from '../metrics'
 import { acquisitionHead, resultChoice, resultView, type AcquisitionHead, type AcquisitionResultView } from '../results'
 import { countSchemaUse } from '../schemas'
+import { storeEnabled, storePayload, type PayloadRef, type ReceivedBody } from '../store'
 import { releasesAutomatically } from '#shared/releaseRule'
 import { recordAccepted } from './acceptedWrites'
 
@@ -46,6 +47,10 @@ export interface AcceptOptions {
   upload?: { id: string, bodyHash: string }
   /** The console user who uploaded it (the four-eyes rule: they may not release it). */
   submittedBy?: string
+  /** The request's bytes as received, for the object store (absent: the body's own JSON text). */
+  received?: ReceivedBody
+  /** Raw data already in the object store (a deferred upload stored it when it arrived). */
+  stored?: PayloadRef
 }
 
 /**
@@ -105,6 +110,8 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
   const acq: AcquisitionHead = {
     id: randomUUID(), labId: key.labId, instrumentId: instrument.id, externalId: input.runId, acquiredAt, sampleRef: input.sampleRef ?? null,
     status: 'processed', bodyHash: hash, pointCount: engine.points, submittedBy: opts.submittedBy ?? null, createdAt: new Date(),
+    // Where its raw data is kept is the write's business (payload below); the view does not show it.
+    rawSha256: null, rawBytes: null, rawContentType: null, arraysSha256: null, arraysBytes: null, rawRemovedAt: null,
   }
   // Held for the lab's review unless its rule releases it now (written in the same statement).
   const released = releasesAutomatically(instrument.release.policy, instrument.release.allows, engine.qc.map(f => f.code))
@@ -116,8 +123,13 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
     releasedAt: released ? acq.createdAt : null, retractedBy: null, retractedAt: null, retractionReason: null,
   }
   const view = resultView(acq, res, instrument.slug)
+  // Raw data goes to the object store before the row commits (a store failure answers 503 and
+  // nothing is written); with the store off it goes into the row as JSON, as before issue 23.
+  const payload = opts.stored ? { ref: opts.stored }
+    : storeEnabled() ? { ref: await storePayload(input, opts.received) }
+      : opts.upload ? { uploadId: opts.upload.id } : { json: canonicalBody(input).json }
   try {
-    await recordAccepted({ acq, res, payload: opts.upload ? { uploadId: opts.upload.id } : { json: canonicalBody(input).json }, peaks: engine.peaks, view })
+    await recordAccepted({ acq, res, payload, peaks: engine.peaks, view })
     if (opts.schemaId) countSchemaUse(opts.schemaId, key.labId)
     kickDeliveries()
     return { status: 201, body: view }
@@ -148,8 +160,8 @@ function replayOrConflict(existing: { acq: AcquisitionHead, res: typeof results.
  * An acquisition uploaded as a file in the console by a lab manager or admin: processed at
  * once, whatever its size (the console waits for it), and recorded in the audit log.
  */
-export async function uploadFromConsole(audit: AuditContext, labId: string, input: AcquisitionInput) {
-  const result = await acceptAcquisition({ labId }, input, { submittedBy: audit.actor.id ?? undefined })
+export async function uploadFromConsole(audit: AuditContext, labId: string, input: AcquisitionInput, received?: ReceivedBody) {
+  const result = await acceptAcquisition({ labId }, input, { submittedBy: audit.actor.id ?? undefined, received })
   if (result.status === 201) {
     await recordAudit(useDb(), { ...audit, action: 'acquisition.uploaded', targetType: 'acquisition', targetId: result.body.id, detail: { labId, runId: input.runId, points: result.body.result.points } })
   }

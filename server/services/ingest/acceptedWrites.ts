@@ -4,6 +4,7 @@ import { acquisitions, events, labs, peaks, results, uploads } from '../../datab
 import type { Outcome } from '../../utils/turnBatch'
 import { fanOut } from '../delivery'
 import type { AcquisitionHead, AcquisitionResultView } from '../results'
+import type { PayloadRef } from '../store'
 
 // Writing accepted acquisitions. Every acquisition accepted in the same turn of the event
 // loop is written by ONE statement (one implicit transaction, one commit): its acquisition
@@ -20,8 +21,11 @@ const RESULT_EVENT = 'result.released'
 export interface AcceptedEntry {
   acq: AcquisitionHead
   res: typeof results.$inferSelect
-  /** The body as JSON text, or the deferred upload whose stored body becomes the payload. */
-  payload: { json: string } | { uploadId: string }
+  /**
+   * The body as JSON text, or the deferred upload whose stored body becomes the payload (the
+   * store off); or the references of its raw data in the object store.
+   */
+  payload: { json: string } | { uploadId: string } | { ref: PayloadRef }
   peaks: EngineResult['peaks']
   view: AcquisitionResultView
 }
@@ -81,6 +85,7 @@ function acceptedStatement(entries: AcceptedEntry[]) {
       acquiredAt: acq.acquiredAt.toISOString(), sampleRef: acq.sampleRef, bodyHash: acq.bodyHash, pointCount: acq.pointCount,
       at: acq.createdAt.toISOString(), geometryVersionId: res.geometryVersionId, calibrationId: res.calibrationId, engineVersion: res.engineVersion,
       uploadId: 'uploadId' in payload ? payload.uploadId : null,
+      ref: 'ref' in payload ? payload.ref : null,
       submittedBy: acq.submittedBy, reviewState: res.reviewState, releasedAt: res.releasedAt?.toISOString() ?? null,
     }
     const peakRows = found.map(p => ({ mz: p.centroid, area: p.area, species: p.assignment?.species ?? null, charge: p.assignment?.z ?? null }))
@@ -92,10 +97,12 @@ function acceptedStatement(entries: AcceptedEntry[]) {
       select t.ord, t.r->'m' as m, t.r->'payload' as payload, t.r->'summary' as summary, t.r->'view' as view, t.r->'peaks' as peaks
       from jsonb_array_elements(${`[${items.join(',')}]`}::jsonb) with ordinality as t(r, ord)),
     acq as (
-      insert into ${acquisitions} (id, lab_id, instrument_id, external_id, acquired_at, sample_ref, status, body_hash, payload, point_count, submitted_by, created_at)
+      insert into ${acquisitions} (id, lab_id, instrument_id, external_id, acquired_at, sample_ref, status, body_hash, payload, point_count, submitted_by, created_at,
+        raw_sha256, raw_bytes, raw_content_type, arrays_sha256, arrays_bytes)
       select (m->>'acqId')::uuid, (m->>'labId')::uuid, (m->>'instrumentId')::uuid, m->>'runId', (m->>'acquiredAt')::timestamptz, m->>'sampleRef',
              'processed', m->>'bodyHash', coalesce(payload, (select u.body from ${uploads} u where u.id = (m->>'uploadId')::uuid)),
-             (m->>'pointCount')::int, (m->>'submittedBy')::uuid, (m->>'at')::timestamptz
+             (m->>'pointCount')::int, (m->>'submittedBy')::uuid, (m->>'at')::timestamptz,
+             m->'ref'->>'rawSha256', (m->'ref'->>'rawBytes')::bigint, m->'ref'->>'rawContentType', m->'ref'->>'arraysSha256', (m->'ref'->>'arraysBytes')::bigint
       from input
       returning 1 as n),
     res as (

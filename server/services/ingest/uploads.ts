@@ -9,6 +9,7 @@ import { parseJcampUpload } from './jcamp'
 import { parseMzmlUpload } from './mzml'
 import type { LabKey } from '../access'
 import { acceptAcquisition, bodyHash, canonicalBody } from './accept'
+import { loadPayload, storeEnabled, storePayload, type ReceivedBody } from '../store'
 
 // An acquisition body arrives as JSON or as a file (CSV, JCAMP-DX, mzML; raw body or the
 // one multipart part "file", streamed through busboy). Bodies of more than INLINE_POINTS
@@ -125,10 +126,12 @@ export function pointCount(input: AcquisitionInput): number {
 }
 
 /** Stores a large body for background processing; answered with 202. */
-export async function deferAcquisition(key: LabKey, input: AcquisitionInput, schemaId: string) {
-  // The body goes in as the text already made for its hash, not serialised a second time.
+export async function deferAcquisition(key: LabKey, input: AcquisitionInput, schemaId: string, received?: ReceivedBody) {
+  // The body goes in as the text already made for its hash, not serialised a second time; with
+  // the object store on, it goes there (as received, and parsed) before the row commits.
   const { json, hash } = canonicalBody(input)
-  const row = firstRow(await useDb().insert(uploads).values({ labId: key.labId, apiKeyId: key.id, schemaId, bodyHash: hash, body: sql`${json}::jsonb` })
+  const kept = storeEnabled() ? { ...await storePayload(input, received), body: null } : { body: sql`${json}::jsonb` }
+  const row = firstRow(await useDb().insert(uploads).values({ labId: key.labId, apiKeyId: key.id, schemaId, bodyHash: hash, ...kept })
     .returning({ id: uploads.id, status: uploads.status, createdAt: uploads.createdAt }))
   kickUploads()
   return { status: 202 as const, body: { id: row.id, status: row.status, statusUrl: `/api/v1/uploads/${row.id}`, receivedAt: row.createdAt.toISOString() } }
@@ -157,13 +160,18 @@ export async function processPendingUploads(limit = 2) {
     if (!claimed) return
     const row = (await useDb().query.uploads.findFirst({ where: eq(uploads.id, claimed.id) }))!
     try {
-      const result = await acceptAcquisition({ labId: row.labId }, row.body as unknown as AcquisitionInput,
-        { schemaId: row.schemaId ?? undefined, upload: { id: row.id, bodyHash: row.bodyHash ?? bodyHash(row.body) } })
+      const stored = row.arraysSha256 && row.rawSha256 && row.rawContentType
+        ? { rawSha256: row.rawSha256, rawBytes: row.rawBytes ?? 0, rawContentType: row.rawContentType, arraysSha256: row.arraysSha256, arraysBytes: row.arraysBytes ?? 0 }
+        : undefined
+      const body = stored ? await loadPayload<AcquisitionInput>(stored.arraysSha256) : row.body as unknown as AcquisitionInput
+      const result = await acceptAcquisition({ labId: row.labId }, body,
+        { schemaId: row.schemaId ?? undefined, upload: { id: row.id, bodyHash: row.bodyHash ?? bodyHash(body) }, stored })
       await useDb().update(uploads).set({ status: 'processed', acquisitionId: result.body.id, finishedAt: new Date(), leaseUntil: null }).where(eq(uploads.id, row.id))
     }
     catch (error) {
       const doc = (error as { data?: { problem?: ProblemDocument } }).data?.problem
-      if (!doc) { logError('[uploads] processing failed', error); await useDb().update(uploads).set({ status: 'pending', leaseUntil: null }).where(eq(uploads.id, row.id)); return }
+      // The store or the database not answering is no verdict on the upload: it waits for the next round.
+      if (!doc || doc.status >= 500) { logError('[uploads] processing failed', error); await useDb().update(uploads).set({ status: 'pending', leaseUntil: null }).where(eq(uploads.id, row.id)); return }
       await useDb().update(uploads).set({ status: 'failed', problem: doc as unknown as Record<string, unknown>, finishedAt: new Date(), leaseUntil: null }).where(eq(uploads.id, row.id))
     }
   }

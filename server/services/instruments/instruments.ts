@@ -5,6 +5,7 @@ import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import type { calibrationInput, CalibrationFromReferenceInput, InstrumentInput, InstrumentUpdate } from '#shared/schemas/instruments'
 import type { Geometry } from '#shared/engine'
 import { acquisitions, calibrations, geometryVersions, instruments, labs } from '../../database/schema'
+import { payloadOf } from '../store'
 
 export async function listInstruments(labId: string) {
   const rows = await useDb().select().from(instruments).where(eq(instruments.labId, labId)).orderBy(asc(instruments.name), asc(instruments.id))
@@ -143,10 +144,10 @@ export async function addCalibration(audit: AuditContext, labId: string, instrum
  * the assigned ion's m/z), and the fit is returned for review, not stored.
  */
 export async function calibrationFromReference(labId: string, instrumentId: string, input: CalibrationFromReferenceInput) {
-  const [row] = await useDb().select({ payload: acquisitions.payload, acquiredAt: acquisitions.acquiredAt, runId: acquisitions.externalId }).from(acquisitions)
+  const [row] = await useDb().select({ payload: acquisitions.payload, arraysSha256: acquisitions.arraysSha256, rawRemovedAt: acquisitions.rawRemovedAt, acquiredAt: acquisitions.acquiredAt, runId: acquisitions.externalId }).from(acquisitions)
     .where(and(eq(acquisitions.id, input.acquisitionId), eq(acquisitions.instrumentId, instrumentId), eq(acquisitions.labId, labId))).limit(1)
   if (!row) throw fieldProblem('acquisitionId', 'no acquisition of this instrument has this id')
-  const payload = row.payload as unknown as AcquisitionInput
+  const payload = await payloadOf<AcquisitionInput>(row)
   if (payload.mzSpectrum) throw fieldProblem('acquisitionId', 'this acquisition arrived already in m/z, so the geometry played no part; choose one sent as raw readings')
   const geo = await geometryAt(instrumentId, row.acquiredAt)
   if (!geo) throw fieldProblem('acquisitionId', 'was acquired before the instrument\'s first geometry')

@@ -39,6 +39,14 @@ const attempts = new Histogram({
   registers: [registry],
 })
 
+const storeCalls = new Histogram({
+  name: 'arcwise_store_call_duration_seconds',
+  help: 'Object-store calls (raw data: put, get, head, delete, head-bucket) by outcome (ok, not-found, error), time in seconds; _count counts the calls',
+  labelNames: ['op', 'outcome'] as const,
+  buckets: latencyBuckets,
+  registers: [registry],
+})
+
 // Gauges read from PostgreSQL at scrape time.
 const queue = new Gauge({
   name: 'arcwise_delivery_queue',
@@ -96,6 +104,10 @@ export function observeEngine(mode: string, seconds: number) {
 
 export function observeDeliveryAttempt(cls: string, seconds: number) {
   attempts.observe({ class: cls }, seconds)
+}
+
+export function observeStoreCall(op: string, outcome: 'ok' | 'not-found' | 'error', seconds: number) {
+  storeCalls.observe({ op, outcome }, seconds)
 }
 
 async function readGauges() {

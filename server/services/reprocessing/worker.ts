@@ -7,6 +7,7 @@ import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import { acquisitions, instruments, peaks, reprocessItems, reprocessJobs, results } from '../../database/schema'
 import { computeResult } from '../ingest'
 import { instrumentContextAt } from '../instruments'
+import { payloadOf } from '../store'
 import { figuresChanged } from './compare'
 
 // The reprocessing worker of this process. A job is taken under a lease (FOR UPDATE SKIP
@@ -95,7 +96,7 @@ async function runJob(jobId: string) {
 }
 
 type PendingItem = {
-  acquisition_id: string, run_id: string, acquired_ms: string, payload: AcquisitionInput, slug: string, lab_id: string,
+  acquisition_id: string, run_id: string, acquired_ms: string, payload: AcquisitionInput | null, arrays_sha256: string | null, raw_removed_at: string | null, slug: string, lab_id: string,
   res_id: string, res_version: number, summary: EngineResult
 }
 
@@ -127,7 +128,7 @@ export async function processBatch(jobId: string): Promise<'more' | 'finished' |
       next as (
         select h.acquisition_id, h.ord, sum(a.point_count) over (order by h.ord) as points_so_far
         from head h join ${acquisitions} a on a.id = h.acquisition_id)
-      select n.acquisition_id, a.external_id as run_id, (extract(epoch from a.acquired_at) * 1000)::text as acquired_ms, a.payload, ins.slug, a.lab_id,
+      select n.acquisition_id, a.external_id as run_id, (extract(epoch from a.acquired_at) * 1000)::text as acquired_ms, a.payload, a.arrays_sha256, a.raw_removed_at::text, ins.slug, a.lab_id,
              r.id as res_id, r.version as res_version, r.summary
       from next n
       join ${acquisitions} a on a.id = n.acquisition_id
@@ -158,7 +159,9 @@ async function reprocessOne(item: PendingItem): Promise<ItemOutcome> {
     const context = await instrumentContextAt(item.lab_id, item.slug, new Date(Number(item.acquired_ms)), item.run_id)
     const geometry = context?.geometry
     if (!geometry) return { ...base, state: 'failed', changed: null, error: 'acquiredAt: is before the first geometry registered for this instrument', newId: null }
-    const { engine, summary, applied } = computeResult(item.payload, geometry, context.calibration, context.measuredSpecies)
+    // The raw data from the object store (or the JSON column of older rows); removed under the lab's retention, the item fails saying so.
+    const input = await payloadOf<AcquisitionInput>({ payload: item.payload, arraysSha256: item.arrays_sha256, rawRemovedAt: item.raw_removed_at ? new Date(item.raw_removed_at) : null })
+    const { engine, summary, applied } = computeResult(input, geometry, context.calibration, context.measuredSpecies)
     if (!figuresChanged(item.summary, engine)) return { ...base, state: 'done', changed: false, error: null, newId: null }
     return {
       ...base, state: 'done', changed: true, error: null, newId: randomUUID(),
@@ -171,8 +174,9 @@ async function reprocessOne(item: PendingItem): Promise<ItemOutcome> {
     // an EngineError) fails the item for good. Anything else (the database, a fault of our own)
     // propagates: the batch's transaction rolls back and the job is taken again under its lease.
     if (error instanceof EngineError) return { ...base, state: 'failed', changed: null, error: error.message, newId: null }
-    const problem = isError(error) ? (error.data as { problem?: { detail?: string } } | undefined)?.problem : undefined
-    if (!problem) throw error
+    const problem = isError(error) ? (error.data as { problem?: { detail?: string, status?: number } } | undefined)?.problem : undefined
+    // The store not answering (503) is no verdict on the acquisition: the batch is taken again.
+    if (!problem || (problem.status ?? 0) >= 500) throw error
     return { ...base, state: 'failed', changed: null, error: problem.detail ?? 'the engine refused this acquisition', newId: null }
   }
 }

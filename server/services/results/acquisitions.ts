@@ -3,7 +3,8 @@ import type { z } from 'zod'
 import type { acquisitionListQuery } from '#shared/schemas/acquisitions'
 import type { ReviewState } from '#shared/schemas/lifecycle'
 import { alias } from 'drizzle-orm/pg-core'
-import { acquisitions, geometryVersions, instruments, results, users } from '../../database/schema'
+import { acquisitions, geometryVersions, instruments, labs, results, users } from '../../database/schema'
+import { getObjectBytes, getObjectStream, payloadOf, rawDataRemoved } from '../store'
 import { acquisitionHead, resultView } from './view'
 
 const reviewer = alias(users, 'reviewer')
@@ -71,35 +72,63 @@ const PAYLOAD_PREVIEW_CHARS = 6000
 
 /**
  * What the console shows of one acquisition: the API's view, where it came from (instrument,
- * geometry kind) and the first characters of the raw payload as stored. The payload itself
- * can be tens of megabytes, so PostgreSQL cuts it rather than sending it to the app.
+ * geometry kind) and the first characters of the raw payload: the body as the lab sent it,
+ * read from the object store by range (rows from before the store: the stored JSON, cut by
+ * PostgreSQL). The payload itself can be tens of megabytes, so only its start is fetched.
+ * `rawData` says where the raw data is kept, or that the lab's retention removed it.
  */
 export async function acquisitionDetail(labId: string, id: string) {
   const [row] = await useDb().select({
     acq: acquisitionHead, res: results, slug: instruments.slug, instrumentName: instruments.name, geometryKind: geometryVersions.kind, reviewer: reviewer.name,
-    submittedBy: acquisitions.submittedBy,
-    head: sql<string>`left(jsonb_pretty(${acquisitions.payload}), ${PAYLOAD_PREVIEW_CHARS})`, chars: sql<number>`length(${acquisitions.payload}::text)`,
+    submittedBy: acquisitions.submittedBy, retentionDays: labs.rawRetentionDays,
+    head: sql<string | null>`left(jsonb_pretty(${acquisitions.payload}), ${PAYLOAD_PREVIEW_CHARS})`, chars: sql<number | null>`length(${acquisitions.payload}::text)`,
   }).from(acquisitions)
     .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice('latest')))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
+    .innerJoin(labs, eq(labs.id, acquisitions.labId))
     .leftJoin(reviewer, eq(reviewer.id, results.reviewedBy))
     // The console shows the newest version; its versions and their diff are the reprocessing capability's.
     .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
+  const { acq } = row
+  let payload: { head: string, chars: number, truncated: boolean }
+  if (acq.rawRemovedAt) payload = { head: '', chars: 0, truncated: false }
+  else if (acq.rawSha256) {
+    const head = (await getObjectBytes('raw', acq.rawSha256, `bytes=0-${PAYLOAD_PREVIEW_CHARS - 1}`)).toString('utf8')
+    payload = { head, chars: acq.rawBytes ?? 0, truncated: (acq.rawBytes ?? 0) > PAYLOAD_PREVIEW_CHARS }
+  }
+  else payload = { head: row.head ?? '', chars: Number(row.chars ?? 0), truncated: (row.head ?? '').length >= PAYLOAD_PREVIEW_CHARS }
   return {
-    ...resultView(row.acq, row.res, row.slug, row.reviewer),
+    ...resultView(acq, row.res, row.slug, row.reviewer),
     // For the console's review actions: the comment the reviewer left, and who uploaded it (four eyes).
     reviewComment: row.res.reviewComment, submittedBy: row.submittedBy,
-    instrumentId: row.acq.instrumentId, instrumentName: row.instrumentName, geometryKind: row.geometryKind,
-    payload: { head: row.head, chars: Number(row.chars), truncated: row.head.length >= PAYLOAD_PREVIEW_CHARS },
+    instrumentId: acq.instrumentId, instrumentName: row.instrumentName, geometryKind: row.geometryKind,
+    payload,
+    rawData: {
+      kept: acq.rawRemovedAt ? 'removed' as const : acq.rawSha256 ? 'object-store' as const : 'database' as const,
+      removedAt: acq.rawRemovedAt?.toISOString() ?? null, retentionDays: row.retentionDays,
+      sha256: acq.rawSha256, bytes: acq.rawBytes, contentType: acq.rawContentType,
+    },
   }
 }
 
-/** The acquisition's stored payload as JSON text, for download. */
+/** The acquisition's parsed payload as JSON text, for download (from the store, or the row). */
 export async function acquisitionPayload(labId: string, id: string) {
-  const [row] = await useDb().execute<{ run_id: string, payload: string }>(sql`
-    select external_id as run_id, payload::text as payload from ${acquisitions} where id = ${id}::uuid and lab_id = ${labId}::uuid`)
+  const [row] = await useDb().execute<{ run_id: string, payload: string | null, arrays_sha256: string | null, raw_removed_at: Date | null }>(sql`
+    select external_id as run_id, payload::text as payload, arrays_sha256, raw_removed_at from ${acquisitions} where id = ${id}::uuid and lab_id = ${labId}::uuid`)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
-  return { runId: row.run_id, json: row.payload }
+  if (row.payload !== null && !row.raw_removed_at) return { runId: row.run_id, json: row.payload }
+  const body = await payloadOf({ arraysSha256: row.arrays_sha256, rawRemovedAt: row.raw_removed_at ? new Date(row.raw_removed_at) : null })
+  return { runId: row.run_id, json: JSON.stringify(body) }
+}
+
+/** The body exactly as the lab sent it, streamed from the object store, with its Content-Type. */
+export async function acquisitionReceivedBody(labId: string, id: string) {
+  const [row] = await useDb().select({ runId: acquisitions.externalId, sha: acquisitions.rawSha256, type: acquisitions.rawContentType, bytes: acquisitions.rawBytes, removed: acquisitions.rawRemovedAt })
+    .from(acquisitions).where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
+  if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
+  if (row.removed) throw rawDataRemoved(row.removed)
+  if (!row.sha) throw problem(404, 'raw-body-not-kept', 'This acquisition arrived before the object store: only its parsed payload is kept (payload.json).')
+  return { runId: row.runId, contentType: row.type ?? 'application/octet-stream', bytes: row.bytes ?? 0, sha256: row.sha, stream: await getObjectStream('raw', row.sha) }
 }

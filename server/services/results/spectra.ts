@@ -2,6 +2,7 @@ import { and, desc, eq, sql } from 'drizzle-orm'
 import { CAUTION_SHORT } from '#shared/caution'
 import { applyCalibrationColumn, collectorDetector, detectorParams, detectorSignal, geometry as geometrySchema, physicsFor, staticCollectorMz, staticColumn, sweepToMz } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
+import { payloadOf } from '../store'
 import { acquisitions, calibrations, geometryVersions, instruments, labs, methods, results, sequenceItems, sequences } from '../../database/schema'
 
 /**
@@ -48,7 +49,8 @@ export async function spectrumOf(labId: string, id: string): Promise<Spectrum> {
     geometryVersion: row.geo.version, calibrationVersion: row.cal?.version ?? null, method: method ?? null,
     engineVersion: row.res.engineVersion, constants: row.res.constants ?? 'unrecorded (engine 1)', caution: CAUTION_SHORT,
   }
-  const input = row.acq.payload as unknown as AcquisitionInput
+  // From the object store (or the JSON column of rows from before it); 410 once retention removed it.
+  const input = await payloadOf<AcquisitionInput>(row.acq)
   const geo = geometrySchema.parse(row.geo.params)
   // Each column through the detector registered for its collector (volts through the
   // resistor, counts over the dwell, dead time), with the physics the result was computed with.

@@ -6,6 +6,7 @@ import { standardRoles, type SequenceEventData } from '#shared/schemas/sequences
 import { releasesAutomatically } from '#shared/releaseRule'
 import { acquisitions, geometryVersions, instruments, labs, methods, results, sequenceItems, sequences } from '../../database/schema'
 import { kickDeliveries, recordLabEvent } from '../delivery'
+import { loadPayload } from '../store'
 import { methodInForce, methodVersion } from './methods'
 import { materialsAt, type ResolvedMaterial } from './materials'
 import { appendControlPoints, type NewControlPoint } from './charts'
@@ -26,7 +27,7 @@ type MethodRow = typeof methods.$inferSelect
 interface Failure { code: string, message: string, field?: string }
 
 async function members(sequenceId: string) {
-  return useDb().select({
+  const rows = await useDb().select({
     position: sequenceItems.position, role: sequenceItems.role, material: sequenceItems.material,
     acquisitionId: acquisitions.id, runId: acquisitions.externalId, sampleRef: acquisitions.sampleRef, acquiredAt: acquisitions.acquiredAt,
     summary: results.summary, reviewState: results.reviewState,
@@ -35,11 +36,19 @@ async function members(sequenceId: string) {
     cycleSeconds: sql<number[] | null>`${acquisitions.payload}->'cycleSeconds'`,
     cycleColumns: sql<StaticCycleInput['detectors'] | null>`case when ${acquisitions.payload} ? 'cycleSeconds' then ${acquisitions.payload}->'detectors' end`,
     geometry: geometryVersions.params,
+    arraysSha256: acquisitions.arraysSha256, staticMode: sql<boolean>`${results.summary}->>'mode' = 'static'`,
   }).from(sequenceItems)
     .innerJoin(acquisitions, eq(acquisitions.id, sequenceItems.acquisitionId))
     .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), isNull(results.supersededBy)))
     .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
     .where(eq(sequenceItems.sequenceId, sequenceId)).orderBy(asc(sequenceItems.position))
+  // Raw data in the object store: the static acquisitions' cycle times and columns come from
+  // their arrays objects (sweeps need none of it).
+  return Promise.all(rows.map(async ({ arraysSha256, staticMode, ...m }) => {
+    if (!arraysSha256 || !staticMode) return m
+    const body = await loadPayload<{ cycleSeconds?: number[], detectors: StaticCycleInput['detectors'] }>(arraysSha256)
+    return { ...m, cycleSeconds: body.cycleSeconds ?? null, cycleColumns: body.cycleSeconds ? body.detectors : null }
+  }))
 }
 type Member = Awaited<ReturnType<typeof members>>[number]
 

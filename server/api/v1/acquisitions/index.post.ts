@@ -4,6 +4,7 @@ export default defineEventHandler(async (event) => {
   const schema = await requireExchangeSchema(event, 'acquisition')
   const idempotencyKey = getIdempotencyKey(event)
   const body = await readAcquisitionBody(event)
+  const received = receivedBody(event)
   return withIdempotency<unknown>(event, key.id, idempotencyKey, bodyHash(body), () =>
-    pointCount(body) > INLINE_POINTS ? deferAcquisition(key, body, schema.id) : acceptAcquisition(key, body, { schemaId: schema.id }))
+    pointCount(body) > INLINE_POINTS ? deferAcquisition(key, body, schema.id, received) : acceptAcquisition(key, body, { schemaId: schema.id, received }))
 })

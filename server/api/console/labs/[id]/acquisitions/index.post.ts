@@ -4,7 +4,8 @@ import { labParams } from '#shared/schemas/instruments'
 export default defineEventHandler(async (event) => {
   const { id } = getValidParams(event, labParams)
   const actor = await requireLabAccess(event, id, 'write')
-  const { status, body } = await uploadFromConsole(auditContext(event, actor), id, await readAcquisitionBody(event))
+  const input = await readAcquisitionBody(event)
+  const { status, body } = await uploadFromConsole(auditContext(event, actor), id, input, receivedBody(event))
   setResponseStatus(event, status)
   return body
 })

@@ -1,0 +1,131 @@
+import { createHash } from 'node:crypto'
+import { Readable } from 'node:stream'
+import { DeleteObjectCommand, GetObjectCommand, HeadBucketCommand, HeadObjectCommand } from '@aws-sdk/client-s3'
+import { Upload } from '@aws-sdk/lib-storage'
+import { sql } from 'drizzle-orm'
+import { storeObjects } from '../../database/schema'
+import { observeStoreCall } from '../metrics'
+import { storeClient } from './client'
+
+// Objects are addressed by the SHA-256 of their content: `raw/<sha256>` (the body as the lab
+// sent it) and `arrays/<sha256>` (the parsed body, arrays as float64: ./arrays.ts). The same
+// content is stored once, whoever sends it; PostgreSQL keeps the hash and byte size.
+//
+// Deletion (retention, ./retention.ts) must never remove an object that an acquisition being
+// accepted right now is about to reference. So a writer first *claims* the key in
+// store_objects (claimed_at = now(), committed at once), then checks and writes the object,
+// then commits its own row; retention deletes only keys whose claim is older than a grace
+// period and that no live row references, under the claim row's lock. A writer whose claim
+// waits on that lock finds the row gone afterwards, inserts it again and writes the object.
+
+export type ObjectKind = 'raw' | 'arrays'
+export interface StoredObject { sha256: string, bytes: number }
+
+export const objectKey = (kind: ObjectKind, sha256: string) => `${kind}/${sha256}`
+
+export function sha256Of(data: Buffer): string {
+  return createHash('sha256').update(data).digest('hex')
+}
+
+/** The store did not answer or refused: 503 naming it, and nothing is kept. */
+export function storeUnavailable(error: unknown) {
+  const why = error instanceof Error ? (error.name && error.name !== 'Error' ? `${error.name}: ` : '') + error.message.split('\n')[0] : 'no answer'
+  return problem(503, 'store-unavailable', `The object store is not available (${why.slice(0, 200)}). Nothing was stored; send it again later.`, { headers: { 'retry-after': '5' } })
+}
+
+const notFound = (error: unknown) => {
+  const e = error as { name?: string, $metadata?: { httpStatusCode?: number } }
+  return e.name === 'NotFound' || e.name === 'NoSuchKey' || e.$metadata?.httpStatusCode === 404
+}
+
+/** Times one store call for /metrics (arcwise_store_call_duration_seconds{op,outcome}). */
+async function timed<T>(op: string, call: () => Promise<T>): Promise<T> {
+  const started = performance.now()
+  try {
+    const value = await call()
+    observeStoreCall(op, 'ok', (performance.now() - started) / 1000)
+    return value
+  }
+  catch (error) {
+    observeStoreCall(op, notFound(error) ? 'not-found' : 'error', (performance.now() - started) / 1000)
+    throw error
+  }
+}
+
+/** Claims keys before writing them (see above); committed on its own. */
+export async function claimObjects(objects: { key: string, bytes: number }[]) {
+  if (!objects.length) return
+  await useDb().execute(sql`
+    insert into ${storeObjects} (key, bytes, claimed_at)
+    select key, bytes, now() from jsonb_to_recordset(${JSON.stringify(objects)}::jsonb) as t(key text, bytes bigint)
+    on conflict (key) do update set claimed_at = now()`)
+}
+
+/** The object's size, or null when there is none. */
+export async function headObject(kind: ObjectKind, sha256: string): Promise<number | null> {
+  const { s3, bucket } = storeClient()
+  try {
+    const head = await timed('head', () => s3.send(new HeadObjectCommand({ Bucket: bucket, Key: objectKey(kind, sha256) })))
+    return head.ContentLength ?? 0
+  }
+  catch (error) {
+    if (notFound(error)) return null
+    throw storeUnavailable(error)
+  }
+}
+
+/**
+ * Stores `data` under its hash unless an object of that hash is there already (deduplication),
+ * streamed through lib-storage's Upload (one PUT up to 5 MB, multipart beyond). The caller
+ * has claimed the key (claimObjects). Fails with 503 when the store does not answer.
+ */
+export async function putObject(kind: ObjectKind, data: Buffer, contentType: string, sha256 = sha256Of(data)): Promise<StoredObject & { written: boolean }> {
+  const existing = await headObject(kind, sha256)
+  if (existing === data.length) return { sha256, bytes: data.length, written: false }
+  const { s3, bucket } = storeClient()
+  try {
+    const chunk = 1024 * 1024
+    const body = Readable.from((function* () { for (let at = 0; at < data.length; at += chunk) yield data.subarray(at, at + chunk) })())
+    await timed('put', () => new Upload({
+      client: s3,
+      params: { Bucket: bucket, Key: objectKey(kind, sha256), Body: body, ContentType: contentType, Metadata: { sha256 } },
+      queueSize: 2,
+    }).done())
+  }
+  catch (error) { throw storeUnavailable(error) }
+  return { sha256, bytes: data.length, written: true }
+}
+
+/** The object as a stream (the caller pipes it out); `range` as in HTTP, e.g. "bytes=0-5999". */
+export async function getObjectStream(kind: ObjectKind, sha256: string, range?: string): Promise<Readable> {
+  const { s3, bucket } = storeClient()
+  try {
+    const got = await timed('get', () => s3.send(new GetObjectCommand({ Bucket: bucket, Key: objectKey(kind, sha256), ...(range ? { Range: range } : {}) })))
+    return got.Body as Readable
+  }
+  catch (error) {
+    if (notFound(error)) throw problem(410, 'raw-data-missing', `The stored ${kind === 'raw' ? 'body' : 'arrays'} of this acquisition are not in the object store.`)
+    throw storeUnavailable(error)
+  }
+}
+
+/** The whole object in memory (or its `range`). */
+export async function getObjectBytes(kind: ObjectKind, sha256: string, range?: string): Promise<Buffer> {
+  const stream = await getObjectStream(kind, sha256, range)
+  const chunks: Buffer[] = []
+  try { for await (const c of stream) chunks.push(c as Buffer) }
+  catch (error) { throw storeUnavailable(error) }
+  return Buffer.concat(chunks)
+}
+
+export async function deleteObject(kind: ObjectKind, sha256: string) {
+  const { s3, bucket } = storeClient()
+  try { await timed('delete', () => s3.send(new DeleteObjectCommand({ Bucket: bucket, Key: objectKey(kind, sha256) }))) }
+  catch (error) { throw storeUnavailable(error) }
+}
+
+/** Readiness: the bucket answers. Throws with the reason. */
+export async function checkStore(): Promise<void> {
+  const { s3, bucket } = storeClient()
+  await timed('head-bucket', () => s3.send(new HeadBucketCommand({ Bucket: bucket })))
+}
