@@ -1,7 +1,7 @@
 import { createPage } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { beforeAll, describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { expectAccessible, reloadHydrated, shot, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { goneOrOkSink, homeScene } from '../support/homes'
 import { testDb, useArcwise } from '../support/server'
@@ -30,7 +30,9 @@ async function darkTheme(page: Page) {
   await expect.poll(() => page.evaluate(() => document.documentElement.classList.contains('dark'))).toBe(true)
 }
 async function atPhoneWidth(page: Page) {
+  // As a phone opens it: the page loaded at that width, not a desktop page squeezed.
   await page.setViewportSize({ width: 390, height: 844 })
+  await reloadHydrated(page)
   // Nothing wider than the screen: no sideways scrolling to read a card.
   await expect.poll(() => page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(390)
 }
