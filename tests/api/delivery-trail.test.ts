@@ -78,11 +78,11 @@ describe('the delivery page and the results board', () => {
     const check = await as.integrator.get(`/api/console/partners/${scene.northgate}/deliveries/${gone.id}/attempts/${attempt.id}/signature`)
     expect(check.status).toBe(200)
     expect(check.body).toMatchObject({ verdict: 'current', sentence: expect.stringContaining('verifies with the endpoint\'s current secret') })
-    // Another partner's attempt is not found; a malformed id is a problem naming the field.
+    // Another partner's attempt is not found, nor is a malformed attempt id (the codebase's rule for ids).
     expect((await as.integrator.get(`/api/console/partners/${scene.other.partner.id}/deliveries/${gone.id}/attempts/${attempt.id}/signature`)).status).toBe(404)
     expect((await as.admin.get(`/api/console/partners/${scene.other.partner.id}/deliveries/${gone.id}/attempts/${attempt.id}/signature`)).status).toBe(404)
     const bad = await as.integrator.get(`/api/console/partners/${scene.northgate}/deliveries/${gone.id}/attempts/x/signature`)
-    expect(bad.status).toBe(422)
+    expect(bad.status).toBe(404)
   })
 
   it('the partner\'s board groups its results by lab, each with its endpoints, states and verification', async () => {

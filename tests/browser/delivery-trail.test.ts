@@ -68,7 +68,7 @@ describe('the delivery page and the webhooks page', () => {
     const page = await signIn('integrator')
     await page.goto(url(`/console/partners/${scene.northgate}/deliveries/${goneDelivery}`), { waitUntil: 'hydration' })
     await expect.poll(() => page.getByTestId('delivery-why').textContent()).toContain('Stopped: the receiver answered 410 Gone, which disables the endpoint')
-    await page.getByRole('button', { name: 'Check the signature of attempt 1' }).click()
+    await page.getByRole('button', { name: 'Check signature of attempt 1' }).click()
     await expect.poll(() => page.getByRole('status').filter({ hasText: 'signature' }).first().textContent()).toContain('verifies with the endpoint\'s current secret')
     await expectAccessible(page)
     await shot(page, 'delivery-why-and-signature')
@@ -102,7 +102,8 @@ describe('replay from the result\'s page', () => {
     const page = await signIn('admin')
     await page.goto(url(`/console/labs/${scene.saltmarsh}/acquisitions/${scene.released.id}`), { waitUntil: 'hydration' })
     const trail = page.getByRole('region', { name: 'Did it reach its partners?' })
-    await trail.getByRole('button', { name: 'Replay to Northgate Water Authority' }).click()
+    await trail.getByTestId('trail-result.released').getByTestId('trail-delivery').filter({ hasText: `/gone/${scene.tag}` })
+      .getByRole('button', { name: 'Replay to Northgate Water Authority' }).click()
     await expect.poll(() => trail.getByRole('alert').textContent()).toContain('Queued')
     const [row] = await testDb()<{ replay_requested: boolean }[]>`select replay_requested from deliveries where id = ${goneDelivery}`
     expect(row!.replay_requested).toBe(true)

@@ -96,7 +96,7 @@ describe('an integrator\'s home', () => {
     await expectAccessible(page)
 
     const dead = region(page, 'Dead deliveries')
-    await dead.getByRole('button', { name: `Replay result.released of ${scene.tag}-released` }).click()
+    await dead.getByRole('listitem').filter({ hasText: `/gone/${scene.tag}` }).getByRole('button', { name: `Replay result.released of ${scene.tag}-released` }).click()
     await expect.poll(() => dead.getByRole('alert').textContent()).toContain('Queued')
     const [row] = await testDb()<{ replay_requested: boolean, status: string }[]>`select replay_requested, status from deliveries where endpoint_id = ${scene.goneEndpoint.id}`
     expect(row).toMatchObject({ status: 'pending', replay_requested: true })
@@ -115,7 +115,7 @@ describe('the hub\'s home', () => {
     await darkTheme(page)
     await expectAccessible(page)
     await shot(page, 'home-admin-dark')
-    await endpoints.getByRole('link').filter({ hasText: `/gone/${scene.tag}` }).first().click()
+    await endpoints.getByRole('link').filter({ hasText: 'Northgate Water Authority' }).filter({ hasText: `/gone/${scene.tag}` }).click()
     await page.waitForURL(u => u.pathname === `/console/partners/${scene.northgate}/webhooks`)
   })
 })

@@ -45,7 +45,7 @@ describe('the notifications bell', () => {
     await expectAccessible(page)
     await shot(page, 'notifications-lab-manager')
     const before = Number(await page.getByTestId('notification-count').textContent())
-    await panel(page).getByRole('link', { name: /SM-MARBLE d13C/ }).click()
+    await panel(page).getByRole('link', { name: /SM-MARBLE d13C/ }).filter({ hasText: `Home sector ${scene.tag}` }).click()
     await page.waitForURL(u => u.pathname === `/console/labs/${scene.saltmarsh}/control-charts/${scene.instrument.id}`)
     await expect.poll(async () => Number(await page.getByTestId('notification-count').textContent())).toBe(before - 1)
     // Seen survives a reload (kept by this browser, per user).

@@ -52,7 +52,7 @@ describe('webhooks in the console', () => {
     await page.getByRole('button', { name: 'Edit', exact: true }).first().click()
     await page.getByRole('form', { name: 'Edit the endpoint' }).getByLabel('Description').fill('LIMS intake, night shift')
     await page.getByRole('button', { name: 'Save endpoint' }).click()
-    await expect.poll(() => page.getByRole('listitem').first().textContent()).toContain('LIMS intake, night shift')
+    await expect.poll(() => page.getByRole('list', { name: 'Endpoints' }).getByRole('listitem').first().textContent()).toContain('LIMS intake, night shift')
 
     // Its delivery limits (issue 22): past the hub's bound the field says so; within it they are kept.
     await page.getByRole('button', { name: 'Edit' }).click()
@@ -64,7 +64,7 @@ describe('webhooks in the console', () => {
     await edit.getByLabel('Deliver in order').check()
     await shot(page, 'webhooks-endpoint-limits')
     await page.getByRole('button', { name: 'Save endpoint' }).click()
-    await expect.poll(() => page.getByRole('listitem').first().textContent()).toContain('8 in flight, in order')
+    await expect.poll(() => page.getByRole('list', { name: 'Endpoints' }).getByRole('listitem').first().textContent()).toContain('8 in flight, in order')
 
     // A bad URL is refused on the field it names: a private address, and a host name that
     // resolves to loopback (looked up when the endpoint is saved).
