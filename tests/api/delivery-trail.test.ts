@@ -1,10 +1,10 @@
 // Issue 21, point 2: each result's delivery trail (which endpoints were owed which version and
 // event, how each went, whether the recorded signature verifies now, why one stopped), the
 // delivery page's reason and one-action signature check, and the partner's results board.
-import { beforeAll, describe, expect, it } from 'vitest'
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import type { Role } from '../../shared/types/roles'
 import { demoUser } from '../support/demo'
-import { goneOrOkSink, homeScene } from '../support/homes'
+import { clearScene, goneOrOkSink, homeScene } from '../support/homes'
 import { ConsoleClient, useArcwise } from '../support/server'
 import { until } from '../support/webhooks'
 
@@ -21,6 +21,7 @@ beforeAll(async () => {
   scene = await homeScene(SINK_PORT)
   for (const role of ['admin', 'lab_manager', 'integrator', 'viewer'] as Role[]) as[role] = await new ConsoleClient().signIn(demoUser(role).email, demoUser(role).password)
 }, 120_000)
+afterAll(() => clearScene(scene))
 
 describe('a result\'s delivery trail', () => {
   it('names each endpoint owed the released version, delivered and verified, or dead with the reason', async () => {

@@ -1,9 +1,9 @@
 // Issue 21, points 1 and 3: each role's home and notifications, and that a lab's people and a
 // partner's integrators never see another lab's or partner's items there.
-import { beforeAll, describe, expect, it } from 'vitest'
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import type { Role } from '../../shared/types/roles'
 import { demoUser } from '../support/demo'
-import { goneOrOkSink, homeScene } from '../support/homes'
+import { clearScene, goneOrOkSink, homeScene } from '../support/homes'
 import { ConsoleClient, testDb, useArcwise } from '../support/server'
 
 const SINK_PORT = 4231
@@ -17,6 +17,7 @@ beforeAll(async () => {
   scene = await homeScene(SINK_PORT)
   for (const role of ['admin', 'lab_manager', 'lab_reviewer', 'integrator', 'viewer'] as Role[]) as[role] = await new ConsoleClient().signIn(demoUser(role).email, demoUser(role).password)
 }, 120_000)
+afterAll(() => clearScene(scene))
 
 describe('homes', () => {
   it('a lab manager\'s home lists only their lab\'s instruments, each with its last run, calibration, QC, chart and review state', async () => {

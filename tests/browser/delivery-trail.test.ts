@@ -1,9 +1,9 @@
 import { createPage, url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
-import { beforeAll, describe, expect, it } from 'vitest'
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { expectAccessible, reloadHydrated, shot, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
-import { goneOrOkSink, homeScene } from '../support/homes'
+import { clearScene, goneOrOkSink, homeScene, widerThanScreen } from '../support/homes'
 import { testDb, useArcwise } from '../support/server'
 import type { Role } from '../../shared/types/roles'
 
@@ -21,6 +21,7 @@ beforeAll(async () => {
   scene = await homeScene(SINK_PORT)
   goneDelivery = (await testDb()<{ id: string }[]>`select id from deliveries where endpoint_id = ${scene.goneEndpoint.id}`)[0]!.id
 }, 120_000)
+afterAll(() => clearScene(scene))
 
 async function signIn(role: Role) {
   const page = await createPage('/sign-in')
@@ -35,7 +36,7 @@ async function atPhoneWidth(page: Page) {
   // As a phone opens it: the page loaded at that width, not a desktop page squeezed.
   await page.setViewportSize({ width: 390, height: 844 })
   await reloadHydrated(page)
-  await expect.poll(() => page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(390)
+  await expect.poll(() => page.evaluate(() => document.documentElement.scrollWidth), { message: await page.evaluate(widerThanScreen).then(String) }).toBeLessThanOrEqual(390)
 }
 
 describe('the acquisition page\'s delivery trail', () => {

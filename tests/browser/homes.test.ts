@@ -1,9 +1,9 @@
 import { createPage } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
-import { beforeAll, describe, expect, it } from 'vitest'
+import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { expectAccessible, reloadHydrated, shot, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
-import { goneOrOkSink, homeScene } from '../support/homes'
+import { clearScene, goneOrOkSink, homeScene, widerThanScreen } from '../support/homes'
 import { testDb, useArcwise } from '../support/server'
 import type { Role } from '../../shared/types/roles'
 
@@ -18,6 +18,7 @@ beforeAll(async () => {
   await goneOrOkSink(SINK_PORT)
   scene = await homeScene(SINK_PORT)
 }, 120_000)
+afterAll(() => clearScene(scene))
 
 async function signIn(role: Role) {
   const page = await createPage('/sign-in')
@@ -34,7 +35,7 @@ async function atPhoneWidth(page: Page) {
   await page.setViewportSize({ width: 390, height: 844 })
   await reloadHydrated(page)
   // Nothing wider than the screen: no sideways scrolling to read a card.
-  await expect.poll(() => page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(390)
+  await expect.poll(() => page.evaluate(() => document.documentElement.scrollWidth), { message: await page.evaluate(widerThanScreen).then(String) }).toBeLessThanOrEqual(390)
 }
 const region = (page: Page, name: string | RegExp) => page.getByRole('region', { name })
 

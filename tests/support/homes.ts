@@ -88,3 +88,24 @@ export async function homeScene(sinkPort: number) {
     other: { lab: other.lab, instrument: other.instrument, partner: otherPartner, endpoint: otherEndpoint, released: otherReleased, held: otherHeld },
   }
 }
+
+/**
+ * Takes the scene's troubles out of the demo lab and partner that other test files read
+ * (their control-chart panel counts one violation; their webhooks page edits the one endpoint
+ * it made): the control points and Northgate's two endpoints (their deliveries go with them).
+ */
+export async function clearScene(scene: Awaited<ReturnType<typeof homeScene>>) {
+  await testDb()`delete from control_points where instrument_id in (${scene.instrument.id}, ${scene.other.instrument.id})`
+  for (const endpoint of [scene.okEndpoint, scene.goneEndpoint]) {
+    const res = await scene.admin.delete(`/api/console/partners/${scene.northgate}/endpoints/${endpoint.id}`)
+    expect([204, 200, 404]).toContain(res.status)
+  }
+}
+
+/** Elements reaching past the right edge of a phone-width page, named for the failure message. */
+export const widerThanScreen = `(() => {
+  const w = document.documentElement.clientWidth
+  return [...document.querySelectorAll('body *')].filter(e => e.getBoundingClientRect().right > w + 1)
+    .filter(e => !e.closest('.overflow-x-auto, .overflow-auto, .overflow-hidden'))
+    .slice(0, 8).map(e => e.tagName.toLowerCase() + '.' + String(e.className).slice(0, 60) + ' ' + Math.round(e.getBoundingClientRect().right))
+})()`
