@@ -52,6 +52,11 @@ export async function startReceiver(port: number, secretsOf: (partner: string) =
         res.writeHead(problem ? 400 : 200, { 'content-type': 'application/json' }).end(JSON.stringify({ ok: !problem, problem }))
         return
       }
+      // A partner's retired receiver: 410 Gone, so the demo shows an endpoint the worker disabled.
+      if (req.method === 'POST' && /^\/retired\/[a-z0-9-]+$/.test(req.url ?? '')) {
+        res.writeHead(410, { 'content-type': 'text/plain' }).end('this receiver was retired')
+        return
+      }
       if (req.method === 'GET' && req.url === '/messages') {
         res.writeHead(200, { 'content-type': 'application/json' }).end(JSON.stringify(received))
         return

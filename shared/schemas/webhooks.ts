@@ -62,6 +62,7 @@ export const secretRotation = z.object({
 
 export const endpointParams = z.object({ id: uuid, endpointId: uuid })
 export const deliveryParams = z.object({ id: uuid, deliveryId: uuid })
+export const deliveryAttemptParams = deliveryParams.extend({ attemptId: z.coerce.number().int().positive().max(Number.MAX_SAFE_INTEGER) })
 
 export const deliveryFilter = z.object({
   endpoint: uuid.optional(),

@@ -57,3 +57,9 @@ export async function openLabFromMenu(page: Page, labName: string) {
   await page.getByRole('main').getByRole('link', { name: labName, exact: true }).click()
   await page.waitForURL(/\/console\/labs\/[0-9a-f-]{36}$/)
 }
+
+/** Reloads the page and waits until Vue has hydrated it (clicks before that go unheard). */
+export async function reloadHydrated(page: Page) {
+  await page.reload()
+  await page.waitForFunction(() => (window as unknown as { useNuxtApp?: () => { isHydrating: boolean } }).useNuxtApp?.().isHydrating === false)
+}

@@ -5,3 +5,4 @@ export { listDeliveries, deliveryLogCsv, getDelivery, replayDelivery, replayMatc
 export { signedHeaders } from './message'
 export { sendOnce } from './send'
 export { kickDeliveries, startDeliveryWorker, stopDeliveryWorker } from './worker'
+export { deliveryTrail, checkAttemptSignature, partnerResultBoard } from './trail'

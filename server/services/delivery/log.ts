@@ -5,6 +5,8 @@ import type { deliveryFilter, deliveryListQuery, replayFilter } from '#shared/sc
 import { deliveries, deliveryAttempts, events, labs, webhookEndpoints } from '../../database/schema'
 import { consumePartnerAction } from '../access'
 import { deliveryMessage, type BodySource } from './message'
+import { deliverySettings } from './settings'
+import { stopReason } from './verdicts'
 import { kickDeliveries } from './worker'
 
 // The delivery log of a partner: every delivery to its endpoints with its attempts, and
@@ -58,7 +60,7 @@ export async function deliveryLogCsv(partnerId: string, filter: z.output<typeof 
 }
 
 /** An event's whole message as the worker sent it, for an attempt that did not store its body. */
-async function eventMessageBody(eventId: string): Promise<string | null> {
+export async function eventMessageBody(eventId: string): Promise<string | null> {
   const [row] = await useDb().execute<BodySource>(sql`
     select ev.id as event_id, ev.type as event_type, null as test_payload, ev.payload::text as payload_text, ev.sequence, l.slug as lab, ev.created_at::text as event_at
     from ${events} ev join ${labs} l on l.id = ev.lab_id where ev.id = ${eventId}`)
@@ -67,14 +69,18 @@ async function eventMessageBody(eventId: string): Promise<string | null> {
 
 /** One delivery of the partner with every attempt, oldest first. */
 export async function getDelivery(partnerId: string, deliveryId: string) {
-  const [row] = await useDb().select({ d: deliveries, url: webhookEndpoints.url }).from(deliveries)
+  const [row] = await useDb().select({ d: deliveries, url: webhookEndpoints.url, endpoint: {
+    status: webhookEndpoints.status, disabledReason: webhookEndpoints.disabledReason, blockedUntil: webhookEndpoints.blockedUntil, consecutiveFailures: webhookEndpoints.consecutiveFailures } }).from(deliveries)
     .innerJoin(webhookEndpoints, eq(webhookEndpoints.id, deliveries.endpointId))
     .where(and(eq(deliveries.id, deliveryId), eq(webhookEndpoints.partnerId, partnerId)))
   if (!row) throw problem(404, 'delivery-not-found', 'No such delivery for this partner.')
   const attempts = await useDb().select().from(deliveryAttempts).where(eq(deliveryAttempts.deliveryId, deliveryId)).orderBy(asc(deliveryAttempts.number), asc(deliveryAttempts.id))
   const { leaseOwner: _o, leaseUntil: _u, testPayload: _t, ...d } = row.d
   const eventBody = d.eventId && attempts.some(a => a.requestBody === null) ? await eventMessageBody(d.eventId) : null
-  return { ...d, url: row.url, attempts: attempts.map(({ deliveryId: _d, ...a }) => ({ ...a, requestBody: a.requestBody ?? eventBody ?? '' })) }
+  const last = attempts.at(-1)
+  // Why it stopped (or what it waits for), in one sentence from what is recorded.
+  const why = stopReason({ ...d, last: last ? { class: last.class, statusCode: last.statusCode, error: last.error } : null, endpoint: row.endpoint }, deliverySettings())
+  return { ...d, url: row.url, endpointStatus: row.endpoint.status, why, attempts: attempts.map(({ deliveryId: _d, ...a }) => ({ ...a, requestBody: a.requestBody ?? eventBody ?? '' })) }
 }
 
 // A replay is a new attempt of the same message (same webhook-id), due now.

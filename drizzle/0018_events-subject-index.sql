@@ -1,0 +1,1 @@
+CREATE INDEX "events_subject_idx" ON "events" USING btree ("lab_id",("payload"->>'id'));
