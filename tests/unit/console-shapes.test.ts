@@ -25,6 +25,8 @@ const allowedGenerics: [file: string, generic: string][] = [
   // Seven-segment paths, past TypeScript's depth limit like calibrations/preview.
   ['app/pages/console/labs/[id]/reprocess-jobs/[jobId].vue', '$fetch<CancelledReprocessJob>'],
   ['app/pages/console/labs/[id]/reprocess-jobs/[jobId].vue', '$fetch<ReleasedCorrection>'],
+  // An attempt's signature check: eight segments, named by its route's inferred answer.
+  ['app/pages/console/partners/[id]/deliveries/[deliveryId].vue', '$fetch<Answer<\'/api/console/partners/:id/deliveries/:deliveryId/attempts/:attemptId/signature\'>>'],
 ]
 
 describe('console shapes are defined once', () => {
