@@ -25,7 +25,7 @@ export async function benchIngest(opts: { seconds?: number } = {}) {
   await sql`create table if not exists bench_baseline (id bigserial primary key, body jsonb not null)`
   buildIfStale()
   // BENCH_STORE=off: raw data in PostgreSQL as before the object store (issue 23), to compare.
-  const storeOff = process.env.BENCH_STORE === 'off' ? { NUXT_STORE_BUCKET: '' } : {}
+  const storeOff: Record<string, string> = process.env.BENCH_STORE === 'off' ? { NUXT_STORE_BUCKET: '' } : {}
   const server = startServer({ ...stack.serverEnv, ...storeOff, NUXT_BENCH_ROUTES: 'true', NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
   try {
     await waitForServer(`${base}/api/health`)

@@ -157,6 +157,7 @@ describe('isotope sequences in the console', () => {
     await form.getByRole('button', { name: 'Save as a new version' }).click()
     await expect.poll(() => page.getByRole('alert').filter({ hasText: 'New method version saved' }).count()).toBe(1)
     expect(await count()).toBe(before + 1)
-    expect(await page.getByRole('table', { name: 'Method versions of North bench IRMS' }).textContent()).toContain('normalise(IAEA-603, LSVEC, NBS19)')
+    // The list is fetched again after the save: wait for it rather than read it at once.
+    await expect.poll(() => page.getByRole('table', { name: 'Method versions of North bench IRMS' }).textContent()).toContain('normalise(IAEA-603, LSVEC, NBS19)')
   })
 })
