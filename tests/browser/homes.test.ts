@@ -1,9 +1,9 @@
 import { createPage } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { expectAccessible, reloadHydrated, shot, signInThroughForm } from '../support/browser'
+import { atPhoneWidth, darkTheme, expectAccessible, shot, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
-import { clearScene, goneOrOkSink, homeScene, widerThanScreen } from '../support/homes'
+import { clearScene, goneOrOkSink, homeScene } from '../support/homes'
 import { testDb, useArcwise } from '../support/server'
 import type { Role } from '../../shared/types/roles'
 
@@ -25,17 +25,6 @@ async function signIn(role: Role) {
   await signInThroughForm(page, demoUser(role).email, demoUser(role).password)
   await page.waitForURL(u => u.pathname === '/console')
   return page
-}
-async function darkTheme(page: Page) {
-  await page.getByRole('button', { name: 'Dark theme' }).click()
-  await expect.poll(() => page.evaluate(() => document.documentElement.classList.contains('dark'))).toBe(true)
-}
-async function atPhoneWidth(page: Page) {
-  // As a phone opens it: the page loaded at that width, not a desktop page squeezed.
-  await page.setViewportSize({ width: 390, height: 844 })
-  await reloadHydrated(page)
-  // Nothing wider than the screen: no sideways scrolling to read a card.
-  await expect.poll(() => page.evaluate(() => document.documentElement.scrollWidth), { message: await page.evaluate(widerThanScreen).then(String) }).toBeLessThanOrEqual(390)
 }
 const region = (page: Page, name: string | RegExp) => page.getByRole('region', { name })
 

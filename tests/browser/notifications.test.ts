@@ -1,9 +1,9 @@
 import { createPage } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { expectAccessible, reloadHydrated, shot, signInThroughForm } from '../support/browser'
+import { expectAccessible, expectFitsPhone, reloadHydrated, shot, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
-import { clearScene, goneOrOkSink, homeScene, widerThanScreen } from '../support/homes'
+import { clearScene, goneOrOkSink, homeScene } from '../support/homes'
 import { useArcwise } from '../support/server'
 import type { Role } from '../../shared/types/roles'
 
@@ -64,7 +64,7 @@ describe('the notifications bell', () => {
     expect(text).toMatch(/dead deliver(y|ies) to Northgate Water Authority/)
     expect(text).not.toContain('Control chart')
     expect(text).not.toContain(scene.other.partner.name)
-    await expect.poll(() => page.evaluate(() => document.documentElement.scrollWidth), { message: await page.evaluate(widerThanScreen).then(String) }).toBeLessThanOrEqual(390)
+    await expectFitsPhone(page)
     await shot(page, 'notifications-integrator-phone')
     await page.getByRole('button', { name: 'Mark all as seen' }).click()
     await expect.poll(() => page.getByTestId('notification-count').count()).toBe(0)

@@ -63,3 +63,29 @@ export async function reloadHydrated(page: Page) {
   await page.reload()
   await page.waitForFunction(() => (window as unknown as { useNuxtApp?: () => { isHydrating: boolean } }).useNuxtApp?.().isHydrating === false)
 }
+
+/** Elements reaching past the right edge of a phone-width page, named for the failure message. */
+const widerThanScreen = `(() => {
+  const w = document.documentElement.clientWidth
+  return [...document.querySelectorAll('body *')].filter(e => e.getBoundingClientRect().right > w + 1)
+    .filter(e => !e.closest('.overflow-x-auto, .overflow-auto, .overflow-hidden'))
+    .slice(0, 8).map(e => e.tagName.toLowerCase() + '.' + String(e.className).slice(0, 60) + ' ' + Math.round(e.getBoundingClientRect().right))
+})()`
+
+/** Nothing wider than a 390 px phone screen: no sideways scrolling to read a card. */
+export async function expectFitsPhone(page: Page) {
+  await expect.poll(() => page.evaluate(() => document.documentElement.scrollWidth), { message: await page.evaluate(widerThanScreen).then(String) }).toBeLessThanOrEqual(390)
+}
+
+/** As a phone opens the page: loaded at that width, not a desktop page squeezed; then it must fit. */
+export async function atPhoneWidth(page: Page) {
+  await page.setViewportSize({ width: 390, height: 844 })
+  await reloadHydrated(page)
+  await expectFitsPhone(page)
+}
+
+/** Switches the console to its dark theme and waits until the page wears it. */
+export async function darkTheme(page: Page) {
+  await page.getByRole('button', { name: 'Dark theme' }).click()
+  await expect.poll(() => page.evaluate(() => document.documentElement.classList.contains('dark'))).toBe(true)
+}

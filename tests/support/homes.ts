@@ -108,11 +108,3 @@ export async function clearScene(scene: Awaited<ReturnType<typeof homeScene>> | 
   catch (error) { console.warn('clearing the home scene failed:', (error as Error).message) }
   finally { await sql.end() }
 }
-
-/** Elements reaching past the right edge of a phone-width page, named for the failure message. */
-export const widerThanScreen = `(() => {
-  const w = document.documentElement.clientWidth
-  return [...document.querySelectorAll('body *')].filter(e => e.getBoundingClientRect().right > w + 1)
-    .filter(e => !e.closest('.overflow-x-auto, .overflow-auto, .overflow-hidden'))
-    .slice(0, 8).map(e => e.tagName.toLowerCase() + '.' + String(e.className).slice(0, 60) + ' ' + Math.round(e.getBoundingClientRect().right))
-})()`
