@@ -4,29 +4,16 @@
 // With DATABASE_URL it works on that database with NUXT_SEALING_KEYS (and the session
 // password, NUXT_SESSION_PASSWORD, for values sealed before the keyring); without, on the
 // database of `npm start` with the keyring of .data/secrets.json.
-import postgres from 'postgres'
 import { parseSealingKeys } from '../server/utils/keyring'
-import { ensureDatabase, startCluster } from './lib/pg'
+import { runDatabaseCommand } from './lib/database-command'
 import { localSecrets, log } from './lib/paths'
 import { rotateSealedValues } from './lib/rotate-keys'
 
-const external = process.env.DATABASE_URL
-const cluster = external ? undefined : await startCluster()
-try {
-  const url = external ?? await ensureDatabase(cluster!, 'arcwise')
+await runDatabaseCommand(async ({ sql, external }) => {
   const local = external ? undefined : localSecrets()
   const keys = process.env.NUXT_SEALING_KEYS ?? local?.sealingKeys ?? ''
   const legacy = process.env.NUXT_SEALING_SECRET || process.env.NUXT_SESSION_PASSWORD || local?.sessionPassword
   const ring = parseSealingKeys(keys, legacy)
-  const sql = postgres(url, { max: 1, onnotice: () => {} })
-  try {
-    const { resealed, current } = await rotateSealedValues(sql, ring)
-    log(`re-sealed ${resealed} value(s) with key "${ring.keys.at(-1)!.id}"; ${current} already used it`)
-  }
-  finally { await sql.end() }
-}
-catch (error) {
-  console.error(error instanceof Error ? error.message : error)
-  process.exitCode = 1
-}
-finally { cluster?.stop() }
+  const { resealed, current } = await rotateSealedValues(sql, ring)
+  log(`re-sealed ${resealed} value(s) with key "${ring.keys.at(-1)!.id}"; ${current} already used it`)
+})
