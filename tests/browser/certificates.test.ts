@@ -4,7 +4,7 @@ import { join } from 'node:path'
 import { createRequire } from 'node:module'
 import { createPage, url } from '@nuxt/test-utils/e2e'
 import { describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { expectAccessible, shot, signInAs, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
 import { ConsoleClient, testDb, useArcwise } from '../support/server'
@@ -40,7 +40,7 @@ describe('verifying a certificate in the console', () => {
     writeFileSync(join(dir, `${number}.jws`), jws)
 
     const page = await createPage('/sign-in')
-    await signInThroughForm(page, demoUser('viewer').email, demoUser('viewer').password)
+    await signInAs(page, 'viewer')
     await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Verify a certificate' }).click()
     await page.waitForURL(/\/console\/certificates\/verify$/)
     await page.locator('#certificate-files').setInputFiles([join(dir, `${number}.json`), join(dir, `${number}.jws`)])

@@ -1,8 +1,7 @@
 import { createPage, url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
-import { demoUser } from '../support/demo'
+import { expectAccessible, shot, signInAs } from '../support/browser'
 import { useArcwise } from '../support/server'
 
 await useArcwise({ browser: true })
@@ -25,7 +24,7 @@ describe('the Content-Security-Policy in a real browser', () => {
   it('the console signs in and shows its pages with no policy violation', async () => {
     const { page, violations } = await watchedPage()
     await page.goto(url('/sign-in'))
-    await signInThroughForm(page, demoUser('admin').email, demoUser('admin').password)
+    await signInAs(page, 'admin')
     await expect.poll(() => page.getByRole('heading', { level: 1 }).textContent()).toBeTruthy()
     for (const [link, heading] of [['Labs', 'Labs'], ['Users and invitations', 'Users and invitations']] as const) {
       await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: link }).click()

@@ -1,7 +1,6 @@
 import { createPage, url } from '@nuxt/test-utils/e2e'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { atPhoneWidth, darkTheme, expectAccessible, reloadHydrated, shot, signInThroughForm } from '../support/browser'
-import { demoUser } from '../support/demo'
+import { atPhoneWidth, darkTheme, expectAccessible, reloadHydrated, shot, signInAs } from '../support/browser'
 import { clearScene, goneOrOkSink, homeScene } from '../support/homes'
 import { testDb, useArcwise } from '../support/server'
 import type { Role } from '../../shared/types/roles'
@@ -24,7 +23,7 @@ afterAll(() => clearScene(scene))
 
 async function signIn(role: Role) {
   const page = await createPage('/sign-in')
-  await signInThroughForm(page, demoUser(role).email, demoUser(role).password)
+  await signInAs(page, role)
   return page
 }
 

@@ -1,8 +1,7 @@
 import { createPage, url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
-import { demoUser } from '../support/demo'
+import { expectAccessible, shot, signInAs } from '../support/browser'
 import type { Role } from '../../shared/types/roles'
 import { labWithInstrument } from '../support/lab'
 import { testDb, unique, useArcwise } from '../support/server'
@@ -15,7 +14,7 @@ await useArcwise({ browser: true })
 
 async function signIn(role: Role) {
   const page = await createPage('/sign-in')
-  await signInThroughForm(page, demoUser(role).email, demoUser(role).password)
+  await signInAs(page, role)
   return page
 }
 const labId = async (slug: string) => (await testDb()<{ id: string }[]>`select id from labs where slug = ${slug}`)[0]!.id

@@ -1,7 +1,6 @@
 import { createPage } from '@nuxt/test-utils/e2e'
 import { describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
-import { demoUser } from '../support/demo'
+import { expectAccessible, shot, signInAs, signInThroughForm } from '../support/browser'
 import { unique, useArcwise } from '../support/server'
 
 await useArcwise({ browser: true })
@@ -10,7 +9,7 @@ describe('an invitation end to end', () => {
   it('an admin invites a lab manager, who opens the e-mail, sets a password and signs in', async () => {
     const email = `${unique('newcomer')}@saltmarsh.example`
     const page = await createPage('/sign-in')
-    await signInThroughForm(page, demoUser('admin').email, demoUser('admin').password)
+    await signInAs(page, 'admin')
     await page.getByRole('link', { name: 'Users and invitations' }).click()
     const form = page.getByRole('form', { name: 'Invite a person' })
     await form.getByLabel('E-mail').fill(email)

@@ -2,8 +2,7 @@ import { createPage, url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { describe, expect, it } from 'vitest'
 import { postAcquisition } from '../../scripts/lib/lab-system'
-import { expectAccessible, openLabFromMenu, shot, signInThroughForm } from '../support/browser'
-import { demoUser } from '../support/demo'
+import { expectAccessible, openLabFromMenu, shot, signInAs } from '../support/browser'
 import { referenceAcquisition } from '../support/lab'
 import { testDb, unique, useArcwise } from '../support/server'
 
@@ -11,7 +10,7 @@ await useArcwise({ browser: true })
 
 async function signIn(role: 'lab_manager' | 'viewer' | 'integrator') {
   const page = await createPage('/sign-in')
-  await signInThroughForm(page, demoUser(role).email, demoUser(role).password)
+  await signInAs(page, role)
   return page
 }
 async function openTab(page: Page, tab: string, at: RegExp) {

@@ -1,7 +1,6 @@
 import { createPage } from '@nuxt/test-utils/e2e'
 import { describe, expect, it } from 'vitest'
-import { expectAccessible, openLabFromMenu, shot, signInThroughForm } from '../support/browser'
-import { demoUser } from '../support/demo'
+import { expectAccessible, openLabFromMenu, shot, signInAs } from '../support/browser'
 import { ConsoleClient, useArcwise } from '../support/server'
 
 await useArcwise({ browser: true })
@@ -9,7 +8,7 @@ await useArcwise({ browser: true })
 /** Signs in as the demo lab manager and walks the menu to a tab of their lab, as they would. */
 async function openOwnLabTab(tab: string, at: RegExp) {
   const page = await createPage('/sign-in')
-  await signInThroughForm(page, demoUser('lab_manager').email, demoUser('lab_manager').password)
+  await signInAs(page, 'lab_manager')
   await openLabFromMenu(page, 'Saltmarsh Stable Isotope Lab')
   await page.getByRole('link', { name: tab }).click()
   await page.waitForURL(at)

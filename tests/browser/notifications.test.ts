@@ -1,8 +1,7 @@
 import { createPage } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { expectAccessible, expectFitsPhone, reloadHydrated, shot, signInThroughForm } from '../support/browser'
-import { demoUser } from '../support/demo'
+import { expectAccessible, expectFitsPhone, reloadHydrated, shot, signInAs } from '../support/browser'
 import { clearScene, goneOrOkSink, homeScene } from '../support/homes'
 import { useArcwise } from '../support/server'
 import type { Role } from '../../shared/types/roles'
@@ -22,7 +21,7 @@ afterAll(() => clearScene(scene))
 
 async function signIn(role: Role) {
   const page = await createPage('/sign-in')
-  await signInThroughForm(page, demoUser(role).email, demoUser(role).password)
+  await signInAs(page, role)
   return page
 }
 const bell = (page: Page) => page.getByRole('button', { name: /^Notifications/ })

@@ -1,7 +1,7 @@
 import { createPage, url } from '@nuxt/test-utils/e2e'
 import { describe, expect, it } from 'vitest'
 import type { Role } from '../../shared/types/roles'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { expectAccessible, shot, signInAs, signInThroughForm } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { useArcwise } from '../support/server'
 
@@ -28,7 +28,7 @@ describe('each role in the console', () => {
     await page.waitForURL(/\/sign-in\?next=/)
     await expectAccessible(page)
     await shot(page, 'signed-out-sign-in')
-    await signInThroughForm(page, demoUser('admin').email, demoUser('admin').password)
+    await signInAs(page, 'admin')
     // By path: the sign-in URL itself ends in `next=/console/labs`.
     await page.waitForURL(u => u.pathname === '/console/labs')
     await expect.poll(() => page.getByRole('heading', { level: 1 }).textContent()).toBe('Labs')

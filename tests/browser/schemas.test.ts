@@ -1,7 +1,6 @@
 import { createPage } from '@nuxt/test-utils/e2e'
 import { describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
-import { demoUser } from '../support/demo'
+import { expectAccessible, shot, signInAs } from '../support/browser'
 import { ConsoleClient, useArcwise } from '../support/server'
 
 await useArcwise({ browser: true })
@@ -9,7 +8,7 @@ await useArcwise({ browser: true })
 describe('exchange schemas in the console', () => {
   it('an admin deprecates a version with a sunset date; lab systems then see the headers; and makes it current again', async () => {
     const page = await createPage('/sign-in')
-    await signInThroughForm(page, demoUser('admin').email, demoUser('admin').password)
+    await signInAs(page, 'admin')
     await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Exchange schemas' }).click()
     await page.waitForURL(/\/console\/schemas$/)
     const item = page.getByRole('listitem', { name: 'acquisition v1' })

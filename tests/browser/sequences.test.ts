@@ -2,7 +2,7 @@ import { createPage, url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { beforeAll, describe, expect, it } from 'vitest'
 import { DEMO_SEQUENCE_COUNT, DEMO_SPOILED_SEQUENCE, demoCo2Sequences, postDemoSequences } from '../../scripts/lib/demo-sequences'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { expectAccessible, shot, signInAs } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { ConsoleClient, testDb, useArcwise } from '../support/server'
 
@@ -22,7 +22,7 @@ beforeAll(async () => {
 
 async function signIn(role: 'lab_manager' | 'viewer') {
   const page = await createPage('/sign-in')
-  await signInThroughForm(page, demoUser(role).email, demoUser(role).password)
+  await signInAs(page, role)
   return page
 }
 const region = (page: Page, name: string) => page.getByRole('region', { name })

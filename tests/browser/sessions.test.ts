@@ -1,6 +1,6 @@
 import { createPage, url } from '@nuxt/test-utils/e2e'
 import { describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { expectAccessible, shot, signInAs } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { ConsoleClient, useArcwise } from '../support/server'
 
@@ -12,7 +12,7 @@ describe('ending a person\'s sessions from the console', () => {
     expect((await viewer.get('/api/console/me')).status).toBe(200)
 
     const page = await createPage('/sign-in')
-    await signInThroughForm(page, demoUser('admin').email, demoUser('admin').password)
+    await signInAs(page, 'admin')
     await page.goto(url('/console/users'))
     const button = page.getByRole('button', { name: `End sessions of ${demoUser('viewer').email}` })
     // Dismissing the confirmation changes nothing.

@@ -1,8 +1,7 @@
 import { createServer } from 'node:http'
 import { createPage, url } from '@nuxt/test-utils/e2e'
 import { afterAll, describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
-import { demoUser } from '../support/demo'
+import { expectAccessible, shot, signInAs } from '../support/browser'
 import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
 import { ConsoleClient, unique, useArcwise } from '../support/server'
 import { grantedPartnerWithEndpoint, until } from '../support/webhooks'
@@ -34,7 +33,7 @@ describe('webhooks in the console', () => {
     const northgate = (await admin.get('/api/console/partners')).body.items.find((p: { slug: string }) => p.slug === 'northgate-water')
     await admin.post(`/api/console/labs/${lab.id}/grants`, { partnerId: northgate.id })
     const page = await createPage('/sign-in')
-    await signInThroughForm(page, demoUser('integrator').email, demoUser('integrator').password)
+    await signInAs(page, 'integrator')
     await page.getByRole('link', { name: 'Webhooks' }).click()
     await page.waitForURL(/\/webhooks$/)
     await expectAccessible(page)
@@ -113,7 +112,7 @@ describe('webhooks in the console', () => {
     await until('the delivery to die', async () => (await ctx.admin.get(`/api/console/partners/${ctx.partner.id}/deliveries?status=dead`)).body.items.length === 1)
     failing.delete(path)
     const page = await createPage('/sign-in')
-    await signInThroughForm(page, demoUser('admin').email, demoUser('admin').password)
+    await signInAs(page, 'admin')
     // A full page load: wait until Vue has hydrated it before clicking, or clicks go unheard.
     await page.goto(page.url().replace(/\/console.*$/, `/console/partners/${ctx.partner.id}`), { waitUntil: 'hydration' } as never)
     await page.getByRole('link', { name: 'Deliveries' }).click()
@@ -132,7 +131,7 @@ describe('webhooks in the console', () => {
 
   it('an integrator adds an API client, whose secret gets a token, and revokes it', async () => {
     const page = await createPage('/sign-in')
-    await signInThroughForm(page, demoUser('integrator').email, demoUser('integrator').password)
+    await signInAs(page, 'integrator')
     await page.getByRole('link', { name: 'Webhooks' }).click()
     await page.waitForURL(/\/webhooks$/)
     await page.getByRole('link', { name: 'API clients' }).click()
@@ -153,7 +152,7 @@ describe('webhooks in the console', () => {
 
   it('an integrator sees which labs share their results with the partner', async () => {
     const page = await createPage('/sign-in')
-    await signInThroughForm(page, demoUser('integrator').email, demoUser('integrator').password)
+    await signInAs(page, 'integrator')
     await page.getByRole('link', { name: 'Webhooks' }).click()
     await page.waitForURL(/\/webhooks$/)
     await page.getByRole('navigation', { name: 'Partner' }).getByRole('link', { name: 'Details' }).click()

@@ -1,7 +1,7 @@
 import { createPage, url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { beforeAll, describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInThroughForm } from '../support/browser'
+import { expectAccessible, shot, signInAs } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { bearer, co2Acquisition, labWithInstrument, sectorGeometry } from '../support/lab'
 import { ConsoleClient, testDb, unique, useArcwise } from '../support/server'
@@ -40,7 +40,7 @@ beforeAll(async () => {
 
 async function signIn(role: Role) {
   const page = await createPage('/sign-in')
-  await signInThroughForm(page, demoUser(role).email, demoUser(role).password)
+  await signInAs(page, role)
   return page
 }
 const palette = (page: Page) => page.getByRole('dialog', { name: 'Search' })

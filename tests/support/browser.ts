@@ -3,6 +3,8 @@ import { createRequire } from 'node:module'
 import { join } from 'node:path'
 import type { Page } from 'playwright-core'
 import { expect } from 'vitest'
+import type { Role } from '../../shared/types/roles'
+import { demoUser } from './demo'
 import { rootDir } from './env'
 
 const shotsDir = join(rootDir, 'test-results', 'browser')
@@ -44,6 +46,12 @@ export async function signInThroughForm(page: Page, email: string, password: str
   await page.getByLabel('Password').fill(password)
   await page.getByRole('button', { name: 'Sign in' }).click()
   await page.waitForURL(/\/console/)
+}
+
+/** Signs in through the form as the seeded demo user of a role. */
+export async function signInAs(page: Page, role: Role) {
+  const user = demoUser(role)
+  await signInThroughForm(page, user.email, user.password)
 }
 
 /**
