@@ -340,7 +340,10 @@ function weighRivals(peaks: ResultPeak[], assignments: Assignment[], shared: Sha
     const bounds = { mzMin: sweep.mzMin, mzMax: sweep.mzMax, detectionLimit: minSnr * noise }
     const rivals = a.rivals.filter(r => expectedSignal(r, others, bounds) >= noise)
     if (rivals.length) return
-    const settled: Assignment = { ...a, best: a.first, ambiguous: false, candidates: a.candidates.filter(c => c === a.first || !a.rivals!.includes(c)) }
+    // The dismissed rivals leave the candidate list by species and charge: the list holds
+    // copies of the rivals whose m/z differs from the first's (errors taken from the peak).
+    const dismissed = a.rivals
+    const settled: Assignment = { ...a, best: a.first, ambiguous: false, candidates: a.candidates.filter(c => !dismissed.some(r => r.species === c.species && r.z === c.z)) }
     Object.assign(p, assignmentFields(settled, p.centroid, p.centroidU))
   })
 }

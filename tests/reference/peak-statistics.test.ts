@@ -145,6 +145,14 @@ describe('assignment weighs expected signal', () => {
     expect(peak.assignment?.species).toBe('HD')
   })
 
+  it('a peak the weighing settles lists no dismissed rival among its candidates (3He+ lies 1,950 ppm from HD+)', () => {
+    // The rival's m/z differs from the best line's, so the candidate list holds a copy of it
+    // with the error recomputed: it must go by species and charge, not by identity.
+    const peak = processReadings(he, sweep(1.5, 5), options).peaks.find(p => Math.abs(p.centroid - 3.02) < 0.01)!
+    expect(peak.assignment?.species).toBe('HD')
+    expect(peak.candidates.map(c => c.species)).toEqual(['HD'])
+  })
+
   it('still flags when nothing bounds the rival (4He outside the sweep)', () => {
     const peak = processReadings(he, sweep(2.6, 3.6), options).peaks.find(p => Math.abs(p.centroid - 3.02) < 0.01)!
     expect(peak.ambiguous).toBe(true)
