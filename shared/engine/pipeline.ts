@@ -60,9 +60,13 @@ export interface EngineOptions {
  * A peak as a result reports it: the profile fit's own figures (`Peak`, see spectrum.ts), the
  * centroid's uncertainty combined with the geometry's, and the assignment.
  */
-export type ResultPeak = Pick<Peak, 'centroid' | 'height' | 'heightU' | 'area' | 'areaU' | 'fwhm' | 'fwhmU' | 'snr'
-  | 'resolvingPower' | 'resolvingPowerU' | 'resolvingPower10ValleyU' | 'fitted' | 'overlapping'> & {
+export type ResultPeak = Pick<Peak, 'centroid' | 'height' | 'heightU' | 'area' | 'areaU' | 'fwhmU' | 'snr'
+  | 'resolvingPowerU' | 'resolvingPower10ValleyU' | 'fitted' | 'overlapping'> & {
   collector: string
+  /** null: not estimated (a static reading has no profile). */
+  fwhm: Peak['fwhm'] | null
+  /** m/Δm (FWHM); null: not estimated (a static reading has no profile). */
+  resolvingPower: Peak['resolvingPower'] | null
   /** Combined standard uncertainty: the fit's (noise) and the geometry's, in quadrature. */
   centroidU: number
   /** The fit's share alone (`Peak.centroidU`; null: not estimated, the fit failed). */
@@ -379,7 +383,7 @@ function processStatic(geo: Geometry, readings: RawReadings, options: EngineOpti
     // A static reading has no profile: width, resolving power and a centroid fit are not estimated.
     return {
       collector: pos.collector, centroid: mz, centroidU, centroidUFit: null, height: col.mean, heightU: col.meanU, area: col.mean, areaU: col.meanU,
-      fwhm: 0, fwhmU: null, snr: col.meanU > 0 ? col.mean / col.meanU : Number.MAX_VALUE, resolvingPower: 0, resolvingPowerU: null,
+      fwhm: null, fwhmU: null, snr: col.meanU > 0 ? col.mean / col.meanU : Number.MAX_VALUE, resolvingPower: null, resolvingPowerU: null,
       resolvingPower10Valley: null, resolvingPower10ValleyU: null, fitted: false, overlapping: false,
       assignment: f.assignment, ambiguous: f.ambiguous, candidates: f.candidates, linkedPeak: f.linkedPeak,
     }

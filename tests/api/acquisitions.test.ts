@@ -30,7 +30,7 @@ describe('POST /api/v1/acquisitions', () => {
     expect(r.ratios[0]).toMatchObject({ deltaName: 'δ13C', standard: 'VPDB' })
     expect(r.ratios[0].deltaPermil).toBeCloseTo(-10, 0)
     expect(r.ratios[0].deltaU).toBeGreaterThan(0)
-    expect(r.versions).toEqual({ engine: '2.0.0', constants: 'CODATA 2022', geometry: 1, calibration: null, method: null })
+    expect(r.versions).toEqual({ engine: '2.0.1', constants: 'CODATA 2022', geometry: 1, calibration: null, method: null })
     expect(r.physics).toEqual({ relativistic: true, compatibility: '2.x' })
     expect(r.qc.map((q: any) => q.code)).toContain('uncalibrated')
     expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
@@ -104,6 +104,8 @@ describe('POST /api/v1/acquisitions', () => {
     const r = res.body.result
     expect(r.mode).toBe('static')
     expect(r.cycles).toMatchObject({ count: 40 })
+    // A static reading has no profile: its width and resolving power are not estimated (null, not 0).
+    expect(r.peaks.map((p: any) => [p.fwhm, p.fwhmU, p.resolvingPower, p.resolvingPower10Valley])).toEqual([[null, null, null, null], [null, null, null, null]])
     expect(r.detectors.map((d: any) => [d.collector, d.type, d.baseline.mode])).toEqual([['L', 'faraday', 'per-cycle'], ['H', 'faraday', 'per-cycle']])
     const ratio = r.ratios[0]
     expect(ratio.cycles).toMatchObject({ cycles: 40, used: 40, rejected: 0, dof: 39 })

@@ -125,9 +125,9 @@ describe('every peak number carries its uncertainty; both resolving powers', () 
     const raw = simulateFieldSweep({ geometry: geo, acceleratingVoltageV: 4500, mzFrom: 39, mzTo: 41, points: 2000, resolvingPower: 600, species: [{ species: isotope('40Ar'), currentA: 1e-13 }], baselineA: 5e-15, noiseA: 1e-16, seed: 2, currentUnit: 'A' })
     const p = processReadings(geo, raw, { isotopes: false, formulas: ['[40Ar]'] }).peaks[0]!
     for (const u of [p.centroidU, p.centroidUFit, p.heightU, p.areaU, p.fwhmU, p.resolvingPowerU, p.resolvingPower10ValleyU, p.assignment!.impliedNeutralMassU]) expect(u).toBeGreaterThan(0)
-    expect(p.resolvingPower / 600).toBeCloseTo(1, 1)
+    expect(p.resolvingPower! / 600).toBeCloseTo(1, 1)
     // A Gaussian's width at 5 % height is 2.079 FWHM (IUPAC 2013 10 % valley, common practice).
-    expect(p.resolvingPower / p.resolvingPower10Valley!).toBeCloseTo(Math.sqrt(Math.log(20) / Math.LN2), 6)
+    expect(p.resolvingPower! / p.resolvingPower10Valley!).toBeCloseTo(Math.sqrt(Math.log(20) / Math.LN2), 6)
   })
 })
 
