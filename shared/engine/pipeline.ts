@@ -5,10 +5,11 @@ import { detectorParams, detectorSignal, type DetectorParams, type DetectorSpec 
 import { EngineError, assertFiniteColumn } from './errors'
 import { rankMatches, type ReferenceSpectrum } from './fingerprint'
 import { staticCollectorMz, sweepToMz, type Geometry, type RawReadings } from './geometry'
-import { ratioAndDelta, referenceRatios, type RatioResult, type ReferenceRatioId } from './ratios'
+import { ratioAndDelta, referenceRatios, type RatioCoverage, type RatioResult, type ReferenceRatioId } from './ratios'
 import { REJECTION_RULE, staticColumn, staticRatio, type BaselineSummary, type StaticColumnInput } from './static'
 import { findPeaks, sweepDirection, type Baseline, type BaselineInput, type Peak } from './spectrum'
 import { formulaSpecies, naturalIsotopes, neutralMassFromMz, type Species } from './species'
+import { monteCarloCoverage } from './uncertainty'
 import { siFactor } from './units'
 
 // The chain from raw readings to a result: sweeps, static collectors and m/z spectra share
@@ -54,6 +55,11 @@ export interface EngineOptions {
   baseline?: { regions?: { mzFrom: number, mzTo: number }[], zero?: { collector?: string, unit: string, values: ArrayLike<number> }[] }
   /** Dwell time per point (s) of counted data; otherwise found from the count quantum. */
   dwellS?: number
+  /**
+   * Also give each ratio of two profile peaks its 95 % coverage interval by GUM Supplement 1
+   * Monte Carlo (JCGM 101:2008, 2·10^5 trials a ratio, tens of ms: so on request only).
+   */
+  monteCarlo?: boolean
 }
 
 /**
@@ -457,7 +463,14 @@ function finish(
     const sh = shared[hi]
     const sl = shared[li]
     const covariance = head.mode === 'sweep' && sh && sl && sh.column === sl.column ? sh.areaPerBaseline * sl.areaPerBaseline * sh.levelVariance / (heavy.centroid * light.centroid) : 0
-    ratios.push(ratioAndDelta(request.id, perLogMz(heavy), perLogMz(light), covariance))
+    const ratio = ratioAndDelta(request.id, perLogMz(heavy), perLogMz(light), covariance)
+    if (options.monteCarlo) {
+      // The shared baseline level moves both areas: its share s = (∂A/∂L)·u(L)/(m/z) is one
+      // common input, the rest of each area's u an independent one (cov = s_h·s_l, as above).
+      const common = (s: SharedBaseline | undefined, p: ResultPeak) => (covariance !== 0 && s ? s.areaPerBaseline * Math.sqrt(s.levelVariance) / p.centroid : 0)
+      ratio.coverage = ratioCoverage(perLogMz(heavy), perLogMz(light), common(sh, heavy), common(sl, light), ratio)
+    }
+    ratios.push(ratio)
   }
   // Fingerprints compare heights (normalised to the tallest peak): areas of a field sweep grow
   // with m/z at constant resolving power, heights do not.
@@ -477,4 +490,23 @@ function calibrationStatus(cal: CalibrationInForce, peaks: ResultPeak[]): Calibr
   const outside: number[] = []
   peaks.forEach((p, i) => { if (p.centroid < from || p.centroid > to) outside.push(i) })
   return { state: 'applied', geometryVersion: fit.geometryVersion ?? null, range: [from, to], outside, uncertaintyPropagated: !!fit.covariance }
+}
+
+/** M ≥ 10^4/(1 − p) for p = 0.95 (JCGM 101:2008 7.2.2, from memory): fixed, so a result's cost is known. */
+const RATIO_TRIALS = 200_000
+
+/**
+ * GUM-S1 (JCGM 101:2008) 95 % coverage interval of R = (h + s_h·z)/(l + s_l·z): h and l the
+ * areas' independent parts, z ~ N(0, 1) the shared baseline's deviation in units of its u.
+ */
+function ratioCoverage(heavy: { area: number, areaU: number }, light: { area: number, areaU: number }, sHeavy: number, sLight: number, r: RatioResult): RatioCoverage {
+  const own = (a: { areaU: number }, s: number) => Math.sqrt(Math.max(0, a.areaU ** 2 - s ** 2))
+  const mc = monteCarloCoverage(x => (x[0]! + sHeavy * x[2]!) / (x[1]! + sLight * x[2]!), [
+    { value: heavy.area, u: own(heavy, sHeavy) }, { value: light.area, u: own(light, sLight) }, { value: 0, u: 1 },
+  ], { trials: RATIO_TRIALS })
+  const delta = (ratio: number) => (ratio / r.referenceRatio - 1) * 1000
+  return {
+    method: 'GUM-S1 Monte Carlo (JCGM 101:2008)', p: mc.p, interval: mc.interval, deltaInterval: [delta(mc.interval[0]), delta(mc.interval[1])],
+    expandedU: mc.expandedU, k: mc.k, trials: mc.trials,
+  }
 }

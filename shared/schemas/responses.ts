@@ -60,6 +60,15 @@ export const ratioResult = z.object({
   referenceSource: z.string().describe('where the accepted ratio is published'),
   deltaUWithReference: z.number().describe('u(δ) with the accepted ratio\'s own uncertainty added'),
   cycles: cycleStatistics.optional().describe('static readings: the ratio is the mean of cycle ratios'),
+  coverage: z.object({
+    method: z.literal('GUM-S1 Monte Carlo (JCGM 101:2008)'),
+    p: z.number().describe('coverage probability'),
+    interval: z.tuple([z.number(), z.number()]).describe('probabilistically symmetric coverage interval of the ratio (JCGM 101 7.7.1)'),
+    deltaInterval: z.tuple([z.number(), z.number()]).describe('the same interval as δ in ‰'),
+    expandedU: z.number().describe('half the interval\'s width'),
+    k: z.number().describe('coverage factor: expandedU over the standard deviation of the trials'),
+    trials: z.number().int().describe('Monte Carlo trials (2·10^5, at least 10^4/(1 − p), JCGM 101 7.2.2)'),
+  }).strict().optional().describe('asked for with processing.monteCarlo, for a ratio of two profile peaks: its coverage interval by GUM Supplement 1'),
 }).strict()
 
 const baselineSummary = z.object({

@@ -40,6 +40,25 @@ describe('POST /api/v1/acquisitions', () => {
     expect(event).toEqual({ sequence: 1, type: 'result.released' })
   })
 
+  it('on request, a ratio carries its GUM Supplement 1 95 % coverage interval, as documented; without, none', async () => {
+    const { key } = await labWithInstrument()
+    const plain = co2Acquisition()
+    const res = await post(key.secret, { ...plain, processing: { ...plain.processing, monteCarlo: true } })
+    expect(res.status, JSON.stringify(res.body)).toBe(201)
+    acquisitionView.parse(res.body)
+    const r = res.body.result.ratios[0]
+    expect(r.coverage).toMatchObject({ method: 'GUM-S1 Monte Carlo (JCGM 101:2008)', p: 0.95, trials: 200_000 })
+    expect(r.coverage.interval[0]).toBeLessThan(r.ratio)
+    expect(r.coverage.interval[1]).toBeGreaterThan(r.ratio)
+    expect(r.coverage.deltaInterval[0]).toBeLessThan(r.deltaPermil)
+    expect(r.coverage.deltaInterval[1]).toBeGreaterThan(r.deltaPermil)
+    // Near-linear here (13CO2 at S/N in the thousands): k near the normal 1.96.
+    expect(r.coverage.k).toBeGreaterThan(1.9)
+    expect(r.coverage.k).toBeLessThan(2.02)
+    const without = await post(key.secret, co2Acquisition())
+    expect(without.body.result.ratios[0].coverage).toBeUndefined()
+  })
+
   it('takes on-peak-zero readings or baseline regions, and every peak number comes with its uncertainty', async () => {
     const { key } = await labWithInstrument()
     const body = co2Acquisition()

@@ -76,6 +76,7 @@ export function computeResult(input: AcquisitionInput, geo: NonNullable<Instrume
       calibration: calibration ? { ...calibration.fit as unknown as AppliedCalibration, geometryVersion: calibration.geometryVersion } : null,
       geometryVersion: geo.version,
       compatibility: input.processing?.engine,
+      monteCarlo: input.processing?.monteCarlo,
     }
     const started = performance.now()
     engine = input.mzSpectrum
