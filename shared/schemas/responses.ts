@@ -131,6 +131,8 @@ export const engineResultView = z.object({
   peaks: z.array(resultPeak),
   ratios: z.array(ratioResult),
   qc: z.array(qcFlag),
+  matches: z.array(z.object({ id: z.string(), name: z.string(), similarity: z.number().describe('cosine similarity, 1 for the same pattern') }).strict())
+    .describe('the reference spectra sent in processing.references, best first: cosine similarity of peak heights normalised to the tallest (areas grow with m/z in a field sweep), 0.5 m/z bins'),
   versions: z.object({
     engine: z.string(), constants: z.string(), geometry: z.number().int(), calibration: z.number().int().nullable(),
     method: z.number().int().nullable().describe('the method version applied; null: a single acquisition is processed without a method (methods apply to sequences)'),

@@ -59,6 +59,31 @@ describe('POST /api/v1/acquisitions', () => {
     expect(without.body.result.ratios[0].coverage).toBeUndefined()
   })
 
+  it('ranks the reference spectra an acquisition sends by the similarity of its normalised peak heights; a bad stick is named and nothing stored', async () => {
+    const { key, lab, sql } = await labWithInstrument()
+    const plain = co2Acquisition()
+    // CO2 with its 13C isotopologue at the VPDB ratio (heights), and a pattern with no line in common.
+    const references = [
+      { id: 'argon', name: 'Argon only', sticks: [{ mz: 39.96, intensity: 1 }] },
+      { id: 'co2', name: 'Carbon dioxide', sticks: [{ mz: 43.99, intensity: 1 }, { mz: 44.99, intensity: 0.011 }] },
+    ]
+    const res = await post(key.secret, { ...plain, processing: { ...plain.processing, references } })
+    expect(res.status, JSON.stringify(res.body)).toBe(201)
+    acquisitionView.parse(res.body)
+    const matches = res.body.result.matches
+    expect(matches.map((m: any) => m.id)).toEqual(['co2', 'argon'])
+    expect(matches[0].similarity).toBeGreaterThan(0.999)
+    expect(matches[1].similarity).toBe(0)
+    const without = await post(key.secret, co2Acquisition())
+    expect(without.body.result.matches).toEqual([])
+    const before = (await countRows(sql, lab.id)).a
+    const bad = await post(key.secret, { ...co2Acquisition(), processing: { references: [{ id: 'x', name: 'x', sticks: [{ mz: -1, intensity: 1 }] }] } })
+    expect(bad.status).toBe(422)
+    problemDocument.parse(bad.body)
+    expect(bad.body.errors[0].path).toBe('processing.references.0.sticks.0.mz')
+    expect((await countRows(sql, lab.id)).a).toBe(before)
+  })
+
   it('takes on-peak-zero readings or baseline regions, and every peak number comes with its uncertainty', async () => {
     const { key } = await labWithInstrument()
     const body = co2Acquisition()

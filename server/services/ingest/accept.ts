@@ -77,6 +77,7 @@ export function computeResult(input: AcquisitionInput, geo: NonNullable<Instrume
       geometryVersion: geo.version,
       compatibility: input.processing?.engine,
       monteCarlo: input.processing?.monteCarlo,
+      references: input.processing?.references,
     }
     const started = performance.now()
     engine = input.mzSpectrum
