@@ -45,9 +45,9 @@ export const demoInstruments: DemoInstrument[] = [
   {
     lab: 'saltmarsh-isotopes', slug: 'irms-north', name: 'North bench IRMS', geometry: co2Lab,
     // The bench registers CO (a fragment of CO2) but, with its CO2 trapped cryogenically, measures
-    // only CO2, its isotopologue and the air-leak monitors: at R 950 CO+ and N2+ (Δm/z 0.011)
+    // only CO2, its isotopologues (m/z 45 and, for the δ18O of its sequences, 46) and the air-leak monitors: at R 950 CO+ and N2+ (Δm/z 0.011)
     // share one peak, so the species registered on the instrument are what tell m/z 28 apart.
-    measuredSpecies: ['CO2', '[13C]O2', 'N2', '[40Ar]', 'O2'],
+    measuredSpecies: ['CO2', '[13C]O2', 'C[18O]O', 'N2', '[40Ar]', 'O2'],
     acquisition: (runId, at, seed) => sweepBody('irms-north', runId, at, `CARB-${1000 + seed}`, {
       geometry: co2Lab, acceleratingVoltageV: 3000, mzFrom: 26, mzTo: 47, points: 12_000, resolvingPower: 950,
       species: co2Species(seed), baselineA: 8e-15, noiseA: 2e-15, seed, currentUnit: 'fA',

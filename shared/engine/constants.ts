@@ -52,7 +52,7 @@ export const SPEED_OF_LIGHT_M_PER_S = CODATA_2022.speedOfLightMps
 export const KG_PER_C_TO_U_PER_E = ELEMENTARY_CHARGE_C / ATOMIC_MASS_CONSTANT_KG
 
 /** Version of the engine, recorded with every result it computes. */
-export const ENGINE_VERSION = '2.0.0'
+export const ENGINE_VERSION = '2.0.1'
 
 /**
  * The physics a conversion uses: the constants edition and whether the relativistic

@@ -93,12 +93,41 @@ export interface MzColumn {
   relU: (mz: number) => number
 }
 
+/** The first non-finite value of a typed column, reported as the per-point check would. */
+function firstNotFinite(values: Float64Array): never {
+  const i = values.findIndex(b => b - b !== 0)
+  notFinite(i, values[i])
+}
+
 /**
  * m/z = c·B² − k over a field sweep. A function of its own so that c and k are locals of the
  * loop, not slots of the closure context that `relU` captures (V8 reloads those each turn).
+ * A Float64Array (the simulator's and the benchmark's column) takes a loop with no branch per
+ * point: b·0 is 0 for a finite b and NaN otherwise, so two running sums of it (two points a
+ * turn, so neither sum waits on the other) say after the loop whether a value was not finite.
+ * Measured with `npm run bench:engine` (DEVELOPERS.md, Measured). Other columns (JSON arrays)
+ * keep the check per point, which also refuses null and strings.
  */
 function fieldSweepLoop(values: ArrayLike<number>, out: Float64Array, c: number, k: number) {
+  if (values instanceof Float64Array) return fieldSweepTyped(values, out, c, k)
   for (let i = 0; i < out.length; i++) { const b = values[i]; if (typeof b !== 'number' || b - b !== 0) notFinite(i, b); out[i] = c * b * b - k }
+}
+
+function fieldSweepTyped(values: Float64Array, out: Float64Array, c: number, k: number) {
+  const n = out.length
+  let bad0 = 0
+  let bad1 = 0
+  let i = 0
+  for (; i + 1 < n; i += 2) {
+    const b0 = values[i]!
+    const b1 = values[i + 1]!
+    out[i] = c * b0 * b0 - k
+    out[i + 1] = c * b1 * b1 - k
+    bad0 += b0 * 0
+    bad1 += b1 * 0
+  }
+  if (i < n) { const b = values[i]!; out[i] = c * b * b - k; bad0 += b * 0 }
+  if (bad0 + bad1 !== 0) firstNotFinite(values)
 }
 
 /**

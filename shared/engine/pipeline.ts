@@ -5,10 +5,11 @@ import { detectorParams, detectorSignal, type DetectorParams, type DetectorSpec 
 import { EngineError, assertFiniteColumn } from './errors'
 import { rankMatches, type ReferenceSpectrum } from './fingerprint'
 import { staticCollectorMz, sweepToMz, type Geometry, type RawReadings } from './geometry'
-import { ratioAndDelta, referenceRatios, type RatioResult, type ReferenceRatioId } from './ratios'
+import { ratioAndDelta, referenceRatios, type RatioCoverage, type RatioResult, type ReferenceRatioId } from './ratios'
 import { REJECTION_RULE, staticColumn, staticRatio, type BaselineSummary, type StaticColumnInput } from './static'
 import { findPeaks, sweepDirection, type Baseline, type BaselineInput, type Peak } from './spectrum'
 import { formulaSpecies, naturalIsotopes, neutralMassFromMz, type Species } from './species'
+import { monteCarloCoverage } from './uncertainty'
 import { siFactor } from './units'
 
 // The chain from raw readings to a result: sweeps, static collectors and m/z spectra share
@@ -54,15 +55,24 @@ export interface EngineOptions {
   baseline?: { regions?: { mzFrom: number, mzTo: number }[], zero?: { collector?: string, unit: string, values: ArrayLike<number> }[] }
   /** Dwell time per point (s) of counted data; otherwise found from the count quantum. */
   dwellS?: number
+  /**
+   * Also give each ratio of two profile peaks its 95 % coverage interval by GUM Supplement 1
+   * Monte Carlo (JCGM 101:2008, 2·10^5 trials a ratio, tens of ms: so on request only).
+   */
+  monteCarlo?: boolean
 }
 
 /**
  * A peak as a result reports it: the profile fit's own figures (`Peak`, see spectrum.ts), the
  * centroid's uncertainty combined with the geometry's, and the assignment.
  */
-export type ResultPeak = Pick<Peak, 'centroid' | 'height' | 'heightU' | 'area' | 'areaU' | 'fwhm' | 'fwhmU' | 'snr'
-  | 'resolvingPower' | 'resolvingPowerU' | 'resolvingPower10ValleyU' | 'fitted' | 'overlapping'> & {
+export type ResultPeak = Pick<Peak, 'centroid' | 'height' | 'heightU' | 'area' | 'areaU' | 'fwhmU' | 'snr'
+  | 'resolvingPowerU' | 'resolvingPower10ValleyU' | 'fitted' | 'overlapping'> & {
   collector: string
+  /** null: not estimated (a static reading has no profile). */
+  fwhm: Peak['fwhm'] | null
+  /** m/Δm (FWHM); null: not estimated (a static reading has no profile). */
+  resolvingPower: Peak['resolvingPower'] | null
   /** Combined standard uncertainty: the fit's (noise) and the geometry's, in quadrature. */
   centroidU: number
   /** The fit's share alone (`Peak.centroidU`; null: not estimated, the fit failed). */
@@ -340,7 +350,10 @@ function weighRivals(peaks: ResultPeak[], assignments: Assignment[], shared: Sha
     const bounds = { mzMin: sweep.mzMin, mzMax: sweep.mzMax, detectionLimit: minSnr * noise }
     const rivals = a.rivals.filter(r => expectedSignal(r, others, bounds) >= noise)
     if (rivals.length) return
-    const settled: Assignment = { ...a, best: a.first, ambiguous: false, candidates: a.candidates.filter(c => c === a.first || !a.rivals!.includes(c)) }
+    // The dismissed rivals leave the candidate list by species and charge: the list holds
+    // copies of the rivals whose m/z differs from the first's (errors taken from the peak).
+    const dismissed = a.rivals
+    const settled: Assignment = { ...a, best: a.first, ambiguous: false, candidates: a.candidates.filter(c => !dismissed.some(r => r.species === c.species && r.z === c.z)) }
     Object.assign(p, assignmentFields(settled, p.centroid, p.centroidU))
   })
 }
@@ -376,7 +389,7 @@ function processStatic(geo: Geometry, readings: RawReadings, options: EngineOpti
     // A static reading has no profile: width, resolving power and a centroid fit are not estimated.
     return {
       collector: pos.collector, centroid: mz, centroidU, centroidUFit: null, height: col.mean, heightU: col.meanU, area: col.mean, areaU: col.meanU,
-      fwhm: 0, fwhmU: null, snr: col.meanU > 0 ? col.mean / col.meanU : Number.MAX_VALUE, resolvingPower: 0, resolvingPowerU: null,
+      fwhm: null, fwhmU: null, snr: col.meanU > 0 ? col.mean / col.meanU : Number.MAX_VALUE, resolvingPower: null, resolvingPowerU: null,
       resolvingPower10Valley: null, resolvingPower10ValleyU: null, fitted: false, overlapping: false,
       assignment: f.assignment, ambiguous: f.ambiguous, candidates: f.candidates, linkedPeak: f.linkedPeak,
     }
@@ -450,7 +463,14 @@ function finish(
     const sh = shared[hi]
     const sl = shared[li]
     const covariance = head.mode === 'sweep' && sh && sl && sh.column === sl.column ? sh.areaPerBaseline * sl.areaPerBaseline * sh.levelVariance / (heavy.centroid * light.centroid) : 0
-    ratios.push(ratioAndDelta(request.id, perLogMz(heavy), perLogMz(light), covariance))
+    const ratio = ratioAndDelta(request.id, perLogMz(heavy), perLogMz(light), covariance)
+    if (options.monteCarlo) {
+      // The shared baseline level moves both areas: its share s = (∂A/∂L)·u(L)/(m/z) is one
+      // common input, the rest of each area's u an independent one (cov = s_h·s_l, as above).
+      const common = (s: SharedBaseline | undefined, p: ResultPeak) => (covariance !== 0 && s ? s.areaPerBaseline * Math.sqrt(s.levelVariance) / p.centroid : 0)
+      ratio.coverage = ratioCoverage(perLogMz(heavy), perLogMz(light), common(sh, heavy), common(sl, light), ratio)
+    }
+    ratios.push(ratio)
   }
   // Fingerprints compare heights (normalised to the tallest peak): areas of a field sweep grow
   // with m/z at constant resolving power, heights do not.
@@ -470,4 +490,23 @@ function calibrationStatus(cal: CalibrationInForce, peaks: ResultPeak[]): Calibr
   const outside: number[] = []
   peaks.forEach((p, i) => { if (p.centroid < from || p.centroid > to) outside.push(i) })
   return { state: 'applied', geometryVersion: fit.geometryVersion ?? null, range: [from, to], outside, uncertaintyPropagated: !!fit.covariance }
+}
+
+/** M ≥ 10^4/(1 − p) for p = 0.95 (JCGM 101:2008 7.2.2, from memory): fixed, so a result's cost is known. */
+const RATIO_TRIALS = 200_000
+
+/**
+ * GUM-S1 (JCGM 101:2008) 95 % coverage interval of R = (h + s_h·z)/(l + s_l·z): h and l the
+ * areas' independent parts, z ~ N(0, 1) the shared baseline's deviation in units of its u.
+ */
+function ratioCoverage(heavy: { area: number, areaU: number }, light: { area: number, areaU: number }, sHeavy: number, sLight: number, r: RatioResult): RatioCoverage {
+  const own = (a: { areaU: number }, s: number) => Math.sqrt(Math.max(0, a.areaU ** 2 - s ** 2))
+  const mc = monteCarloCoverage(x => (x[0]! + sHeavy * x[2]!) / (x[1]! + sLight * x[2]!), [
+    { value: heavy.area, u: own(heavy, sHeavy) }, { value: light.area, u: own(light, sLight) }, { value: 0, u: 1 },
+  ], { trials: RATIO_TRIALS })
+  const delta = (ratio: number) => (ratio / r.referenceRatio - 1) * 1000
+  return {
+    method: 'GUM-S1 Monte Carlo (JCGM 101:2008)', p: mc.p, interval: mc.interval, deltaInterval: [delta(mc.interval[0]), delta(mc.interval[1])],
+    expandedU: mc.expandedU, k: mc.k, trials: mc.trials,
+  }
 }

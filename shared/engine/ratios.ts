@@ -44,6 +44,23 @@ export interface RatioResult {
   deltaUWithReference: number
   /** Static readings: the cycle statistics the ratio comes from. */
   cycles?: CycleStatistics
+  /** On request (`monteCarlo`), for a ratio of two profile peaks: its GUM-S1 95 % coverage interval. */
+  coverage?: RatioCoverage
+}
+
+/** A ratio's coverage interval by the Monte Carlo method of GUM Supplement 1 (JCGM 101:2008). */
+export interface RatioCoverage {
+  method: 'GUM-S1 Monte Carlo (JCGM 101:2008)'
+  /** Coverage probability. */
+  p: number
+  /** Probabilistically symmetric interval (JCGM 101 7.7.1) of the ratio, and of δ in ‰. */
+  interval: [number, number]
+  deltaInterval: [number, number]
+  /** Half the interval's width, and k = U / u with u the standard deviation of the trials. */
+  expandedU: number
+  k: number
+  /** Monte Carlo trials: M = 10^4/(1 − p) = 2·10^5, the least JCGM 101 7.2.2 asks for (from memory). */
+  trials: number
 }
 
 /**

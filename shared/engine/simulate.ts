@@ -1,4 +1,4 @@
-import { KG_PER_C_TO_U_PER_E, kgPerCToUPerE, PHYSICS_2X, type Physics } from './constants'
+import { kgPerCToUPerE, PHYSICS_2X, type Physics } from './constants'
 import { EngineError } from './errors'
 import { fieldForMz, type Geometry, type RawReadings } from './geometry'
 import { seededNormal, seededPoisson } from './random'
@@ -52,17 +52,21 @@ const currentUnits = { A: 1, nA: 1e-9, pA: 1e-12, fA: 1e-15 }
  */
 function axisFor(input: SimulationInput): { field: (mz: number) => number, mz: (field: number) => number } {
   const geo = input.geometry
+  const physics = input.physics ?? PHYSICS_2X
   if (geo.kind === 'wien-sector') {
     const r = measuredSI('length', geo.analyzerRadius, 'geometry.analyzerRadius').value
     const d = measuredSI('length', geo.plateGap, 'geometry.plateGap').value
-    // m/z = r B B_f d / V · K  =>  B = m/z · V / (r B_f d K)
-    const perT = r * input.filterFieldT! * d * KG_PER_C_TO_U_PER_E / input.plateVoltageV!
+    // v = V/(d B_f) and m/z = r B / (γ v) · K (geometry.ts, Jackson 1999 §12.1), so
+    // B = m/z · γ v / (r K); engine 1.x physics has γ = 1. A copy without γ put the demo's
+    // helium lines (v = 4e6 m/s) 89 ppm off their true m/z.
+    const v = input.plateVoltageV! / (d * input.filterFieldT!)
+    const invGamma = physics.relativistic ? Math.sqrt(1 - (v / physics.constants.speedOfLightMps) ** 2) : 1
+    const perT = r * invGamma / v * kgPerCToUPerE(physics.constants)
     return { field: mz => mz / perT, mz: b => b * perT }
   }
   const r = geo.kind === 'potential-sector'
     ? measuredSI('length', geo.analyzerRadius, 'geometry.analyzerRadius').value
     : measuredSI('length', geo.collectors[0]!.effectiveRadius, 'geometry.collectors').value
-  const physics = input.physics ?? PHYSICS_2X
   const u = input.acceleratingVoltageV!
   const rel = physics.relativistic ? (u / physics.constants.speedOfLightMps) ** 2 : 0
   // (rB)² = 2U·(m/q) + (U/c)², m/q in kg/C, times K for u/e.

@@ -74,6 +74,14 @@ export const acquisitionInput = z.object({
     isotopes: z.boolean().optional(),
     maxCharge: z.number().int().min(1).max(3).optional(),
     formulas: z.array(z.string().min(1).max(64)).max(100).optional(),
+    references: z.array(z.object({
+      id: z.string().trim().min(1).max(64),
+      name: z.string().trim().min(1).max(200),
+      sticks: z.array(z.object({ mz: z.number().positive().finite(), intensity: z.number().min(0).finite() }).strict()).min(1).max(1000),
+    }).strict()).max(50).optional()
+      .describe('reference stick spectra (m/z, relative intensity) to rank this spectrum against: cosine similarity of peak heights normalised to the tallest, in 0.5 m/z bins'),
+    monteCarlo: z.boolean().optional()
+      .describe('true: each ratio of two profile peaks also gets its 95 % coverage interval by GUM Supplement 1 Monte Carlo (JCGM 101:2008; 2·10^5 trials, tens of ms a ratio)'),
     engine: z.enum(['1.x', '2.x'], { error: 'must be 1.x or 2.x' }).optional()
       .describe('2.x (default): CODATA 2022 and relativistic momentum; 1.x: CODATA 2018, non-relativistic, as engine 1.0.0 computed'),
     ratios: z.array(z.object({

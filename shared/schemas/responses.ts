@@ -21,10 +21,10 @@ export const resultPeak = z.object({
   heightU: notEstimated('standard uncertainty of the height, including the baseline level\'s'),
   area: z.number().describe('area above the baseline (signal · m/z) over ±4 fitted σ, divided by the Gaussian share of that window'),
   areaU: z.number().describe('standard uncertainty of the area: each point\'s noise through trapezoid weights shared by neighbours, Poisson variance for counts, and the baseline level\'s uncertainty'),
-  fwhm: z.number().describe('full width at half maximum in m/z, from the fitted σ'),
+  fwhm: z.number().nullable().describe('full width at half maximum in m/z, from the fitted σ; null: not estimated (a static reading has no profile; results before engine 2.0.1 gave 0)'),
   fwhmU: notEstimated('standard uncertainty of the FWHM'),
   snr: z.number().describe('height over the noise σ (at the baseline; for counted data, at the apex)'),
-  resolvingPower: z.number().describe('m/Δm with Δm the FWHM'),
+  resolvingPower: z.number().nullable().describe('m/Δm with Δm the FWHM; null: not estimated (a static reading has no profile; results before engine 2.0.1 gave 0)'),
   resolvingPowerU: notEstimated('standard uncertainty of m/Δm (FWHM)'),
   resolvingPower10Valley: notEstimated('m/Δm in the 10 % valley definition: Δm the full width at 5 % of the height'),
   resolvingPower10ValleyU: notEstimated('standard uncertainty of the 10 % valley resolving power'),
@@ -60,6 +60,15 @@ export const ratioResult = z.object({
   referenceSource: z.string().describe('where the accepted ratio is published'),
   deltaUWithReference: z.number().describe('u(δ) with the accepted ratio\'s own uncertainty added'),
   cycles: cycleStatistics.optional().describe('static readings: the ratio is the mean of cycle ratios'),
+  coverage: z.object({
+    method: z.literal('GUM-S1 Monte Carlo (JCGM 101:2008)'),
+    p: z.number().describe('coverage probability'),
+    interval: z.tuple([z.number(), z.number()]).describe('probabilistically symmetric coverage interval of the ratio (JCGM 101 7.7.1)'),
+    deltaInterval: z.tuple([z.number(), z.number()]).describe('the same interval as δ in ‰'),
+    expandedU: z.number().describe('half the interval\'s width'),
+    k: z.number().describe('coverage factor: expandedU over the standard deviation of the trials'),
+    trials: z.number().int().describe('Monte Carlo trials (2·10^5, at least 10^4/(1 − p), JCGM 101 7.2.2)'),
+  }).strict().optional().describe('asked for with processing.monteCarlo, for a ratio of two profile peaks: its coverage interval by GUM Supplement 1'),
 }).strict()
 
 const baselineSummary = z.object({
@@ -122,6 +131,8 @@ export const engineResultView = z.object({
   peaks: z.array(resultPeak),
   ratios: z.array(ratioResult),
   qc: z.array(qcFlag),
+  matches: z.array(z.object({ id: z.string(), name: z.string(), similarity: z.number().describe('cosine similarity, 1 for the same pattern') }).strict())
+    .describe('the reference spectra sent in processing.references, best first: cosine similarity of peak heights normalised to the tallest (areas grow with m/z in a field sweep), 0.5 m/z bins'),
   versions: z.object({
     engine: z.string(), constants: z.string(), geometry: z.number().int(), calibration: z.number().int().nullable(),
     method: z.number().int().nullable().describe('the method version applied; null: a single acquisition is processed without a method (methods apply to sequences)'),

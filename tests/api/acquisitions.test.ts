@@ -30,7 +30,7 @@ describe('POST /api/v1/acquisitions', () => {
     expect(r.ratios[0]).toMatchObject({ deltaName: 'δ13C', standard: 'VPDB' })
     expect(r.ratios[0].deltaPermil).toBeCloseTo(-10, 0)
     expect(r.ratios[0].deltaU).toBeGreaterThan(0)
-    expect(r.versions).toEqual({ engine: '2.0.0', constants: 'CODATA 2022', geometry: 1, calibration: null, method: null })
+    expect(r.versions).toEqual({ engine: '2.0.1', constants: 'CODATA 2022', geometry: 1, calibration: null, method: null })
     expect(r.physics).toEqual({ relativistic: true, compatibility: '2.x' })
     expect(r.qc.map((q: any) => q.code)).toContain('uncalibrated')
     expect(await countRows(sql, lab.id)).toEqual({ a: 1, e: 1 })
@@ -38,6 +38,50 @@ describe('POST /api/v1/acquisitions', () => {
     expect(peakRows.n).toBe(r.peaks.length)
     const [event] = await sql`select sequence::int as sequence, type from events where lab_id = ${lab.id}`
     expect(event).toEqual({ sequence: 1, type: 'result.released' })
+  })
+
+  it('on request, a ratio carries its GUM Supplement 1 95 % coverage interval, as documented; without, none', async () => {
+    const { key } = await labWithInstrument()
+    const plain = co2Acquisition()
+    const res = await post(key.secret, { ...plain, processing: { ...plain.processing, monteCarlo: true } })
+    expect(res.status, JSON.stringify(res.body)).toBe(201)
+    acquisitionView.parse(res.body)
+    const r = res.body.result.ratios[0]
+    expect(r.coverage).toMatchObject({ method: 'GUM-S1 Monte Carlo (JCGM 101:2008)', p: 0.95, trials: 200_000 })
+    expect(r.coverage.interval[0]).toBeLessThan(r.ratio)
+    expect(r.coverage.interval[1]).toBeGreaterThan(r.ratio)
+    expect(r.coverage.deltaInterval[0]).toBeLessThan(r.deltaPermil)
+    expect(r.coverage.deltaInterval[1]).toBeGreaterThan(r.deltaPermil)
+    // Near-linear here (13CO2 at S/N in the thousands): k near the normal 1.96.
+    expect(r.coverage.k).toBeGreaterThan(1.9)
+    expect(r.coverage.k).toBeLessThan(2.02)
+    const without = await post(key.secret, co2Acquisition())
+    expect(without.body.result.ratios[0].coverage).toBeUndefined()
+  })
+
+  it('ranks the reference spectra an acquisition sends by the similarity of its normalised peak heights; a bad stick is named and nothing stored', async () => {
+    const { key, lab, sql } = await labWithInstrument()
+    const plain = co2Acquisition()
+    // CO2 with its 13C isotopologue at the VPDB ratio (heights), and a pattern with no line in common.
+    const references = [
+      { id: 'argon', name: 'Argon only', sticks: [{ mz: 39.96, intensity: 1 }] },
+      { id: 'co2', name: 'Carbon dioxide', sticks: [{ mz: 43.99, intensity: 1 }, { mz: 44.99, intensity: 0.011 }] },
+    ]
+    const res = await post(key.secret, { ...plain, processing: { ...plain.processing, references } })
+    expect(res.status, JSON.stringify(res.body)).toBe(201)
+    acquisitionView.parse(res.body)
+    const matches = res.body.result.matches
+    expect(matches.map((m: any) => m.id)).toEqual(['co2', 'argon'])
+    expect(matches[0].similarity).toBeGreaterThan(0.999)
+    expect(matches[1].similarity).toBe(0)
+    const without = await post(key.secret, co2Acquisition())
+    expect(without.body.result.matches).toEqual([])
+    const before = (await countRows(sql, lab.id)).a
+    const bad = await post(key.secret, { ...co2Acquisition(), processing: { references: [{ id: 'x', name: 'x', sticks: [{ mz: -1, intensity: 1 }] }] } })
+    expect(bad.status).toBe(422)
+    problemDocument.parse(bad.body)
+    expect(bad.body.errors[0].path).toBe('processing.references.0.sticks.0.mz')
+    expect((await countRows(sql, lab.id)).a).toBe(before)
   })
 
   it('takes on-peak-zero readings or baseline regions, and every peak number comes with its uncertainty', async () => {
@@ -104,6 +148,8 @@ describe('POST /api/v1/acquisitions', () => {
     const r = res.body.result
     expect(r.mode).toBe('static')
     expect(r.cycles).toMatchObject({ count: 40 })
+    // A static reading has no profile: its width and resolving power are not estimated (null, not 0).
+    expect(r.peaks.map((p: any) => [p.fwhm, p.fwhmU, p.resolvingPower, p.resolvingPower10Valley])).toEqual([[null, null, null, null], [null, null, null, null]])
     expect(r.detectors.map((d: any) => [d.collector, d.type, d.baseline.mode])).toEqual([['L', 'faraday', 'per-cycle'], ['H', 'faraday', 'per-cycle']])
     const ratio = r.ratios[0]
     expect(ratio.cycles).toMatchObject({ cycles: 40, used: 40, rejected: 0, dof: 39 })

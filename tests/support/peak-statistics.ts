@@ -226,3 +226,40 @@ export function sharedBaselineCoverage(e: EngineModule, seeds: number, zeroReadi
   }
   return { area: summarise(area.errors, area.us, truthArea, seeds), ratio: summarise(ratio.errors, ratio.us, 1, seeds) }
 }
+
+/**
+ * 40Ar/36Ar from static multi-collector readings (60 cycles of 4 s, 36Ar 1 pA on a 10^11 Ω
+ * amplifier, 40Ar on 10^10 Ω, a 2 % beam fluctuation common to both cups, ±3 fA amplifier
+ * offsets measured by an on-peak zero each cycle), simulated by the current engine's forward
+ * model (shared/engine/simulateStatic.ts) whatever engine reads them. Truth 298.56 (Lee et al.
+ * 2006, any truth would do).
+ */
+export function staticRatioCoverage(e: Pick<EngineModule, 'processReadings' | 'geometry' | 'isotope'>, simulate: typeof Engine.simulateStatic, fieldFor: typeof Engine.fieldForMz, seeds: number): Coverage {
+  const truth = 298.56
+  const mzL = e.isotope('36Ar').mass - 5.48579909065e-4
+  const mzH = e.isotope('40Ar').mass - 5.48579909065e-4
+  const rL = 0.3
+  const geo = e.geometry.parse({ kind: 'multi-collector', collectors: [
+    { id: 'L', effectiveRadius: { value: rL, unit: 'm', u: 0 } },
+    { id: 'H', effectiveRadius: { value: rL * Math.sqrt(mzH / mzL), unit: 'm', u: 0 } },
+  ] })
+  const U = 5000
+  const settings = { field: { value: fieldFor(mzL, rL, U), unit: 'T' }, acceleratingVoltage: { value: U, unit: 'V' } }
+  const errors: number[] = []
+  const us: number[] = []
+  for (let seed = 1; seed <= seeds; seed++) {
+    const data = simulate({
+      seed, cycles: 60, integrationS: 4, lightSignal: 1e-12, commonFluctuation: 0.02, baseline: { mode: 'per-cycle' },
+      cups: [
+        { id: 'L', relative: 1, detector: { type: 'faraday', resistorOhm: 1e11, offsetA: 3e-15 } },
+        { id: 'H', relative: truth, detector: { type: 'faraday', resistorOhm: 1e10, offsetA: -3e-15 } },
+      ],
+    })
+    const result = e.processReadings(geo, { settings, detectors: data.detectors }, { formulas: ['[36Ar]', '[40Ar]'], ratios: [{ id: 'AIR:40Ar/36Ar', heavy: '[40Ar]', light: '[36Ar]' }] })
+    const r = result.ratios[0]
+    if (!r) continue
+    errors.push(r.ratio - truth)
+    us.push(r.ratioU)
+  }
+  return summarise(errors, us, truth, seeds)
+}

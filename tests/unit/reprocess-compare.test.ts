@@ -48,7 +48,7 @@ describe('figuresChanged', () => {
 
   it('ignores what partners do not read as figures (FWHM, resolving power, matches) and the order of flags', () => {
     const after = copy(base)
-    after.peaks[0]!.fwhm *= 1.1
+    after.peaks[0]!.fwhm = after.peaks[0]!.fwhm! * 1.1
     after.matches = [{ id: 'x', name: 'y', similarity: 0.5 }]
     after.qc.reverse()
     expect(figuresChanged(base, after)).toBe(false)

@@ -61,6 +61,14 @@ const faradayCups = (offsetA: number, readAs: 'A' | 'V' = 'A', gains: [number, n
 ]
 const base = { cycles: 60, integrationS: 4, lightSignal: 1e-12, commonFluctuation: 0.02 }
 
+describe('a static reading has no profile', () => {
+  it('width and resolving power are not estimated: null, as their u (not 0)', () => {
+    const data = simulateStatic({ ...base, seed: 1, baseline: { mode: 'per-cycle' }, cups: faradayCups(3e-15) })
+    const peaks = processReadings(geo(undefined, undefined), { settings, detectors: data.detectors }, options).peaks
+    expect(peaks.map(p => [p.fwhm, p.fwhmU, p.resolvingPower, p.resolvingPowerU, p.resolvingPower10Valley])).toEqual([[null, null, null, null, null], [null, null, null, null, null]])
+  })
+})
+
 describe('static multi-collector ratios, cycle by cycle (300 seeds each)', () => {
   it('a 2 % beam fluctuation common to the cups cancels: unbiased, ~95 % within 2u, u near the cycle standard error', () => {
     const g = geo(undefined, undefined)

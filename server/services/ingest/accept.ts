@@ -76,6 +76,8 @@ export function computeResult(input: AcquisitionInput, geo: NonNullable<Instrume
       calibration: calibration ? { ...calibration.fit as unknown as AppliedCalibration, geometryVersion: calibration.geometryVersion } : null,
       geometryVersion: geo.version,
       compatibility: input.processing?.engine,
+      monteCarlo: input.processing?.monteCarlo,
+      references: input.processing?.references,
     }
     const started = performance.now()
     engine = input.mzSpectrum

@@ -60,6 +60,7 @@ export function resultView(acq: AcquisitionHead, res: ResultRow, instrumentSlug:
       peaks: summary.peaks,
       ratios: summary.ratios,
       qc: summary.qc,
+      matches: summary.matches ?? [],
       versions: { engine: res.engineVersion, constants: summary.constants, geometry: summary.geometryVersion, calibration: summary.calibrationVersion, method: null },
       review: reviewOf(res, reviewer, supersedes),
       caution: CAUTION_SHORT,
