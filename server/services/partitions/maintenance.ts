@@ -194,15 +194,23 @@ export async function applyPartitionRetention(sql: postgres.Sql, settings: Reten
   const months = (await partitionsOf(sql, child.table)).map(p => p.month).filter((m): m is string => m !== null && m !== 'default' && m < attemptsFrom)
   for (const month of months) {
     const dropDeliveries = deliveriesFrom !== null && month < deliveriesFrom
+    const parentPart = partitionName(family.parent.table, month)
+    const childPart = partitionName(child.table, month)
+    const parentThere = (await partitionsOf(sql, family.parent.table)).some(p => p.name === parentPart)
+    // Looked at before any lock is taken, so that a month kept for its pending deliveries, or
+    // an emptied month of attempts, costs the tables no lock on every run.
+    if (parentThere) {
+      const [{ pending }] = await sql.unsafe<[{ pending: number }]>(`select count(*)::int as pending from ${parentPart} where status = 'pending'`)
+      if (pending > 0) { outcome.keptPending.push({ month, pending }); continue }
+    }
+    if (!dropDeliveries && parentThere && !(await sql.unsafe(`select 1 from ${childPart} limit 1`)).length) continue
     try {
       await sql.begin(async (tx) => {
         await tx`select pg_advisory_xact_lock(hashtext(${PARTITION_LOCK}))`
         await tx.unsafe(`set local lock_timeout = '${LOCK_TIMEOUT}'`)
-        const parentPart = partitionName(family.parent.table, month)
-        const childPart = partitionName(child.table, month)
-        const parentThere = (await partitionsOf(tx, family.parent.table)).some(p => p.name === parentPart)
-        // Locked before the check: no replay can make a delivery of the month pending meanwhile.
+        // Locked, then checked again: no replay can make a delivery of the month pending meanwhile.
         await lockFamily(tx, family)
+        if (!(await partitionsOf(tx, child.table)).some(p => p.name === childPart)) return
         if (parentThere) {
           const [{ pending }] = await tx.unsafe<[{ pending: number }]>(`select count(*)::int as pending from ${parentPart} where status = 'pending'`)
           if (pending > 0) { outcome.keptPending.push({ month, pending }); return }
