@@ -71,9 +71,17 @@ describe('the migration to monthly partitions', () => {
     journal.entries = journal.entries.slice(0, last)
     writeFileSync(join(before, 'meta', '_journal.json'), JSON.stringify(journal))
     // A session time zone far from UTC: months are UTC months whatever the session says.
-    const sql = postgres(url.toString(), { max: 1, onnotice: () => {}, connection: { TimeZone: 'Pacific/Auckland' } })
+    const session = { max: 1, onnotice: () => {}, connection: { TimeZone: 'Pacific/Auckland' } }
+    // The migrator on a client of its own, as npm run db:migrate does (Drizzle changes the
+    // client's JSON and date handling).
+    const migrateWith = async (migrationsFolder: string) => {
+      const client = postgres(url.toString(), session)
+      try { await migrate(drizzle(client), { migrationsFolder }) }
+      finally { await client.end() }
+    }
+    const sql = postgres(url.toString(), session)
     try {
-      await migrate(drizzle(sql), { migrationsFolder: before })
+      await migrateWith(before)
       const [lab] = await sql`insert into labs (slug, name, site, contact_email) values ('old-lab', 'Old Lab', 'Site', 'lab@example.org') returning id`
       const [partner] = await sql`insert into partners (slug, name, kind, contact_email) values ('old-partner', 'Old Partner', 'data_team', 'p@example.org') returning id`
       const [endpoint] = await sql`insert into webhook_endpoints (partner_id, url, event_types, sealed_secret) values (${partner!.id}, 'https://example.org/hook', ${['result.released']}, 'sealed') returning id`
@@ -90,7 +98,7 @@ describe('the migration to monthly partitions', () => {
       expect(oldDeliveries.length).toBe(4)
       expect(oldAttempts.length).toBe(6)
 
-      await migrate(drizzle(sql), { migrationsFolder: join(rootDir, 'drizzle') })
+      await migrateWith(join(rootDir, 'drizzle'))
 
       // Every row is there with its id; nothing else changed.
       expect(plain(await sql`select id, created_at, status, attempts from deliveries order by id`)).toEqual(oldDeliveries)
