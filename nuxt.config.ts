@@ -52,6 +52,11 @@ export default defineNuxtConfig({
     // local s3rver and set these. retentionMinutes: how often worker processes apply the
     // labs' raw-data retention.
     store: { endpoint: '', region: 'us-east-1', bucket: '', accessKeyId: '', secretAccessKey: '', forcePathStyle: false, retentionMinutes: 60 },
+    // Monthly partitions of deliveries and delivery attempts (server/services/partitions):
+    // worker processes make monthsAhead months after this one and apply retention every
+    // checkMinutes. keepAttemptMonths / keepDeliveryMonths: months kept, this one included
+    // (0 keeps all); a month holding a pending delivery is always kept.
+    partitions: { monthsAhead: 2, checkMinutes: 60, keepAttemptMonths: 0, keepDeliveryMonths: 0 },
     // The benchmark's baseline route (server/routes/_bench), off unless NUXT_BENCH_ROUTES=true.
     benchRoutes: false,
     // /_bench/diagnostics (event-loop delay, peak RSS) for npm run chaos, off unless NUXT_DIAGNOSTICS=true.

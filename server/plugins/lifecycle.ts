@@ -19,12 +19,18 @@ export default defineNitroPlugin((nitro) => {
   const retentionMs = Number(useRuntimeConfig().store.retentionMinutes) * 60_000
   const retention = background && retentionMs > 0 ? setInterval(kickRetention, retentionMs) : undefined
   retention?.unref()
+  // Monthly partitions (server/services/partitions): at start, then every checkMinutes.
+  const partitionsMs = Number(useRuntimeConfig().partitions.checkMinutes) * 60_000
+  if (background && partitionsMs > 0) kickPartitions()
+  const partitions = background && partitionsMs > 0 ? setInterval(kickPartitions, partitionsMs) : undefined
+  partitions?.unref()
   if (background) startDeliveryWorker()
   // Reprocessing jobs (server/services/reprocessing); NUXT_REPROCESS_WORKER=false leaves them to other processes.
   if (background && reprocessWorkerOn()) startReprocessWorker()
   nitro.hooks.hook('close', async () => {
     clearInterval(timer)
     clearInterval(retention)
+    clearInterval(partitions)
     // Leases this process holds are handed back, so another worker need not wait them out.
     if (background) await stopDeliveryWorker().catch(error => logError('[delivery] stop failed', error))
     if (background && reprocessWorkerOn()) await stopReprocessWorker().catch(error => logError('[reprocess] stop failed', error))

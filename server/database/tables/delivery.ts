@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm'
-import { bigserial, boolean, doublePrecision, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
+import { bigserial, boolean, doublePrecision, foreignKey, index, integer, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
 import { createdAt, updatedAt } from './columns'
 import { users } from './access'
 import { partners } from './orgs'
@@ -51,10 +51,15 @@ export const deliveryStatusEnum = pgEnum('delivery_status', ['pending', 'succeed
 /**
  * The durable delivery queue: one row per event and endpoint, written in the transaction
  * that records the event. Workers claim due rows with SKIP LOCKED and a lease.
+ *
+ * Partitioned by month of `created_at` (drizzle/0019_monthly-partitions.sql; the partitions
+ * are made and dropped by server/services/partitions): a primary key of a partitioned table
+ * must hold the partition key, so it is (id, created_at); `id` alone stays what partners see
+ * (the webhook-id) and is found through each month's primary key index.
  */
 
 export const deliveries = pgTable('deliveries', {
-  id: uuid('id').primaryKey().defaultRandom(),
+  id: uuid('id').notNull().defaultRandom(),
   endpointId: uuid('endpoint_id').notNull().references(() => webhookEndpoints.id, { onDelete: 'cascade' }),
   // Null for a test message, whose payload is kept here instead.
   eventId: uuid('event_id').references(() => events.id),
@@ -80,14 +85,24 @@ export const deliveries = pgTable('deliveries', {
   // An ordered endpoint's next delivery: its oldest waiting one.
   index('deliveries_endpoint_order_idx').on(t.endpointId, t.createdAt).where(sql`status = 'pending'`),
   index('deliveries_endpoint_idx').on(t.endpointId, t.createdAt),
-  uniqueIndex('deliveries_event_endpoint_idx').on(t.eventId, t.endpointId),
+  // One delivery per event and endpoint. A unique index of a partitioned table must hold the
+  // partition key; an event's deliveries are all written by the one statement that records it
+  // (delivery/endpoints.ts), in one transaction, so they share its created_at.
+  uniqueIndex('deliveries_event_endpoint_idx').on(t.eventId, t.endpointId, t.createdAt),
+  primaryKey({ name: 'deliveries_id_created_at_pk', columns: [t.id, t.createdAt] }),
 ])
 
-/** Every attempt of a delivery, as the log and the console show it. */
+/**
+ * Every attempt of a delivery, as the log and the console show it. Partitioned by its
+ * delivery's month (`delivery_created_at`, part of the foreign key), not by `at`: a delivery's
+ * attempts, a replay's months later too, sit in the same month as the delivery, so a month of
+ * attempts is dropped with or before its deliveries and never leaves a delivery half-recorded.
+ */
 
 export const deliveryAttempts = pgTable('delivery_attempts', {
-  id: bigserial('id', { mode: 'number' }).primaryKey(),
-  deliveryId: uuid('delivery_id').notNull().references(() => deliveries.id, { onDelete: 'cascade' }),
+  id: bigserial('id', { mode: 'number' }).notNull(),
+  deliveryId: uuid('delivery_id').notNull(),
+  deliveryCreatedAt: timestamp('delivery_created_at', { withTimezone: true }).notNull(),
   number: integer('number').notNull(),
   at: timestamp('at', { withTimezone: true }).notNull().defaultNow(),
   durationMs: integer('duration_ms').notNull(),
@@ -100,4 +115,8 @@ export const deliveryAttempts = pgTable('delivery_attempts', {
   // shown rather than stored again with every attempt (a thin or test message is stored).
   requestBody: text('request_body'),
   replay: boolean('replay').notNull().default(false),
-}, t => [index('delivery_attempts_delivery_idx').on(t.deliveryId, t.number)])
+}, t => [
+  index('delivery_attempts_delivery_idx').on(t.deliveryId, t.number),
+  primaryKey({ name: 'delivery_attempts_id_delivery_created_at_pk', columns: [t.id, t.deliveryCreatedAt] }),
+  foreignKey({ name: 'delivery_attempts_delivery_fk', columns: [t.deliveryId, t.deliveryCreatedAt], foreignColumns: [deliveries.id, deliveries.createdAt] }).onDelete('cascade'),
+])

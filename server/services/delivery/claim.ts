@@ -12,6 +12,8 @@ import { deliverySettings, workerId } from './settings'
 
 export type Claimed = BodySource & {
   id: string
+  /** The partition key, as text (microseconds kept): the record finds the row in its month by it. */
+  created_at: string
   endpoint_id: string
   attempts: number
   replay_requested: boolean
@@ -54,33 +56,38 @@ export async function claimDueDeliveries(limit: number, leaseSeconds: number): P
           * (extract(epoch from now() - greatest(coalesce(r.rate_next_at, now()), now())) + greatest(1, 1 / r.rate_per_second)))::int end) as n
         from room r where r.free > 0),
       candidates as (
-        select c.id, c.turn from allowed a cross join lateral (
+        select c.id, c.created_at, c.turn from allowed a cross join lateral (
           -- An endpoint's earliest due deliveries, numbered: the claim takes every endpoint's
           -- first, then every endpoint's second, and so on.
-          select x.id, row_number() over (order by x.next_attempt_at) as turn from (
-            select d.id, d.next_attempt_at from ${deliveries} d
+          select x.id, x.created_at, row_number() over (order by x.next_attempt_at) as turn from (
+            select d.id, d.created_at, d.next_attempt_at from ${deliveries} d
             where not a.ordered and d.endpoint_id = a.id and d.status = 'pending' and d.next_attempt_at <= now() and (d.lease_until is null or d.lease_until < now())
             order by d.next_attempt_at limit greatest(a.n, 0)) x
           union all
           -- An ordered endpoint: its oldest waiting delivery (events in the order recorded, a
           -- lab's by its sequence), and only once due; nothing after it goes first.
-          select h.id, 1 from (
-            select d.id, d.next_attempt_at, d.lease_until from ${deliveries} d left join ${events} ev on ev.id = d.event_id
+          select h.id, h.created_at, 1 from (
+            select d.id, d.created_at, d.next_attempt_at, d.lease_until from ${deliveries} d left join ${events} ev on ev.id = d.event_id
             where a.ordered and d.endpoint_id = a.id and d.status = 'pending' and d.event_id is not null
             order by d.created_at, ev.sequence, d.id limit 1) h
           where h.next_attempt_at <= now() and (h.lease_until is null or h.lease_until < now())) c
         where a.n > 0
         order by c.turn limit ${limit}),
       -- Locked after they are chosen (and checked again once locked), so the rows of other
-      -- endpoints that the choice passed over are not locked.
+      -- endpoints that the choice passed over are not locked. The months between the oldest
+      -- and newest chosen row bound the search: deliveries are partitioned by month of
+      -- created_at, and PostgreSQL skips the other months' partitions at run time (it does not
+      -- for "= any" of an array a subquery makes), rather than probing each month's index.
       due as (
-        select d.id from ${deliveries} d
-        where d.id = any(array(select id from candidates)) and d.status = 'pending' and (d.lease_until is null or d.lease_until < now())
+        select d.id, d.created_at from ${deliveries} d
+        where d.id = any(array(select id from candidates))
+          and d.created_at between (select min(created_at) from candidates) and (select max(created_at) from candidates)
+          and d.status = 'pending' and (d.lease_until is null or d.lease_until < now())
         for no key update of d skip locked),
       claimed as (
         update ${deliveries} d set lease_owner = ${workerId}, lease_until = now() + make_interval(secs => ${leaseSeconds})
-        where d.id = any(array(select id from due))
-        returning d.id, d.endpoint_id, d.event_id, d.event_type, d.test_payload, d.attempts, d.replay_requested),
+        where d.id = any(array(select id from due)) and d.created_at between (select min(created_at) from due) and (select max(created_at) from due)
+        returning d.id, d.created_at::text as created_at, d.endpoint_id, d.event_id, d.event_type, d.test_payload, d.attempts, d.replay_requested),
       -- A rate-limited endpoint's theoretical arrival time moves on by the sends claimed (its
       -- row locked in id order, as records lock endpoints, so the two cannot deadlock; FOR NO
       -- KEY UPDATE, which the deliveries' foreign key checks in ingest's fan-out do not wait for).

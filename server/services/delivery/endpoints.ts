@@ -176,14 +176,16 @@ export async function sendTestEvent(audit: AuditContext, partnerId: string, endp
   await consumePartnerAction('test-send', partnerId)
   const partner = await useDb().query.partners.findFirst({ where: eq(partners.id, partnerId), columns: { slug: true } })
   const testPayload = { message: 'A test message from Arcwise: your endpoint received and can verify it.', partner: partner?.slug, endpointId, sentBy: audit.actor.label }
-  const delivery = firstRow(await useDb().insert(deliveries).values({ endpointId, eventType: TEST_EVENT, testPayload, status: 'pending', nextAttemptAt: sql`'infinity'::timestamptz` }).returning({ id: deliveries.id }))
+  const delivery = firstRow(await useDb().insert(deliveries).values({ endpointId, eventType: TEST_EVENT, testPayload, status: 'pending', nextAttemptAt: sql`'infinity'::timestamptz` })
+    // As text: a Date would lose the microseconds of the partition key the attempt must repeat.
+    .returning({ id: deliveries.id, createdAt: sql<string>`${deliveries.createdAt}::text` }))
   const { body } = deliveryMessage({ event_type: TEST_EVENT, test_payload: testPayload, payload_text: null, sequence: null, lab: null, event_at: null, event_id: null }, Infinity, '')
   const headers = signedHeaders(delivery.id, body, secretsOf({ sealed_secret: ep.sealedSecret, previous_sealed_secret: ep.previousSealedSecret, previous_secret_until: ep.previousSecretUntil?.toISOString() ?? null }))
   const outcome = await sendOnce(ep.url, headers, body)
   const ok = outcome.class === 'success'
   await useDb().transaction(async (tx) => {
-    await tx.update(deliveries).set({ attempts: 1, status: ok ? 'succeeded' : 'dead', lastClass: outcome.class, lastStatusCode: outcome.statusCode, finishedAt: new Date() }).where(eq(deliveries.id, delivery.id))
-    await tx.insert(deliveryAttempts).values({ deliveryId: delivery.id, number: 1, durationMs: outcome.durationMs, class: outcome.class, statusCode: outcome.statusCode, error: outcome.error, responseExcerpt: outcome.excerpt, requestHeaders: headers, requestBody: body })
+    await tx.update(deliveries).set({ attempts: 1, status: ok ? 'succeeded' : 'dead', lastClass: outcome.class, lastStatusCode: outcome.statusCode, finishedAt: new Date() }).where(and(eq(deliveries.id, delivery.id), eq(deliveries.createdAt, sql`${delivery.createdAt}::timestamptz`)))
+    await tx.insert(deliveryAttempts).values({ deliveryId: delivery.id, deliveryCreatedAt: sql`${delivery.createdAt}::timestamptz`, number: 1, durationMs: outcome.durationMs, class: outcome.class, statusCode: outcome.statusCode, error: outcome.error, responseExcerpt: outcome.excerpt, requestHeaders: headers, requestBody: body })
   })
   return { deliveryId: delivery.id, ok, class: outcome.class, statusCode: outcome.statusCode, durationMs: outcome.durationMs, error: outcome.error, responseExcerpt: outcome.excerpt }
 }

@@ -80,7 +80,7 @@ export async function getDelivery(partnerId: string, deliveryId: string) {
   const last = attempts.at(-1)
   // Why it stopped (or what it waits for), in one sentence from what is recorded.
   const why = stopReason({ ...d, last: last ? { class: last.class, statusCode: last.statusCode, error: last.error } : null, endpoint: row.endpoint }, deliverySettings())
-  return { ...d, url: row.url, endpointStatus: row.endpoint.status, why, attempts: attempts.map(({ deliveryId: _d, ...a }) => ({ ...a, requestBody: a.requestBody ?? eventBody ?? '' })) }
+  return { ...d, url: row.url, endpointStatus: row.endpoint.status, why, attempts: attempts.map(({ deliveryId: _d, deliveryCreatedAt: _c, ...a }) => ({ ...a, requestBody: a.requestBody ?? eventBody ?? '' })) }
 }
 
 // A replay is a new attempt of the same message (same webhook-id), due now.

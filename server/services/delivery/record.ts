@@ -35,6 +35,7 @@ export async function recordAttempts(sent: Sent[]) {
   })
   for (const { outcome } of sent) observeDeliveryAttempt(outcome.class, outcome.durationMs / 1000)
   const health = endpointHealth(sent)
+  const createdAts = sql`${`{${sent.map(({ row }) => `"${row.created_at}"`).join(',')}}`}::timestamptz[]`
   // Each row's outcome is looked up by its id in one JSON object, and the deliveries are found
   // by their ids: a join with the outcomes let the planner scan the whole table, once per
   // outcome, when its statistics said no row was leased (bench:delivery; DEVELOPERS.md, Measured).
@@ -47,10 +48,13 @@ export async function recordAttempts(sent: Sent[]) {
           from o, jsonb_to_record(o.by_id -> d.id::text) as r(attempts int, status delivery_status, delay float8, cls text, code int)),
         replay_requested = false, lease_owner = null, lease_until = null
       where d.id = any(${uuidArray(rows.map(r => r.id))}) and d.lease_owner = ${workerId}
-      returning d.id, d.attempts),
+        -- Only the months the rows were created in are searched (partitions by created_at; see claim.ts).
+        and d.created_at between (select min(t) from unnest(${createdAts}) t) and (select max(t) from unnest(${createdAts}) t)
+      returning d.id, d.attempts, d.created_at),
     logged as (
-      insert into ${deliveryAttempts} (delivery_id, number, duration_ms, class, status_code, error, response_excerpt, request_headers, request_body, replay)
-      select upd.id, upd.attempts, r.duration, r.cls, r.code, r.error, r.excerpt, r.headers, r.body, r.replay
+      -- An attempt sits in its delivery's month (delivery_created_at, the partition key).
+      insert into ${deliveryAttempts} (delivery_id, delivery_created_at, number, duration_ms, class, status_code, error, response_excerpt, request_headers, request_body, replay)
+      select upd.id, upd.created_at, upd.attempts, r.duration, r.cls, r.code, r.error, r.excerpt, r.headers, r.body, r.replay
       from upd, o, jsonb_to_record(o.by_id -> upd.id::text) as r(cls text, code int, error text, excerpt text, headers jsonb, body text, duration int, replay boolean)),
     h as (select * from jsonb_to_recordset(${JSON.stringify(health)}::jsonb) as h(id uuid, ok boolean, failures int, wait float8)),
     -- The endpoints this changes, locked in id order: records and claims in other processes
