@@ -52,13 +52,20 @@ async function timed<T>(op: string, call: () => Promise<T>): Promise<T> {
   }
 }
 
-/** Claims keys before writing them (see above); committed on its own. */
-export async function claimObjects(objects: { key: string, bytes: number }[]) {
-  if (!objects.length) return
-  await useDb().execute(sql`
+/**
+ * Claims keys before writing them (see above); committed on its own. Returns the keys this
+ * statement inserted (rather than found claimed already): `xmax = 0` marks a row version that
+ * the INSERT wrote, not the ON CONFLICT update (PostgreSQL's system column; common practice,
+ * no source beyond the manual's 5.6 System Columns).
+ */
+export async function claimObjects(objects: { key: string, bytes: number }[]): Promise<Set<string>> {
+  if (!objects.length) return new Set()
+  const rows = await useDb().execute<{ key: string, inserted: boolean }>(sql`
     insert into ${storeObjects} (key, bytes, claimed_at)
     select key, bytes, now() from jsonb_to_recordset(${JSON.stringify(objects)}::jsonb) as t(key text, bytes bigint)
-    on conflict (key) do update set claimed_at = now()`)
+    on conflict (key) do update set claimed_at = now()
+    returning key, (xmax = 0) as inserted`)
+  return new Set(rows.filter(r => r.inserted).map(r => r.key))
 }
 
 /** The object's size, or null when there is none. */
@@ -77,11 +84,21 @@ export async function headObject(kind: ObjectKind, sha256: string): Promise<numb
 /**
  * Stores `data` under its hash unless an object of that hash is there already (deduplication),
  * streamed through lib-storage's Upload (one PUT up to 5 MB, multipart beyond). The caller
- * has claimed the key (claimObjects). Fails with 503 when the store does not answer.
+ * has claimed the key (claimObjects). `claimedFresh`: the caller's claim inserted the key's
+ * row, so no object of that key can be there (below) and the HEAD is skipped. Fails with 503
+ * when the store does not answer.
+ *
+ * Why a fresh claim needs no HEAD: an object is written only after its key's claim commits,
+ * and retention deletes the object before the claim row (in one transaction, under the row's
+ * lock). So a key without a row has no object, except after a crash between those steps or
+ * the loss of a claim in a crash of PostgreSQL; then the PUT writes the same bytes under the
+ * same content address again, which no reader can tell apart.
  */
-export async function putObject(kind: ObjectKind, data: Buffer, contentType: string, sha256 = sha256Of(data)): Promise<StoredObject & { written: boolean }> {
-  const existing = await headObject(kind, sha256)
-  if (existing === data.length) return { sha256, bytes: data.length, written: false }
+export async function putObject(kind: ObjectKind, data: Buffer, contentType: string, sha256 = sha256Of(data), claimedFresh = false): Promise<StoredObject & { written: boolean }> {
+  if (!claimedFresh) {
+    const existing = await headObject(kind, sha256)
+    if (existing === data.length) return { sha256, bytes: data.length, written: false }
+  }
   const { s3, bucket } = storeClient()
   try {
     const chunk = 1024 * 1024
