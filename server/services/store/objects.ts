@@ -27,10 +27,20 @@ export function sha256Of(data: Buffer): string {
   return createHash('sha256').update(data).digest('hex')
 }
 
-/** The store did not answer or refused: 503 naming it, and nothing is kept. */
-export function storeUnavailable(error: unknown) {
+/**
+ * The store did not answer or refused: 503 naming it. Writing, nothing is kept; reading, the
+ * raw data is unavailable for now (the rows and results in PostgreSQL are not).
+ */
+export function storeUnavailable(error: unknown, doing: 'write' | 'read' = 'write') {
   const why = error instanceof Error ? (error.name && error.name !== 'Error' ? `${error.name}: ` : '') + error.message.split('\n')[0] : 'no answer'
-  return problem(503, 'store-unavailable', `The object store is not available (${why.slice(0, 200)}). Nothing was stored; send it again later.`, { headers: { 'retry-after': '5' } })
+  const then = doing === 'write' ? 'Nothing was stored; send it again later.' : 'The raw data is temporarily unavailable; try again later.'
+  return problem(503, 'store-unavailable', `The object store is not available (${why.slice(0, 200)}). ${then}`, { headers: { 'retry-after': '5' } })
+}
+
+/** The error is storeUnavailable's 503 (the store, not the request, is at fault). */
+export function isStoreUnavailable(error: unknown): boolean {
+  const data = (error as { data?: { problem?: { type?: string } } }).data
+  return data?.problem?.type === problemType('store-unavailable')
 }
 
 const notFound = (error: unknown) => {
@@ -122,7 +132,7 @@ export async function getObjectStream(kind: ObjectKind, sha256: string, range?: 
   }
   catch (error) {
     if (notFound(error)) throw problem(410, 'raw-data-missing', `The stored ${kind === 'raw' ? 'body' : 'arrays'} of this acquisition are not in the object store.`)
-    throw storeUnavailable(error)
+    throw storeUnavailable(error, 'read')
   }
 }
 
@@ -131,7 +141,7 @@ export async function getObjectBytes(kind: ObjectKind, sha256: string, range?: s
   const stream = await getObjectStream(kind, sha256, range)
   const chunks: Buffer[] = []
   try { for await (const c of stream) chunks.push(c as Buffer) }
-  catch (error) { throw storeUnavailable(error) }
+  catch (error) { throw storeUnavailable(error, 'read') }
   return Buffer.concat(chunks)
 }
 
