@@ -14,7 +14,7 @@ import { join } from 'node:path'
 import autocannon from 'autocannon'
 import postgres from 'postgres'
 import { buildIfStale } from './lib/build'
-import { cpuSeconds, type CpuSeconds } from './lib/cpu'
+import { cpuByProcess, cpuSpent, type CpuSeconds } from './lib/cpu'
 import { demoInstruments, thousandPointAcquisition } from './lib/demo-instruments'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
@@ -54,10 +54,10 @@ export async function benchIngest(opts: { seconds?: number } = {}) {
     const slices = { baseline: [] as autocannon.Result[], ingest: [] as autocannon.Result[] }
     const cpu = { baseline: zeroCpu(), ingest: zeroCpu() }
     const timed = async (route: 'baseline' | 'ingest', path: string, auth: boolean) => {
-      const before = cpuSeconds(server.pid!, stack.store.pid)
+      const before = cpuByProcess(server.pid!, stack.store.pid)
       slices[route].push(await run(path, auth, seconds / 3))
-      const after = cpuSeconds(server.pid!, stack.store.pid)
-      for (const k of Object.keys(before) as (keyof CpuSeconds)[]) cpu[route][k] += after[k] - before[k]
+      const spent = cpuSpent(before, cpuByProcess(server.pid!, stack.store.pid))
+      for (const k of Object.keys(spent) as (keyof CpuSeconds)[]) cpu[route][k] += spent[k]
     }
     for (let turn = 0; turn < 3; turn++) {
       await timed('baseline', '/_bench/baseline', false)
