@@ -176,12 +176,21 @@ describe('raw data in the object store', () => {
     const shared = await post(expiring.key.secret, sharedBody)
     const kept = await post(keeping.key.secret, sharedBody)
     const recent = await post(expiring.key.secret, JSON.stringify(co2Acquisition()))
-    for (const r of [own, shared, kept, recent]) expect(r.status).toBe(201)
+    const inFlight = await post(expiring.key.secret, JSON.stringify(co2Acquisition()))
+    for (const r of [own, shared, kept, recent, inFlight]) expect(r.status).toBe(201)
     const ownRow = await rowOf(sql, own.body.id)
     const sharedRow = await rowOf(sql, shared.body.id)
+    const inFlightRow = await rowOf(sql, inFlight.body.id)
     // Received 31 days ago, past the lab's 30.
-    await sql`update acquisitions set created_at = now() - interval '31 days' where id in (${own.body.id}, ${shared.body.id})`
+    await sql`update acquisitions set created_at = now() - interval '31 days' where id in (${own.body.id}, ${shared.body.id}, ${inFlight.body.id})`
+    // An upload being processed (its lease an hour ahead, so no worker takes it) still needs these objects.
+    const [upload] = await sql`insert into uploads (lab_id, api_key_id, status, lease_until, raw_sha256, arrays_sha256)
+      values (${expiring.lab.id}, ${expiring.key.id}, 'processing', now() + interval '1 hour', ${inFlightRow.raw_sha256}, ${inFlightRow.arrays_sha256}) returning id`
     storeCommand('store-retention', ['--grace-seconds', '0'])
+    await sql`update uploads set status = 'failed', lease_until = null where id = ${upload!.id}`
+    expect((await rowOf(sql, inFlight.body.id)).raw_removed_at).not.toBeNull()
+    expect(await store.head(`raw/${inFlightRow.raw_sha256}`)).not.toBeNull()
+    expect(await store.head(`arrays/${inFlightRow.arrays_sha256}`)).not.toBeNull()
     expect((await rowOf(sql, own.body.id)).raw_removed_at).not.toBeNull()
     expect((await rowOf(sql, shared.body.id)).raw_removed_at).not.toBeNull()
     expect((await rowOf(sql, recent.body.id)).raw_removed_at).toBeNull()
