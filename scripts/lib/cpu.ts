@@ -8,10 +8,20 @@ import { readdirSync, readFileSync } from 'node:fs'
 
 const clockTicks = Number(execFileSync('getconf', ['CLK_TCK'], { encoding: 'utf8' }).trim()) || 100
 
-export type CpuSeconds = Record<'server' | 'bench' | 'postgres' | 'other', number>
+export type CpuSeconds = Record<'server' | 'bench' | 'postgres' | 'store' | 'other', number>
 
-export function cpuSeconds(serverPid: number): CpuSeconds {
-  const out: CpuSeconds = { server: 0, bench: 0, postgres: 0, other: 0 }
+/** `storePid`: the object-store fake's process when it runs apart (else counted as bench). */
+export function cpuSeconds(serverPid: number, storePid?: number): CpuSeconds {
+  const out: CpuSeconds = { server: 0, bench: 0, postgres: 0, store: 0, other: 0 }
+  for (const p of cpuByProcess(serverPid, storePid).values()) out[p.group] += p.seconds
+  return out
+}
+
+export type CpuByProcess = Map<number, { group: keyof CpuSeconds, seconds: number }>
+
+/** Each process's CPU time so far, with its group. */
+export function cpuByProcess(serverPid: number, storePid?: number): CpuByProcess {
+  const out: CpuByProcess = new Map()
   for (const entry of readdirSync('/proc')) {
     if (!/^\d+$/.test(entry)) continue
     let stat: string
@@ -22,13 +32,24 @@ export function cpuSeconds(serverPid: number): CpuSeconds {
     const fields = stat.slice(stat.lastIndexOf(')') + 2).split(' ')
     const seconds = (Number(fields[11]) + Number(fields[12])) / clockTicks
     const pid = Number(entry)
-    out[pid === serverPid ? 'server' : pid === process.pid ? 'bench' : comm === 'postgres' ? 'postgres' : 'other'] += seconds
+    out.set(pid, { group: pid === serverPid ? 'server' : pid === process.pid ? 'bench' : pid === storePid ? 'store' : comm === 'postgres' ? 'postgres' : 'other', seconds })
   }
+  return out
+}
+
+/**
+ * CPU spent per group between two readings, process by process: one that ended in between is
+ * left out (subtracting its whole life's CPU from the group would make it negative), one that
+ * started counts from zero.
+ */
+export function cpuSpent(before: CpuByProcess, after: CpuByProcess): CpuSeconds {
+  const out: CpuSeconds = { server: 0, bench: 0, postgres: 0, store: 0, other: 0 }
+  for (const [pid, p] of after) out[p.group] += p.seconds - (before.get(pid)?.seconds ?? 0)
   return out
 }
 
 /** Each group's share of one core between two readings, in per cent. */
 export function cpuShares(before: CpuSeconds, after: CpuSeconds, seconds: number): Record<keyof CpuSeconds, number> {
   const share = (k: keyof CpuSeconds) => Math.round((after[k] - before[k]) / seconds * 100)
-  return { server: share('server'), bench: share('bench'), postgres: share('postgres'), other: share('other') }
+  return { server: share('server'), bench: share('bench'), postgres: share('postgres'), store: share('store'), other: share('other') }
 }

@@ -2,7 +2,7 @@ import { spawn, type ChildProcess } from 'node:child_process'
 import { rmSync } from 'node:fs'
 import { join } from 'node:path'
 import { startMailFake, type MailFake } from './mail-fake'
-import { startStoreFake, type StoreFake } from './store-fake'
+import { startStoreFake, startStoreFakeProcess, type StoreFake } from './store-fake'
 import { applyMigrations } from './migrate'
 import { ensureDatabase, startCluster, type Cluster } from './pg'
 import { dataDir, localSecrets, log, root } from './paths'
@@ -21,9 +21,10 @@ export interface Stack {
 /**
  * PostgreSQL, a migrated database, the SMTP fake and the object-store fake (s3rver on
  * `storePort`, its objects under .data/store-<database>/; fresh when the database is): what
- * the server needs around it.
+ * the server needs around it. `storeProcess`: the store fake in a process of its own (benchmarks
+ * that report its CPU apart).
  */
-export async function startStack(opts: { database: string, fresh?: boolean, smtpPort: number, mailHttpPort: number, storePort: number, appUrl: string, mailFile?: string }): Promise<Stack> {
+export async function startStack(opts: { database: string, fresh?: boolean, smtpPort: number, mailHttpPort: number, storePort: number, appUrl: string, mailFile?: string, storeProcess?: boolean }): Promise<Stack> {
   const cluster = await startCluster()
   let mail: MailFake | undefined
   let store: StoreFake | undefined
@@ -35,7 +36,7 @@ export async function startStack(opts: { database: string, fresh?: boolean, smtp
     log(`SMTP fake on 127.0.0.1:${mail.smtpPort}, captured mail at ${mail.httpUrl}`)
     const storeDir = join(dataDir, `store-${opts.database}`)
     if (opts.fresh) rmSync(storeDir, { recursive: true, force: true })
-    store = await startStoreFake({ port: opts.storePort, directory: storeDir })
+    store = await (opts.storeProcess ? startStoreFakeProcess : startStoreFake)({ port: opts.storePort, directory: storeDir })
     log(`object-store fake (s3rver) on 127.0.0.1:${store.port}, bucket ${store.bucket}, objects in ${storeDir}`)
     const serverEnv = {
       NUXT_DATABASE_URL: databaseUrl,

@@ -1,14 +1,19 @@
 // The local stand-in for an S3-compatible object store: s3rver on loopback, keeping its
 // objects in a folder under .data/, with the bucket Arcwise uses. It speaks the S3 protocol,
 // so the server's @aws-sdk/client-s3 code is the code that runs against a real store.
+import { spawn } from 'node:child_process'
 import { mkdirSync } from 'node:fs'
+import { join } from 'node:path'
 import S3rver from 's3rver'
+import { root } from './paths'
 
 export interface StoreFake {
   port: number
   bucket: string
   /** The server's environment for this store (NUXT_STORE_*). */
   env: Record<string, string>
+  /** The process it runs in when started apart (startStoreFakeProcess); else this one's. */
+  pid: number
   close: () => Promise<void>
 }
 
@@ -24,12 +29,36 @@ export async function startStoreFake(opts: { port: number, directory: string, bu
     port: opts.port,
     bucket,
     env: storeEnv(opts.port, bucket),
+    pid: process.pid,
     close: async () => {
       const closing = server.close()
       // Sockets the server's S3 client keeps alive would hold the port open: cut them.
       server.httpServer?.closeAllConnections()
       await closing
     },
+  }
+}
+
+/**
+ * The same fake in a process of its own, for benchmarks: its CPU can then be told apart from
+ * the benchmark's load generator (autocannon), and it no longer shares that event loop.
+ */
+export async function startStoreFakeProcess(opts: { port: number, directory: string, bucket?: string }): Promise<StoreFake> {
+  const bucket = opts.bucket ?? 'arcwise-raw'
+  const child = spawn(join(root, 'node_modules', '.bin', 'tsx'), [join(root, 'scripts', 'lib', 'store-fake.ts'), String(opts.port), opts.directory, bucket], { cwd: root, stdio: ['ignore', 'pipe', 'inherit'] })
+  // Ready, it prints its pid: tsx runs the script in a child of its own, the one that works.
+  const pid = await new Promise<number>((resolve, reject) => {
+    child.once('exit', code => reject(new Error(`the object-store fake exited (${code}) before it was ready`)))
+    child.stdout!.once('data', (d: Buffer) => resolve(Number(d.toString().trim())))
+  })
+  child.removeAllListeners('exit')
+  return {
+    port: opts.port, bucket, env: storeEnv(opts.port, bucket), pid,
+    close: () => new Promise<void>((resolve) => {
+      if (child.exitCode !== null) return resolve()
+      child.once('exit', () => resolve())
+      child.kill('SIGTERM')
+    }),
   }
 }
 
@@ -42,4 +71,12 @@ export function storeEnv(port: number, bucket = 'arcwise-raw'): Record<string, s
     NUXT_STORE_SECRET_ACCESS_KEY: FAKE_KEY,
     NUXT_STORE_FORCE_PATH_STYLE: 'true',
   }
+}
+
+// `tsx scripts/lib/store-fake.ts <port> <directory> <bucket>`: startStoreFakeProcess's child.
+if (import.meta.url === `file://${process.argv[1]}`) {
+  const [port, directory, bucket] = process.argv.slice(2)
+  const fake = await startStoreFake({ port: Number(port), directory: directory!, bucket })
+  process.stdout.write(`${process.pid}\n`)
+  process.once('SIGTERM', () => { void fake.close().then(() => process.exit(0)) })
 }

@@ -20,8 +20,9 @@ const post = (secret: string, body: unknown) => new ConsoleClient().request('POS
 
 describe('the object store down', () => {
   it('answers 503 with a problem document and stores nothing, says so in /readyz, and recovers when the store returns', async () => {
-    const { key, lab, sql } = await labWithInstrument()
-    expect((await post(key.secret, co2Acquisition())).status).toBe(201)
+    const { key, lab, sql, admin } = await labWithInstrument()
+    const kept = await post(key.secret, co2Acquisition())
+    expect(kept.status).toBe(201)
     await fake!.close()
     fake = undefined
     const body = co2Acquisition()
@@ -42,7 +43,23 @@ describe('the object store down', () => {
     expect(doc.detail).toMatch(/^store: /)
     expect(doc.detail).not.toMatch(/database/)
 
+    // The console's acquisition page still shows the results, and says why the raw data is not.
+    const detailPath = `/api/console/labs/${lab.id}/acquisitions/${kept.body.id}`
+    const detail = await admin.get(detailPath)
+    expect(detail.status).toBe(200)
+    expect(detail.body.result.peaks.length).toBeGreaterThan(0)
+    expect(detail.body.payload).toMatchObject({ unavailable: true, head: '' })
+    const page = await fetch(url(`/console/labs/${lab.id}/acquisitions/${kept.body.id}`), { headers: { cookie: admin.cookie } })
+    expect(page.status).toBe(200)
+    const html = await page.text()
+    expect(html).toContain('Raw data temporarily unavailable')
+    expect(html).toContain(kept.body.runId)
+    const spectrum = await admin.get(`${detailPath}/spectrum`)
+    expect(spectrum.status).toBe(503)
+    expect(spectrum.body.detail).toMatch(/raw data is temporarily unavailable/)
+
     fake = await startStoreFake({ port: PORT, directory })
+    expect((await admin.get(detailPath)).body.payload.unavailable).toBe(false)
     const again = await post(key.secret, body)
     expect(again.status, JSON.stringify(again.body).slice(0, 300)).toBe(201)
     expect(again.body.runId).toBe(body.runId)

@@ -111,6 +111,25 @@ describe('raw data in the object store', () => {
     expect((await admin.get(base)).body.result.peaks.length).toBeGreaterThan(0)
   })
 
+  it('writes a new key without asking the store first, and asks before writing a key claimed already', async () => {
+    const a = await labWithInstrument()
+    const b = await labWithInstrument()
+    // Store calls so far, whatever their outcome, from /metrics.
+    const calls = async () => {
+      const metrics = await (await fetch(url('/metrics'), { headers: { authorization: `Bearer ${testEnv().serverEnv.NUXT_METRICS_TOKEN}` } })).text()
+      const sum = (op: string) => [...metrics.matchAll(new RegExp(`arcwise_store_call_duration_seconds_count\\{op="${op}",outcome="[a-z-]+"\\} (\\d+)`, 'g'))].reduce((n, m) => n + Number(m[1]), 0)
+      return { head: sum('head'), put: sum('put') }
+    }
+    const sent = JSON.stringify(co2Acquisition(unique('fresh')))
+    const before = await calls()
+    expect((await post(a.key.secret, sent)).status).toBe(201)
+    const afterNew = await calls()
+    expect(afterNew).toEqual({ head: before.head, put: before.put + 2 })
+    // The same bytes from another lab: both keys are claimed already, so the store is asked, and nothing is written.
+    expect((await post(b.key.secret, sent)).status).toBe(201)
+    expect(await calls()).toEqual({ head: afterNew.head + 2, put: afterNew.put })
+  })
+
   it('counts store calls and their latency in /metrics, and /readyz checks the store', async () => {
     const metrics = await (await fetch(url('/metrics'), { headers: { authorization: `Bearer ${testEnv().serverEnv.NUXT_METRICS_TOKEN}` } })).text()
     const count = (op: string) => Number(new RegExp(`arcwise_store_call_duration_seconds_count\\{op="${op}",outcome="ok"\\} (\\d+)`).exec(metrics)?.[1] ?? 0)
@@ -151,17 +170,27 @@ describe('raw data in the object store', () => {
     const { admin, sql } = expiring
     expect((await admin.patch(`/api/console/labs/${expiring.lab.id}`, { rawRetentionDays: 0 })).status).toBe(422)
     expect((await admin.patch(`/api/console/labs/${expiring.lab.id}`, { rawRetentionDays: 30 })).body.rawRetentionDays).toBe(30)
-    const own = await post(expiring.key.secret, JSON.stringify(co2Acquisition()))
+    const ownBody = JSON.stringify(co2Acquisition())
+    const own = await post(expiring.key.secret, ownBody)
     const sharedBody = JSON.stringify(co2Acquisition(unique('shared')))
     const shared = await post(expiring.key.secret, sharedBody)
     const kept = await post(keeping.key.secret, sharedBody)
     const recent = await post(expiring.key.secret, JSON.stringify(co2Acquisition()))
-    for (const r of [own, shared, kept, recent]) expect(r.status).toBe(201)
+    const inFlight = await post(expiring.key.secret, JSON.stringify(co2Acquisition()))
+    for (const r of [own, shared, kept, recent, inFlight]) expect(r.status).toBe(201)
     const ownRow = await rowOf(sql, own.body.id)
     const sharedRow = await rowOf(sql, shared.body.id)
+    const inFlightRow = await rowOf(sql, inFlight.body.id)
     // Received 31 days ago, past the lab's 30.
-    await sql`update acquisitions set created_at = now() - interval '31 days' where id in (${own.body.id}, ${shared.body.id})`
+    await sql`update acquisitions set created_at = now() - interval '31 days' where id in (${own.body.id}, ${shared.body.id}, ${inFlight.body.id})`
+    // An upload being processed (its lease an hour ahead, so no worker takes it) still needs these objects.
+    const [upload] = await sql`insert into uploads (lab_id, api_key_id, status, lease_until, raw_sha256, arrays_sha256)
+      values (${expiring.lab.id}, ${expiring.key.id}, 'processing', now() + interval '1 hour', ${inFlightRow.raw_sha256}, ${inFlightRow.arrays_sha256}) returning id`
     storeCommand('store-retention', ['--grace-seconds', '0'])
+    await sql`update uploads set status = 'failed', lease_until = null where id = ${upload!.id}`
+    expect((await rowOf(sql, inFlight.body.id)).raw_removed_at).not.toBeNull()
+    expect(await store.head(`raw/${inFlightRow.raw_sha256}`)).not.toBeNull()
+    expect(await store.head(`arrays/${inFlightRow.arrays_sha256}`)).not.toBeNull()
     expect((await rowOf(sql, own.body.id)).raw_removed_at).not.toBeNull()
     expect((await rowOf(sql, shared.body.id)).raw_removed_at).not.toBeNull()
     expect((await rowOf(sql, recent.body.id)).raw_removed_at).toBeNull()
@@ -181,5 +210,11 @@ describe('raw data in the object store', () => {
     expect(gone.status).toBe(410)
     expect(gone.body.detail).toMatch(/removed on \d{4}-\d{2}-\d{2} under the lab's retention setting/)
     expect((await admin.get(`/api/console/labs/${expiring.lab.id}/acquisitions/${recent.body.id}/spectrum.csv`)).status).toBe(200)
+    // The same bytes sent again after retention deleted them (and their claims) are stored again.
+    const again = await post(keeping.key.secret, ownBody)
+    expect(again.status).toBe(201)
+    expect((await store.bytes(`raw/${ownRow.raw_sha256}`)).toString('utf8')).toBe(ownBody)
+    expect(await store.head(`arrays/${ownRow.arrays_sha256}`)).not.toBeNull()
+    expect((await keeping.admin.get(`/api/console/labs/${keeping.lab.id}/acquisitions/${again.body.id}/spectrum.csv`)).status).toBe(200)
   })
 })

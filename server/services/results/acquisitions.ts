@@ -4,7 +4,7 @@ import type { acquisitionListQuery } from '#shared/schemas/acquisitions'
 import type { ReviewState } from '#shared/schemas/lifecycle'
 import { alias } from 'drizzle-orm/pg-core'
 import { acquisitions, geometryVersions, instruments, labs, results, users } from '../../database/schema'
-import { getObjectBytes, getObjectStream, payloadOf, rawDataRemoved } from '../store'
+import { getObjectBytes, getObjectStream, isStoreUnavailable, payloadOf, rawDataRemoved } from '../store'
 import { acquisitionHead, resultView } from './view'
 
 const reviewer = alias(users, 'reviewer')
@@ -92,13 +92,21 @@ export async function acquisitionDetail(labId: string, id: string) {
     .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
   const { acq } = row
-  let payload: { head: string, chars: number, truncated: boolean }
-  if (acq.rawRemovedAt) payload = { head: '', chars: 0, truncated: false }
+  let payload: { head: string, chars: number, truncated: boolean, unavailable: boolean }
+  if (acq.rawRemovedAt) payload = { head: '', chars: 0, truncated: false, unavailable: false }
   else if (acq.rawSha256) {
-    const head = (await getObjectBytes('raw', acq.rawSha256, `bytes=0-${PAYLOAD_PREVIEW_CHARS - 1}`)).toString('utf8')
-    payload = { head, chars: acq.rawBytes ?? 0, truncated: (acq.rawBytes ?? 0) > PAYLOAD_PREVIEW_CHARS }
+    // The store not answering must not take the page down: its results are in PostgreSQL, and
+    // the preview says that the raw data is unavailable for now.
+    try {
+      const head = (await getObjectBytes('raw', acq.rawSha256, `bytes=0-${PAYLOAD_PREVIEW_CHARS - 1}`)).toString('utf8')
+      payload = { head, chars: acq.rawBytes ?? 0, truncated: (acq.rawBytes ?? 0) > PAYLOAD_PREVIEW_CHARS, unavailable: false }
+    }
+    catch (error) {
+      if (!isStoreUnavailable(error)) throw error
+      payload = { head: '', chars: acq.rawBytes ?? 0, truncated: false, unavailable: true }
+    }
   }
-  else payload = { head: row.head ?? '', chars: Number(row.chars ?? 0), truncated: (row.head ?? '').length >= PAYLOAD_PREVIEW_CHARS }
+  else payload = { head: row.head ?? '', chars: Number(row.chars ?? 0), truncated: (row.head ?? '').length >= PAYLOAD_PREVIEW_CHARS, unavailable: false }
   return {
     ...resultView(acq, row.res, row.slug, row.reviewer),
     // For the console's review actions: the comment the reviewer left, and who uploaded it (four eyes).

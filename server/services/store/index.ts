@@ -3,6 +3,6 @@
 // the references rows keep, the readers' way back to a parsed body, retention per lab and the
 // move of payloads from before the store.
 export { storeEnabled, closeStore } from './client'
-export { headObject, getObjectStream, getObjectBytes, checkStore, objectKey, type ObjectKind } from './objects'
+export { headObject, getObjectStream, getObjectBytes, checkStore, objectKey, isStoreUnavailable, type ObjectKind } from './objects'
 export { storePayload, loadPayload, payloadOf, rawDataRemoved, type ReceivedBody, type PayloadRef } from './payloads'
 export { kickRetention, runRetention } from './jobs'

@@ -27,10 +27,20 @@ export function sha256Of(data: Buffer): string {
   return createHash('sha256').update(data).digest('hex')
 }
 
-/** The store did not answer or refused: 503 naming it, and nothing is kept. */
-export function storeUnavailable(error: unknown) {
+/**
+ * The store did not answer or refused: 503 naming it. Writing, nothing is kept; reading, the
+ * raw data is unavailable for now (the rows and results in PostgreSQL are not).
+ */
+export function storeUnavailable(error: unknown, doing: 'write' | 'read' = 'write') {
   const why = error instanceof Error ? (error.name && error.name !== 'Error' ? `${error.name}: ` : '') + error.message.split('\n')[0] : 'no answer'
-  return problem(503, 'store-unavailable', `The object store is not available (${why.slice(0, 200)}). Nothing was stored; send it again later.`, { headers: { 'retry-after': '5' } })
+  const then = doing === 'write' ? 'Nothing was stored; send it again later.' : 'The raw data is temporarily unavailable; try again later.'
+  return problem(503, 'store-unavailable', `The object store is not available (${why.slice(0, 200)}). ${then}`, { headers: { 'retry-after': '5' } })
+}
+
+/** The error is storeUnavailable's 503 (the store, not the request, is at fault). */
+export function isStoreUnavailable(error: unknown): boolean {
+  const data = (error as { data?: { problem?: { type?: string } } }).data
+  return data?.problem?.type === problemType('store-unavailable')
 }
 
 const notFound = (error: unknown) => {
@@ -52,13 +62,20 @@ async function timed<T>(op: string, call: () => Promise<T>): Promise<T> {
   }
 }
 
-/** Claims keys before writing them (see above); committed on its own. */
-export async function claimObjects(objects: { key: string, bytes: number }[]) {
-  if (!objects.length) return
-  await useDb().execute(sql`
+/**
+ * Claims keys before writing them (see above); committed on its own. Returns the keys this
+ * statement inserted (rather than found claimed already): `xmax = 0` marks a row version that
+ * the INSERT wrote, not the ON CONFLICT update (PostgreSQL's system column; common practice,
+ * no source beyond the manual's 5.6 System Columns).
+ */
+export async function claimObjects(objects: { key: string, bytes: number }[]): Promise<Set<string>> {
+  if (!objects.length) return new Set()
+  const rows = await useDb().execute<{ key: string, inserted: boolean }>(sql`
     insert into ${storeObjects} (key, bytes, claimed_at)
     select key, bytes, now() from jsonb_to_recordset(${JSON.stringify(objects)}::jsonb) as t(key text, bytes bigint)
-    on conflict (key) do update set claimed_at = now()`)
+    on conflict (key) do update set claimed_at = now()
+    returning key, (xmax = 0) as inserted`)
+  return new Set(rows.filter(r => r.inserted).map(r => r.key))
 }
 
 /** The object's size, or null when there is none. */
@@ -77,11 +94,21 @@ export async function headObject(kind: ObjectKind, sha256: string): Promise<numb
 /**
  * Stores `data` under its hash unless an object of that hash is there already (deduplication),
  * streamed through lib-storage's Upload (one PUT up to 5 MB, multipart beyond). The caller
- * has claimed the key (claimObjects). Fails with 503 when the store does not answer.
+ * has claimed the key (claimObjects). `claimedFresh`: the caller's claim inserted the key's
+ * row, so no object of that key can be there (below) and the HEAD is skipped. Fails with 503
+ * when the store does not answer.
+ *
+ * Why a fresh claim needs no HEAD: an object is written only after its key's claim commits,
+ * and retention deletes the object before the claim row (in one transaction, under the row's
+ * lock). So a key without a row has no object, except after a crash between those steps or
+ * the loss of a claim in a crash of PostgreSQL; then the PUT writes the same bytes under the
+ * same content address again, which no reader can tell apart.
  */
-export async function putObject(kind: ObjectKind, data: Buffer, contentType: string, sha256 = sha256Of(data)): Promise<StoredObject & { written: boolean }> {
-  const existing = await headObject(kind, sha256)
-  if (existing === data.length) return { sha256, bytes: data.length, written: false }
+export async function putObject(kind: ObjectKind, data: Buffer, contentType: string, sha256 = sha256Of(data), claimedFresh = false): Promise<StoredObject & { written: boolean }> {
+  if (!claimedFresh) {
+    const existing = await headObject(kind, sha256)
+    if (existing === data.length) return { sha256, bytes: data.length, written: false }
+  }
   const { s3, bucket } = storeClient()
   try {
     const chunk = 1024 * 1024
@@ -105,7 +132,7 @@ export async function getObjectStream(kind: ObjectKind, sha256: string, range?: 
   }
   catch (error) {
     if (notFound(error)) throw problem(410, 'raw-data-missing', `The stored ${kind === 'raw' ? 'body' : 'arrays'} of this acquisition are not in the object store.`)
-    throw storeUnavailable(error)
+    throw storeUnavailable(error, 'read')
   }
 }
 
@@ -114,7 +141,7 @@ export async function getObjectBytes(kind: ObjectKind, sha256: string, range?: s
   const stream = await getObjectStream(kind, sha256, range)
   const chunks: Buffer[] = []
   try { for await (const c of stream) chunks.push(c as Buffer) }
-  catch (error) { throw storeUnavailable(error) }
+  catch (error) { throw storeUnavailable(error, 'read') }
   return Buffer.concat(chunks)
 }
 

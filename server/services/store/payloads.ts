@@ -18,18 +18,21 @@ export interface PayloadRef {
 
 /**
  * Stores both objects of one acquisition before its row is written: claimed, then put unless
- * already there. `received` missing (an acquisition inside a sequence body) stores the
- * acquisition's own JSON text as its raw body. Throws a 503 problem when the store fails.
+ * already there (a key this claim inserted is put without asking: objects.ts, putObject).
+ * `received` missing (an acquisition inside a sequence body) stores the acquisition's own JSON
+ * text as its raw body. Throws a 503 problem when the store fails.
  */
 export async function storePayload(input: object, received: ReceivedBody | undefined): Promise<PayloadRef> {
   const raw = received ?? { bytes: Buffer.from(JSON.stringify(input), 'utf8'), contentType: 'application/json' }
   const arrays = encodeArrays(input)
   const rawSha = sha256Of(raw.bytes)
   const arraysSha = sha256Of(arrays)
-  await claimObjects([{ key: objectKey('raw', rawSha), bytes: raw.bytes.length }, { key: objectKey('arrays', arraysSha), bytes: arrays.length }])
+  const rawKey = objectKey('raw', rawSha)
+  const arraysKey = objectKey('arrays', arraysSha)
+  const fresh = await claimObjects([{ key: rawKey, bytes: raw.bytes.length }, { key: arraysKey, bytes: arrays.length }])
   await Promise.all([
-    putObject('raw', raw.bytes, raw.contentType, rawSha),
-    putObject('arrays', arrays, 'application/vnd.arcwise.arrays', arraysSha),
+    putObject('raw', raw.bytes, raw.contentType, rawSha, fresh.has(rawKey)),
+    putObject('arrays', arrays, 'application/vnd.arcwise.arrays', arraysSha, fresh.has(arraysKey)),
   ])
   return { rawSha256: rawSha, rawBytes: raw.bytes.length, rawContentType: raw.contentType, arraysSha256: arraysSha, arraysBytes: arrays.length }
 }
