@@ -9,6 +9,9 @@ export interface StoreFake {
   bucket: string
   /** The server's environment for this store (NUXT_STORE_*). */
   env: Record<string, string>
+  /** Stops answering (the chaos run's store outage); `start` serves the same objects again. */
+  stop: () => Promise<void>
+  start: () => Promise<void>
   close: () => Promise<void>
 }
 
@@ -18,19 +21,24 @@ const FAKE_KEY = 'S3RVER'
 export async function startStoreFake(opts: { port: number, directory: string, bucket?: string }): Promise<StoreFake> {
   const bucket = opts.bucket ?? 'arcwise-raw'
   mkdirSync(opts.directory, { recursive: true })
-  const server = new S3rver({ port: opts.port, address: '127.0.0.1', silent: true, directory: opts.directory, configureBuckets: [{ name: bucket }] })
-  await server.run()
-  return {
-    port: opts.port,
-    bucket,
-    env: storeEnv(opts.port, bucket),
-    close: async () => {
-      const closing = server.close()
-      // Sockets the server's S3 client keeps alive would hold the port open: cut them.
-      server.httpServer?.closeAllConnections()
-      await closing
-    },
+  let server: S3rver | null = null
+  const start = async () => {
+    if (server) return
+    const s = new S3rver({ port: opts.port, address: '127.0.0.1', silent: true, directory: opts.directory, configureBuckets: [{ name: bucket }] })
+    await s.run()
+    server = s
   }
+  const stop = async () => {
+    const s = server
+    if (!s) return
+    server = null
+    const closing = s.close()
+    // Sockets the server's S3 client keeps alive would hold the port open: cut them.
+    s.httpServer?.closeAllConnections()
+    await closing
+  }
+  await start()
+  return { port: opts.port, bucket, env: storeEnv(opts.port, bucket), stop, start, close: stop }
 }
 
 export function storeEnv(port: number, bucket = 'arcwise-raw'): Record<string, string> {
