@@ -34,6 +34,16 @@ export async function recordAttempts(sent: Sent[]) {
     return { id: row.id, endpoint: row.endpoint_id, gone, cls: outcome.class }
   })
   for (const { outcome } of sent) observeDeliveryAttempt(outcome.class, outcome.durationMs / 1000)
+  // One line per attempt, with the request id of the acquisition it carries. A row whose lease
+  // ran out before this record is not written here; the worker that took it logs its own.
+  const log = useLog()
+  const logRecorded = () => {
+    if (!log.isLevelEnabled('info')) return
+    for (const { row, outcome } of sent) {
+      const o = outcomes[row.id] as { attempts: number, status: string, delay: number | null }
+      log.info({ reqId: row.request_id, deliveryId: row.id, endpointId: row.endpoint_id, eventId: row.event_id, attempt: o.attempts, status: o.status, class: outcome.class, statusCode: outcome.statusCode, retryInSeconds: o.delay }, 'delivery recorded')
+    }
+  }
   const health = endpointHealth(sent)
   // Each row's outcome is looked up by its id in one JSON object, and the deliveries are found
   // by their ids: a join with the outcomes let the planner scan the whole table, once per
@@ -75,6 +85,7 @@ export async function recordAttempts(sent: Sent[]) {
   const gone = [...new Set(rows.filter(r => r.gone).map(r => r.endpoint))]
   if (!failing.length && !gone.length) {
     await write(useDb())
+    logRecorded()
     return
   }
   await useDb().transaction(async (tx) => {
@@ -90,6 +101,7 @@ export async function recordAttempts(sent: Sent[]) {
     }
     for (const endpoint of gone) await disableEndpoint(tx, endpoint, 'the receiver answered 410 Gone')
   })
+  logRecorded()
 }
 
 /** The longest an endpoint waits for a Retry-After (a day, as a delivery's wait is capped in retry.ts). */
