@@ -151,3 +151,19 @@ export async function disableEndpoint(tx: Queryable, endpointId: string, reason:
   await recordAudit(tx, { actor: { id: null, label: 'delivery worker' }, action: 'endpoint.disabled', targetType: 'webhook-endpoint', targetId: endpointId, detail: { url: ep.url, reason } })
 }
 
+/**
+ * Deliveries still waiting for a disabled endpoint become dead, as disableEndpoint makes them.
+ * One can commit after disableEndpoint's update: ingest's fan-out read the endpoint as active
+ * in its own snapshot, and its foreign-key lock (FOR KEY SHARE) does not wait for a status
+ * change. No claim reads a disabled endpoint, so such a row waited for a resume that may never
+ * come (`npm run chaos`, one of 101,440 deliveries, 2026-12-03). Worker processes run this at
+ * start and then every minute (worker.ts); the partial index on pending rows keeps it cheap.
+ */
+export async function buryLateDeliveries() {
+  const rows = await useDb().execute<{ id: string }>(sql`
+    update ${deliveries} d set status = 'dead', finished_at = now(), lease_owner = null, lease_until = null
+    where d.status = 'pending' and d.endpoint_id = any(array(select e.id from ${webhookEndpoints} e where e.status = 'disabled'))
+    returning d.id`)
+  if (rows.length) useLog().warn({ deliveries: rows.length }, 'deliveries of disabled endpoints made dead')
+}
+
