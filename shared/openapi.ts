@@ -7,7 +7,7 @@ import { idParams, problemDocument } from './schemas/common'
 import { schemaParams } from './schemas/exchange'
 import { eventFeedQuery, peakQuery, tokenRequest } from './schemas/partners'
 import { DEFAULT_RETRY_SCHEDULE_S, correctedEventData, resultEventData, retractedEventData, thinResultEventData, webhookMessage } from './schemas/webhooks'
-import { acquisitionListView, acquisitionView, engineResultView, eventFeedView, exchangeSchemaList, jwksView, peakListView, tokenView, uploadAccepted, uploadStatusView } from './schemas/responses'
+import { acquisitionListView, acquisitionView, engineResultView, labAcquisitionView, eventFeedView, exchangeSchemaList, jwksView, peakListView, tokenView, uploadAccepted, uploadStatusView } from './schemas/responses'
 import { registerSequencePaths } from './openapiSequences'
 import { CERTIFICATE_GUIDE, registerCertificatePaths } from './openapiCertificates'
 
@@ -90,6 +90,7 @@ export function buildOpenApiDocument() {
   const partnerToken = registry.registerComponent('securitySchemes', 'partnerToken', { type: 'oauth2', flows: { clientCredentials: { tokenUrl: '/api/v1/oauth/token', scopes: { 'results:read': 'read granted results', 'events:read': 'pull the event feed', 'peaks:read': 'query peaks by m/z' } } } })
   const Problem = registry.register('Problem', problemDocument.openapi({ description: 'RFC 9457 problem document; `errors` names each bad field by its path.' }))
   const Acquisition = registry.register('Acquisition', acquisitionView)
+  const LabAcquisition = registry.register('LabAcquisition', labAcquisitionView)
   const Result = registry.register('Result', engineResultView)
   const problems = (...codes: number[]) => Object.fromEntries(codes.map(c => [String(c), { description: { 400: 'Malformed request', 401: 'Missing, wrong, revoked or expired credentials', 403: 'Missing scope', 404: 'Not found (or not yours)', 409: 'Conflict', 413: 'Body too large', 415: 'Unsupported media type', 422: 'Validation failed', 429: 'Rate limited; see Retry-After' }[c] ?? 'Error', content: { 'application/problem+json': { schema: Problem } } }]))
   const idPath = z.object({ id: idParams.shape.id })
@@ -122,7 +123,7 @@ export function buildOpenApiDocument() {
   })
   registry.registerPath({
     method: 'get', path: '/api/v1/acquisitions/{id}', tags: ['Lab systems'], summary: 'One acquisition with its result', security: [{ [labKey.name]: [] }],
-    request: { params: idPath }, responses: { 200: { description: 'The acquisition', content: { 'application/json': { schema: Acquisition } } }, ...problems(401, 403, 404, 429) },
+    request: { params: idPath }, responses: { 200: { description: 'The acquisition', content: { 'application/json': { schema: LabAcquisition } } }, ...problems(401, 403, 404, 429) },
   })
   registry.registerPath({
     method: 'get', path: '/api/v1/acquisitions/{id}/result', tags: ['Lab systems'], summary: 'The result alone', security: [{ [labKey.name]: [] }],

@@ -3,16 +3,29 @@
 import pRetry from 'p-retry'
 import { demoInstruments } from './demo-instruments'
 
+/**
+ * Posts one acquisition; a 5xx or a broken connection is sent again with the same key, after
+ * the answer's Retry-After when it names one (503 while the object store is down), else after
+ * p-retry's growing pause; six tries in all.
+ */
 export async function postAcquisition(appUrl: string, secret: string, body: unknown, idempotencyKey: string) {
+  let retryAfterMs = 0
   return pRetry(async () => {
+    if (retryAfterMs) await new Promise(r => setTimeout(r, retryAfterMs))
+    retryAfterMs = 0
     const res = await fetch(`${appUrl}/api/v1/acquisitions`, {
       method: 'POST',
       headers: { 'content-type': 'application/json', 'authorization': `Bearer ${secret}`, 'idempotency-key': idempotencyKey },
       body: JSON.stringify(body),
     })
-    if (res.status >= 500) throw new Error(`server answered ${res.status}`)
+    if (res.status >= 500) {
+      const seconds = Number(res.headers.get('retry-after'))
+      if (seconds > 0) retryAfterMs = Math.min(seconds, 60) * 1000
+      await res.arrayBuffer()
+      throw new Error(`server answered ${res.status}`)
+    }
     return { status: res.status, body: await res.json() as Record<string, unknown> }
-  }, { retries: 3, minTimeout: 500 })
+  }, { retries: 5, minTimeout: 500 })
 }
 
 /**

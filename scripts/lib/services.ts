@@ -2,7 +2,7 @@ import { spawn, type ChildProcess } from 'node:child_process'
 import { rmSync } from 'node:fs'
 import { join } from 'node:path'
 import { startMailFake, type MailFake } from './mail-fake'
-import { startStoreFake, startStoreFakeProcess, type StoreFake } from './store-fake'
+import { startStoreFake, startStoreFakeProcess, type RestartableStoreFake } from './store-fake'
 import { applyMigrations } from './migrate'
 import { ensureDatabase, startCluster, type Cluster } from './pg'
 import { dataDir, localSecrets, log, root } from './paths'
@@ -12,7 +12,7 @@ export interface Stack {
   databaseUrl: string
   mail: MailFake
   /** The local S3 fake (s3rver) holding raw data. */
-  store: StoreFake
+  store: RestartableStoreFake
   /** Environment for the built server (it reads no .env file). */
   serverEnv: Record<string, string>
   stop: () => Promise<void>
@@ -27,7 +27,7 @@ export interface Stack {
 export async function startStack(opts: { database: string, fresh?: boolean, smtpPort: number, mailHttpPort: number, storePort: number, appUrl: string, mailFile?: string, storeProcess?: boolean }): Promise<Stack> {
   const cluster = await startCluster()
   let mail: MailFake | undefined
-  let store: StoreFake | undefined
+  let store: RestartableStoreFake | undefined
   try {
     const databaseUrl = await ensureDatabase(cluster, opts.database, { fresh: opts.fresh })
     await applyMigrations(databaseUrl)

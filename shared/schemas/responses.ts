@@ -152,6 +152,11 @@ export const acquisitionView = z.object({
   result: engineResultView,
 }).strict()
 
+/** The lab's own answer for one acquisition: the view and the request that posted it. */
+export const labAcquisitionView = acquisitionView.extend({
+  requestId: z.string().nullable().describe('the X-Request-Id of the request that posted it (the caller\'s, or the one the hub made); the hub\'s log lines about its processing and deliveries carry it as `reqId`. Null for acquisitions stored before the hub kept it, and for deferred uploads processed in the background'),
+}).strict()
+
 export const acquisitionListView = z.object({
   items: z.array(z.object({
     id: z.uuid(), runId: z.string(), instrument: z.string(), acquiredAt: z.iso.datetime({ offset: true }), sampleRef: z.string().nullable(),

@@ -48,12 +48,14 @@ describe('acquisitions in the console', () => {
     const base = `/api/console/labs/${lab.id}/acquisitions/${posted.body.id}`
     const detail = await admin.get(base)
     expect(detail.status).toBe(200)
-    const { instrumentId, instrumentName, geometryKind, payload, rawData, reviewComment, submittedBy, ...view } = detail.body
+    const { instrumentId, instrumentName, geometryKind, payload, rawData, reviewComment, submittedBy, requestId, ...view } = detail.body
     acquisitionView.parse(view)
     expect({ instrumentName, geometryKind }).toEqual({ instrumentName: 'Sector one', geometryKind: 'potential-sector' })
     // Posted with a lab key, not reviewed yet: no uploader, no comment.
     expect({ reviewComment, submittedBy }).toEqual({ reviewComment: null, submittedBy: null })
     expect(instrumentId).toMatch(/^[0-9a-f-]{36}$/)
+    // Posted without X-Request-Id: the id the hub made for that request is kept (issue 23).
+    expect(requestId).toMatch(/^[0-9a-f-]{36}$/)
     // The start of the body as the lab sent it, from the object store (issue 23).
     const [stored] = await sql<[{ bytes: number }]>`select raw_bytes::int as bytes from acquisitions where id = ${posted.body.id}`
     expect(rawData).toMatchObject({ kept: 'object-store', bytes: stored.bytes, contentType: 'application/json' })

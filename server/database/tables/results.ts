@@ -33,6 +33,9 @@ export const acquisitions = pgTable('acquisitions', {
   pointCount: integer('point_count').notNull(),
   // The console user who uploaded it (null for lab-system posts with an API key): the four-eyes rule.
   submittedBy: uuid('submitted_by'),
+  // The id of the request that posted it (X-Request-Id, or the one the hub made): the worker's
+  // log lines about its deliveries carry it, so an operator can follow it through the logs.
+  requestId: text('request_id'),
   createdAt: createdAt(),
 }, t => [
   uniqueIndex('acquisitions_lab_external_idx').on(t.labId, t.externalId),

@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm'
-import { deliveries, events, labs, webhookEndpoints } from '../../database/schema'
+import { acquisitions, deliveries, events, labs, webhookEndpoints } from '../../database/schema'
 import type { BodySource } from './message'
 import { deliverySettings, workerId } from './settings'
 
@@ -21,6 +21,8 @@ export type Claimed = BodySource & {
   sealed_secret: string
   previous_sealed_secret: string | null
   previous_secret_until: string | null
+  /** The id of the request that posted the event's acquisition (result events), for the log lines. */
+  request_id: string | null
 }
 
 // The advisory lock that makes claims, in every process, one at a time (keyed by a name, as
@@ -101,11 +103,18 @@ export async function claimDueDeliveries(limit: number, leaseSeconds: number): P
       select c.*, e.url, e.sealed_secret, e.previous_sealed_secret, e.previous_secret_until::text,
              -- An event owed to several endpoints: its payload comes once, on the first of its rows.
              case when row_number() over (partition by c.event_id order by c.id) = 1 then ev.payload::text end as payload_text,
-             ev.sequence, l.slug as lab, ev.created_at::text as event_at
+             ev.sequence, l.slug as lab, ev.created_at::text as event_at, a.request_id
       from claimed c join candidates k on k.id = c.id join ${webhookEndpoints} e on e.id = c.endpoint_id
       left join ${events} ev on ev.id = c.event_id left join ${labs} l on l.id = ev.lab_id
+      -- A result event's acquisition (payload.id, a uuid in every result.* event) gives the
+      -- request id the worker's log lines carry; it is never part of the message.
+      left join ${acquisitions} a on a.id = (case when ev.type like 'result.%' then (ev.payload->>'id')::uuid end)
       order by k.turn`)
   }).then((rows) => {
+    const log = useLog()
+    if (log.isLevelEnabled('debug')) {
+      for (const r of rows) log.debug({ reqId: r.request_id, deliveryId: r.id, endpointId: r.endpoint_id, eventId: r.event_id, attempt: r.attempts + 1 }, 'delivery claimed')
+    }
     const payloads = new Map<string, string>()
     for (const r of rows) if (r.event_id && r.payload_text !== null) payloads.set(r.event_id, r.payload_text)
     return rows.map(r => r.event_id ? { ...r, payload_text: payloads.get(r.event_id) ?? null } : r)

@@ -34,6 +34,16 @@ export async function recordAttempts(sent: Sent[]) {
     return { id: row.id, endpoint: row.endpoint_id, gone, cls: outcome.class }
   })
   for (const { outcome } of sent) observeDeliveryAttempt(outcome.class, outcome.durationMs / 1000)
+  // One line per attempt, with the request id of the acquisition it carries. A row whose lease
+  // ran out before this record is not written here; the worker that took it logs its own.
+  const log = useLog()
+  const logRecorded = () => {
+    if (!log.isLevelEnabled('info')) return
+    for (const { row, outcome } of sent) {
+      const o = outcomes[row.id] as { attempts: number, status: string, delay: number | null }
+      log.info({ reqId: row.request_id, deliveryId: row.id, endpointId: row.endpoint_id, eventId: row.event_id, attempt: o.attempts, status: o.status, class: outcome.class, statusCode: outcome.statusCode, retryInSeconds: o.delay }, 'delivery recorded')
+    }
+  }
   const health = endpointHealth(sent)
   const createdAts = sql`${`{${sent.map(({ row }) => `"${row.created_at}"`).join(',')}}`}::timestamptz[]`
   // Each row's outcome is looked up by its id in one JSON object, and the deliveries are found
@@ -79,6 +89,7 @@ export async function recordAttempts(sent: Sent[]) {
   const gone = [...new Set(rows.filter(r => r.gone).map(r => r.endpoint))]
   if (!failing.length && !gone.length) {
     await write(useDb())
+    logRecorded()
     return
   }
   await useDb().transaction(async (tx) => {
@@ -94,6 +105,7 @@ export async function recordAttempts(sent: Sent[]) {
     }
     for (const endpoint of gone) await disableEndpoint(tx, endpoint, 'the receiver answered 410 Gone')
   })
+  logRecorded()
 }
 
 /** The longest an endpoint waits for a Retry-After (a day, as a delivery's wait is capped in retry.ts). */
@@ -141,5 +153,21 @@ export async function disableEndpoint(tx: Queryable, endpointId: string, reason:
     ], { label: 'Open the partner in the console', url: link }))
   }
   await recordAudit(tx, { actor: { id: null, label: 'delivery worker' }, action: 'endpoint.disabled', targetType: 'webhook-endpoint', targetId: endpointId, detail: { url: ep.url, reason } })
+}
+
+/**
+ * Deliveries still waiting for a disabled endpoint become dead, as disableEndpoint makes them.
+ * One can commit after disableEndpoint's update: ingest's fan-out read the endpoint as active
+ * in its own snapshot, and its foreign-key lock (FOR KEY SHARE) does not wait for a status
+ * change. No claim reads a disabled endpoint, so such a row waited for a resume that may never
+ * come (`npm run chaos`, one of 101,440 deliveries, 2026-12-03). Worker processes run this at
+ * start and then every minute (worker.ts); the partial index on pending rows keeps it cheap.
+ */
+export async function buryLateDeliveries() {
+  const rows = await useDb().execute<{ id: string }>(sql`
+    update ${deliveries} d set status = 'dead', finished_at = now(), lease_owner = null, lease_until = null
+    where d.status = 'pending' and d.endpoint_id = any(array(select e.id from ${webhookEndpoints} e where e.status = 'disabled'))
+    returning d.id`)
+  if (rows.length) useLog().warn({ deliveries: rows.length }, 'deliveries of disabled endpoints made dead')
 }
 

@@ -86,7 +86,10 @@ export async function send({ row, message, bytes, unbuilt }: Queued): Promise<Se
   try {
     if (!bytes) throw new Error(unbuilt ?? 'no message')
     const headers = signedHeaders(row.id, bytes, secretsOf(row))
-    return { row, storedBody, headers, outcome: await sendOnce(row.url, headers, bytes) }
+    const outcome = await sendOnce(row.url, headers, bytes)
+    const log = useLog()
+    if (log.isLevelEnabled('debug')) log.debug({ reqId: row.request_id, deliveryId: row.id, endpointId: row.endpoint_id, attempt: row.attempts + 1, class: outcome.class, statusCode: outcome.statusCode, ms: outcome.durationMs }, 'delivery sent')
+    return { row, storedBody, headers, outcome }
   }
   catch (error) {
     return { row, storedBody, headers: {}, outcome: { class: 'client-error', statusCode: null, error: `not sent: ${(error as Error).message}`, excerpt: null, retryAfterS: null, durationMs: 0 } }

@@ -1,7 +1,7 @@
 import { and, eq } from 'drizzle-orm'
 import { deliveries } from '../../database/schema'
 import { claimDueDeliveries } from './claim'
-import { recordAttempts } from './record'
+import { buryLateDeliveries, recordAttempts } from './record'
 import { send, withMessages, type Queued, type Sent } from './send'
 import { deliverySettings, workerId } from './settings'
 
@@ -151,6 +151,9 @@ const claimSize = (concurrency: number) => Math.min(CLAIM_MAX, concurrency * GRO
 
 const worker = new DeliveryPipeline()
 let timer: NodeJS.Timeout | undefined
+let sweepTimer: NodeJS.Timeout | undefined
+// How often a worker looks for deliveries committed for an endpoint as it was disabled.
+const SWEEP_MS = 60_000
 
 /** Wakes the worker now (after an event was recorded) rather than at its next poll. */
 export function kickDeliveries() {
@@ -161,10 +164,15 @@ export function startDeliveryWorker() {
   worker.start()
   timer = setInterval(kickDeliveries, Number(useRuntimeConfig().webhooks.pollMs))
   timer.unref()
+  const sweep = () => { buryLateDeliveries().catch(error => logError('[delivery] the sweep of disabled endpoints\' deliveries failed; the next one tries again', error)) }
+  sweep()
+  sweepTimer = setInterval(sweep, SWEEP_MS)
+  sweepTimer.unref()
 }
 
 /** Stops the worker: what is being sent is sent and recorded, and what it still holds is handed back. */
 export async function stopDeliveryWorker() {
   clearInterval(timer)
+  clearInterval(sweepTimer)
   await worker.stop()
 }

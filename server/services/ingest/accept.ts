@@ -51,6 +51,8 @@ export interface AcceptOptions {
   received?: ReceivedBody
   /** Raw data already in the object store (a deferred upload stored it when it arrived). */
   stored?: PayloadRef
+  /** The id of the request that sent it (event.context.requestId): kept, and logged with its deliveries. */
+  requestId?: string
 }
 
 /**
@@ -111,7 +113,7 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
   const { engine, summary, applied } = computeResult(input, geo, instrument.calibration, instrument.measuredSpecies)
   const acq: AcquisitionHead = {
     id: randomUUID(), labId: key.labId, instrumentId: instrument.id, externalId: input.runId, acquiredAt, sampleRef: input.sampleRef ?? null,
-    status: 'processed', bodyHash: hash, pointCount: engine.points, submittedBy: opts.submittedBy ?? null, createdAt: new Date(),
+    status: 'processed', bodyHash: hash, pointCount: engine.points, submittedBy: opts.submittedBy ?? null, requestId: opts.requestId ?? null, createdAt: new Date(),
     // Where its raw data is kept is the write's business (payload below); the view does not show it.
     rawSha256: null, rawBytes: null, rawContentType: null, arraysSha256: null, arraysBytes: null, rawRemovedAt: null,
   }
@@ -132,6 +134,7 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
       : opts.upload ? { uploadId: opts.upload.id } : { json: canonicalBody(input).json }
   try {
     await recordAccepted({ acq, res, payload, peaks: engine.peaks, view })
+    useLog().info({ reqId: acq.requestId, acquisitionId: acq.id, resultId: res.id, labId: acq.labId, runId: acq.externalId, released }, 'acquisition accepted')
     if (opts.schemaId) countSchemaUse(opts.schemaId, key.labId)
     kickDeliveries()
     return { status: 201, body: view }
@@ -162,8 +165,8 @@ function replayOrConflict(existing: { acq: AcquisitionHead, res: typeof results.
  * An acquisition uploaded as a file in the console by a lab manager or admin: processed at
  * once, whatever its size (the console waits for it), and recorded in the audit log.
  */
-export async function uploadFromConsole(audit: AuditContext, labId: string, input: AcquisitionInput, received?: ReceivedBody) {
-  const result = await acceptAcquisition({ labId }, input, { submittedBy: audit.actor.id ?? undefined, received })
+export async function uploadFromConsole(audit: AuditContext, labId: string, input: AcquisitionInput, received?: ReceivedBody, requestId?: string) {
+  const result = await acceptAcquisition({ labId }, input, { submittedBy: audit.actor.id ?? undefined, received, requestId })
   if (result.status === 201) {
     await recordAudit(useDb(), { ...audit, action: 'acquisition.uploaded', targetType: 'acquisition', targetId: result.body.id, detail: { labId, runId: input.runId, points: result.body.result.points } })
   }

@@ -86,7 +86,7 @@ function acceptedStatement(entries: AcceptedEntry[]) {
       at: acq.createdAt.toISOString(), geometryVersionId: res.geometryVersionId, calibrationId: res.calibrationId, engineVersion: res.engineVersion,
       uploadId: 'uploadId' in payload ? payload.uploadId : null,
       ref: 'ref' in payload ? payload.ref : null,
-      submittedBy: acq.submittedBy, reviewState: res.reviewState, releasedAt: res.releasedAt?.toISOString() ?? null,
+      submittedBy: acq.submittedBy, requestId: acq.requestId, reviewState: res.reviewState, releasedAt: res.releasedAt?.toISOString() ?? null,
     }
     const peakRows = found.map(p => ({ mz: p.centroid, area: p.area, species: p.assignment?.species ?? null, charge: p.assignment?.z ?? null }))
     const body = 'json' in payload ? `,"payload":${payload.json}` : ''
@@ -98,11 +98,11 @@ function acceptedStatement(entries: AcceptedEntry[]) {
       from jsonb_array_elements(${`[${items.join(',')}]`}::jsonb) with ordinality as t(r, ord)),
     acq as (
       insert into ${acquisitions} (id, lab_id, instrument_id, external_id, acquired_at, sample_ref, status, body_hash, payload, point_count, submitted_by, created_at,
-        raw_sha256, raw_bytes, raw_content_type, arrays_sha256, arrays_bytes)
+        raw_sha256, raw_bytes, raw_content_type, arrays_sha256, arrays_bytes, request_id)
       select (m->>'acqId')::uuid, (m->>'labId')::uuid, (m->>'instrumentId')::uuid, m->>'runId', (m->>'acquiredAt')::timestamptz, m->>'sampleRef',
              'processed', m->>'bodyHash', coalesce(payload, (select u.body from ${uploads} u where u.id = (m->>'uploadId')::uuid)),
              (m->>'pointCount')::int, (m->>'submittedBy')::uuid, (m->>'at')::timestamptz,
-             m->'ref'->>'rawSha256', (m->'ref'->>'rawBytes')::bigint, m->'ref'->>'rawContentType', m->'ref'->>'arraysSha256', (m->'ref'->>'arraysBytes')::bigint
+             m->'ref'->>'rawSha256', (m->'ref'->>'rawBytes')::bigint, m->'ref'->>'rawContentType', m->'ref'->>'arraysSha256', (m->'ref'->>'arraysBytes')::bigint, m->>'requestId'
       from input
       returning 1 as n),
     res as (

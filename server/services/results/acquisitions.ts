@@ -58,14 +58,29 @@ export async function listAcquisitions(labId: string, query: z.output<typeof acq
  * another lab's is 404 like a missing one, and so is one with nothing published yet.
  */
 export async function getAcquisition(labId: string, id: string, choice: ResultChoice = 'latest') {
+  const row = await acquisitionRow(labId, id, choice)
+  // The lab sees its lineage as it is; partners the version they were shown before.
+  return resultView(row.acq, row.res, row.slug, row.reviewer, choice === 'published' ? row.previous : undefined)
+}
+
+/**
+ * The lab's own answer for one acquisition: its view and the id of the request that posted
+ * it (null before the hub kept it), to find that request and its deliveries in the logs.
+ * Partners never see it.
+ */
+export async function getLabAcquisition(labId: string, id: string) {
+  const row = await acquisitionRow(labId, id, 'latest')
+  return { ...resultView(row.acq, row.res, row.slug, row.reviewer), requestId: row.acq.requestId }
+}
+
+async function acquisitionRow(labId: string, id: string, choice: ResultChoice) {
   const [row] = await useDb().select({ acq: acquisitionHead, res: results, slug: instruments.slug, reviewer: reviewer.name, previous: previousPublished() }).from(acquisitions)
     .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice(choice)))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .leftJoin(reviewer, eq(reviewer.id, results.reviewedBy))
     .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
   if (!row) throw problem(404, 'acquisition-not-found', 'No such acquisition in your lab.')
-  // The lab sees its lineage as it is; partners the version they were shown before.
-  return resultView(row.acq, row.res, row.slug, row.reviewer, choice === 'published' ? row.previous : undefined)
+  return row
 }
 
 const PAYLOAD_PREVIEW_CHARS = 6000
@@ -111,6 +126,8 @@ export async function acquisitionDetail(labId: string, id: string) {
     ...resultView(acq, row.res, row.slug, row.reviewer),
     // For the console's review actions: the comment the reviewer left, and who uploaded it (four eyes).
     reviewComment: row.res.reviewComment, submittedBy: row.submittedBy,
+    // The request that posted it, for an operator searching the logs (null before it was kept).
+    requestId: acq.requestId,
     instrumentId: acq.instrumentId, instrumentName: row.instrumentName, geometryKind: row.geometryKind,
     payload,
     rawData: {

@@ -69,7 +69,7 @@ async function checkNotInAnotherSequence(labId: string, runIds: string[], sequen
  * at once. The same sequence id with the same body answers the stored sequence; with another
  * body, 409.
  */
-export async function openSequence(key: SequenceKey, input: SequenceInput): Promise<Answer> {
+export async function openSequence(key: SequenceKey, input: SequenceInput, requestId?: string): Promise<Answer> {
   const hash = sequenceBodyHash(input)
   const existing = await findSequence(key.labId, input.sequenceId)
   if (existing) return replayOrConflict(existing, hash)
@@ -99,7 +99,7 @@ export async function openSequence(key: SequenceKey, input: SequenceInput): Prom
   }
   // Each acquisition goes through the ingest of POST /api/v1/acquisitions; those accepted in
   // one turn of the event loop share one write (group commit).
-  const accepted = await Promise.allSettled(input.acquisitions.map(a => acceptAcquisition(key, a.acquisition)))
+  const accepted = await Promise.allSettled(input.acquisitions.map(a => acceptAcquisition(key, a.acquisition, { requestId })))
   const members = accepted.flatMap((r, i) => r.status === 'fulfilled' ? [{ member: input.acquisitions[i]!, acquisitionId: r.value.body.id }] : [])
   if (members.length) {
     await useDb().insert(sequenceItems).values(members.map(({ member, acquisitionId }) => ({
@@ -136,7 +136,7 @@ async function closeIfFull(sequenceId: string): Promise<SequenceView> {
  * again answers the sequence (a replay); another run at a taken position is 409. The last
  * position of the declared length closes and processes the sequence.
  */
-export async function addToSequence(key: SequenceKey, externalId: string, member: SequenceMemberInput): Promise<Answer> {
+export async function addToSequence(key: SequenceKey, externalId: string, member: SequenceMemberInput, requestId?: string): Promise<Answer> {
   const seq = await findSequence(key.labId, externalId)
   if (!seq) throw problem(404, 'sequence-not-found', 'No sequence with this id in your lab; open it first with POST /api/v1/sequences.')
   const [atPosition] = await useDb().select({ runId: acquisitions.externalId, bodyHash: acquisitions.bodyHash }).from(sequenceItems)
@@ -154,7 +154,7 @@ export async function addToSequence(key: SequenceKey, externalId: string, member
   await checkNotInAnotherSequence(key.labId, [member.acquisition.runId], seq.id, () => 'acquisition.runId')
 
   let acquisitionId: string
-  try { acquisitionId = (await acceptAcquisition(key, member.acquisition)).body.id }
+  try { acquisitionId = (await acceptAcquisition(key, member.acquisition, { requestId })).body.id }
   catch (error) { throw underPath(error, 'acquisition') }
   const [inserted] = await useDb().insert(sequenceItems).values({ sequenceId: seq.id, position: member.position, acquisitionId, role: member.role, material: member.material ?? null })
     .onConflictDoNothing().returning({ position: sequenceItems.position })

@@ -6,5 +6,5 @@ export default defineEventHandler(async (event) => {
   const body = await readAcquisitionBody(event)
   const received = receivedBody(event)
   return withIdempotency<unknown>(event, key.id, idempotencyKey, bodyHash(body), () =>
-    pointCount(body) > INLINE_POINTS ? deferAcquisition(key, body, schema.id, received) : acceptAcquisition(key, body, { schemaId: schema.id, received }))
+    pointCount(body) > INLINE_POINTS ? deferAcquisition(key, body, schema.id, received) : acceptAcquisition(key, body, { schemaId: schema.id, received, requestId: event.context.requestId }))
 })

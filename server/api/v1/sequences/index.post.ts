@@ -5,5 +5,5 @@ export default defineEventHandler(async (event) => {
   const key = await requireLabKey(event, 'acquisitions:write')
   const idempotencyKey = getIdempotencyKey(event)
   const body = await readValidBody(event, sequenceInput)
-  return withIdempotency<unknown>(event, key.id, idempotencyKey, sequenceBodyHash(body), () => openSequence(key, body))
+  return withIdempotency<unknown>(event, key.id, idempotencyKey, sequenceBodyHash(body), () => openSequence(key, body, event.context.requestId))
 })

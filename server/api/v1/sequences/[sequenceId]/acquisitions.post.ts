@@ -6,5 +6,5 @@ export default defineEventHandler(async (event) => {
   const { sequenceId } = getValidParams(event, sequenceParams)
   const idempotencyKey = getIdempotencyKey(event)
   const body = await readValidBody(event, sequenceMemberInput)
-  return withIdempotency<unknown>(event, key.id, idempotencyKey, sequenceBodyHash({ sequenceId, body }), () => addToSequence(key, sequenceId, body))
+  return withIdempotency<unknown>(event, key.id, idempotencyKey, sequenceBodyHash({ sequenceId, body }), () => addToSequence(key, sequenceId, body, event.context.requestId))
 })

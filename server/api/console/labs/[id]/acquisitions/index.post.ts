@@ -5,7 +5,7 @@ export default defineEventHandler(async (event) => {
   const { id } = getValidParams(event, labParams)
   const actor = await requireLabAccess(event, id, 'write')
   const input = await readAcquisitionBody(event)
-  const { status, body } = await uploadFromConsole(auditContext(event, actor), id, input, receivedBody(event))
+  const { status, body } = await uploadFromConsole(auditContext(event, actor), id, input, receivedBody(event), event.context.requestId)
   setResponseStatus(event, status)
   return body
 })

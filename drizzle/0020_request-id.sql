@@ -1,0 +1,1 @@
+ALTER TABLE "acquisitions" ADD COLUMN "request_id" text;
