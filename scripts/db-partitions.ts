@@ -6,9 +6,8 @@
 // kept). Worker processes do the same every NUXT_PARTITIONS_CHECK_MINUTES. DATABASE_URL, or
 // npm start's database.
 import { parseArgs } from 'node:util'
-import postgres from 'postgres'
 import { applyPartitionRetention, defaultPartitionRows, ensureMonths } from '../server/services/partitions/maintenance'
-import { ensureDatabase, startCluster } from './lib/pg'
+import { runDatabaseCommand } from './lib/database-command'
 import { log } from './lib/paths'
 
 const { values } = parseArgs({ options: { 'retention': { type: 'boolean', default: false }, 'from': { type: 'string' }, 'months-ahead': { type: 'string' } } })
@@ -18,35 +17,22 @@ const count = (name: string, raw: string | undefined, fallback: number) => {
   return n
 }
 if (values.from !== undefined && !/^\d{4}-(0[1-9]|1[0-2])$/.test(values.from)) throw new Error('--from must be a month, YYYY-MM')
-const external = process.env.DATABASE_URL
-const cluster = external ? undefined : await startCluster()
-try {
+await runDatabaseCommand(async ({ sql }) => {
   const monthsAhead = count('--months-ahead', values['months-ahead'] ?? process.env.NUXT_PARTITIONS_MONTHS_AHEAD, 2)
-  const sql = postgres(external ?? await ensureDatabase(cluster!, 'arcwise'), { max: 1, onnotice: () => {} })
-  try {
-    const months = await ensureMonths(sql, { monthsAhead, from: values.from })
-    log(months.created.length ? `partitions made: ${months.created.join(', ')}` : 'every month\'s partitions were there')
-    for (const m of months.moved) log(`moved ${m.rows} row(s) of ${m.table} for ${m.month} out of ${m.table}_default into their month`)
-    for (const d of months.deferred) log(`not made now (${d.reason}): ${d.month}; run again`)
-    if (values.retention) {
-      const settings = {
-        attemptMonths: count('NUXT_PARTITIONS_KEEP_ATTEMPT_MONTHS', process.env.NUXT_PARTITIONS_KEEP_ATTEMPT_MONTHS, 0),
-        deliveryMonths: count('NUXT_PARTITIONS_KEEP_DELIVERY_MONTHS', process.env.NUXT_PARTITIONS_KEEP_DELIVERY_MONTHS, 0),
-      }
-      const r = await applyPartitionRetention(sql, settings)
-      for (const d of r.dropped) log(`dropped ${d.table} for ${d.month} (${d.rows} row(s))`)
-      for (const k of r.keptPending) log(`kept ${k.month}: ${k.pending} pending deliver${k.pending === 1 ? 'y' : 'ies'}`)
-      for (const d of r.deferred) log(`not dropped now (${d.reason}): ${d.month}; run again`)
-      if (!r.dropped.length) log('nothing past its retention was dropped')
+  const months = await ensureMonths(sql, { monthsAhead, from: values.from })
+  log(months.created.length ? `partitions made: ${months.created.join(', ')}` : 'every month\'s partitions were there')
+  for (const m of months.moved) log(`moved ${m.rows} row(s) of ${m.table} for ${m.month} out of ${m.table}_default into their month`)
+  for (const d of months.deferred) log(`not made now (${d.reason}): ${d.month}; run again`)
+  if (values.retention) {
+    const settings = {
+      attemptMonths: count('NUXT_PARTITIONS_KEEP_ATTEMPT_MONTHS', process.env.NUXT_PARTITIONS_KEEP_ATTEMPT_MONTHS, 0),
+      deliveryMonths: count('NUXT_PARTITIONS_KEEP_DELIVERY_MONTHS', process.env.NUXT_PARTITIONS_KEEP_DELIVERY_MONTHS, 0),
     }
-    for (const d of await defaultPartitionRows(sql)) log(`${d.rows} row(s) of ${d.table} for ${d.month} sit in ${d.table}_default (no partition for that month; --from ${d.month} makes it)`)
+    const r = await applyPartitionRetention(sql, settings)
+    for (const d of r.dropped) log(`dropped ${d.table} for ${d.month} (${d.rows} row(s))`)
+    for (const k of r.keptPending) log(`kept ${k.month}: ${k.pending} pending deliver${k.pending === 1 ? 'y' : 'ies'}`)
+    for (const d of r.deferred) log(`not dropped now (${d.reason}): ${d.month}; run again`)
+    if (!r.dropped.length) log('nothing past its retention was dropped')
   }
-  finally { await sql.end() }
-}
-catch (error) {
-  console.error(error instanceof Error ? error.message : error)
-  process.exitCode = 1
-}
-finally {
-  cluster?.stop()
-}
+  for (const d of await defaultPartitionRows(sql)) log(`${d.rows} row(s) of ${d.table} for ${d.month} sit in ${d.table}_default (no partition for that month; --from ${d.month} makes it)`)
+})
