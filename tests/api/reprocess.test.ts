@@ -1,11 +1,10 @@
 import type { ChildProcess } from 'node:child_process'
-import { createServer } from 'node:http'
 import { Webhook } from 'standardwebhooks'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
 import { demoUser } from '../support/demo'
 import { bearer, co2Acquisition, labWithInstrument, sectorGeometry } from '../support/lab'
 import { ConsoleClient, linkIn, startAppProcess, testDb, unique, useArcwise, waitForMail } from '../support/server'
-import { until } from '../support/webhooks'
+import { recordingSink, until } from '../support/webhooks'
 
 // Reprocessing with lineage (issue 20, point 2) against the built server and PostgreSQL.
 // The server under test takes no reprocessing jobs (NUXT_REPROCESS_WORKER=false): a separate
@@ -17,16 +16,7 @@ const WORKER_PORT = 3152
 const webhookEnv = { NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}`, NUXT_WEBHOOKS_POLL_MS: '200' }
 await useArcwise({ env: { ...webhookEnv, NUXT_REPROCESS_WORKER: 'false' } })
 
-const received: { path: string, headers: Record<string, string>, body: string }[] = []
-const sink = createServer((req, res) => {
-  const chunks: Buffer[] = []
-  req.on('data', c => chunks.push(c as Buffer))
-  req.on('end', () => {
-    received.push({ path: req.url!, headers: Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)])), body: Buffer.concat(chunks).toString() })
-    res.writeHead(200).end('ok')
-  })
-})
-await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
+const received = await recordingSink(SINK_PORT)
 
 let worker: ChildProcess | undefined
 function startWorker() {
@@ -45,10 +35,7 @@ async function stopWorker(signal: NodeJS.Signals) {
   })
 }
 beforeAll(() => startWorker())
-afterAll(async () => {
-  await stopWorker('SIGTERM')
-  await new Promise<void>(resolve => sink.close(() => resolve()))
-})
+afterAll(() => stopWorker('SIGTERM'))
 
 const sql = testDb()
 const post = (secret: string, body: unknown) => new ConsoleClient().request('POST', '/api/v1/acquisitions', body, bearer(secret))

@@ -1,9 +1,8 @@
-import { createPage, url } from '@nuxt/test-utils/e2e'
+import { url } from '@nuxt/test-utils/e2e'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { atPhoneWidth, darkTheme, expectAccessible, shot, signInAs } from '../support/browser'
+import { atPhoneWidth, darkTheme, expectAccessible, shot, signedInPage } from '../support/browser'
 import { clearScene, goneOrOkSink, homeScene } from '../support/homes'
 import { testDb, useArcwise } from '../support/server'
-import type { Role } from '../../shared/types/roles'
 
 const SINK_PORT = 4234
 await useArcwise({ browser: true, env: { NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}`, NUXT_WEBHOOKS_POLL_MS: '200' } })
@@ -21,15 +20,9 @@ beforeAll(async () => {
 }, 120_000)
 afterAll(() => clearScene(scene))
 
-async function signIn(role: Role) {
-  const page = await createPage('/sign-in')
-  await signInAs(page, role)
-  return page
-}
-
 describe('the acquisition page\'s delivery trail', () => {
   it('a lab manager sees which endpoints received the released version, verified, and why one stopped', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     await page.goto(url(`/console/labs/${scene.saltmarsh}/acquisitions/${scene.released.id}`), { waitUntil: 'hydration' })
     const trail = page.getByRole('region', { name: 'Did it reach its partners?' })
     const released = trail.getByTestId('trail-result.released')
@@ -41,6 +34,13 @@ describe('the acquisition page\'s delivery trail', () => {
     expect(await gone.getByTestId('trail-why').textContent()).toContain('the receiver answered 410 Gone, which disables the endpoint')
     // A lab manager may not replay a partner's delivery nor open a partner's log.
     expect(await trail.getByRole('button', { name: /Replay/ }).count()).toBe(0)
+    // The request id the lab system posted it under, to find the hub's log lines about it.
+    const requestId = `lab-${scene.tag}-released`
+    expect(await page.getByTestId('request-id').textContent()).toBe(requestId)
+    await page.context().grantPermissions(['clipboard-read', 'clipboard-write'])
+    await page.getByRole('button', { name: 'Copy the request id' }).click()
+    await expect.poll(() => page.evaluate(() => navigator.clipboard.readText())).toBe(requestId)
+    expect(await page.getByRole('status').filter({ hasText: 'Copied' }).count()).toBe(1)
     await expectAccessible(page)
     await shot(page, 'trail-lab-manager')
     // The acquisition page at phone width: it fits the phone (no sideways scrolling), screenshot and axe.
@@ -55,7 +55,7 @@ describe('the acquisition page\'s delivery trail', () => {
 
 describe('the delivery page and the webhooks page', () => {
   it('an integrator reads why a delivery stopped and checks an attempt\'s signature in one action', async () => {
-    const page = await signIn('integrator')
+    const page = await signedInPage('integrator')
     await page.goto(url(`/console/partners/${scene.northgate}/deliveries/${goneDelivery}`), { waitUntil: 'hydration' })
     await expect.poll(() => page.getByTestId('delivery-why').textContent()).toContain('Stopped: the receiver answered 410 Gone, which disables the endpoint')
     await page.getByRole('button', { name: 'Check signature of attempt 1' }).click()
@@ -69,7 +69,7 @@ describe('the delivery page and the webhooks page', () => {
   })
 
   it('the webhooks page answers by lab and result: delivered or not, verified or not', async () => {
-    const page = await signIn('integrator')
+    const page = await signedInPage('integrator')
     await page.goto(url(`/console/partners/${scene.northgate}/webhooks`), { waitUntil: 'hydration' })
     const lab = page.getByTestId('board-lab').filter({ hasText: 'Saltmarsh Stable Isotope Lab' })
     const result = lab.getByTestId('board-result').filter({ hasText: `${scene.tag}-released` })
@@ -89,7 +89,7 @@ describe('the delivery page and the webhooks page', () => {
 
 describe('replay from the result\'s page', () => {
   it('an admin replays the dead delivery from the result\'s page', async () => {
-    const page = await signIn('admin')
+    const page = await signedInPage('admin')
     await page.goto(url(`/console/labs/${scene.saltmarsh}/acquisitions/${scene.released.id}`), { waitUntil: 'hydration' })
     const trail = page.getByRole('region', { name: 'Did it reach its partners?' })
     await trail.getByTestId('trail-result.released').getByTestId('trail-delivery').filter({ hasText: `/gone/${scene.tag}` })

@@ -1,8 +1,7 @@
-import { createPage, url } from '@nuxt/test-utils/e2e'
+import { url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInAs } from '../support/browser'
-import type { Role } from '../../shared/types/roles'
+import { darkTheme, expectAccessible, shot, signedInPage } from '../support/browser'
 import { labWithInstrument } from '../support/lab'
 import { testDb, unique, useArcwise } from '../support/server'
 
@@ -12,22 +11,13 @@ await useArcwise({ browser: true })
 // 0 for an uncertainty, no silent duplicate grant, destructive and bulk actions ask first,
 // slug and kind are the admin's, and no developer command shows in the console.
 
-async function signIn(role: Role) {
-  const page = await createPage('/sign-in')
-  await signInAs(page, role)
-  return page
-}
 const labId = async (slug: string) => (await testDb()<{ id: string }[]>`select id from labs where slug = ${slug}`)[0]!.id
 const partnerId = async (slug: string) => (await testDb()<{ id: string }[]>`select id from partners where slug = ${slug}`)[0]!.id
-async function darkTheme(page: Page) {
-  await page.getByRole('button', { name: 'Dark theme' }).click()
-  await expect.poll(() => page.evaluate(() => document.documentElement.classList.contains('dark'))).toBe(true)
-}
 const hydrated = (page: Page) => page.waitForFunction(() => (window as unknown as { useNuxtApp?: () => { isHydrating: boolean } }).useNuxtApp?.().isHydrating === false)
 
 describe('forms in the console', () => {
   it('an uncertainty has a visible label and no silent 0; its error goes once it is typed', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     await page.goto(url(`/console/labs/${await labId('saltmarsh-isotopes')}/instruments`), { waitUntil: 'hydration' })
     const form = page.getByRole('form', { name: 'Register an instrument' })
     await form.getByLabel('Name', { exact: true }).fill('Forms sector')
@@ -47,7 +37,7 @@ describe('forms in the console', () => {
   })
 
   it('granting a partner that already has the same grant says so on the field', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     await page.goto(url(`/console/labs/${await labId('saltmarsh-isotopes')}/access`), { waitUntil: 'hydration' })
     const form = page.getByRole('form', { name: 'Grant a partner access' })
     await form.getByLabel('Partner').selectOption({ label: 'Northgate Water Authority' })
@@ -66,7 +56,7 @@ describe('forms in the console', () => {
   it('disabling a person and a bulk replay ask first; declined, nothing changes', async () => {
     const email = `${unique('calm')}@example.org`
     await testDb()`insert into users (email, name, password_hash, role) values (${email}, 'Calm Person', 'x', 'viewer')`
-    const page = await signIn('admin')
+    const page = await signedInPage('admin')
     await page.goto(url(`/console/users?q=${encodeURIComponent(email)}`), { waitUntil: 'hydration' })
     await page.getByRole('button', { name: `Change ${email}` }).click()
     await page.getByLabel('Status').selectOption('disabled')
@@ -85,7 +75,7 @@ describe('forms in the console', () => {
   })
 
   it('an integrator sees the partner\'s slug and kind but cannot change them', async () => {
-    const page = await signIn('integrator')
+    const page = await signedInPage('integrator')
     await page.goto(url(`/console/partners/${await partnerId('northgate-water')}`), { waitUntil: 'hydration' })
     await hydrated(page)
     expect(await page.getByLabel('Slug', { exact: true }).getAttribute('readonly')).not.toBeNull()
@@ -96,7 +86,7 @@ describe('forms in the console', () => {
   })
 
   it('the API keys page names no developer command', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     await page.goto(url(`/console/labs/${await labId('saltmarsh-isotopes')}/keys`), { waitUntil: 'hydration' })
     await expect.poll(() => page.getByRole('main').textContent()).toContain('API documentation')
     expect(await page.getByRole('main').textContent()).not.toContain('npm run')
@@ -106,7 +96,7 @@ describe('forms in the console', () => {
 describe('upload help (point 4)', () => {
   it('describes each format with a template; the templates upload as they are, several at once; a run older than the geometry is refused with the fix', async () => {
     const { lab } = await labWithInstrument()
-    const page = await signIn('admin')
+    const page = await signedInPage('admin')
     await page.goto(url(`/console/labs/${lab.id}/acquisitions`), { waitUntil: 'hydration' })
     const form = page.getByRole('form', { name: 'Upload acquisition files' })
     // The form comes before the table.

@@ -1,7 +1,6 @@
-import { createPage } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { atPhoneWidth, darkTheme, expectAccessible, shot, signInAs } from '../support/browser'
+import { atPhoneWidth, darkTheme, expectAccessible, shot, signedInPage } from '../support/browser'
 import { clearScene, goneOrOkSink, homeScene } from '../support/homes'
 import { testDb, useArcwise } from '../support/server'
 import type { Role } from '../../shared/types/roles'
@@ -20,11 +19,11 @@ beforeAll(async () => {
 afterAll(() => clearScene(scene))
 
 async function signIn(role: Role) {
-  const page = await createPage('/sign-in')
-  await signInAs(page, role)
+  const page = await signedInPage(role)
   await page.waitForURL(u => u.pathname === '/console')
   return page
 }
+
 const region = (page: Page, name: string | RegExp) => page.getByRole('region', { name })
 
 describe('a lab manager\'s home', () => {

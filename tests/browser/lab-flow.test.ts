@@ -1,18 +1,13 @@
-import { createPage, url } from '@nuxt/test-utils/e2e'
+import { url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { describe, expect, it } from 'vitest'
 import { postAcquisition } from '../../scripts/lib/lab-system'
-import { expectAccessible, openLabFromMenu, shot, signInAs } from '../support/browser'
+import { expectAccessible, openLabFromMenu, shot, signedInPage } from '../support/browser'
 import { referenceAcquisition } from '../support/lab'
 import { testDb, unique, useArcwise } from '../support/server'
 
 await useArcwise({ browser: true })
 
-async function signIn(role: 'lab_manager' | 'viewer' | 'integrator') {
-  const page = await createPage('/sign-in')
-  await signInAs(page, role)
-  return page
-}
 async function openTab(page: Page, tab: string, at: RegExp) {
   await page.getByRole('navigation', { name: 'Lab' }).getByRole('link', { name: tab, exact: true }).click()
   await page.waitForURL(at)
@@ -22,7 +17,7 @@ const chartPixels = (page: Page) => page.locator('.aw-chart canvas').first().scr
 
 describe('a lab manager\'s main flow in the console', () => {
   it('registers an instrument and issues a key; the lab simulator posts; the acquisition appears with its plot and assignments; a calibration is fitted from it', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     await openLabFromMenu(page, 'Saltmarsh Stable Isotope Lab')
     await openTab(page, 'Instruments', /\/instruments$/)
     await expectAccessible(page)
@@ -108,7 +103,7 @@ describe('a lab manager\'s main flow in the console', () => {
   })
 
   it('uploads a CSV in the console with a progress bar and lands on the processed acquisition', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     const [{ id: labId }] = await testDb()<[{ id: string }]>`select id from labs where slug = 'saltmarsh-isotopes'`
     await page.goto(url(`/console/labs/${labId}/acquisitions`), { waitUntil: 'hydration' } as never)
     const ref = referenceAcquisition(unique('csv-run'), '2026-11-30T10:00:00Z', 'irms-north')
@@ -134,13 +129,13 @@ describe('a lab manager\'s main flow in the console', () => {
 
   it('refuses the lab pages to roles that must not see them', async () => {
     const [{ id: labId }] = await testDb()<[{ id: string }]>`select id from labs where slug = 'halvard-ridge'`
-    const integrator = await signIn('integrator')
+    const integrator = await signedInPage('integrator')
     for (const path of ['instruments', 'acquisitions']) {
       await integrator.goto(url(`/console/labs/${labId}/${path}`))
       await expect.poll(() => integrator.locator('body').textContent()).toContain('Not allowed')
     }
     // The demo lab manager runs Saltmarsh: another lab is not there for them.
-    const manager = await signIn('lab_manager')
+    const manager = await signedInPage('lab_manager')
     await manager.goto(url(`/console/labs/${labId}/acquisitions`))
     await expect.poll(() => manager.locator('body').textContent()).toMatch(/No such lab|not found/i)
   })

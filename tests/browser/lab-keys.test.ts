@@ -28,6 +28,11 @@ describe('lab keys in the console', () => {
     await page.getByRole('button', { name: 'Issue key' }).click()
     const secret = (await page.getByTestId('console-secret').textContent())!
     expect(secret).toMatch(/^awk_[A-Za-z0-9_-]{12}_[A-Za-z0-9_-]{43}$/)
+    // Copied as shown, and the outcome said in a status, not by renaming the button.
+    await page.context().grantPermissions(['clipboard-read', 'clipboard-write'])
+    await page.getByRole('button', { name: 'Copy the secret' }).click()
+    await expect.poll(() => page.evaluate(() => navigator.clipboard.readText())).toBe(secret)
+    expect(await page.getByRole('status').filter({ hasText: 'Copied' }).count()).toBeGreaterThan(0)
     await shot(page, 'lab-key-issued')
 
     // The lab system uses it: the list shows when.

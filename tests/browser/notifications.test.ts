@@ -1,10 +1,8 @@
-import { createPage } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { afterAll, beforeAll, describe, expect, it } from 'vitest'
-import { expectAccessible, expectFitsPhone, reloadHydrated, shot, signInAs } from '../support/browser'
+import { expectAccessible, expectFitsPhone, reloadHydrated, shot, signedInPage } from '../support/browser'
 import { clearScene, goneOrOkSink, homeScene } from '../support/homes'
 import { useArcwise } from '../support/server'
-import type { Role } from '../../shared/types/roles'
 
 const SINK_PORT = 4235
 await useArcwise({ browser: true, env: { NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}`, NUXT_WEBHOOKS_POLL_MS: '200' } })
@@ -19,11 +17,6 @@ beforeAll(async () => {
 }, 120_000)
 afterAll(() => clearScene(scene))
 
-async function signIn(role: Role) {
-  const page = await createPage('/sign-in')
-  await signInAs(page, role)
-  return page
-}
 const bell = (page: Page) => page.getByRole('button', { name: /^Notifications/ })
 const panel = (page: Page) => page.getByRole('region', { name: 'Notifications' })
 async function openBell(page: Page) {
@@ -34,7 +27,7 @@ async function openBell(page: Page) {
 
 describe('the notifications bell', () => {
   it('a lab manager is told of results to review, the chart violation and the partner endpoint disabled; an item leads to its fix and is then seen', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     await openBell(page)
     const text = (await panel(page).textContent())!
     expect(text).toMatch(/waiting for review/)
@@ -54,7 +47,7 @@ describe('the notifications bell', () => {
   })
 
   it('an integrator is told only of its partner\'s endpoint and dead deliveries, at phone width and in the dark theme', async () => {
-    const page = await signIn('integrator')
+    const page = await signedInPage('integrator')
     await page.setViewportSize({ width: 390, height: 844 })
     await reloadHydrated(page)
     await openBell(page)
@@ -76,7 +69,7 @@ describe('the notifications bell', () => {
   })
 
   it('an admin is told of every lab\'s chart violations and every partner\'s disabled endpoints', async () => {
-    const page = await signIn('admin')
+    const page = await signedInPage('admin')
     await openBell(page)
     const text = (await panel(page).textContent())!
     expect(text).toContain('ELSEWHERE-STD')

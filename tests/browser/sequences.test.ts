@@ -1,8 +1,8 @@
-import { createPage, url } from '@nuxt/test-utils/e2e'
+import { url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { beforeAll, describe, expect, it } from 'vitest'
 import { DEMO_SEQUENCE_COUNT, DEMO_SPOILED_SEQUENCE, demoCo2Sequences, postDemoSequences } from '../../scripts/lib/demo-sequences'
-import { expectAccessible, shot, signInAs } from '../support/browser'
+import { expectAccessible, shot, signedInPage } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { ConsoleClient, testDb, useArcwise } from '../support/server'
 
@@ -20,16 +20,11 @@ beforeAll(async () => {
   expect(await postDemoSequences(url('/').replace(/\/$/, ''), key.secret, now)).toBe(DEMO_SEQUENCE_COUNT)
 })
 
-async function signIn(role: 'lab_manager' | 'viewer') {
-  const page = await createPage('/sign-in')
-  await signInAs(page, role)
-  return page
-}
 const region = (page: Page, name: string) => page.getByRole('region', { name })
 
 describe('isotope sequences in the console', () => {
   it('a sequence shows its standards against their accepted values, the normalisation line with residuals, the drift and the steps with their sources', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Sequences' }).click()
     await page.waitForURL(/\/sequences$/)
     await expect.poll(() => page.getByRole('main').getByRole('link', { name: /^SM-\d{4}-\d{2}-\d{2}-CO2$/ }).count()).toBe(DEMO_SEQUENCE_COUNT)
@@ -78,7 +73,7 @@ describe('isotope sequences in the console', () => {
   })
 
   it('the overview leads to the control chart, which marks and lists the one rule violation, and its sequence is flagged', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     const spoiled = demoCo2Sequences(now)[DEMO_SPOILED_SEQUENCE]!.id
     const attention = region(page, 'Isotope quality control')
     await expect.poll(() => attention.textContent()).toContain('Control-chart rule 1-3s violated')
@@ -125,7 +120,7 @@ describe('isotope sequences in the console', () => {
   })
 
   it('a method with an unknown anchor shows the problem next to that field and stores nothing; the corrected one is saved', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     await page.goto(url(`/console/labs/${labId}/methods`), { waitUntil: 'hydration' })
     const sql = testDb()
     const count = async () => (await sql<{ n: number }[]>`select count(*)::int as n from methods m join instruments i on i.id = m.instrument_id where i.slug = 'irms-north' and i.lab_id = ${labId}`)[0]!.n

@@ -1,10 +1,9 @@
-import { createServer } from 'node:http'
 import { createPage, url } from '@nuxt/test-utils/e2e'
-import { afterAll, describe, expect, it } from 'vitest'
+import { describe, expect, it } from 'vitest'
 import { expectAccessible, shot, signInAs } from '../support/browser'
 import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
 import { ConsoleClient, unique, useArcwise } from '../support/server'
-import { grantedPartnerWithEndpoint, until } from '../support/webhooks'
+import { grantedPartnerWithEndpoint, recordingSink, until } from '../support/webhooks'
 
 // The webhook screens, driven as their users would: an integrator adds an endpoint and sees
 // deliveries arrive; an admin finds a dead delivery and replays it.
@@ -12,18 +11,8 @@ import { grantedPartnerWithEndpoint, until } from '../support/webhooks'
 const SINK_PORT = 4193
 await useArcwise({ browser: true, env: { NUXT_WEBHOOKS_ALLOW_HOSTS: `127.0.0.1:${SINK_PORT}`, NUXT_WEBHOOKS_RETRY_SCHEDULE: '1', NUXT_WEBHOOKS_POLL_MS: '200' } })
 
-const hits: { path: string, headers: Record<string, string>, body: string }[] = []
 const failing = new Set<string>()
-const sink = createServer((req, res) => {
-  const chunks: Buffer[] = []
-  req.on('data', c => chunks.push(c as Buffer))
-  req.on('end', () => {
-    hits.push({ path: req.url!, headers: Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)])), body: Buffer.concat(chunks).toString() })
-    res.writeHead(failing.has(req.url!) ? 500 : 200).end('ok')
-  })
-})
-await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
-afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
+const hits = await recordingSink(SINK_PORT, path => failing.has(path) ? 500 : 200)
 
 describe('webhooks in the console', () => {
   it('an integrator adds an endpoint, keeps its secret, sees the delivery arrive and checks its signature', async () => {

@@ -1,12 +1,11 @@
-import { createPage, url } from '@nuxt/test-utils/e2e'
+import { url } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { beforeAll, describe, expect, it } from 'vitest'
-import { expectAccessible, shot, signInAs } from '../support/browser'
+import { darkTheme, expectAccessible, shot, signedInPage } from '../support/browser'
 import { demoUser } from '../support/demo'
 import { bearer, co2Acquisition, labWithInstrument, sectorGeometry } from '../support/lab'
 import { ConsoleClient, testDb, unique, useArcwise } from '../support/server'
 import { insertPausedEndpoint } from '../support/webhooks'
-import type { Role } from '../../shared/types/roles'
 
 await useArcwise({ browser: true })
 
@@ -38,11 +37,6 @@ beforeAll(async () => {
   ids.delivery = d!.id
 })
 
-async function signIn(role: Role) {
-  const page = await createPage('/sign-in')
-  await signInAs(page, role)
-  return page
-}
 const palette = (page: Page) => page.getByRole('dialog', { name: 'Search' })
 async function openPaletteAndType(page: Page, text: string) {
   // The shortcut is heard once the console layout has mounted (its search button is there).
@@ -55,14 +49,10 @@ async function openPaletteAndType(page: Page, text: string) {
   await expect.poll(() => page.evaluate(() => document.activeElement?.id)).toBe('aw-search-input')
   await box.fill(text)
 }
-async function darkTheme(page: Page) {
-  await page.getByRole('button', { name: 'Dark theme' }).click()
-  await expect.poll(() => page.evaluate(() => document.documentElement.classList.contains('dark'))).toBe(true)
-}
 
 describe('search everywhere', () => {
   it('a lab manager opens the palette with Ctrl-K, finds a run of their lab by id and opens it; another lab\'s run is not found', async () => {
-    const page = await signIn('lab_manager')
+    const page = await signedInPage('lab_manager')
     await openPaletteAndType(page, `${tok}-o`)
     const options = palette(page).getByRole('option')
     await expect.poll(() => options.allTextContents()).toEqual([expect.stringContaining(`${tok}-own`)])
@@ -80,7 +70,7 @@ describe('search everywhere', () => {
   })
 
   it('an admin finds a sample with the header box and the arrow keys, in the dark theme too', async () => {
-    const page = await signIn('admin')
+    const page = await signedInPage('admin')
     await darkTheme(page)
     await page.getByRole('button', { name: /Search runs, samples/ }).click()
     await palette(page).getByRole('combobox').fill(tok)
@@ -98,7 +88,7 @@ describe('search everywhere', () => {
   })
 
   it('an integrator finds a webhook message by its webhook-id', async () => {
-    const page = await signIn('integrator')
+    const page = await signedInPage('integrator')
     await openPaletteAndType(page, ids.delivery.slice(0, 13))
     await expect.poll(() => palette(page).getByRole('option').allTextContents()).toEqual([expect.stringContaining(ids.delivery)])
     await shot(page, 'search-palette-integrator-webhook-id')
@@ -107,7 +97,7 @@ describe('search everywhere', () => {
   })
 
   it('the console\'s first tab stop skips to the content', async () => {
-    const page = await signIn('viewer')
+    const page = await signedInPage('viewer')
     await page.goto(url('/console'), { waitUntil: 'hydration' })
     await page.keyboard.press('Tab')
     const focused = page.locator(':focus')
@@ -119,7 +109,7 @@ describe('search everywhere', () => {
 
 describe('lists keep their filters in the URL', () => {
   it('deliveries: a filtered list survives a reload and can be linked to, at phone width too', async () => {
-    const page = await signIn('integrator')
+    const page = await signedInPage('integrator')
     await page.getByRole('navigation', { name: 'Console' }).getByRole('link', { name: 'Deliveries' }).click()
     await page.waitForURL(/\/deliveries$/)
     await page.getByLabel('State').selectOption('succeeded')
@@ -137,7 +127,7 @@ describe('lists keep their filters in the URL', () => {
   })
 
   it('users: the search\'s link to a person opens the list filtered to them', async () => {
-    const page = await signIn('admin')
+    const page = await signedInPage('admin')
     await openPaletteAndType(page, 'Ines Varga')
     await expect.poll(() => palette(page).getByRole('option').allTextContents()).toEqual([expect.stringContaining('manager@saltmarsh.example')])
     await page.keyboard.press('Enter')
@@ -149,7 +139,7 @@ describe('lists keep their filters in the URL', () => {
 
 describe('the audit log', () => {
   it('reads in sentences with names, filters through the URL and exports what it shows as CSV', async () => {
-    const page = await signIn('admin')
+    const page = await signedInPage('admin')
     await page.goto(url('/console/audit'), { waitUntil: 'hydration' })
     await expect.poll(() => page.getByRole('main').textContent()).toContain(`Morgan Ashdown issued the API key "workbench ${tok}" for Saltmarsh Stable Isotope Lab`)
     await expectAccessible(page)
@@ -184,7 +174,7 @@ describe('an instrument\'s history (point 5)', () => {
     const sql = testDb()
     const noble = (await sql<{ id: string, lab: string }[]>`select id, lab_id as lab from instruments where slug = 'noble-gas-1'`)[0]!
     const irms = (await sql<{ id: string, lab: string }[]>`select id, lab_id as lab from instruments where slug = 'irms-north'`)[0]!
-    const page = await signIn('admin')
+    const page = await signedInPage('admin')
     await page.goto(url(`/console/labs/${noble.lab}/instruments/${noble.id}`), { waitUntil: 'hydration' })
     const history = page.getByRole('region', { name: 'History', exact: true })
     const items = history.getByRole('listitem')

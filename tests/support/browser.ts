@@ -1,6 +1,7 @@
 import { mkdirSync, readFileSync } from 'node:fs'
 import { createRequire } from 'node:module'
 import { join } from 'node:path'
+import { createPage } from '@nuxt/test-utils/e2e'
 import type { Page } from 'playwright-core'
 import { expect } from 'vitest'
 import type { Role } from '../../shared/types/roles'
@@ -52,6 +53,13 @@ export async function signInThroughForm(page: Page, email: string, password: str
 export async function signInAs(page: Page, role: Role) {
   const user = demoUser(role)
   await signInThroughForm(page, user.email, user.password)
+}
+
+/** A new page, signed in through the form as the demo user of `role`. */
+export async function signedInPage(role: Role) {
+  const page = await createPage('/sign-in')
+  await signInAs(page, role)
+  return page
 }
 
 /**

@@ -1,12 +1,11 @@
-import { createServer } from 'node:http'
 import postgres from 'postgres'
 import { url } from '@nuxt/test-utils/e2e'
-import { afterAll, expect } from 'vitest'
+import { expect } from 'vitest'
 import { demoUser } from './demo'
 import { testEnv } from './env'
 import { bearer, co2Acquisition, labWithInstrument, sectorGeometry, setRelease } from './lab'
 import { ConsoleClient, testDb, unique } from './server'
-import { until } from './webhooks'
+import { recordingSink, until } from './webhooks'
 
 // Issue 21, points 1–3: a scene the homes, the delivery trail and the notifications are read
 // against, made through the product's own routes wherever a route exists. In the demo lab
@@ -16,23 +15,12 @@ import { until } from './webhooks'
 // its own: none of it may show in Saltmarsh's home or notifications.
 
 /** A receiver that answers 410 Gone under /gone/ and 200 elsewhere, keeping what arrived. */
-export async function goneOrOkSink(port: number) {
-  const received: { path: string, headers: Record<string, string>, body: string }[] = []
-  const sink = createServer((req, res) => {
-    const chunks: Buffer[] = []
-    req.on('data', c => chunks.push(c as Buffer))
-    req.on('end', () => {
-      received.push({ path: req.url!, headers: Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)])), body: Buffer.concat(chunks).toString() })
-      res.writeHead(req.url?.startsWith('/gone/') ? 410 : 200).end(req.url?.startsWith('/gone/') ? 'gone' : 'ok')
-    })
-  })
-  await new Promise<void>(resolve => sink.listen(port, '127.0.0.1', resolve))
-  afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
-  return received
-}
+export const goneOrOkSink = (port: number) => recordingSink(port, path => path.startsWith('/gone/') ? 410 : 200)
 
-async function postRun(secret: string, body: unknown) {
-  const res = await fetch(url('/api/v1/acquisitions'), { method: 'POST', headers: { 'content-type': 'application/json', ...bearer(secret) }, body: JSON.stringify(body) })
+/** Posts a run as a lab system would, under the request id `lab-<runId>` (the lab's own). */
+async function postRun(secret: string, body: { runId: string } & Record<string, unknown>) {
+  const headers = { 'content-type': 'application/json', 'x-request-id': `lab-${body.runId}`, ...bearer(secret) }
+  const res = await fetch(url('/api/v1/acquisitions'), { method: 'POST', headers, body: JSON.stringify(body) })
   expect(res.status).toBe(201)
   return (await res.json()) as { id: string, result: { id: string } }
 }

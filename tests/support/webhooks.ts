@@ -42,17 +42,18 @@ export async function grantedPartnerWithEndpoint(endpointUrl: string, extra: Rec
 export interface ReceivedMessage { path: string, headers: Record<string, string>, body: string }
 
 /**
- * A receiver on 127.0.0.1:`port` that answers 200 to everything and keeps what arrived, in
- * order; closed after the file's tests.
+ * A receiver on 127.0.0.1:`port` that keeps what arrived, in order, and answers each request
+ * with `answer(path)` (200 unless told); closed after the file's tests.
  */
-export async function recordingSink(port: number): Promise<ReceivedMessage[]> {
+export async function recordingSink(port: number, answer: (path: string) => number = () => 200): Promise<ReceivedMessage[]> {
   const received: ReceivedMessage[] = []
   const sink = createServer((req, res) => {
     const chunks: Buffer[] = []
     req.on('data', c => chunks.push(c as Buffer))
     req.on('end', () => {
       received.push({ path: req.url!, headers: Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)])), body: Buffer.concat(chunks).toString() })
-      res.writeHead(200).end('ok')
+      const status = answer(req.url!)
+      res.writeHead(status).end(status === 410 ? 'gone' : 'ok')
     })
   })
   await new Promise<void>(resolve => sink.listen(port, '127.0.0.1', resolve))
