@@ -1,15 +1,14 @@
 import { describe, expect, it } from 'vitest'
-import { endpointHealth } from '../../server/services/delivery/health'
-import type { Sent } from '../../server/services/delivery/send'
+import { endpointHealth, type SentAttempt } from '../../server/services/delivery/health'
 
 // What a group of recorded attempts says about each endpoint's circuit (record.ts). Only a
 // message's first try (or a replay) counts towards opening it: a retry failed before, so its
 // failing again is no news about the endpoint (the chaos run's "flaky", 2026-12-03).
 
-type Outcome = Sent['outcome']
-const attempt = (endpoint: string, attempts: number, outcome: Partial<Outcome>, replay = false) => ({
-  row: { endpoint_id: endpoint, attempts, replay_requested: replay } as Sent['row'],
-  outcome: { class: 'server-error', statusCode: 500, retryAfterS: null, durationMs: 5, error: null, excerpt: null, ...outcome } as Outcome,
+type Outcome = SentAttempt['outcome']
+const attempt = (endpoint: string, attempts: number, outcome: Partial<Outcome>, replay = false): SentAttempt => ({
+  row: { endpoint_id: endpoint, attempts, replay_requested: replay },
+  outcome: { class: 'server-error', statusCode: 500, retryAfterS: null, ...outcome },
 })
 const ok: Partial<Outcome> = { class: 'success', statusCode: 200 }
 

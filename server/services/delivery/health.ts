@@ -1,7 +1,11 @@
-import type { Sent } from './send'
+// What recorded attempts say about their endpoints' circuits. Pure (tests/unit/delivery-health.test.ts,
+// which is why it names only the fields it reads of send.ts's `Sent`); record.ts writes it.
 
-// What recorded attempts say about their endpoints' circuits. Pure (tests/unit/delivery-health.test.ts);
-// record.ts writes it.
+/** The fields of a sent attempt (send.ts, `Sent`) that tell its endpoint's health. */
+export interface SentAttempt {
+  row: { endpoint_id: string, attempts: number, replay_requested: boolean }
+  outcome: { class: string, statusCode: number | null, retryAfterS: number | null }
+}
 
 /** The longest an endpoint waits for a Retry-After (a day, as a delivery's wait is capped in retry.ts). */
 const MAX_ENDPOINT_WAIT_S = 86_400
@@ -23,7 +27,7 @@ const THROTTLED_WAIT_S = 1
  * tests/api/delivery-circuit.test.ts). A first try is the endpoint's own evidence: when it is
  * down, the first tries of its new messages fail and open the circuit.
  */
-export function endpointHealth(sent: Pick<Sent, 'row' | 'outcome'>[]) {
+export function endpointHealth(sent: SentAttempt[]) {
   const by = new Map<string, { id: string, ok: boolean, failures: number, retry_failures: number, wait: number | null }>()
   for (const { row, outcome } of sent) {
     const h = by.get(row.endpoint_id) ?? { id: row.endpoint_id, ok: false, failures: 0, retry_failures: 0, wait: null }
