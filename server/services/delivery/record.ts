@@ -75,7 +75,7 @@ export async function recordAttempts(sent: Sent[]) {
     locked as (
       select e.id from ${webhookEndpoints} e join h on h.id = e.id
       where not h.ok or h.wait is not null or e.failing_since is not null or e.consecutive_failures > 0
-      order by e.id for no key update of e)
+      order by e.id for no key update of e),
     -- A success closes the circuit; failures of first tries count towards opening it (a
     -- retry's too at an ordered endpoint, whose head is all it sends; see endpointHealth), and
     -- any failure once it is open waits a probe interval; Retry-After blocks the endpoint until then.
