@@ -547,7 +547,10 @@ catch (error) {
   exitCode = 1
 }
 finally {
-  await sql.end()
+  // Bounded: once (2026-12-03, 22:23 UTC, after a full run's report) sql.end() waited on its
+  // connections for minutes with every check met, holding the machine's shared lock; postgres.js
+  // closes what is left after the timeout (seconds).
+  await sql.end({ timeout: 5 })
   for (const child of Object.values(processes)) child?.kill('SIGTERM')
   await sleep(500)
   await stack.stop()
