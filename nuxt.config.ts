@@ -90,8 +90,9 @@ export default defineNuxtConfig({
       endpointInFlight: 16,
       endpointMaxInFlight: 64,
       endpointMaxRatePerSecond: 200,
-      // After this many failed attempts in a row the endpoint's circuit opens: one delivery
-      // probes it every circuitProbeSeconds, and the backlog waits for a success.
+      // After this many failed first tries in a row the endpoint's circuit opens: one delivery
+      // (a message never tried where one is due) probes it every circuitProbeSeconds, and the
+      // backlog waits for a success.
       circuitFailures: 10,
       circuitProbeSeconds: 30,
       // How often a worker looks for due deliveries (it is also woken by each new event).

@@ -20,7 +20,7 @@ import { readFileSync } from 'node:fs'
 import { setTimeout as sleep } from 'node:timers/promises'
 import { Agent, request } from 'undici'
 import { buildIfStale } from './lib/build'
-import { cpuSeconds, cpuShares } from './lib/cpu'
+import { cpuByProcess, cpuShares } from './lib/cpu'
 import { demoInstruments, thousandPointAcquisition } from './lib/demo-instruments'
 import { demoAdmin } from './lib/console-client'
 import { noteArrival, openLoopLatency } from './lib/open-loop'
@@ -116,19 +116,19 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
       await Promise.all(Array.from({ length: 8 }, async () => {
         while (next < acquisitionCount) await post({ ...body, runId: `bench-delivery-${process.pid}-${next++}` })
       }))
-      const cpuBefore = cpuSeconds(server.pid!)
+      const cpuBefore = cpuByProcess(server.pid!)
       const started = performance.now()
       await setStatus('active')
       const deadline = started + 300_000
       while (inbox.worker.size < owed && performance.now() < deadline) await sleep(5)
       workerSeconds = (performance.now() - started) / 1000
-      workerCpu = cpuShares(cpuBefore, cpuSeconds(server.pid!), workerSeconds)
+      workerCpu = cpuShares(cpuBefore, cpuByProcess(server.pid!), workerSeconds)
 
       // The bare sender: the same signed bodies, the same concurrency, straight from this process.
       messages = [...inbox.worker.values()]
       const agent = new Agent({ connections: 64 })
       let i = 0
-      const bareCpuBefore = cpuSeconds(server.pid!)
+      const bareCpuBefore = cpuByProcess(server.pid!)
       const bareStarted = performance.now()
       await Promise.all(Array.from({ length: CONCURRENCY }, async () => {
         while (i < messages.length) {
@@ -138,14 +138,14 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
         }
       }))
       bareSeconds = (performance.now() - bareStarted) / 1000
-      bareCpu = cpuShares(bareCpuBefore, cpuSeconds(server.pid!), bareSeconds)
+      bareCpu = cpuShares(bareCpuBefore, cpuByProcess(server.pid!), bareSeconds)
       await agent.close()
       await setStatus('paused')
     }
 
     if (parts.has('loop')) {
       // The worker's send path alone, in the server: as many messages, the same body and concurrency.
-      const loopCpuBefore = cpuSeconds(server.pid!)
+      const loopCpuBefore = cpuByProcess(server.pid!)
       const loopStarted = performance.now()
       const loop: BenchSendLoop = { url: `http://127.0.0.1:${SINK_PORT}/loop`, count: messages.length, concurrency: CONCURRENCY, body: messages[0]!.body }
       const loopAnswer = await fetch(`${base}/_bench/send-loop`, { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(loop) })
@@ -153,7 +153,7 @@ export async function benchDelivery(opts: { acquisitions?: number, endpoints?: n
       const { classes } = await loopAnswer.json() as { classes: Record<string, number> }
       if (classes.success !== loop.count) throw new Error(`the send loop's sends did not all succeed: ${JSON.stringify(classes)}`)
       loopSeconds = (performance.now() - loopStarted) / 1000
-      loopCpu = cpuShares(loopCpuBefore, cpuSeconds(server.pid!), loopSeconds)
+      loopCpu = cpuShares(loopCpuBefore, cpuByProcess(server.pid!), loopSeconds)
     }
 
     if (parts.has('peer')) {

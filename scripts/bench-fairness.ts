@@ -16,7 +16,7 @@ import { join } from 'node:path'
 import { setTimeout as sleep } from 'node:timers/promises'
 import postgres from 'postgres'
 import { buildIfStale } from './lib/build'
-import { cpuSeconds, cpuShares } from './lib/cpu'
+import { cpuByProcess, cpuShares } from './lib/cpu'
 import { demoInstruments, thousandPointAcquisition } from './lib/demo-instruments'
 import { demoAdmin } from './lib/console-client'
 import { quantile } from './lib/open-loop'
@@ -95,7 +95,7 @@ export async function benchFairness(opts: { rate?: number, seconds?: number } = 
       const count = rate * seconds
       const answered = new Map<string, { at: number, lab: number }>()
       const posts: Promise<void>[] = []
-      const cpuBefore = cpuSeconds(server.pid!)
+      const cpuBefore = cpuByProcess(server.pid!)
       const started = performance.now()
       for (let n = 0; n < count; n++) {
         const runId = `fair-${name}-${process.pid}-${n}`
@@ -106,7 +106,7 @@ export async function benchFairness(opts: { rate?: number, seconds?: number } = 
       const postedPerSecond = Math.round(count / ((performance.now() - started) / 1000))
       const deadline = performance.now() + 30_000
       while ([...answered.keys()].some(id => !arrived.has(id)) && performance.now() < deadline) await sleep(20)
-      const cpu = cpuShares(cpuBefore, cpuSeconds(server.pid!), (performance.now() - started) / 1000)
+      const cpu = cpuShares(cpuBefore, cpuByProcess(server.pid!), (performance.now() - started) / 1000)
       const delays = (filter: (lab: number) => boolean) => [...answered].filter(([id, a]) => filter(a.lab) && arrived.has(id)).map(([id, a]) => Math.max(0, arrived.get(id)! - a.at)).sort((x, y) => x - y)
       const summary = (sorted: number[]) => ({ p50: Math.round(quantile(sorted, 0.5)), p99: Math.round(quantile(sorted, 0.99)), max: Math.round(sorted.at(-1) ?? NaN) })
       const all = delays(() => true)

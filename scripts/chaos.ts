@@ -258,6 +258,23 @@ try {
       }],
       [0.80, 'web B killed (SIGKILL) and restarted', () => killAndRestart('B')],
     ]
+    // Each endpoint's circuit, sampled every second: how long it was open, its most failures
+    // in a row, and when it was disabled. (The second 100,000 run disabled "flaky", which
+    // answers 2xx to most messages; its circuit had to be watched to see why.)
+    const circuits = Object.fromEntries(endpointNames.map(n => [n, { openSeconds: 0, maxConsecutiveFailures: 0, disabledAtSecond: null as number | null, disabledReason: null as string | null }]))
+    const nameOf = new Map(Object.entries(endpointIds).map(([n, id]) => [id, n]))
+    const circuitOpenAt = 10 // webhooks.circuitFailures, nuxt.config.ts
+    const sampler = setInterval(() => {
+      void sql<{ id: string, status: string, consecutive_failures: number, blocked: boolean, disabled_reason: string | null }[]>`select id, status, consecutive_failures, coalesce(blocked_until > now(), false) as blocked, disabled_reason from webhook_endpoints where id = any(${Object.values(endpointIds)}::uuid[])`
+        .then((rows) => {
+          for (const r of rows) {
+            const c = circuits[nameOf.get(r.id)!]!
+            c.maxConsecutiveFailures = Math.max(c.maxConsecutiveFailures, r.consecutive_failures)
+            if (r.blocked && r.consecutive_failures >= circuitOpenAt) c.openSeconds++
+            if (r.status === 'disabled' && c.disabledAtSecond === null) Object.assign(c, { disabledAtSecond: Math.round((Date.now() - soakStart) / 1000), disabledReason: r.disabled_reason })
+          }
+        }, () => { /* PostgreSQL restarting: the next sample reads again */ })
+    }, 1000)
     const soakStart = Date.now()
     mark('steady')
     const faultRun = (async () => {
@@ -286,6 +303,7 @@ try {
       await sleep(1000)
     }
     const settledAt = performance.now()
+    clearInterval(sampler)
     const [counts] = await sql`select
       (select count(*)::int from events) as events,
       (select count(*)::int from deliveries where event_id is not null) as owed,
@@ -362,13 +380,14 @@ try {
       acquisitions: ACQUISITIONS, ratePerSecond: RATE, seconds: Math.round(SECONDS), storeOutageSeconds: STORE_OUTAGE_SECONDS, processes: roles, endpoints: endpointNames.length,
       acquisitionsAccepted: accepted.size, eventsIngested: counts!.events, deliveriesOwed: counts!.owed, delivered: deliveredDistinct,
       duplicates, runsUnderTwoWebhookIds: runsUnderTwoIds, dead, deadExpected: owedToNever, deadElsewhere, stillPending: counts!.pending, succeededButNotReceived: succeededUnseen, lost,
-      posts: tries, restarts, rawData, phases,
+      posts: tries, restarts, rawData, phases, circuits,
     }
     const soakChecks = {
       'the soak ingested and delivered something': accepted.size > 0 && deliveredDistinct > 0 && owedToNever > 0,
       'lost = 0': lost === 0,
       'duplicates only with the same webhook-id': runsUnderTwoIds === 0,
       'dead = deliveries to "never"': dead === owedToNever && deadElsewhere === 0,
+      'no endpoint but "never" disabled (each of the others answers 2xx)': Object.entries(circuits).every(([n, c]) => n === 'never' || c.disabledAtSecond === null),
       'nothing still pending': counts!.pending === 0,
       'every succeeded delivery was received': succeededUnseen === 0,
       'every accepted acquisition has its event': counts!.events === accepted.size,
@@ -517,6 +536,7 @@ try {
       'steady p50 ms': p.steadyIngestToReceiptMs.p50, 'steady p99 ms': p.steadyIngestToReceiptMs.p99, 'all p99 ms': p.allIngestToReceiptMs.p99,
     }])))
     console.log(`  restarts: ${Object.entries(soak.restarts).map(([k, v]) => `${k} ×${v}`).join('; ')}`)
+    console.log(`  circuits (s open, most failures in a row, disabled at s): ${Object.entries(soak.circuits).map(([n, c]) => `${n} ${c.openSeconds}/${c.maxConsecutiveFailures}${c.disabledAtSecond === null ? '' : `/${c.disabledAtSecond}`}`).join(', ')}`)
   }
   for (const [check, ok] of Object.entries(checks)) console.log(`  ${ok ? 'ok  ' : 'FAIL'} ${check}`)
   if (fuzz.examples.length) console.log(`  examples:\n    ${fuzz.examples.join('\n    ')}`)
@@ -527,7 +547,10 @@ catch (error) {
   exitCode = 1
 }
 finally {
-  await sql.end()
+  // Bounded: once (2026-12-03, 22:23 UTC, after a full run's report) sql.end() waited on its
+  // connections for minutes with every check met, holding the machine's shared lock; postgres.js
+  // closes what is left after the timeout (seconds).
+  await sql.end({ timeout: 5 })
   for (const child of Object.values(processes)) child?.kill('SIGTERM')
   await sleep(500)
   await stack.stop()

@@ -10,16 +10,12 @@ const clockTicks = Number(execFileSync('getconf', ['CLK_TCK'], { encoding: 'utf8
 
 export type CpuSeconds = Record<'server' | 'bench' | 'postgres' | 'store' | 'other', number>
 
-/** `storePid`: the object-store fake's process when it runs apart (else counted as bench). */
-export function cpuSeconds(serverPid: number, storePid?: number): CpuSeconds {
-  const out: CpuSeconds = { server: 0, bench: 0, postgres: 0, store: 0, other: 0 }
-  for (const p of cpuByProcess(serverPid, storePid).values()) out[p.group] += p.seconds
-  return out
-}
-
 export type CpuByProcess = Map<number, { group: keyof CpuSeconds, seconds: number }>
 
-/** Each process's CPU time so far, with its group. */
+/**
+ * Each process's CPU time so far, with its group. `storePid`: the object-store fake's process
+ * when it runs apart (else counted as bench).
+ */
 export function cpuByProcess(serverPid: number, storePid?: number): CpuByProcess {
   const out: CpuByProcess = new Map()
   for (const entry of readdirSync('/proc')) {
@@ -48,8 +44,13 @@ export function cpuSpent(before: CpuByProcess, after: CpuByProcess): CpuSeconds 
   return out
 }
 
-/** Each group's share of one core between two readings, in per cent. */
-export function cpuShares(before: CpuSeconds, after: CpuSeconds, seconds: number): Record<keyof CpuSeconds, number> {
-  const share = (k: keyof CpuSeconds) => Math.round((after[k] - before[k]) / seconds * 100)
+/**
+ * Each group's share of one core between two readings, in per cent, process by process as
+ * cpuSpent counts. (Differences of the groups' totals let "other" go negative when one of its
+ * processes, a build of another session, ended between the readings.)
+ */
+export function cpuShares(before: CpuByProcess, after: CpuByProcess, seconds: number): Record<keyof CpuSeconds, number> {
+  const spent = cpuSpent(before, after)
+  const share = (k: keyof CpuSeconds) => Math.round(spent[k] / seconds * 100)
   return { server: share('server'), bench: share('bench'), postgres: share('postgres'), store: share('store'), other: share('other') }
 }

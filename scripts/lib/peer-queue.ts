@@ -2,7 +2,7 @@ import { setTimeout as sleep } from 'node:timers/promises'
 import { Logger, run, runMigrations } from 'graphile-worker'
 import postgres from 'postgres'
 import { Agent, request } from 'undici'
-import { cpuSeconds, cpuShares } from './cpu'
+import { cpuByProcess, cpuShares } from './cpu'
 
 // The delivery benchmark's peer: graphile-worker 0.16 (the PostgreSQL job queue for Node.js;
 // 0.17 needs Node 22) delivering the same signed messages as Arcwise's worker, at the same
@@ -28,7 +28,7 @@ export async function drainThroughPeer(opts: { databaseUrl: string, url: string,
       await sql`select count(*) from graphile_worker.add_jobs(array(
         select row('deliver', p, null, null, null, null, null, null)::graphile_worker.job_spec from json_array_elements(${chunk}::text::json) p))`
     }
-    const cpuBefore = cpuSeconds(opts.serverPid)
+    const cpuBefore = cpuByProcess(opts.serverPid)
     const started = performance.now()
     const runner = await run({
       connectionString: opts.databaseUrl, concurrency: opts.concurrency, logger: silent, noHandleSignals: true,
@@ -46,7 +46,7 @@ export async function drainThroughPeer(opts: { databaseUrl: string, url: string,
     const deadline = started + 300_000
     while (opts.received() < opts.messages.length && performance.now() < deadline) await sleep(5)
     const seconds = (performance.now() - started) / 1000
-    const cpu = cpuShares(cpuBefore, cpuSeconds(opts.serverPid), seconds)
+    const cpu = cpuShares(cpuBefore, cpuByProcess(opts.serverPid), seconds)
     // Every job finished (graphile-worker deletes a completed job) before the runner stops.
     while (performance.now() < deadline && (await sql`select count(*)::int as n from graphile_worker._private_jobs`)[0]!.n > 0) await sleep(20)
     await runner.stop()

@@ -38,8 +38,10 @@ export const webhookEndpoints = pgTable('webhook_endpoints', {
   ordered: boolean('ordered').notNull().default(false),
   // Nothing is sent before this time: a Retry-After (429, 503), or the circuit's next probe.
   blockedUntil: timestamp('blocked_until', { withTimezone: true }),
-  // Failed attempts since the last success; at `webhooks.circuitFailures` the circuit opens
-  // and one delivery probes the endpoint before the backlog is sent.
+  // Failed first tries since the last success (a retry's failure is no news about the
+  // endpoint, except an ordered one's; delivery/record.ts, endpointHealth); at
+  // `webhooks.circuitFailures` the circuit opens and one delivery probes the endpoint before
+  // the backlog is sent.
   consecutiveFailures: integer('consecutive_failures').notNull().default(0),
   createdBy: uuid('created_by').references(() => users.id, { onDelete: 'set null' }),
   createdAt: createdAt(),

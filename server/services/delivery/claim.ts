@@ -8,7 +8,7 @@ import { deliverySettings, workerId } from './settings'
 // worker process) than its limit, nor more than its rate allows, nor any while it is blocked
 // (Retry-After, or its circuit waiting for the next probe); within those bounds each endpoint
 // gives one delivery per turn, so no endpoint takes more than its share while others have
-// due work.
+// due work. A probe through an open circuit is a message never tried where one is due.
 
 export type Claimed = BodySource & {
   id: string
@@ -31,6 +31,12 @@ export type Claimed = BodySource & {
 // apart, and sends and records do not take it.
 const CLAIM_LOCK = 'delivery:claim'
 
+// How many of an endpoint's earliest due deliveries a probe through its open circuit looks
+// among for a message never tried: enough to see past the retries that come due together
+// after a burst of failures, few enough that the claim's walk of the due index stays short
+// behind a backlog of thousands (common practice, no source).
+const PROBE_WINDOW = 64
+
 /** Claims up to `limit` due deliveries of active endpoints for this worker, leased for `leaseSeconds`. */
 export async function claimDueDeliveries(limit: number, leaseSeconds: number): Promise<Claimed[]> {
   const { endpointInFlight, circuitFailures } = deliverySettings()
@@ -46,7 +52,7 @@ export async function claimDueDeliveries(limit: number, leaseSeconds: number): P
       with room as (
         -- Each endpoint's free slots: its limit (one for an ordered endpoint and for a probe
         -- through an open circuit) less its deliveries leased now, read on deliveries_endpoint_leased_idx.
-        select e.id, e.ordered, e.rate_per_second, e.rate_next_at,
+        select e.id, e.ordered, e.rate_per_second, e.rate_next_at, e.consecutive_failures >= ${circuitFailures} as probe,
           (case when e.ordered or e.consecutive_failures >= ${circuitFailures} then 1 else coalesce(e.max_in_flight, ${endpointInFlight}) end)
           - (select count(*) from ${deliveries} l where l.endpoint_id = e.id and l.status = 'pending' and l.lease_until is not null and l.lease_until >= now())::int as free
         from ${webhookEndpoints} e
@@ -54,7 +60,7 @@ export async function claimDueDeliveries(limit: number, leaseSeconds: number): P
       allowed as (
         -- And no more than its rate allows now: a generic cell rate algorithm (ITU-T I.371)
         -- with a burst of one second's sends, at least one.
-        select r.id, r.ordered, least(r.free, case when r.rate_per_second is null then r.free else floor(r.rate_per_second
+        select r.id, r.ordered, r.probe, least(r.free, case when r.rate_per_second is null then r.free else floor(r.rate_per_second
           * (extract(epoch from now() - greatest(coalesce(r.rate_next_at, now()), now())) + greatest(1, 1 / r.rate_per_second)))::int end) as n
         from room r where r.free > 0),
       candidates as (
@@ -63,8 +69,20 @@ export async function claimDueDeliveries(limit: number, leaseSeconds: number): P
           -- first, then every endpoint's second, and so on.
           select x.id, x.created_at, row_number() over (order by x.next_attempt_at) as turn from (
             select d.id, d.created_at, d.next_attempt_at from ${deliveries} d
-            where not a.ordered and d.endpoint_id = a.id and d.status = 'pending' and d.next_attempt_at <= now() and (d.lease_until is null or d.lease_until < now())
+            where not a.ordered and not a.probe and d.endpoint_id = a.id and d.status = 'pending' and d.next_attempt_at <= now() and (d.lease_until is null or d.lease_until < now())
             order by d.next_attempt_at limit greatest(a.n, 0)) x
+          union all
+          -- A probe through an open circuit: a message never tried (or a replay) if one is among
+          -- the endpoint's PROBE_WINDOW earliest due, the earliest such; else the earliest due.
+          -- A retry failed before and may fail again for its own sake; probing with retries
+          -- alone kept a circuit open while the endpoint took new messages (record.ts,
+          -- endpointHealth). The window bounds the walk of the due index behind a long backlog.
+          select q.id, q.created_at, 1 from (
+            select p.id, p.created_at from (
+              select d.id, d.created_at, d.next_attempt_at, d.attempts, d.replay_requested from ${deliveries} d
+              where not a.ordered and a.probe and d.endpoint_id = a.id and d.status = 'pending' and d.next_attempt_at <= now() and (d.lease_until is null or d.lease_until < now())
+              order by d.next_attempt_at limit ${PROBE_WINDOW}) p
+            order by (p.attempts > 0 and not p.replay_requested), p.next_attempt_at limit greatest(a.n, 0)) q
           union all
           -- An ordered endpoint: its oldest waiting delivery (events in the order recorded, a
           -- lab's by its sequence), and only once due; nothing after it goes first.

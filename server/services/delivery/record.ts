@@ -2,6 +2,7 @@ import { and, eq, inArray, sql } from 'drizzle-orm'
 import { deliveries, deliveryAttempts, partners, users, webhookEndpoints } from '../../database/schema'
 import { linkMail, queueMail } from '../mail'
 import { observeDeliveryAttempt } from '../metrics'
+import { endpointHealth } from './health'
 import { nextDelaySeconds } from './retry'
 import type { Sent } from './send'
 import { deliverySettings, workerId } from './settings'
@@ -66,7 +67,7 @@ export async function recordAttempts(sent: Sent[]) {
       insert into ${deliveryAttempts} (delivery_id, delivery_created_at, number, duration_ms, class, status_code, error, response_excerpt, request_headers, request_body, replay)
       select upd.id, upd.created_at, upd.attempts, r.duration, r.cls, r.code, r.error, r.excerpt, r.headers, r.body, r.replay
       from upd, o, jsonb_to_record(o.by_id -> upd.id::text) as r(cls text, code int, error text, excerpt text, headers jsonb, body text, duration int, replay boolean)),
-    h as (select * from jsonb_to_recordset(${JSON.stringify(health)}::jsonb) as h(id uuid, ok boolean, failures int, wait float8)),
+    h as (select * from jsonb_to_recordset(${JSON.stringify(health)}::jsonb) as h(id uuid, ok boolean, failures int, retry_failures int, wait float8)),
     -- The endpoints this changes, locked in id order: records and claims in other processes
     -- lock endpoints in the same order, so they cannot deadlock. FOR NO KEY UPDATE, not FOR
     -- UPDATE: ingest's fan-out takes FOR KEY SHARE on endpoint rows (the deliveries' foreign
@@ -74,16 +75,19 @@ export async function recordAttempts(sent: Sent[]) {
     locked as (
       select e.id from ${webhookEndpoints} e join h on h.id = e.id
       where not h.ok or h.wait is not null or e.failing_since is not null or e.consecutive_failures > 0
-      order by e.id for no key update of e)
-    -- A success closes the circuit; failures count towards opening it (and each failure once
-    -- it is open waits a probe interval); Retry-After blocks the endpoint until then.
+      order by e.id for no key update of e),
+    -- A success closes the circuit; failures of first tries count towards opening it (a
+    -- retry's too at an ordered endpoint, whose head is all it sends; see endpointHealth), and
+    -- any failure once it is open waits a probe interval; Retry-After blocks the endpoint until then.
+    counted as (select h.id, case when e.ordered then h.failures + h.retry_failures else h.failures end as failures
+      from h join ${webhookEndpoints} e on e.id = h.id)
     update ${webhookEndpoints} e set
       failing_since = case when h.ok then null else e.failing_since end,
-      consecutive_failures = case when h.ok then 0 else e.consecutive_failures + h.failures end,
+      consecutive_failures = case when h.ok then 0 else e.consecutive_failures + c.failures end,
       blocked_until = greatest(e.blocked_until,
         case when h.wait is not null then now() + make_interval(secs => h.wait) end,
-        case when not h.ok and e.consecutive_failures + h.failures >= ${circuitFailures} then now() + make_interval(secs => ${circuitProbeSeconds}) end)
-    from h where e.id = h.id and e.id = any(array(select id from locked))`)
+        case when not h.ok and e.consecutive_failures + c.failures >= ${circuitFailures} then now() + make_interval(secs => ${circuitProbeSeconds}) end)
+    from h join counted c on c.id = h.id where e.id = h.id and e.id = any(array(select id from locked))`)
   // Endpoints without a success in this group: their failure clocks start (if not running).
   const failing = health.filter(h => !h.ok && rows.some(r => r.endpoint === h.id && r.cls !== 'success' && !r.gone)).map(h => h.id)
   const gone = [...new Set(rows.filter(r => r.gone).map(r => r.endpoint))]
@@ -106,30 +110,6 @@ export async function recordAttempts(sent: Sent[]) {
     for (const endpoint of gone) await disableEndpoint(tx, endpoint, 'the receiver answered 410 Gone')
   })
   logRecorded()
-}
-
-/** The longest an endpoint waits for a Retry-After (a day, as a delivery's wait is capped in retry.ts). */
-const MAX_ENDPOINT_WAIT_S = 86_400
-// A 429 without Retry-After still slows the endpoint down (common practice, no source).
-const THROTTLED_WAIT_S = 1
-
-/**
- * What a group of attempts says about each endpoint: whether one succeeded, how many failed
- * (a 429 asks the sender to slow down and does not count towards the circuit), and how long
- * the endpoint asked to be left alone (Retry-After on any answer, or 1 s for a bare 429).
- */
-export function endpointHealth(sent: Pick<Sent, 'row' | 'outcome'>[]) {
-  const by = new Map<string, { id: string, ok: boolean, failures: number, wait: number | null }>()
-  for (const { row, outcome } of sent) {
-    const h = by.get(row.endpoint_id) ?? { id: row.endpoint_id, ok: false, failures: 0, wait: null }
-    by.set(row.endpoint_id, h)
-    const throttled = outcome.statusCode === 429
-    if (outcome.class === 'success') h.ok = true
-    else if (!throttled && outcome.class !== 'guard-refused') h.failures++
-    const wait = outcome.retryAfterS ?? (throttled ? THROTTLED_WAIT_S : null)
-    if (wait !== null && outcome.class !== 'success') h.wait = Math.min(MAX_ENDPOINT_WAIT_S, Math.max(h.wait ?? 0, wait))
-  }
-  return [...by.values()]
 }
 
 /**
