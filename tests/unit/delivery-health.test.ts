@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest'
-import { endpointHealth, type SentAttempt } from '../../server/services/delivery/health'
+import { endpointHealth, noSuccessReason, type SentAttempt } from '../../server/services/delivery/health'
 
 // What a group of recorded attempts says about each endpoint's circuit (record.ts). Only a
 // message's first try (or a replay) counts towards opening it: a retry failed before, so its
@@ -32,4 +32,13 @@ describe('endpointHealth', () => {
       { id: 'b', ok: true, failures: 0, retry_failures: 1, wait: null },
     ])
   })
+})
+
+describe('noSuccessReason', () => {
+  it.each([
+    [72 * 3600_000, 'no delivery succeeded for 72 hours'],
+    [0.02 * 3600_000, 'no delivery succeeded for 1.2 minutes'],
+    [30_000, 'no delivery succeeded for 30 seconds'],
+    [90 * 60_000, 'no delivery succeeded for 1.5 hours'],
+  ])('%d ms reads "%s"', (ms, reason) => expect(noSuccessReason(ms)).toBe(reason))
 })

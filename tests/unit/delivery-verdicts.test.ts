@@ -23,7 +23,7 @@ describe('why a delivery stopped', () => {
     ['the endpoint disabled', { attempts: 2, endpoint: { ...base.endpoint, status: 'disabled', disabledReason: 'no delivery succeeded for 72 hours' } }, /endpoint was disabled \(no delivery succeeded for 72 hours\)/],
     ['disabled, then resumed', { attempts: 2 }, /Stopped after 2 of 4 attempts: the endpoint was disabled then/],
     ['a test message', { eventId: null, attempts: 1 }, /test message is sent once and never retried: the receiver answered HTTP 500/],
-    ['the circuit open', { status: 'pending', attempts: 2, endpoint: { ...base.endpoint, blockedUntil: new Date('2026-12-03T12:00:30Z'), consecutiveFailures: 25 } }, /circuit is open after 25 failures in a row; one probe is sent at 2026-12-03 12:00:30 UTC/],
+    ['the circuit open', { status: 'pending', attempts: 2, endpoint: { ...base.endpoint, blockedUntil: new Date('2026-12-03T12:00:30Z'), consecutiveFailures: 25 } }, /circuit is open after 25 messages in a row failed on first try; one probe is sent at 2026-12-03 12:00:30 UTC/],
     ['Retry-After', { status: 'pending', attempts: 1, endpoint: { ...base.endpoint, blockedUntil: new Date('2026-12-03T12:05:00Z'), consecutiveFailures: 1 } }, /asked Arcwise to wait until 2026-12-03 12:05:00 UTC \(Retry-After\)/],
     ['a replay waiting for a disabled endpoint', { status: 'pending', attempts: 1, endpoint: { ...base.endpoint, status: 'disabled', disabledReason: 'the receiver answered 410 Gone' } }, /Waiting: the endpoint is disabled \(the receiver answered 410 Gone\); it is sent once the endpoint is resumed/],
     ['paused', { status: 'pending', attempts: 0, endpoint: { ...base.endpoint, status: 'paused' } }, /endpoint is paused/],

@@ -43,3 +43,13 @@ export function endpointHealth(sent: SentAttempt[]) {
   }
   return [...by.values()]
 }
+
+/**
+ * Why the worker disabled an endpoint that has had no success for `afterMs`, in the unit an
+ * operator would set it in: "72 hours" by default, "72 seconds" in a soak (rounding to whole
+ * hours once said "0 hours").
+ */
+export function noSuccessReason(afterMs: number) {
+  const [amount, unit] = afterMs >= 3600_000 ? [afterMs / 3600_000, 'hours'] : afterMs >= 60_000 ? [afterMs / 60_000, 'minutes'] : [afterMs / 1000, 'seconds']
+  return `no delivery succeeded for ${Number(amount.toFixed(1))} ${unit}`
+}

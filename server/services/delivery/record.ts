@@ -2,7 +2,7 @@ import { and, eq, inArray, sql } from 'drizzle-orm'
 import { deliveries, deliveryAttempts, partners, users, webhookEndpoints } from '../../database/schema'
 import { linkMail, queueMail } from '../mail'
 import { observeDeliveryAttempt } from '../metrics'
-import { endpointHealth } from './health'
+import { endpointHealth, noSuccessReason } from './health'
 import { nextDelaySeconds } from './retry'
 import type { Sent } from './send'
 import { deliverySettings, workerId } from './settings'
@@ -103,7 +103,7 @@ export async function recordAttempts(sent: Sent[]) {
         .where(inArray(webhookEndpoints.id, failing)).returning({ id: webhookEndpoints.id, failingSince: webhookEndpoints.failingSince })
       for (const ep of clocks) {
         if (ep.failingSince && Date.now() - ep.failingSince.getTime() >= disableAfterMs) {
-          await disableEndpoint(tx, ep.id, `no delivery succeeded for ${Math.round(disableAfterMs / 3600_000)} hours`)
+          await disableEndpoint(tx, ep.id, noSuccessReason(disableAfterMs))
         }
       }
     }

@@ -40,7 +40,7 @@ export function stopReason(f: StopFacts, s: StopSettings, now = new Date()): str
   if (f.endpoint.status === 'paused') return 'Waiting: the endpoint is paused; it is sent when the endpoint is resumed.'
   if (f.endpoint.status === 'disabled') return `Waiting: the endpoint is disabled (${f.endpoint.disabledReason ?? 'by its owner'}); it is sent once the endpoint is resumed.`
   const blocked = f.endpoint.blockedUntil && f.endpoint.blockedUntil > now ? f.endpoint.blockedUntil : null
-  if (blocked && f.endpoint.consecutiveFailures >= s.circuitFailures) return `Waiting: the endpoint's circuit is open after ${f.endpoint.consecutiveFailures} failures in a row; one probe is sent at ${when(blocked)} before the backlog.`
+  if (blocked && f.endpoint.consecutiveFailures >= s.circuitFailures) return `Waiting: the endpoint's circuit is open after ${f.endpoint.consecutiveFailures} messages in a row failed on first try; one probe is sent at ${when(blocked)} before the backlog.`
   if (blocked) return `Waiting: the receiver asked Arcwise to wait until ${when(blocked)} (Retry-After).`
   if (!f.attempts) return `Not tried yet: due at ${when(f.nextAttemptAt)}.`
   return `Retrying: attempt ${f.attempts + 1} of at most ${s.schedule.length + 1} at ${when(f.nextAttemptAt)}${last ? `; the last answered ${answered(last)}` : ''}.`
