@@ -3,6 +3,8 @@ import { mkdtempSync, rmSync } from 'node:fs'
 import { createServer, request, type IncomingHttpHeaders, type Server } from 'node:http'
 import { tmpdir } from 'node:os'
 import { join } from 'node:path'
+import { S3Client } from '@aws-sdk/client-s3'
+import { SignatureV4 } from '@smithy/signature-v4'
 import { afterAll, describe, expect, it } from 'vitest'
 import { decodeArrays } from '../../server/services/store/arrays'
 import { startStoreFake, storeEnv, type StoreFake } from '../../scripts/lib/store-fake'
@@ -14,8 +16,9 @@ import { testStore } from '../support/store'
 // by the server itself (Signature Version 4) and sent over undici, not through the SDK. This
 // file's server talks to an s3rver of its own through a recording proxy in front of it, so
 // the test sees each request as the store receives it, and can make the store refuse,
-// fail or vanish. s3rver checks the signature (not the payload hash), so a 201 here means
-// s3rver accepted the server's own signature.
+// fail or vanish. s3rver 3.7 does not verify Signature Version 4 (its authentication
+// middleware says "unimplemented") nor the payload's hash, so the test checks each PUT's
+// signature itself with the SDK's own signer (@smithy/signature-v4) and the store's credentials.
 const STORE_PORT = 4578
 const PROXY_PORT = 4579
 const directory = mkdtempSync(join(tmpdir(), 'arcwise-lean-put-'))
@@ -24,7 +27,7 @@ const fake: StoreFake = await startStoreFake({ port: STORE_PORT, directory })
 interface Seen { method: string, path: string, headers: IncomingHttpHeaders, bodySha256: string, bytes: number }
 const seen: Seen[] = []
 /** What the proxy does to the next PUTs, one entry a PUT; empty: pass them on. */
-const faults: ('fail-500' | 'bad-signature')[] = []
+const faults: ('fail-500' | 'refuse-403')[] = []
 const sha256 = (data: Buffer | string) => createHash('sha256').update(data).digest('hex')
 
 function startProxy(): Promise<Server> {
@@ -35,14 +38,16 @@ function startProxy(): Promise<Server> {
       const body = Buffer.concat(chunks)
       seen.push({ method: req.method!, path: req.url!, headers: req.headers, bodySha256: sha256(body), bytes: body.length })
       const fault = req.method === 'PUT' ? faults.shift() : undefined
+      // The answers of AWS S3 to a failure of its own and to a request whose signature it refuses.
       if (fault === 'fail-500') {
         res.writeHead(500, { 'content-type': 'application/xml' })
         return res.end('<?xml version="1.0" encoding="UTF-8"?><Error><Code>InternalError</Code><Message>We encountered an internal error. Please try again.</Message></Error>')
       }
-      const headers = { ...req.headers }
-      // One hex digit of the signature changed: the store must refuse the request.
-      if (fault === 'bad-signature') headers.authorization = headers.authorization!.replace(/Signature=([0-9a-f])/, (_m, c: string) => `Signature=${c === '0' ? '1' : '0'}`)
-      const upstream = request({ host: '127.0.0.1', port: STORE_PORT, method: req.method, path: req.url, headers }, (up) => {
+      if (fault === 'refuse-403') {
+        res.writeHead(403, { 'content-type': 'application/xml' })
+        return res.end('<?xml version="1.0" encoding="UTF-8"?><Error><Code>SignatureDoesNotMatch</Code><Message>The request signature we calculated does not match the signature you provided.</Message></Error>')
+      }
+      const upstream = request({ host: '127.0.0.1', port: STORE_PORT, method: req.method, path: req.url, headers: req.headers }, (up) => {
         res.writeHead(up.statusCode!, up.headers)
         up.pipe(res)
       })
@@ -67,6 +72,20 @@ const env = storeEnv(PROXY_PORT)
 await useArcwise({ env })
 // Read straight from s3rver, past the proxy.
 const store = testStore({ ...env, NUXT_STORE_ENDPOINT: `http://127.0.0.1:${STORE_PORT}` })
+
+/** The Authorization header the SDK's signer gives the request as received, over the headers it says it signed. */
+async function sdkSignature(put: Seen): Promise<string> {
+  const signedNames = /SignedHeaders=([^,]+),/.exec(put.headers.authorization!)![1]!.split(';')
+  const headers = Object.fromEntries(signedNames.map(n => [n, String(put.headers[n])]))
+  const stamp = put.headers['x-amz-date'] as string
+  const signingDate = new Date(`${stamp.slice(0, 4)}-${stamp.slice(4, 6)}-${stamp.slice(6, 8)}T${stamp.slice(9, 11)}:${stamp.slice(11, 13)}:${stamp.slice(13, 15)}Z`)
+  const signer = new SignatureV4({
+    credentials: { accessKeyId: env.NUXT_STORE_ACCESS_KEY_ID!, secretAccessKey: env.NUXT_STORE_SECRET_ACCESS_KEY! },
+    region: env.NUXT_STORE_REGION!, service: 's3', sha256: new S3Client({ region: 'us-east-1' }).config.sha256, uriEscapePath: false,
+  })
+  const signed = await signer.sign({ method: put.method, protocol: 'http:', hostname: '127.0.0.1', port: PROXY_PORT, path: put.path, query: {}, headers }, { signingDate })
+  return signed.headers.authorization!
+}
 
 const post = (secret: string, body: unknown) => new ConsoleClient().request('POST', '/api/v1/acquisitions', body, bearer(secret))
 const putsSince = (from: number) => seen.slice(from).filter(s => s.method === 'PUT')
@@ -95,6 +114,7 @@ describe('the lean PUT of an acquisition\'s objects', () => {
       const signedHeaders = /SignedHeaders=([^,]+),/.exec(put.headers.authorization!)![1]!.split(';')
       expect(signedHeaders).toEqual(expect.arrayContaining(['host', 'x-amz-content-sha256', 'x-amz-checksum-sha256', 'x-amz-date', 'content-type']))
       expect(put.headers.authorization).toMatch(/^AWS4-HMAC-SHA256 Credential=S3RVER\/\d{8}\/us-east-1\/s3\/aws4_request, /)
+      expect(put.headers.authorization).toBe(await sdkSignature(put))
     }
     const rawPut = puts.find(p => p.path.includes('/raw/'))!
     expect(rawPut.headers['content-type']).toBe('application/json')
@@ -106,12 +126,17 @@ describe('the lean PUT of an acquisition\'s objects', () => {
     expect(decodeArrays<typeof body>(arrays).detectors[0]!.values).toEqual(body.detectors[0]!.values)
   })
 
-  it('refuses with 503 and stores nothing when the store rejects the signature, and names the store\'s reason', async () => {
+  it('answers 503 naming the store\'s reason when the store refuses the request, tries no second time, and stores nothing', async () => {
     const { key, lab, sql } = await labWithInstrument()
     const body = co2Acquisition()
-    faults.push('bad-signature', 'bad-signature')
+    const from = seen.length
+    faults.push('refuse-403', 'refuse-403')
     const res = await post(key.secret, body)
     faults.length = 0
+    // A refusal is not retried: one PUT of each object (a retry would follow within 100 ms).
+    await expect.poll(() => putsSince(from).length).toBe(2)
+    await new Promise(resolve => setTimeout(resolve, 300))
+    expect(putsSince(from)).toHaveLength(2)
     expect(res.status).toBe(503)
     expect(res.headers.get('retry-after')).toBe('5')
     expect(res.body).toMatchObject({ status: 503, type: 'urn:arcwise:problem:store-unavailable' })
