@@ -126,6 +126,18 @@ describe('the lean PUT of an acquisition\'s objects', () => {
     expect(decodeArrays<typeof body>(arrays).detectors[0]!.values).toEqual(body.detectors[0]!.values)
   })
 
+  it('takes the same bytes from several labs at the same moment: every one accepted, one object a key, readable', async () => {
+    const labs = await Promise.all(Array.from({ length: 6 }, () => labWithInstrument()))
+    const sent = JSON.stringify(co2Acquisition())
+    const answers = await Promise.all(labs.map(l => post(l.key.secret, sent)))
+    expect(answers.map(a => a.status)).toEqual(labs.map(() => 201))
+    const rows = await labs[0]!.sql`select distinct raw_sha256, arrays_sha256 from acquisitions where id in ${labs[0]!.sql(answers.map(a => a.body.id as string))}`
+    expect(rows).toHaveLength(1)
+    expect((await store.bytes(`raw/${rows[0]!.raw_sha256}`)).toString('utf8')).toBe(sent)
+    expect(sha256(await store.bytes(`arrays/${rows[0]!.arrays_sha256}`))).toBe(rows[0]!.arrays_sha256)
+    expect(await store.keys(`raw/${rows[0]!.raw_sha256}`)).toHaveLength(1)
+  })
+
   it('answers 503 naming the store\'s reason when the store refuses the request, tries no second time, and stores nothing', async () => {
     const { key, lab, sql } = await labWithInstrument()
     const body = co2Acquisition()

@@ -5,6 +5,7 @@ import { Upload } from '@aws-sdk/lib-storage'
 import { sql } from 'drizzle-orm'
 import { storeObjects } from '../../database/schema'
 import { observeStoreCall } from '../metrics'
+import { claimList, freshKeys, type KeyClaim } from './claimPlan'
 import { storeClient } from './client'
 import { LEAN_PUT_MAX_BYTES, leanPut, leanPutAvailable } from './leanPut'
 
@@ -71,27 +72,21 @@ async function timed<T>(op: string, call: () => Promise<T>): Promise<T> {
  *
  * The claims of one turn of the event loop go to PostgreSQL as one statement (batchPerTurn, as
  * the accepted write is grouped): under load one commit, not one per acquisition. Keys are
- * sent once each and in order, so that two such statements lock shared keys in one order; a
- * key that several acquisitions of the turn claim is fresh for the first of them only (the
- * others ask the store before writing, as for any key claimed already).
+ * sent once each and in order, and a key that several acquisitions of the turn claim is fresh
+ * for the first of them only (./claimPlan.ts).
  */
-export async function claimObjects(objects: { key: string, bytes: number }[]): Promise<Set<string>> {
+export async function claimObjects(objects: KeyClaim[]): Promise<Set<string>> {
   if (!objects.length) return new Set()
   return claimTurn(objects)
 }
 
-const claimTurn = batchPerTurn<{ key: string, bytes: number }[], Set<string>>(async (requests) => {
-  const wanted = new Map<string, number>()
-  for (const request of requests) for (const o of request) if (!wanted.has(o.key)) wanted.set(o.key, o.bytes)
-  const list = [...wanted].sort(([a], [b]) => a < b ? -1 : a > b ? 1 : 0).map(([key, bytes]) => ({ key, bytes }))
+const claimTurn = batchPerTurn<KeyClaim[], Set<string>>(async (requests) => {
   const rows = await useDb().execute<{ key: string, inserted: boolean }>(sql`
     insert into ${storeObjects} (key, bytes, claimed_at)
-    select key, bytes, now() from jsonb_to_recordset(${JSON.stringify(list)}::jsonb) as t(key text, bytes bigint)
+    select key, bytes, now() from jsonb_to_recordset(${JSON.stringify(claimList(requests))}::jsonb) as t(key text, bytes bigint)
     on conflict (key) do update set claimed_at = now()
     returning key, (xmax = 0) as inserted`)
-  const inserted = new Set(rows.filter(r => r.inserted).map(r => r.key))
-  // delete: the first request of a key takes its freshness.
-  return requests.map(request => ({ value: new Set(request.filter(o => inserted.delete(o.key)).map(o => o.key)) }))
+  return freshKeys(requests, rows.filter(r => r.inserted).map(r => r.key)).map(value => ({ value }))
 })
 
 /** The object's size, or null when there is none. */
