@@ -1,4 +1,5 @@
 import { S3Client } from '@aws-sdk/client-s3'
+import { closeLeanPut } from './leanPut'
 
 // One S3 client per process, for any S3-compatible service: AWS S3, MinIO, Ceph, Garage,
 // or the local fake (s3rver) that npm start and npm test run. Settings: runtimeConfig.store
@@ -39,4 +40,5 @@ export function storeClient(): { s3: S3Client, bucket: string } {
 export function closeStore() {
   client?.s3.destroy()
   client = undefined
+  closeLeanPut()
 }

@@ -5,7 +5,9 @@ import { Upload } from '@aws-sdk/lib-storage'
 import { sql } from 'drizzle-orm'
 import { storeObjects } from '../../database/schema'
 import { observeStoreCall } from '../metrics'
+import { claimList, freshKeys, type KeyClaim } from './claimPlan'
 import { storeClient } from './client'
+import { LEAN_PUT_MAX_BYTES, leanPut, leanPutAvailable } from './leanPut'
 
 // Objects are addressed by the SHA-256 of their content: `raw/<sha256>` (the body as the lab
 // sent it) and `arrays/<sha256>` (the parsed body, arrays as float64: ./arrays.ts). The same
@@ -64,19 +66,28 @@ async function timed<T>(op: string, call: () => Promise<T>): Promise<T> {
 
 /**
  * Claims keys before writing them (see above); committed on its own. Returns the keys this
- * statement inserted (rather than found claimed already): `xmax = 0` marks a row version that
- * the INSERT wrote, not the ON CONFLICT update (PostgreSQL's system column; common practice,
- * no source beyond the manual's 5.6 System Columns).
+ * call's claim inserted (rather than found claimed already): `xmax = 0` marks a row version
+ * that the INSERT wrote, not the ON CONFLICT update (PostgreSQL's system column; common
+ * practice, no source beyond the manual's 5.6 System Columns).
+ *
+ * The claims of one turn of the event loop go to PostgreSQL as one statement (batchPerTurn, as
+ * the accepted write is grouped): under load one commit, not one per acquisition. Keys are
+ * sent once each and in order, and a key that several acquisitions of the turn claim is fresh
+ * for the first of them only (./claimPlan.ts).
  */
-export async function claimObjects(objects: { key: string, bytes: number }[]): Promise<Set<string>> {
+export async function claimObjects(objects: KeyClaim[]): Promise<Set<string>> {
   if (!objects.length) return new Set()
+  return claimTurn(objects)
+}
+
+const claimTurn = batchPerTurn<KeyClaim[], Set<string>>(async (requests) => {
   const rows = await useDb().execute<{ key: string, inserted: boolean }>(sql`
     insert into ${storeObjects} (key, bytes, claimed_at)
-    select key, bytes, now() from jsonb_to_recordset(${JSON.stringify(objects)}::jsonb) as t(key text, bytes bigint)
+    select key, bytes, now() from jsonb_to_recordset(${JSON.stringify(claimList(requests))}::jsonb) as t(key text, bytes bigint)
     on conflict (key) do update set claimed_at = now()
     returning key, (xmax = 0) as inserted`)
-  return new Set(rows.filter(r => r.inserted).map(r => r.key))
-}
+  return freshKeys(requests, rows.filter(r => r.inserted).map(r => r.key)).map(value => ({ value }))
+})
 
 /** The object's size, or null when there is none. */
 export async function headObject(kind: ObjectKind, sha256: string): Promise<number | null> {
@@ -92,8 +103,9 @@ export async function headObject(kind: ObjectKind, sha256: string): Promise<numb
 }
 
 /**
- * Stores `data` under its hash unless an object of that hash is there already (deduplication),
- * streamed through lib-storage's Upload (one PUT up to 5 MB, multipart beyond). The caller
+ * Stores `data` under its hash unless an object of that hash is there already (deduplication):
+ * up to 5 MB in one lean signed PUT (./leanPut.ts), larger streamed through lib-storage's
+ * Upload (multipart). The caller
  * has claimed the key (claimObjects). `claimedFresh`: the caller's claim inserted the key's
  * row, so no object of that key can be there (below) and the HEAD is skipped. Fails with 503
  * when the store does not answer.
@@ -111,6 +123,11 @@ export async function putObject(kind: ObjectKind, data: Buffer, contentType: str
   }
   const { s3, bucket } = storeClient()
   try {
+    // Small objects (every acquisition's two) skip the SDK's per-request middleware: ./leanPut.ts.
+    if (data.length <= LEAN_PUT_MAX_BYTES && await leanPutAvailable(s3, bucket)) {
+      await timed('put', () => leanPut(s3, bucket, objectKey(kind, sha256), data, sha256, contentType, { sha256 }))
+      return { sha256, bytes: data.length, written: true }
+    }
     const chunk = 1024 * 1024
     const body = Readable.from((function* () { for (let at = 0; at < data.length; at += chunk) yield data.subarray(at, at + chunk) })())
     await timed('put', () => new Upload({
