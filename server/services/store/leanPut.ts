@@ -1,9 +1,10 @@
 import { Agent, request } from 'undici'
 import type { S3Client } from '@aws-sdk/client-s3'
-import { signRequest } from './sigv4'
+import type { SignatureV4 } from '@smithy/signature-v4'
+import { requestSigner, signRequest } from './sigv4'
 
-// One PUT of a small object, signed here (./sigv4.ts) and sent over a keep-alive undici
-// connection pool, instead of through the SDK's middleware stack. Every acquisition stores
+// One PUT of a small object, signed by the SDK's own signer (./sigv4.ts) and sent over a
+// keep-alive undici connection pool, instead of through the SDK's middleware stack. Every acquisition stores
 // two objects of tens of kilobytes; the SDK spent 0.6–2 ms of CPU on each (endpoint
 // resolution, copies of the client's configuration, a CRC32 of the body and a second SHA-256
 // for the signature), about as much as the engine and the database write of the acquisition
@@ -16,7 +17,7 @@ import { signRequest } from './sigv4'
 /** The largest object sent this way (larger: lib-storage's Upload, multipart beyond 5 MB). */
 export const LEAN_PUT_MAX_BYTES = 5 * 1024 * 1024
 
-interface Target { base: string, region: string, service: string }
+interface Target { base: string, signer: SignatureV4 }
 
 /** The store answered with an S3 error (its Code as the name), or a status without one. */
 export class StoreResponseError extends Error {
@@ -53,7 +54,8 @@ function target(s3: S3Client, bucket: string): Promise<Target | null> {
       const scheme = (resolved.properties?.authSchemes as { name?: string, signingName?: string, signingRegion?: string }[] | undefined)?.[0]
       if (!scheme || scheme.name !== 'sigv4') return null
       const href = resolved.url.href
-      return { base: href.endsWith('/') ? href : `${href}/`, region: scheme.signingRegion ?? await c.region(), service: scheme.signingName ?? 's3' }
+      const signer = requestSigner({ credentials: c.credentials, region: scheme.signingRegion ?? await c.region(), service: scheme.signingName ?? 's3', sha256: c.sha256 })
+      return { base: href.endsWith('/') ? href : `${href}/`, signer }
     })()
     targets.set(s3, found)
   }
@@ -89,8 +91,7 @@ export async function leanPut(s3: S3Client, bucket: string, key: string, data: B
   let lastError: unknown
   for (let attempt = 1; attempt <= ATTEMPTS; attempt++) {
     try {
-      const credentials = await s3.config.credentials()
-      const signed = signRequest({ method: 'PUT', url, headers, payloadSha256: sha256, credentials, region: where.region, service: where.service, date: new Date(Date.now() + (s3.config.systemClockOffset ?? 0)) })
+      const signed = await signRequest(where.signer, { method: 'PUT', url, headers, payloadSha256: sha256, date: new Date(Date.now() + (s3.config.systemClockOffset ?? 0)) })
       const res = await request(url, { method: 'PUT', headers: signed, body: data, dispatcher: agent })
       if (res.statusCode >= 200 && res.statusCode < 300) {
         await res.body.dump()
