@@ -1,9 +1,8 @@
 import type { ChildProcess } from 'node:child_process'
-import { createServer } from 'node:http'
-import { afterAll, afterEach, describe, expect, it } from 'vitest'
+import { afterEach, describe, expect, it } from 'vitest'
 import { bearer, co2Acquisition } from '../support/lab'
 import { ConsoleClient, startAppProcess, testDb, unique, useArcwise } from '../support/server'
-import { grantedPartnerWithEndpoint, until } from '../support/webhooks'
+import { grantedPartnerWithEndpoint, recordingSink, until } from '../support/webhooks'
 
 // A partner that answers most messages 2xx must not be starved by its own circuit, nor end
 // disabled, because some messages fail (issue 23, point 5). `npm run chaos` (100,000
@@ -37,24 +36,18 @@ const answers = new Map<string, (id: string, attempt: number, order: number) => 
 // Each message's place among its endpoint's messages, in the order first seen.
 const order = new Map<string, number>()
 const seenPerPath = new Map<string, number>()
-const sink = createServer((req, res) => {
-  req.resume()
-  req.on('end', () => {
-    const path = req.url!
-    const id = String(req.headers['webhook-id'])
-    const n = (tries.get(id) ?? 0) + 1
-    tries.set(id, n)
-    if (!order.has(id)) {
-      order.set(id, seenPerPath.get(path) ?? 0)
-      seenPerPath.set(path, order.get(id)! + 1)
-    }
-    const status = answers.get(path)?.(id, n, order.get(id)!) ?? 200
-    hits.push({ path, id, try: n, status, at: Date.now() })
-    res.writeHead(status).end()
-  })
+await recordingSink(SINK_PORT, (path, headers) => {
+  const id = headers['webhook-id']!
+  const n = (tries.get(id) ?? 0) + 1
+  tries.set(id, n)
+  if (!order.has(id)) {
+    order.set(id, seenPerPath.get(path) ?? 0)
+    seenPerPath.set(path, order.get(id)! + 1)
+  }
+  const status = answers.get(path)?.(id, n, order.get(id)!) ?? 200
+  hits.push({ path, id, try: n, status, at: Date.now() })
+  return status
 })
-await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
-afterAll(() => new Promise<void>(resolve => sink.close(() => resolve())))
 
 const workers: ChildProcess[] = []
 let nextPort = 3185

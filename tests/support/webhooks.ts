@@ -43,16 +43,17 @@ export interface ReceivedMessage { path: string, headers: Record<string, string>
 
 /**
  * A receiver on 127.0.0.1:`port` that keeps what arrived, in order, and answers each request
- * with `answer(path)` (200 unless told); closed after the file's tests.
+ * with `answer(path, headers)` (200 unless told); closed after the file's tests.
  */
-export async function recordingSink(port: number, answer: (path: string) => number = () => 200): Promise<ReceivedMessage[]> {
+export async function recordingSink(port: number, answer: (path: string, headers: Record<string, string>) => number = () => 200): Promise<ReceivedMessage[]> {
   const received: ReceivedMessage[] = []
   const sink = createServer((req, res) => {
     const chunks: Buffer[] = []
     req.on('data', c => chunks.push(c as Buffer))
     req.on('end', () => {
-      received.push({ path: req.url!, headers: Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)])), body: Buffer.concat(chunks).toString() })
-      const status = answer(req.url!)
+      const message = { path: req.url!, headers: Object.fromEntries(Object.entries(req.headers).map(([k, v]) => [k, String(v)])), body: Buffer.concat(chunks).toString() }
+      received.push(message)
+      const status = answer(message.path, message.headers)
       res.writeHead(status).end(status === 410 ? 'gone' : 'ok')
     })
   })
