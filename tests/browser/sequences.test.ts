@@ -119,6 +119,28 @@ describe('isotope sequences in the console', () => {
     await expect.poll(() => flaggedRow.textContent()).toContain('1 rule violation')
   })
 
+  it('the acquisitions list reads older pages with "Show older", and a changed order starts again from the newest', async () => {
+    // Thirty sequences of about sixteen runs each: many more than one page (50) of acquisitions.
+    const page = await signedInPage('lab_manager')
+    await page.goto(url(`/console/labs/${labId}/acquisitions`), { waitUntil: 'hydration' })
+    const runs = page.getByRole('main').getByRole('table').getByRole('row').locator('td:first-child')
+    await expect.poll(() => runs.count()).toBe(50)
+    const firstPage = await runs.allTextContents()
+    await page.getByRole('button', { name: 'Show older' }).click()
+    await expect.poll(() => runs.count()).toBe(100)
+    const twoPages = await runs.allTextContents()
+    // The older page follows the first: the first page unchanged, no run listed twice.
+    expect(twoPages.slice(0, 50)).toEqual(firstPage)
+    expect(new Set(twoPages).size).toBe(100)
+
+    // A new order is a new list: the older page read before it is dropped.
+    await page.getByLabel('Order', { exact: true }).selectOption('acquired')
+    await expect.poll(() => runs.count()).toBe(50)
+    await page.getByRole('button', { name: 'Show older' }).click()
+    await expect.poll(() => runs.count()).toBe(100)
+    expect(new Set(await runs.allTextContents()).size).toBe(100)
+  })
+
   it('a method with an unknown anchor shows the problem next to that field and stores nothing; the corrected one is saved', async () => {
     const page = await signedInPage('lab_manager')
     await page.goto(url(`/console/labs/${labId}/methods`), { waitUntil: 'hydration' })
