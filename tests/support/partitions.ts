@@ -9,7 +9,12 @@ import type postgres from 'postgres'
 /** The tables pointing at acquisitions (by acquisition_id) or results (peaks, by result_id), children last. */
 const BY_ACQUISITION = ['acquisition_runs', 'reprocess_items', 'sequence_items', 'uploads'] as const
 
-/** Gives these acquisitions (ids) the created_at `createdAt` (an ISO timestamp), with their results and dependents. */
+/**
+ * Gives these acquisitions (ids) the created_at `createdAt` (an ISO timestamp), with their
+ * results and dependents. The value is sent as text: a parameter PostgreSQL infers as
+ * timestamptz is serialised by postgres.js through a JS Date, which drops the microseconds
+ * (the partitions test saw .123456 stored as .123).
+ */
 export async function redateAcquisitions(sql: postgres.Sql, ids: string[], createdAt: string) {
   if (!ids.length) return
   await sql.begin(async (tx) => {
@@ -21,10 +26,10 @@ export async function redateAcquisitions(sql: postgres.Sql, ids: string[], creat
     for (const t of BY_ACQUISITION) await tx.unsafe(`delete from ${t} where acquisition_id = any($1::uuid[])`, [ids])
     await tx`delete from results where acquisition_id in ${tx(ids)}`
     await tx`delete from acquisitions where id in ${tx(ids)}`
-    await tx`update redate_acquisitions set created_at = ${createdAt}::timestamptz`
-    await tx`update redate_results set acquisition_created_at = ${createdAt}::timestamptz`
-    await tx`update redate_peaks set acquisition_created_at = ${createdAt}::timestamptz`
-    for (const t of BY_ACQUISITION) await tx.unsafe(`update redate_${t} set acquisition_created_at = $1::timestamptz`, [createdAt])
+    await tx`update redate_acquisitions set created_at = ${createdAt}::text::timestamptz`
+    await tx`update redate_results set acquisition_created_at = ${createdAt}::text::timestamptz`
+    await tx`update redate_peaks set acquisition_created_at = ${createdAt}::text::timestamptz`
+    for (const t of BY_ACQUISITION) await tx.unsafe(`update redate_${t} set acquisition_created_at = $1::text::timestamptz`, [createdAt])
     await tx`insert into acquisitions select * from redate_acquisitions`
     await tx`insert into results select * from redate_results`
     await tx`insert into peaks select * from redate_peaks`
