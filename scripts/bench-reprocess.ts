@@ -50,18 +50,23 @@ export async function benchReprocess(opts: { acquisitions?: number } = {}) {
       t as (select a.*, r.id as res_id, r.geometry_version_id, r.calibration_id, r.engine_version, r.summary from acquisitions a join results r on r.acquisition_id = a.id where a.id = ${template.id}::uuid),
       acq as (
         insert into acquisitions (id, lab_id, instrument_id, external_id, acquired_at, sample_ref, status, body_hash, payload, point_count,
-          raw_sha256, raw_bytes, raw_content_type, arrays_sha256, arrays_bytes)
+          raw_sha256, raw_bytes, raw_content_type, arrays_sha256, arrays_bytes, created_at)
         select gen.acq_id, t.lab_id, t.instrument_id, 'bench-rp-' || gen.g, ${new Date(WINDOW_START).toISOString()}::timestamptz + make_interval(secs => gen.g), t.sample_ref, t.status, t.body_hash, t.payload, t.point_count,
-          t.raw_sha256, t.raw_bytes, t.raw_content_type, t.arrays_sha256, t.arrays_bytes
+          t.raw_sha256, t.raw_bytes, t.raw_content_type, t.arrays_sha256, t.arrays_bytes, now()
         from gen, t returning 1),
+      -- Run ids in acquisition_runs, and now() (one instant in a statement) as the partition key
+      -- of every copy, its result and its peaks (drizzle/0021_acquisition-partitions.sql).
+      runs as (
+        insert into acquisition_runs (lab_id, external_id, acquisition_id, acquisition_created_at)
+        select t.lab_id, 'bench-rp-' || gen.g, gen.acq_id, now() from gen, t returning 1),
       res as (
-        insert into results (id, acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, review_state, released_at)
-        select gen.res_id, gen.acq_id, t.lab_id, t.geometry_version_id, t.calibration_id, t.engine_version, t.summary, 'released', now()
+        insert into results (id, acquisition_id, acquisition_created_at, lab_id, geometry_version_id, calibration_id, engine_version, summary, review_state, released_at)
+        select gen.res_id, gen.acq_id, now(), t.lab_id, t.geometry_version_id, t.calibration_id, t.engine_version, t.summary, 'released', now()
         from gen, t returning 1),
       pk as (
-        insert into peaks (result_id, lab_id, mz, area, species, charge)
-        select gen.res_id, p.lab_id, p.mz, p.area, p.species, p.charge from gen, t join peaks p on p.result_id = t.res_id returning 1)
-      select (select count(*) from acq) as a, (select count(*) from res) as r, (select count(*) from pk) as p`
+        insert into peaks (result_id, acquisition_created_at, lab_id, mz, area, species, charge)
+        select gen.res_id, now(), p.lab_id, p.mz, p.area, p.species, p.charge from gen, t join peaks p on p.result_id = t.res_id returning 1)
+      select (select count(*) from acq) as a, (select count(*) from runs) as n, (select count(*) from res) as r, (select count(*) from pk) as p`
     await sql`analyze acquisitions`
     await sql`analyze results`
     const seedSeconds = (performance.now() - seedStarted) / 1000

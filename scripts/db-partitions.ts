@@ -1,4 +1,5 @@
-// `npm run db:partitions`: makes the monthly partitions of deliveries and delivery_attempts
+// `npm run db:partitions`: makes the monthly partitions of deliveries and delivery_attempts, and
+// of acquisitions and results (never dropped: the labs' records),
 // from this month to NUXT_PARTITIONS_MONTHS_AHEAD (default 2) months ahead, or from `--from
 // YYYY-MM` as well, moving any rows a default partition holds for them (each move printed),
 // then, with `--retention`, drops months past NUXT_PARTITIONS_KEEP_ATTEMPT_MONTHS /

@@ -1,4 +1,4 @@
-// `npm run db:sizes`: each partitioned table's months (deliveries, delivery_attempts) with
+// `npm run db:sizes`: each partitioned table's months (deliveries, delivery_attempts, acquisitions, results) with
 // PostgreSQL's row estimate and bytes (table + indexes + TOAST), a total per table and in all,
 // and the rows that sit in a default partition (months without their partition). `--json`
 // prints one JSON object instead. DATABASE_URL, or npm start's database.

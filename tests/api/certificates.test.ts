@@ -193,8 +193,8 @@ describe('a released result\'s certificate', () => {
     const first = JSON.parse((await download(`/api/v1/results/${id}/certificate.json`, bearer(key.secret))).bytes.toString('utf8'))
     // A corrected version 2, released (what reprocessing and review will write).
     const [v2] = await sql`
-      insert into results (acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason, review_state, released_at)
-      select acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, 2, id, 'back-dated calibration', 'released', now() from results where acquisition_id = ${id} and version = 1
+      insert into results (acquisition_id, acquisition_created_at, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason, review_state, released_at)
+      select acquisition_id, acquisition_created_at, lab_id, geometry_version_id, calibration_id, engine_version, summary, 2, id, 'back-dated calibration', 'released', now() from results where acquisition_id = ${id} and version = 1
       returning id`
     await sql`update results set superseded_by = ${v2!.id} where acquisition_id = ${id} and version = 1`
     const old = await verify({ number: first.certificate.number })

@@ -6,6 +6,7 @@ import { describe, expect, it } from 'vitest'
 import { decodeArrays } from '../../server/services/store/arrays'
 import { rootDir, testEnv } from '../support/env'
 import { bearer, co2Acquisition, labWithInstrument } from '../support/lab'
+import { redateAcquisitions } from '../support/partitions'
 import { ConsoleClient, unique, useArcwise } from '../support/server'
 import { storeCommand, testStore } from '../support/store'
 
@@ -182,7 +183,7 @@ describe('raw data in the object store', () => {
     const sharedRow = await rowOf(sql, shared.body.id)
     const inFlightRow = await rowOf(sql, inFlight.body.id)
     // Received 31 days ago, past the lab's 30.
-    await sql`update acquisitions set created_at = now() - interval '31 days' where id in (${own.body.id}, ${shared.body.id}, ${inFlight.body.id})`
+    await redateAcquisitions(sql, [own.body.id, shared.body.id, inFlight.body.id], new Date(Date.now() - 31 * 86_400_000).toISOString())
     // An upload being processed (its lease an hour ahead, so no worker takes it) still needs these objects.
     const [upload] = await sql`insert into uploads (lab_id, api_key_id, status, lease_until, raw_sha256, arrays_sha256)
       values (${expiring.lab.id}, ${expiring.key.id}, 'processing', now() + interval '1 hour', ${inFlightRow.raw_sha256}, ${inFlightRow.arrays_sha256}) returning id`

@@ -211,8 +211,8 @@ describe('corrections', () => {
     // Version 2 as reprocessing writes it: held, superseding version 1, with its reason.
     const reason = 'Calibration of 2026-11-28 re-fitted with the corrected reference gas.'
     const [v2] = await ctx.sql<{ id: string }[]>`
-      insert into results (acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason)
-      select acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, 2, id, ${reason} from results where id = ${acq.result.id} returning id`
+      insert into results (acquisition_id, acquisition_created_at, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason)
+      select acquisition_id, acquisition_created_at, lab_id, geometry_version_id, calibration_id, engine_version, summary, 2, id, ${reason} from results where id = ${acq.result.id} returning id`
     await ctx.sql`update results set superseded_by = ${v2!.id} where id = ${acq.result.id}`
     // Held, it changes nothing for partners.
     expect((await ctx.asPartner(`/api/v1/results/${acq.id}`)).body.result.review).toMatchObject({ version: 1, state: 'released' })
@@ -238,8 +238,8 @@ describe('corrections', () => {
 /** A newer version of a result as reprocessing writes it: held, superseding `of`, with a reason. */
 async function newVersion(ctx: Reviewed, of: { id: string, version: number }, reason = 'Calibration re-fitted with the corrected reference gas.') {
   const [row] = await ctx.sql<{ id: string }[]>`
-    insert into results (acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason)
-    select acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, ${of.version + 1}, id, ${reason} from results where id = ${of.id} returning id`
+    insert into results (acquisition_id, acquisition_created_at, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason)
+    select acquisition_id, acquisition_created_at, lab_id, geometry_version_id, calibration_id, engine_version, summary, ${of.version + 1}, id, ${reason} from results where id = ${of.id} returning id`
   await ctx.sql`update results set superseded_by = ${row!.id} where id = ${of.id}`
   return { id: row!.id, version: of.version + 1 }
 }

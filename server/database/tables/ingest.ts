@@ -1,4 +1,4 @@
-import { bigint, index, integer, jsonb, pgTable, primaryKey, text, timestamp, uuid } from 'drizzle-orm/pg-core'
+import { bigint, foreignKey, index, integer, jsonb, pgTable, primaryKey, text, timestamp, uuid } from 'drizzle-orm/pg-core'
 import { createdAt } from './columns'
 import { apiKeys } from './access'
 import { labs } from './orgs'
@@ -34,12 +34,17 @@ export const uploads = pgTable('uploads', {
   rawContentType: text('raw_content_type'),
   arraysSha256: text('arrays_sha256'),
   arraysBytes: bigint('arrays_bytes', { mode: 'number' }),
-  acquisitionId: uuid('acquisition_id').references(() => acquisitions.id),
+  acquisitionId: uuid('acquisition_id'),
+  // The acquisition's created_at (its month), for the composite foreign key.
+  acquisitionCreatedAt: timestamp('acquisition_created_at', { withTimezone: true }),
   problem: jsonb('problem').$type<Record<string, unknown>>(),
   leaseUntil: timestamp('lease_until', { withTimezone: true }),
   createdAt: createdAt(),
   finishedAt: timestamp('finished_at', { withTimezone: true }),
-}, t => [index('uploads_status_idx').on(t.status, t.createdAt)])
+}, t => [
+  index('uploads_status_idx').on(t.status, t.createdAt),
+  foreignKey({ name: 'uploads_acquisition_fk', columns: [t.acquisitionId, t.acquisitionCreatedAt], foreignColumns: [acquisitions.id, acquisitions.createdAt] }),
+])
 
 
 /**

@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm'
-import { bigserial, boolean, check, doublePrecision, index, integer, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
+import { bigserial, boolean, check, doublePrecision, foreignKey, index, integer, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
 import type { MethodDefinition } from '../../../shared/schemas/methods'
 import type { Measured, SequenceOutcome, SequenceRole } from '../../../shared/engine/isotopes/types'
 import { createdAt } from './columns'
@@ -112,7 +112,9 @@ export const sequences = pgTable('sequences', {
 export const sequenceItems = pgTable('sequence_items', {
   sequenceId: uuid('sequence_id').notNull().references(() => sequences.id, { onDelete: 'cascade' }),
   position: integer('position').notNull(),
-  acquisitionId: uuid('acquisition_id').notNull().references(() => acquisitions.id),
+  acquisitionId: uuid('acquisition_id').notNull(),
+  // The acquisition's created_at (its month), for the composite foreign key.
+  acquisitionCreatedAt: timestamp('acquisition_created_at', { withTimezone: true }).notNull(),
   role: text('role').$type<SequenceRole>().notNull(),
   /** Working or monitoring standards: the reference material's id or the lab's standard code. */
   material: text('material'),
@@ -121,6 +123,7 @@ export const sequenceItems = pgTable('sequence_items', {
   primaryKey({ columns: [t.sequenceId, t.position] }),
   // An acquisition belongs to one sequence at most.
   uniqueIndex('sequence_items_acquisition_idx').on(t.acquisitionId),
+  foreignKey({ name: 'sequence_items_acquisition_fk', columns: [t.acquisitionId, t.acquisitionCreatedAt], foreignColumns: [acquisitions.id, acquisitions.createdAt] }),
 ])
 
 /** One standard's measured value against its accepted value: a point of a control chart. */

@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm'
-import { boolean, index, integer, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
+import { boolean, foreignKey, index, integer, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
 import { certificateSubjects, reprocessItemStates, reprocessJobStates } from '../../../shared/schemas/lifecycle'
 import { createdAt } from './columns'
 import { instruments } from './instruments'
@@ -47,11 +47,14 @@ export const reprocessJobs = pgTable('reprocess_jobs', {
 
 export const reprocessItems = pgTable('reprocess_items', {
   jobId: uuid('job_id').notNull().references(() => reprocessJobs.id, { onDelete: 'cascade' }),
-  acquisitionId: uuid('acquisition_id').notNull().references(() => acquisitions.id, { onDelete: 'cascade' }),
+  acquisitionId: uuid('acquisition_id').notNull(),
+  // The acquisition's created_at (its month): the key of the composite foreign keys below; the
+  // old and new results are versions of that acquisition, so they share it.
+  acquisitionCreatedAt: timestamp('acquisition_created_at', { withTimezone: true }).notNull(),
   ord: integer('ord').notNull(),
   state: reprocessItemStateEnum('state').notNull().default('pending'),
-  oldResultId: uuid('old_result_id').references(() => results.id),
-  newResultId: uuid('new_result_id').references(() => results.id),
+  oldResultId: uuid('old_result_id'),
+  newResultId: uuid('new_result_id'),
   // Whether anything a partner would see changed (m/z, ratios, δ, flags); unchanged items write no new version.
   changed: boolean('changed'),
   error: text('error'),
@@ -59,6 +62,9 @@ export const reprocessItems = pgTable('reprocess_items', {
 }, t => [
   primaryKey({ columns: [t.jobId, t.acquisitionId] }),
   index('reprocess_items_pending_idx').on(t.jobId, t.state, t.ord),
+  foreignKey({ name: 'reprocess_items_acquisition_fk', columns: [t.acquisitionId, t.acquisitionCreatedAt], foreignColumns: [acquisitions.id, acquisitions.createdAt] }).onDelete('cascade'),
+  foreignKey({ name: 'reprocess_items_old_result_fk', columns: [t.oldResultId, t.acquisitionCreatedAt], foreignColumns: [results.id, results.acquisitionCreatedAt] }),
+  foreignKey({ name: 'reprocess_items_new_result_fk', columns: [t.newResultId, t.acquisitionCreatedAt], foreignColumns: [results.id, results.acquisitionCreatedAt] }),
 ])
 
 /**

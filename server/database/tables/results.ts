@@ -1,5 +1,5 @@
 import { sql } from 'drizzle-orm'
-import { bigint, bigserial, doublePrecision, index, integer, jsonb, pgEnum, pgTable, text, timestamp, uniqueIndex, uuid, type AnyPgColumn } from 'drizzle-orm/pg-core'
+import { bigint, bigserial, doublePrecision, foreignKey, index, integer, jsonb, pgEnum, pgTable, primaryKey, text, timestamp, uniqueIndex, uuid } from 'drizzle-orm/pg-core'
 import { reviewStates } from '../../../shared/schemas/lifecycle'
 import { createdAt } from './columns'
 import { calibrations, geometryVersions, instruments } from './instruments'
@@ -8,8 +8,14 @@ import { labs } from './orgs'
 export const acquisitionStatusEnum = pgEnum('acquisition_status', ['processed', 'failed'])
 export const reviewStateEnum = pgEnum('review_state', reviewStates)
 
+// Acquisitions and results are partitioned by month (issue 23; drizzle/0021_acquisition-
+// partitions.sql, server/services/partitions): acquisitions by created_at, results by their
+// acquisition's created_at, so an acquisition and all its versions share a month. Their primary
+// keys carry the partition key, and every table pointing at them carries the acquisition's
+// created_at in a composite foreign key. Ids stay unique (random UUIDs; a lookup by id alone
+// probes each month's primary key index).
 export const acquisitions = pgTable('acquisitions', {
-  id: uuid('id').primaryKey().defaultRandom(),
+  id: uuid('id').notNull().defaultRandom(),
   labId: uuid('lab_id').notNull().references(() => labs.id),
   instrumentId: uuid('instrument_id').notNull().references(() => instruments.id),
   externalId: text('external_id').notNull(),
@@ -38,7 +44,9 @@ export const acquisitions = pgTable('acquisitions', {
   requestId: text('request_id'),
   createdAt: createdAt(),
 }, t => [
-  uniqueIndex('acquisitions_lab_external_idx').on(t.labId, t.externalId),
+  primaryKey({ name: 'acquisitions_id_created_at_pk', columns: [t.id, t.createdAt] }),
+  // A lab's run ids are unique across months in acquisition_runs (below): a unique index on
+  // a partitioned table must hold the partition key.
   index('acquisitions_lab_created_idx').on(t.labId, t.createdAt, t.id),
   index('acquisitions_lab_acquired_idx').on(t.labId, t.acquiredAt, t.id),
   index('acquisitions_raw_sha_idx').on(t.rawSha256),
@@ -46,8 +54,10 @@ export const acquisitions = pgTable('acquisitions', {
 ])
 
 export const results = pgTable('results', {
-  id: uuid('id').primaryKey().defaultRandom(),
-  acquisitionId: uuid('acquisition_id').notNull().references(() => acquisitions.id, { onDelete: 'cascade' }),
+  id: uuid('id').notNull().defaultRandom(),
+  acquisitionId: uuid('acquisition_id').notNull(),
+  // The acquisition's created_at: the partition key (a result lives in its acquisition's month).
+  acquisitionCreatedAt: timestamp('acquisition_created_at', { withTimezone: true }).notNull(),
   labId: uuid('lab_id').notNull().references(() => labs.id),
   geometryVersionId: uuid('geometry_version_id').notNull().references(() => geometryVersions.id),
   calibrationId: uuid('calibration_id').references(() => calibrations.id),
@@ -57,7 +67,8 @@ export const results = pgTable('results', {
   // naming version n and sets n's `supersededBy`. Partners see an acquisition's latest
   // version whose review state is released or retracted.
   version: integer('version').notNull().default(1),
-  supersedes: uuid('supersedes').references((): AnyPgColumn => results.id),
+  // Same acquisition, so same acquisition_created_at (the composite foreign key below).
+  supersedes: uuid('supersedes'),
   supersededBy: uuid('superseded_by'),
   // Why this version exists when it corrects a released one (shown to partners in result.corrected).
   correctionReason: text('correction_reason'),
@@ -73,7 +84,10 @@ export const results = pgTable('results', {
   retractionReason: text('retraction_reason'),
   createdAt: createdAt(),
 }, t => [
-  uniqueIndex('results_acquisition_version_idx').on(t.acquisitionId, t.version),
+  primaryKey({ name: 'results_id_acquisition_created_at_pk', columns: [t.id, t.acquisitionCreatedAt] }),
+  foreignKey({ name: 'results_acquisition_fk', columns: [t.acquisitionId, t.acquisitionCreatedAt], foreignColumns: [acquisitions.id, acquisitions.createdAt] }).onDelete('cascade'),
+  foreignKey({ name: 'results_supersedes_fk', columns: [t.supersedes, t.acquisitionCreatedAt], foreignColumns: [t.id, t.acquisitionCreatedAt] }),
+  uniqueIndex('results_acquisition_version_idx').on(t.acquisitionId, t.version, t.acquisitionCreatedAt),
   index('results_lab_review_idx').on(t.labId, t.reviewState, t.createdAt),
 ])
 
@@ -81,13 +95,35 @@ export const results = pgTable('results', {
 
 export const peaks = pgTable('peaks', {
   id: bigserial('id', { mode: 'number' }).primaryKey(),
-  resultId: uuid('result_id').notNull().references(() => results.id, { onDelete: 'cascade' }),
+  resultId: uuid('result_id').notNull(),
+  // The result's acquisition_created_at (peaks are not partitioned; the foreign key needs it).
+  acquisitionCreatedAt: timestamp('acquisition_created_at', { withTimezone: true }).notNull(),
   labId: uuid('lab_id').notNull().references(() => labs.id),
   mz: doublePrecision('mz').notNull(),
   area: doublePrecision('area').notNull(),
   species: text('species'),
   charge: integer('charge'),
-}, t => [index('peaks_mz_idx').on(t.mz), index('peaks_result_idx').on(t.resultId)])
+}, t => [
+  index('peaks_mz_idx').on(t.mz), index('peaks_result_idx').on(t.resultId),
+  foreignKey({ name: 'peaks_result_fk', columns: [t.resultId, t.acquisitionCreatedAt], foreignColumns: [results.id, results.acquisitionCreatedAt] }).onDelete('cascade'),
+])
+
+/**
+ * A lab's run ids, unique across months (acquisitions are partitioned by month, and a unique
+ * index there would have to hold the month). Written in the ingest statement with the
+ * acquisition; the replay / 409 check reads it.
+ */
+export const acquisitionRuns = pgTable('acquisition_runs', {
+  labId: uuid('lab_id').notNull(),
+  externalId: text('external_id').notNull(),
+  acquisitionId: uuid('acquisition_id').notNull(),
+  acquisitionCreatedAt: timestamp('acquisition_created_at', { withTimezone: true }).notNull(),
+}, t => [
+  primaryKey({ name: 'acquisition_runs_lab_id_external_id_pk', columns: [t.labId, t.externalId] }),
+  // No index by acquisition: acquisitions are never deleted (the cascade would scan), and
+  // partition maintenance finds a month's runs by their lab and run id.
+  foreignKey({ name: 'acquisition_runs_acquisition_fk', columns: [t.acquisitionId, t.acquisitionCreatedAt], foreignColumns: [acquisitions.id, acquisitions.createdAt] }).onDelete('cascade'),
+])
 
 /** The outbox: one event per accepted result, numbered per lab for ordering. */
 

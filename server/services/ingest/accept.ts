@@ -2,7 +2,7 @@ import { createHash, randomUUID } from 'node:crypto'
 import { and, eq } from 'drizzle-orm'
 import { geometry as geometrySchema, processMzSpectrum, processReadings, type AppliedCalibration, type EngineResult, type RawReadings } from '#shared/engine'
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
-import { acquisitions, results } from '../../database/schema'
+import { acquisitionRuns, acquisitions, results } from '../../database/schema'
 import type { LabKey } from '../access'
 import { kickDeliveries } from '../delivery'
 import { firstGeometryFrom, instrumentContextAt, type InstrumentContext } from '../instruments'
@@ -120,7 +120,7 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
   // Held for the lab's review unless its rule releases it now (written in the same statement).
   const released = releasesAutomatically(instrument.release.policy, instrument.release.allows, engine.qc.map(f => f.code))
   const res: typeof results.$inferSelect = {
-    id: randomUUID(), acquisitionId: acq.id, labId: key.labId, geometryVersionId: geo.id, calibrationId: applied?.id ?? null,
+    id: randomUUID(), acquisitionId: acq.id, acquisitionCreatedAt: acq.createdAt, labId: key.labId, geometryVersionId: geo.id, calibrationId: applied?.id ?? null,
     engineVersion: engine.engineVersion, summary: summary as unknown as Record<string, unknown>, createdAt: acq.createdAt,
     version: 1, supersedes: null, supersededBy: null, correctionReason: null, reprocessJobId: null,
     reviewState: released ? 'released' : 'held', reviewedBy: null, reviewedAt: released ? acq.createdAt : null, reviewComment: null,
@@ -150,9 +150,11 @@ export async function acceptAcquisition(key: Pick<LabKey, 'labId'>, input: Acqui
 }
 
 async function findByRunId(labId: string, runId: string) {
-  const [row] = await useDb().select({ acq: acquisitionHead, res: results }).from(acquisitions)
-    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice('latest')))
-    .where(and(eq(acquisitions.labId, labId), eq(acquisitions.externalId, runId))).limit(1)
+  // acquisition_runs holds a lab's run ids across months (acquisitions are partitioned by month).
+  const [row] = await useDb().select({ acq: acquisitionHead, res: results }).from(acquisitionRuns)
+    .innerJoin(acquisitions, and(eq(acquisitions.id, acquisitionRuns.acquisitionId), eq(acquisitions.createdAt, acquisitionRuns.acquisitionCreatedAt)))
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), eq(results.acquisitionCreatedAt, acquisitions.createdAt), resultChoice('latest')))
+    .where(and(eq(acquisitionRuns.labId, labId), eq(acquisitionRuns.externalId, runId))).limit(1)
   return row
 }
 

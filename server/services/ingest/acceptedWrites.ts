@@ -1,6 +1,6 @@
 import { sql } from 'drizzle-orm'
 import type { EngineResult } from '#shared/engine'
-import { acquisitions, events, labs, peaks, results, uploads } from '../../database/schema'
+import { acquisitionRuns, acquisitions, events, labs, peaks, results, uploads } from '../../database/schema'
 import type { Outcome } from '../../utils/turnBatch'
 import { fanOut } from '../delivery'
 import type { AcquisitionHead, AcquisitionResultView } from '../results'
@@ -12,7 +12,10 @@ import type { PayloadRef } from '../store'
 // released result only, the `result.released` outbox event and the deliveries it owes. A group commit: under
 // load, the statement's fixed costs (executor start-up, the locks on some twenty relations
 // and indexes, the WAL flush at commit, the round trip) are paid once for the group, not
-// once per acquisition (batchPerTurn).
+// once per acquisition (batchPerTurn). The acquisition's run id goes into acquisition_runs in
+// the same statement (run ids unique per lab across months: acquisitions are partitioned by
+// month, drizzle/0021), and its created_at (the `at` below, from a JS Date, so exact to the
+// millisecond) is the partition key of its result and peaks.
 
 // Partners hear of a result when it is released; a held one waits for the lab's reviewer
 // (server/services/review), who emits the same event on release.
@@ -105,19 +108,23 @@ function acceptedStatement(entries: AcceptedEntry[]) {
              m->'ref'->>'rawSha256', (m->'ref'->>'rawBytes')::bigint, m->'ref'->>'rawContentType', m->'ref'->>'arraysSha256', (m->'ref'->>'arraysBytes')::bigint, m->>'requestId'
       from input
       returning 1 as n),
+    run as (
+      insert into ${acquisitionRuns} (lab_id, external_id, acquisition_id, acquisition_created_at)
+      select (m->>'labId')::uuid, m->>'runId', (m->>'acqId')::uuid, (m->>'at')::timestamptz from input
+      returning 1 as n),
     res as (
-      insert into ${results} (id, acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, review_state, reviewed_at, released_at, created_at)
-      select (m->>'resId')::uuid, (m->>'acqId')::uuid, (m->>'labId')::uuid, (m->>'geometryVersionId')::uuid, (m->>'calibrationId')::uuid,
+      insert into ${results} (id, acquisition_id, acquisition_created_at, lab_id, geometry_version_id, calibration_id, engine_version, summary, review_state, reviewed_at, released_at, created_at)
+      select (m->>'resId')::uuid, (m->>'acqId')::uuid, (m->>'at')::timestamptz, (m->>'labId')::uuid, (m->>'geometryVersionId')::uuid, (m->>'calibrationId')::uuid,
              m->>'engineVersion', summary, (m->>'reviewState')::review_state, (m->>'releasedAt')::timestamptz, (m->>'releasedAt')::timestamptz, (m->>'at')::timestamptz
       from input
       returning 1 as n),
     pk as (
-      insert into ${peaks} (result_id, lab_id, mz, area, species, charge)
-      select (i.m->>'resId')::uuid, (i.m->>'labId')::uuid, p.mz, p.area, p.species, p.charge
+      insert into ${peaks} (result_id, acquisition_created_at, lab_id, mz, area, species, charge)
+      select (i.m->>'resId')::uuid, (i.m->>'at')::timestamptz, (i.m->>'labId')::uuid, p.mz, p.area, p.species, p.charge
       from input i cross join lateral jsonb_to_recordset(i.peaks) as p(mz float8, area float8, species text, charge int)
       returning 1 as n),
     written as (
-      select (select count(*) from acq) + (select count(*) from res) + (select count(*) from pk) as n),
+      select (select count(*) from acq) + (select count(*) from run) + (select count(*) from res) + (select count(*) from pk) as n),
     owed as (
       select * from input where m->>'reviewState' = 'released'),
     counts as (

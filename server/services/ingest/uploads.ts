@@ -3,7 +3,7 @@ import Busboy from 'busboy'
 import { and, eq, sql } from 'drizzle-orm'
 import { acquisitionInput, type AcquisitionInput } from '#shared/schemas/acquisitions'
 import type { ProblemDocument } from '#shared/schemas/common'
-import { uploads } from '../../database/schema'
+import { acquisitions, uploads } from '../../database/schema'
 import { fileKindOf, parseCsvUpload, type FileKind, type QueryMeta } from './fileFormats'
 import { parseJcampUpload } from './jcamp'
 import { parseMzmlUpload } from './mzml'
@@ -166,7 +166,11 @@ export async function processPendingUploads(limit = 2) {
       const body = stored ? await loadPayload<AcquisitionInput>(stored.arraysSha256) : row.body as unknown as AcquisitionInput
       const result = await acceptAcquisition({ labId: row.labId }, body,
         { schemaId: row.schemaId ?? undefined, upload: { id: row.id, bodyHash: row.bodyHash ?? bodyHash(body) }, stored })
-      await useDb().update(uploads).set({ status: 'processed', acquisitionId: result.body.id, finishedAt: new Date(), leaseUntil: null }).where(eq(uploads.id, row.id))
+      // The acquisition's created_at (its month, in the foreign key) copied in SQL, not through a JS Date.
+      await useDb().update(uploads).set({
+        status: 'processed', acquisitionId: result.body.id, finishedAt: new Date(), leaseUntil: null,
+        acquisitionCreatedAt: sql`(select a.created_at from ${acquisitions} a where a.id = ${result.body.id}::uuid)`,
+      }).where(eq(uploads.id, row.id))
     }
     catch (error) {
       const doc = (error as { data?: { problem?: ProblemDocument } }).data?.problem

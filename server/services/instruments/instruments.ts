@@ -4,7 +4,7 @@ import { fitCalibration, formulaSpecies, geometry as geometrySchema, isotope, pr
 import type { AcquisitionInput } from '#shared/schemas/acquisitions'
 import type { calibrationInput, CalibrationFromReferenceInput, InstrumentInput, InstrumentUpdate } from '#shared/schemas/instruments'
 import type { Geometry } from '#shared/engine'
-import { acquisitions, calibrations, geometryVersions, instruments, labs } from '../../database/schema'
+import { acquisitionRuns, acquisitions, calibrations, geometryVersions, instruments, labs } from '../../database/schema'
 import { payloadOf } from '../store'
 
 export async function listInstruments(labId: string) {
@@ -193,7 +193,7 @@ const lookUpTogether = batchPerTurn<ContextQuery, InstrumentContext | undefined>
           (select g2.version from ${geometryVersions} g2 where g2.instrument_id = i.id and g2.valid_from <= c.valid_from order by g2.valid_from desc, g2.version desc limit 1)))
         from ${calibrations} c
         where c.instrument_id = i.id and c.valid_from <= q.at order by c.valid_from desc, c.version desc limit 1) as calibration,
-      exists (select 1 from ${acquisitions} a where a.lab_id = q.lab_id and a.external_id = q.run_id) as run_seen,
+      exists (select 1 from ${acquisitionRuns} ar where ar.lab_id = q.lab_id and ar.external_id = q.run_id) as run_seen,
       (select json_build_object('policy', l.release_policy, 'allows', l.auto_release_allows) from ${labs} l where l.id = q.lab_id) as release
     from jsonb_to_recordset(${JSON.stringify(queries.map((q, ord) => ({ ord, lab_id: q.labId, slug: q.slug, at: q.at, run_id: q.runId })))}::jsonb)
       as q(ord int, lab_id uuid, slug text, at timestamptz, run_id text)

@@ -11,13 +11,41 @@ import type postgres from 'postgres'
 // partition is named <table>_YYYY_MM, and each table has a <table>_default partition for rows
 // that no month holds (nothing is ever refused for want of a partition).
 
+//
+// Acquisitions and results (drizzle/0021_acquisition-partitions.sql) are such a family: a
+// result lives in its acquisition's month. Unpartitioned tables point at them with composite
+// foreign keys (their `dependents`); when rows move out of a default partition into their
+// new month, the rows pointing at them are set aside and put back too, or the cascade would
+// delete them (peaks, reprocess items, run ids) or the foreign key refuse the move.
+
+interface Dependent {
+  table: string
+  /** Which of its rows point at the moving rows (moving_<table> temporary tables of the family). */
+  pointsAt: string
+}
+
 interface Family {
   parent: { table: string, key: string }
   children: { table: string, key: string }[]
+  dependents: Dependent[]
 }
 
+const ofMovingAcquisitions = '(acquisition_id, acquisition_created_at) in (select id, created_at from moving_acquisitions)'
+
 export const families: Family[] = [
-  { parent: { table: 'deliveries', key: 'created_at' }, children: [{ table: 'delivery_attempts', key: 'delivery_created_at' }] },
+  { parent: { table: 'deliveries', key: 'created_at' }, children: [{ table: 'delivery_attempts', key: 'delivery_created_at' }], dependents: [] },
+  {
+    parent: { table: 'acquisitions', key: 'created_at' },
+    children: [{ table: 'results', key: 'acquisition_created_at' }],
+    dependents: [
+      { table: 'peaks', pointsAt: '(result_id, acquisition_created_at) in (select id, acquisition_created_at from moving_results)' },
+      { table: 'reprocess_items', pointsAt: ofMovingAcquisitions },
+      { table: 'sequence_items', pointsAt: ofMovingAcquisitions },
+      { table: 'uploads', pointsAt: ofMovingAcquisitions },
+      // By its primary key: acquisition_runs has no index by acquisition.
+      { table: 'acquisition_runs', pointsAt: '(lab_id, external_id) in (select lab_id, external_id from moving_acquisitions)' },
+    ],
+  },
 ]
 
 /** Every partitioned table, parents before children. */
@@ -124,16 +152,27 @@ async function makeMonth(sql: postgres.Sql, family: Family, month: string, outco
     if (!missing.length) return
     await lockFamily(tx, family)
     const { from, to } = monthBounds(month)
-    // Rows of this month in the default partitions, kept aside: children out first (nothing
-    // cascades), parents back in first (the children's foreign key needs them).
-    const held: { t: typeof tables[number], temp: string, rows: number }[] = []
-    for (const t of [...tables].reverse()) {
+    // Rows of this month in the default partitions, kept aside: the rows pointing at them
+    // (dependents) out first, then children, then parents, so nothing cascades and no foreign
+    // key refuses; put back in the opposite order.
+    const held: { table: string, temp: string, rows: number }[] = []
+    for (const t of tables) {
       const temp = `moving_${t.table}`
-      const def = `${t.table}_default`
-      const where = `${t.key} >= '${from}' and ${t.key} < '${to}'`
-      await tx.unsafe(`create temporary table ${temp} on commit drop as select * from ${def} where ${where}`)
-      const deleted = await tx.unsafe(`delete from ${def} where ${where}`)
-      held.unshift({ t, temp, rows: deleted.count })
+      await tx.unsafe(`create temporary table ${temp} on commit drop as select * from ${t.table}_default where ${t.key} >= '${from}' and ${t.key} < '${to}'`)
+      held.push({ table: t.table, temp, rows: 0 })
+    }
+    const rowsHeld = Number((await tx.unsafe<[{ n: string }]>(`select (select count(*) from moving_${family.parent.table}) as n`))[0].n)
+    // Only when there is something to move (a month made late): the check reads the dependents.
+    const aside = rowsHeld ? family.dependents : []
+    for (const d of aside) {
+      const temp = `moving_${d.table}`
+      await tx.unsafe(`create temporary table ${temp} on commit drop as select * from ${d.table} where ${d.pointsAt}`)
+      const deleted = await tx.unsafe(`delete from ${d.table} where ${d.pointsAt}`)
+      held.push({ table: d.table, temp, rows: deleted.count })
+    }
+    for (const t of [...tables].reverse()) {
+      const deleted = await tx.unsafe(`delete from ${t.table}_default where ${t.key} >= '${from}' and ${t.key} < '${to}'`)
+      held.find(h => h.table === t.table)!.rows = deleted.count
     }
     for (const t of missing) {
       const name = partitionName(t.table, month)
@@ -142,8 +181,9 @@ async function makeMonth(sql: postgres.Sql, family: Family, month: string, outco
     }
     for (const h of held) {
       if (!h.rows) continue
-      await tx.unsafe(`insert into ${h.t.table} select * from ${h.temp}`)
-      outcome.moved.push({ table: h.t.table, month, rows: h.rows })
+      await tx.unsafe(`insert into ${h.table} select * from ${h.temp}`)
+      // Dependents are not partitioned: they were put back, not moved.
+      if (partitionedTables.includes(h.table)) outcome.moved.push({ table: h.table, month, rows: h.rows })
     }
   })
 }
@@ -179,7 +219,8 @@ export interface PartitionRetentionOutcome {
  * A month's attempts go with or before its deliveries (the foreign key, and attempts sit in
  * their delivery's month); when only the attempts go, an empty month of attempts takes their
  * place, so a later replay's attempt lands in its month rather than the default partition.
- * Acquisitions and results are not partitioned and never dropped here.
+ * Acquisitions and results are partitioned too but never dropped here: they are the labs'
+ * records (DEVELOPERS.md, Monthly partitions).
  */
 export async function applyPartitionRetention(sql: postgres.Sql, settings: RetentionSettings, opts: { now?: Date } = {}): Promise<PartitionRetentionOutcome> {
   const now = opts.now ?? new Date()
@@ -189,7 +230,8 @@ export async function applyPartitionRetention(sql: postgres.Sql, settings: Reten
   // Attempts cannot outlive their deliveries.
   const attemptsFrom = [keepFrom(settings.attemptMonths), deliveriesFrom].filter((m): m is string => m !== null).sort().at(-1) ?? null
   if (!attemptsFrom) return outcome
-  const family = families[0]!
+  // Deliveries only: acquisitions and results are the labs' records, never dropped here.
+  const family = families.find(f => f.parent.table === 'deliveries')!
   const child = family.children[0]!
   const months = (await partitionsOf(sql, child.table)).map(p => p.month).filter((m): m is string => m !== null && m !== 'default' && m < attemptsFrom)
   for (const month of months) {

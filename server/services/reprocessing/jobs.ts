@@ -46,10 +46,10 @@ export async function createReprocessJob(audit: AuditContext, labId: string, inp
       // Items in acquisition order, each with the newest version of its result as it stands now.
       const listed = await tx.execute<{ n: number }>(sql`
         with picked as (
-          insert into ${reprocessItems} (job_id, acquisition_id, ord, old_result_id)
-          select ${created.id}::uuid, a.id, row_number() over (order by a.acquired_at, a.id), r.id
+          insert into ${reprocessItems} (job_id, acquisition_id, acquisition_created_at, ord, old_result_id)
+          select ${created.id}::uuid, a.id, a.created_at, row_number() over (order by a.acquired_at, a.id), r.id
           from ${acquisitions} a
-          join lateral (select id from ${results} where acquisition_id = a.id order by version desc limit 1) r on true
+          join lateral (select id from ${results} where acquisition_id = a.id and acquisition_created_at = a.created_at order by version desc limit 1) r on true
           where ${sql.join(conditions, sql` and `)}
           returning 1)
         select count(*)::int as n from picked`)

@@ -123,17 +123,17 @@ export async function processBatch(jobId: string): Promise<'more' | 'finished' |
     // payload each) are taken one or a few at a time; the first pending item always goes.
     const items = await tx.execute<PendingItem>(sql`
       with head as (
-        select acquisition_id, ord from ${reprocessItems}
+        select acquisition_id, acquisition_created_at, ord from ${reprocessItems}
         where job_id = ${jobId}::uuid and state = 'pending' order by ord limit ${batchSize}),
       next as (
-        select h.acquisition_id, h.ord, sum(a.point_count) over (order by h.ord) as points_so_far
-        from head h join ${acquisitions} a on a.id = h.acquisition_id)
+        select h.acquisition_id, h.acquisition_created_at, h.ord, sum(a.point_count) over (order by h.ord) as points_so_far
+        from head h join ${acquisitions} a on a.id = h.acquisition_id and a.created_at = h.acquisition_created_at)
       select n.acquisition_id, a.external_id as run_id, (extract(epoch from a.acquired_at) * 1000)::text as acquired_ms, a.payload, a.arrays_sha256, a.raw_removed_at::text, ins.slug, a.lab_id,
              r.id as res_id, r.version as res_version, r.summary
       from next n
-      join ${acquisitions} a on a.id = n.acquisition_id
+      join ${acquisitions} a on a.id = n.acquisition_id and a.created_at = n.acquisition_created_at
       join ${instruments} ins on ins.id = a.instrument_id
-      join lateral (select id, version, summary from ${results} where acquisition_id = a.id order by version desc limit 1) r on true
+      join lateral (select id, version, summary from ${results} where acquisition_id = a.id and acquisition_created_at = a.created_at order by version desc limit 1) r on true
       where n.points_so_far <= ${MAX_BATCH_POINTS} or n.ord = (select min(ord) from next)
       order by n.ord`)
     if (!items.length) {
@@ -189,20 +189,23 @@ async function reprocessOne(item: PendingItem): Promise<ItemOutcome> {
 function batchStatement(jobId: string, reason: string, outcomes: ItemOutcome[], changed: number, failed: number, leaseSeconds: number) {
   return sql`
     with input as (
-      select t.r from jsonb_array_elements(${JSON.stringify(outcomes)}::jsonb) as t(r)),
+      -- Each outcome with its acquisition's created_at, copied from its item: the partition key
+      -- of the new version and its peaks (a version lives in its acquisition's month).
+      select t.r, it.acquisition_created_at as at from jsonb_array_elements(${JSON.stringify(outcomes)}::jsonb) as t(r)
+      join ${reprocessItems} it on it.job_id = ${jobId}::uuid and it.acquisition_id = (t.r->>'acqId')::uuid),
     fresh as (
-      insert into ${results} (id, acquisition_id, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason, reprocess_job_id, review_state)
-      select (r->>'newId')::uuid, (r->>'acqId')::uuid, j.lab_id, (r->>'geometryVersionId')::uuid, (r->>'calibrationId')::uuid, r->>'engineVersion', r->'summary',
+      insert into ${results} (id, acquisition_id, acquisition_created_at, lab_id, geometry_version_id, calibration_id, engine_version, summary, version, supersedes, correction_reason, reprocess_job_id, review_state)
+      select (r->>'newId')::uuid, (r->>'acqId')::uuid, at, j.lab_id, (r->>'geometryVersionId')::uuid, (r->>'calibrationId')::uuid, r->>'engineVersion', r->'summary',
              (r->>'oldVersion')::int + 1, (r->>'oldId')::uuid, ${reason}, ${jobId}::uuid, 'held'
       from input, ${reprocessJobs} j where j.id = ${jobId}::uuid and r->>'newId' is not null
       returning id),
     superseded as (
       update ${results} o set superseded_by = (i.r->>'newId')::uuid
-      from input i where o.id = (i.r->>'oldId')::uuid and i.r->>'newId' is not null
+      from input i where o.id = (i.r->>'oldId')::uuid and o.acquisition_created_at = i.at and i.r->>'newId' is not null
       returning o.id),
     pk as (
-      insert into ${peaks} (result_id, lab_id, mz, area, species, charge)
-      select (i.r->>'newId')::uuid, j.lab_id, p.mz, p.area, p.species, p.charge
+      insert into ${peaks} (result_id, acquisition_created_at, lab_id, mz, area, species, charge)
+      select (i.r->>'newId')::uuid, i.at, j.lab_id, p.mz, p.area, p.species, p.charge
       from input i cross join ${reprocessJobs} j
       cross join lateral jsonb_to_recordset(i.r->'peaks') as p(mz float8, area float8, species text, charge int)
       where j.id = ${jobId}::uuid and i.r->>'newId' is not null

@@ -18,9 +18,9 @@ const reviewer = alias(users, 'reviewer')
 export type ResultChoice = 'latest' | 'published'
 export function resultChoice(choice: ResultChoice): SQL {
   return choice === 'latest'
-    ? sql`${results.version} = (select max(r2.version) from ${results} r2 where r2.acquisition_id = ${results.acquisitionId})`
+    ? sql`${results.version} = (select max(r2.version) from ${results} r2 where r2.acquisition_id = ${results.acquisitionId} and r2.acquisition_created_at = ${results.acquisitionCreatedAt})`
     : sql`${results.reviewState} in ('released', 'retracted') and ${results.version} = (select max(r2.version) from ${results} r2
-        where r2.acquisition_id = ${results.acquisitionId} and r2.review_state in ('released', 'retracted'))`
+        where r2.acquisition_id = ${results.acquisitionId} and r2.acquisition_created_at = ${results.acquisitionCreatedAt} and r2.review_state in ('released', 'retracted'))`
 }
 
 /**
@@ -28,7 +28,7 @@ export function resultChoice(choice: ResultChoice): SQL {
  * lower version released or retracted, the one `correction.previousResultId` names; null
  * when there is none.
  */
-export const previousPublished = () => sql<string | null>`(select p.id from ${results} p where p.acquisition_id = ${results.acquisitionId}
+export const previousPublished = () => sql<string | null>`(select p.id from ${results} p where p.acquisition_id = ${results.acquisitionId} and p.acquisition_created_at = ${results.acquisitionCreatedAt}
   and p.version < ${results.version} and p.review_state in ('released', 'retracted') order by p.version desc limit 1)`
 
 export async function listAcquisitions(labId: string, query: z.output<typeof acquisitionListQuery>) {
@@ -42,7 +42,7 @@ export async function listAcquisitions(labId: string, query: z.output<typeof acq
   const rows = await useDb().select({
     id: acquisitions.id, runId: acquisitions.externalId, instrument: instruments.slug, acquiredAt: acquisitions.acquiredAt,
     sampleRef: acquisitions.sampleRef, status: acquisitions.status, points: acquisitions.pointCount, createdAt: acquisitions.createdAt,
-    reviewState: sql<ReviewState | null>`(select r.review_state from ${results} r where r.acquisition_id = ${acquisitions.id} order by r.version desc limit 1)`,
+    reviewState: sql<ReviewState | null>`(select r.review_state from ${results} r where r.acquisition_id = ${acquisitions.id} and r.acquisition_created_at = ${acquisitions.createdAt} order by r.version desc limit 1)`,
     at: sql<string>`${sortColumn}::text`,
   }).from(acquisitions).innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .where(and(...conditions)).orderBy(desc(sortColumn), desc(acquisitions.id)).limit(query.limit + 1)
@@ -75,7 +75,7 @@ export async function getLabAcquisition(labId: string, id: string) {
 
 async function acquisitionRow(labId: string, id: string, choice: ResultChoice) {
   const [row] = await useDb().select({ acq: acquisitionHead, res: results, slug: instruments.slug, reviewer: reviewer.name, previous: previousPublished() }).from(acquisitions)
-    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice(choice)))
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), eq(results.acquisitionCreatedAt, acquisitions.createdAt), resultChoice(choice)))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .leftJoin(reviewer, eq(reviewer.id, results.reviewedBy))
     .where(and(eq(acquisitions.id, id), eq(acquisitions.labId, labId))).limit(1)
@@ -98,7 +98,7 @@ export async function acquisitionDetail(labId: string, id: string) {
     submittedBy: acquisitions.submittedBy, retentionDays: labs.rawRetentionDays,
     head: sql<string | null>`left(jsonb_pretty(${acquisitions.payload}), ${PAYLOAD_PREVIEW_CHARS})`, chars: sql<number | null>`length(${acquisitions.payload}::text)`,
   }).from(acquisitions)
-    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), resultChoice('latest')))
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), eq(results.acquisitionCreatedAt, acquisitions.createdAt), resultChoice('latest')))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))
     .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
     .innerJoin(labs, eq(labs.id, acquisitions.labId))

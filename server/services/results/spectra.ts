@@ -33,7 +33,7 @@ export async function spectrumOf(labId: string, id: string): Promise<Spectrum> {
       constants: sql<string | null>`${results.summary}->>'constants'`, calibrated: sql<boolean>`coalesce((${results.summary}->>'calibrated')::boolean, false)` },
   })
     .from(acquisitions)
-    .innerJoin(results, eq(results.acquisitionId, acquisitions.id))
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), eq(results.acquisitionCreatedAt, acquisitions.createdAt)))
     .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
     .leftJoin(calibrations, eq(calibrations.id, results.calibrationId))
     .innerJoin(instruments, eq(instruments.id, acquisitions.instrumentId))

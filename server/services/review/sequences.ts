@@ -24,7 +24,7 @@ async function lockSequence(tx: Queryable, labId: string, sequenceId: string) {
 async function firstUnreleasedMember(tx: Queryable, sequenceId: string) {
   const [member] = await tx.select({ position: sequenceItems.position, runId: acquisitions.externalId, state: results.reviewState }).from(sequenceItems)
     .innerJoin(acquisitions, eq(acquisitions.id, sequenceItems.acquisitionId))
-    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), isNull(results.supersededBy)))
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), eq(results.acquisitionCreatedAt, acquisitions.createdAt), isNull(results.supersededBy)))
     .where(and(eq(sequenceItems.sequenceId, sequenceId), ne(results.reviewState, 'released')))
     .orderBy(asc(sequenceItems.position)).limit(1)
   return member

@@ -2,7 +2,7 @@ import { createHash } from 'node:crypto'
 import { and, eq, inArray, sql } from 'drizzle-orm'
 import type { H3Error } from 'h3'
 import type { SequenceInput, SequenceMemberInput, SequenceView } from '#shared/schemas/sequences'
-import { acquisitions, sequenceItems, sequences } from '../../database/schema'
+import { acquisitionRuns, acquisitions, sequenceItems, sequences } from '../../database/schema'
 import { acceptAcquisition } from '../ingest'
 import { labInstrument, methodInForce, methodVersion } from './methods'
 import { materialsAt } from './materials'
@@ -53,12 +53,18 @@ async function checkMaterials(labId: string, members: SequenceMemberInput[], pat
   }
 }
 
+/**
+ * The acquisition's created_at (the partition key its sequence item's foreign key carries),
+ * copied in SQL by the insert itself: a JS Date would drop its microseconds.
+ */
+const createdAtOf = (acquisitionId: string) => sql<Date>`(select a.created_at from ${acquisitions} a where a.id = ${acquisitionId}::uuid)`
+
 /** Acquisitions already stored under these run ids that belong to another sequence. */
 async function checkNotInAnotherSequence(labId: string, runIds: string[], sequenceId: string | null, path: (i: number) => string) {
   if (!runIds.length) return
-  const rows = await useDb().select({ runId: acquisitions.externalId, sequenceId: sequenceItems.sequenceId }).from(acquisitions)
-    .innerJoin(sequenceItems, eq(sequenceItems.acquisitionId, acquisitions.id))
-    .where(and(eq(acquisitions.labId, labId), inArray(acquisitions.externalId, runIds)))
+  const rows = await useDb().select({ runId: acquisitionRuns.externalId, sequenceId: sequenceItems.sequenceId }).from(acquisitionRuns)
+    .innerJoin(sequenceItems, eq(sequenceItems.acquisitionId, acquisitionRuns.acquisitionId))
+    .where(and(eq(acquisitionRuns.labId, labId), inArray(acquisitionRuns.externalId, runIds)))
   const taken = rows.find(r => r.sequenceId !== sequenceId)
   if (taken) throw fieldProblem(path(runIds.indexOf(taken.runId)), 'this run belongs to another sequence', 409, 'run-in-another-sequence')
 }
@@ -103,7 +109,7 @@ export async function openSequence(key: SequenceKey, input: SequenceInput, reque
   const members = accepted.flatMap((r, i) => r.status === 'fulfilled' ? [{ member: input.acquisitions[i]!, acquisitionId: r.value.body.id }] : [])
   if (members.length) {
     await useDb().insert(sequenceItems).values(members.map(({ member, acquisitionId }) => ({
-      sequenceId: row.id, position: member.position, acquisitionId, role: member.role, material: member.material ?? null,
+      sequenceId: row.id, position: member.position, acquisitionId, acquisitionCreatedAt: createdAtOf(acquisitionId), role: member.role, material: member.material ?? null,
     })))
   }
   const refused = accepted.findIndex(r => r.status === 'rejected')
@@ -156,7 +162,7 @@ export async function addToSequence(key: SequenceKey, externalId: string, member
   let acquisitionId: string
   try { acquisitionId = (await acceptAcquisition(key, member.acquisition, { requestId })).body.id }
   catch (error) { throw underPath(error, 'acquisition') }
-  const [inserted] = await useDb().insert(sequenceItems).values({ sequenceId: seq.id, position: member.position, acquisitionId, role: member.role, material: member.material ?? null })
+  const [inserted] = await useDb().insert(sequenceItems).values({ sequenceId: seq.id, position: member.position, acquisitionId, acquisitionCreatedAt: createdAtOf(acquisitionId), role: member.role, material: member.material ?? null })
     .onConflictDoNothing().returning({ position: sequenceItems.position })
   if (!inserted) throw fieldProblem('position', `position ${member.position} was taken by another request at the same moment; run ${member.acquisition.runId} is stored as an acquisition outside the sequence`, 409, 'position-taken')
   return answer(201, await closeIfFull(seq.id))

@@ -39,7 +39,7 @@ async function members(sequenceId: string) {
     arraysSha256: acquisitions.arraysSha256, staticMode: sql<boolean>`${results.summary}->>'mode' = 'static'`,
   }).from(sequenceItems)
     .innerJoin(acquisitions, eq(acquisitions.id, sequenceItems.acquisitionId))
-    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), isNull(results.supersededBy)))
+    .innerJoin(results, and(eq(results.acquisitionId, acquisitions.id), eq(results.acquisitionCreatedAt, acquisitions.createdAt), isNull(results.supersededBy)))
     .innerJoin(geometryVersions, eq(geometryVersions.id, results.geometryVersionId))
     .where(eq(sequenceItems.sequenceId, sequenceId)).orderBy(asc(sequenceItems.position))
   // Raw data in the object store: the static acquisitions' cycle times and columns come from
