@@ -25,6 +25,10 @@ const allowedGenerics: [file: string, generic: string][] = [
   // Seven-segment paths, past TypeScript's depth limit like calibrations/preview.
   ['app/pages/console/labs/[id]/reprocess-jobs/[jobId].vue', '$fetch<CancelledReprocessJob>'],
   ['app/pages/console/labs/[id]/reprocess-jobs/[jobId].vue', '$fetch<ReleasedCorrection>'],
+  // The cursor-list composable, over several routes: each caller names the item by its route's
+  // inferred answer (app/types/api.ts) or the zod schema the handler answers with.
+  ['app/composables/useCursorList.ts', 'useFetch<CursorPage<T>>'],
+  ['app/composables/useCursorList.ts', '$fetch<CursorPage<T>>'],
   // An attempt's signature check: eight segments, named by its route's inferred answer.
   ['app/pages/console/partners/[id]/deliveries/[deliveryId].vue', '$fetch<Answer<\'/api/console/partners/:id/deliveries/:deliveryId/attempts/:attemptId/signature\'>>'],
 ]
