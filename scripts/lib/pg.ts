@@ -118,7 +118,9 @@ export async function startCluster(): Promise<Cluster> {
     log(`PostgreSQL already running on 127.0.0.1:${pgPort}; reusing it`)
   } else {
     log(`starting PostgreSQL on 127.0.0.1:${pgPort}`)
-    const r = asServerUser(join(bin, 'pg_ctl'), ['-D', clusterDir, '-l', logFile, '-w', '-t', '60', 'start'], { quiet: true })
+    // The port on the command line: the cluster's conf holds the port it was made with, and
+    // ARCWISE_PG_PORT must move an existing cluster too (`pg_ctl restart` keeps the option).
+    const r = asServerUser(join(bin, 'pg_ctl'), ['-D', clusterDir, '-l', logFile, '-o', `-p ${pgPort}`, '-w', '-t', '60', 'start'], { quiet: true })
     if (r.status !== 0) throw new Error(`PostgreSQL did not start (see ${logFile}):\n${r.stdout}${r.stderr}`)
     startedHere = true
   }
