@@ -35,6 +35,19 @@ describe('acquisitions as files', () => {
     expect(res.body.result.peaks.map((p: any) => p.assignment?.species)).toEqual(expect.arrayContaining(['CO2', '[13C]O2']))
   })
 
+  it('keeps every CSV value in its place across the parser\'s blocks of 65,536 rows', async () => {
+    const { key, lab, admin } = await labWithInstrument()
+    const points = 140_000 // two block boundaries and a partial third block
+    const file = csvFile(unique('csv-blocks'), points, '\n')
+    const rows = file.split('\n').filter(l => /^[\d.-]/.test(l)).map(l => l.split(',').map(Number))
+    const res = await upload(key.secret, file, 'text/csv')
+    expect(res.status, JSON.stringify(res.body).slice(0, 300)).toBe(201)
+    expect(res.body.result.points).toBe(points)
+    const payload = await fetch(url(`/api/console/labs/${lab.id}/acquisitions/${res.body.id}/payload.json`), { headers: { cookie: admin.cookie } }).then(r => r.json()) as any
+    expect(payload.sweep.values).toEqual(rows.map(r => r[0]))
+    expect(payload.detectors[0].values).toEqual(rows.map(r => r[1]))
+  })
+
   it('takes the same CSV as a multipart part', async () => {
     const { key } = await labWithInstrument()
     const form = new FormData()
