@@ -436,6 +436,15 @@ try {
     if (outcome.leak) fuzz.leaks++
     if (bad && fuzz.examples.length < 20) fuzz.examples.push(`${outcome.status || outcome.error}${outcome.leak ? ' (names a prototype function)' : ''}: ${what}`)
   }
+  /** The process's worst event-loop delay since the last reading (then reset); Infinity if unread. */
+  const readStall = async (base: string) => {
+    try {
+      const { eventLoopDelayMaxMs } = await (await fetch(`${base}/_bench/diagnostics`, { signal: AbortSignal.timeout(10_000) })).json() as { eventLoopDelayMaxMs: number }
+      await fetch(`${base}/_bench/diagnostics`, { method: 'DELETE', signal: AbortSignal.timeout(10_000) })
+      return eventLoopDelayMaxMs
+    }
+    catch { return Number.POSITIVE_INFINITY }
+  }
   /** Waits, until the fuzz deadline, for a process held up by a request to answer again. */
   const answering = async (base: string) => {
     while (Date.now() < fuzzDeadline) {
@@ -449,7 +458,10 @@ try {
   // 1. Built to exhaust: each process gets every other request, one at a time, so that a
   //    request that holds a process up is seen alone; after one that got no answer, the next
   //    waits until the process answers again.
-  const byCategory: Record<string, { requests: number, answeredRight: number, worst: string[] }> = {}
+  //    Each process's worst event-loop delay is read and reset after each of these, so that a
+  //    stall is charged to the request that caused it (stallMs per category, the request named).
+  const byCategory: Record<string, { requests: number, answeredRight: number, worst: string[], stallMs: number, stalledBy?: string }> = {}
+  let exhaustionStallMs = 0
   const chunked: { why: string, status: number, sentBytes: number, error?: string }[] = []
   await Promise.all(fuzzBases.map(async (base, lane) => {
     for (const [i, { request, category }] of exhaustion.entries()) {
@@ -458,8 +470,11 @@ try {
         ? await sendExhaustion(base, request, Math.min(60_000, Math.max(1000, fuzzDeadline - Date.now())))
         : { status: 0, problem: false, leak: false, error: 'not sent: the fuzz phase ran out of time' }
       tally(outcome, `[${category}] ${request.why}: ${request.method} ${request.path}`)
-      const c = byCategory[category] ??= { requests: 0, answeredRight: 0, worst: [] }
+      const c = byCategory[category] ??= { requests: 0, answeredRight: 0, worst: [], stallMs: 0 }
       c.requests++
+      const stallMs = await readStall(base)
+      exhaustionStallMs = Math.max(exhaustionStallMs, stallMs)
+      if (stallMs > c.stallMs) Object.assign(c, { stallMs: Math.round(stallMs), stalledBy: request.why })
       // A body past the cap is answered right only with 413.
       if (outcome.status >= 400 && outcome.status < 500 && outcome.problem && !outcome.leak && (!('chunked' in request) || outcome.status === 413)) c.answeredRight++
       else if (c.worst.length < 5) c.worst.push(`${outcome.status || outcome.error}: ${request.why}`)
@@ -467,7 +482,7 @@ try {
     }
   }))
   const stillAnswering = await Promise.all(fuzzBases.map(answering))
-  say(`fuzz: exhaustion requests done (${Object.entries(byCategory).map(([k, v]) => `${k} ${v.answeredRight}/${v.requests}`).join(', ')})`)
+  say(`fuzz: exhaustion requests done (${Object.entries(byCategory).map(([k, v]) => `${k} ${v.answeredRight}/${v.requests}, worst stall ${v.stallMs} ms`).join('; ')})`)
 
   // 2. Generated bad requests, 16 at a time, each with 30 s to answer.
   const limit = pLimit(16)
@@ -480,13 +495,15 @@ try {
   await sleep(1500) // anything a refused request set going in the background
   const written = rowsWritten(before, await rowCounts(sql))
   const rowsWrittenByRejected = Object.values(written).reduce((s, n) => s + Math.abs(n), 0)
-  // Measured inside each app process: the worst event-loop delay since the reset above and
+  // Measured inside each app process: the worst event-loop delay since the last reading (the
+  // generated requests') and
   // the process's peak RSS (A and B started fresh before the fuzz).
   const diagnostics = await Promise.all(fuzzBases.map(async (base) => {
     try { return await (await fetch(`${base}/_bench/diagnostics`, { signal: AbortSignal.timeout(10_000) })).json() as { eventLoopDelayMaxMs: number, peakRssBytes: number, pid: number } }
     catch (error) { return { error: String(error), eventLoopDelayMaxMs: Number.POSITIVE_INFINITY, peakRssBytes: Number.POSITIVE_INFINITY, pid: 0 } }
   }))
-  const worstStallMs = Math.max(...diagnostics.map(d => d.eventLoopDelayMaxMs))
+  // The generated requests' worst beside the exhaustion requests' (read one by one above).
+  const worstStallMs = Math.max(exhaustionStallMs, ...diagnostics.map(d => d.eventLoopDelayMaxMs))
   const peakRssBytes = Math.max(...diagnostics.map(d => d.peakRssBytes))
   const chunkedAnswered413 = chunked.filter(c => c.status === 413).length
 
