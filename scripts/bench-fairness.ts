@@ -22,6 +22,7 @@ import { demoAdmin } from './lib/console-client'
 import { quantile } from './lib/open-loop'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
+import { everyQcCode } from './lib/demo'
 import { startServer, startStack, waitForServer } from './lib/services'
 
 const PORT = 3300
@@ -63,7 +64,7 @@ export async function benchFairness(opts: { rate?: number, seconds?: number } = 
   await new Promise<void>(resolve => sink.listen(SINK_PORT, '127.0.0.1', resolve))
   const stack = await startStack({ database: 'arcwise_bench', fresh: true, smtpPort: 2527, mailHttpPort: 2582, storePort: 4572, appUrl: base })
   const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
-  await seedDemo(stack.databaseUrl, { keysFile })
+  await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
   const labs = await benchLabs(stack.databaseUrl)
   buildIfStale()
   // The hub's defaults for concurrency, per-endpoint limits, timeout and retries.
@@ -166,7 +167,10 @@ async function benchLabs(databaseUrl: string) {
       const [partner] = await tx`select id from partners where slug = 'northgate-water'`
       const out: { id: string, key: string }[] = []
       for (let i = 0; i < HEALTHY; i++) {
-        const [lab] = await tx`insert into labs (slug, name, site, contact_email) values (${`bench-lab-${i}`}, ${`Bench lab ${i}`}, 'Bench', ${`lab${i}@bench.example`}) returning id`
+        // Released at once, as seedDemo's releaseAll does: a lab's default is review by a person,
+        // and with it nothing reached a partner (every healthy endpoint received 0 on 2026-12-04).
+        const [lab] = await tx`insert into labs (slug, name, site, contact_email, release_policy, auto_release_allows)
+                               values (${`bench-lab-${i}`}, ${`Bench lab ${i}`}, 'Bench', ${`lab${i}@bench.example`}, 'auto', ${everyQcCode}) returning id`
         const [inst] = await tx`insert into instruments (lab_id, slug, name) values (${lab!.id}, 'irms-north', 'North bench IRMS') returning id`
         await tx`insert into geometry_versions (instrument_id, version, kind, params, valid_from, note) select ${inst!.id}, version, kind, params, valid_from, note from geometry_versions where instrument_id = ${src!.id}`
         await tx`insert into calibrations (instrument_id, version, fit, points, valid_from) select ${inst!.id}, version, fit, points, valid_from from calibrations where instrument_id = ${src!.id}`
@@ -174,7 +178,7 @@ async function benchLabs(databaseUrl: string) {
         const prefix = randomBytes(9).toString('base64url')
         const key = `awk_${prefix}_${randomBytes(32).toString('base64url')}`
         await tx`insert into api_keys (lab_id, name, prefix, secret_hash, scopes) values (${lab!.id}, 'bench', ${prefix}, ${createHash('sha256').update(key).digest('hex')}, ${['acquisitions:write']})`
-        await tx`insert into grants (lab_id, partner_id, event_types) values (${lab!.id}, ${partner!.id}, ${['result.created']})`
+        await tx`insert into grants (lab_id, partner_id, event_types) values (${lab!.id}, ${partner!.id}, ${['result.released']})`
         out.push({ id: lab!.id as string, key })
       }
       return out

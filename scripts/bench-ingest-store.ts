@@ -28,8 +28,12 @@ export async function benchObjectStore() {
   const keys = JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>
   const key = keys['saltmarsh-isotopes']!
   const inst = demoInstruments.find(i => i.slug === 'irms-north')!
+  // Acquisitions are partitioned by month (migration 0021): the parent holds no rows, so its
+  // size is 0 and its partitions' are summed (all 0 B in the 2026-12-04 bench before this).
+  // uploads is a plain table (pg_partition_tree lists nothing for one).
   const tableBytes = async () => Number((await sql<[{ b: string }]>`
-    select (pg_total_relation_size('acquisitions') + pg_total_relation_size('uploads'))::text as b`)[0].b)
+    select ((select sum(pg_total_relation_size(relid)) from pg_partition_tree('acquisitions'))
+      + pg_total_relation_size('uploads'))::text as b`)[0].b)
   const phase = async (name: 'storeOff' | 'storeOn') => {
     const env = name === 'storeOff' ? { ...stack.serverEnv, NUXT_STORE_BUCKET: '' } : stack.serverEnv
     const server = startServer({ ...env, NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
