@@ -74,7 +74,9 @@ export async function benchSequence(opts: { runs?: number } = {}) {
   const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
   await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
   buildIfStale()
-  const server = startServer({ ...stack.serverEnv, NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
+  // BENCH_STORE=off keeps raw data in PostgreSQL, as bench:ingest's, to see the object store's share.
+  const storeOff = process.env.BENCH_STORE === 'off' ? { NUXT_STORE_BUCKET: '' } : {}
+  const server = startServer({ ...stack.serverEnv, ...storeOff, NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
   try {
     await waitForServer(`${base}/api/health`)
     const key = (JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>)['saltmarsh-isotopes']!
