@@ -75,7 +75,7 @@ export async function benchSequence(opts: { runs?: number } = {}) {
   await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
   buildIfStale()
   // BENCH_STORE=off keeps raw data in PostgreSQL, as bench:ingest's, to see the object store's share.
-  const storeOff = process.env.BENCH_STORE === 'off' ? { NUXT_STORE_BUCKET: '' } : {}
+  const storeOff: Record<string, string> = process.env.BENCH_STORE === 'off' ? { NUXT_STORE_BUCKET: '' } : {}
   const server = startServer({ ...stack.serverEnv, ...storeOff, NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
   try {
     await waitForServer(`${base}/api/health`)
