@@ -66,15 +66,15 @@ export function splitMetaLine(line: string): { key: string, value: string } | un
 // CSV (the upload cap) doubled both columns from 8 to 16 million values on the same row,
 // 228 ms each on this machine, and `npm run chaos` saw a 536 ms stall (2026-12-04).
 const BLOCK = 65_536
-interface Column { full: Float64Array[], block: Float64Array, used: number, length: number }
-const newColumn = (): Column => ({ full: [], block: new Float64Array(BLOCK), used: 0, length: 0 })
+interface Column { full: Float64Array[], block: Float64Array, used: number }
+const newColumn = (): Column => ({ full: [], block: new Float64Array(BLOCK), used: 0 })
+const columnLength = (col: Column) => col.full.length * BLOCK + col.used
 function push(col: Column, v: number) {
   if (col.used === BLOCK) { col.full.push(col.block); col.block = new Float64Array(BLOCK); col.used = 0 }
   col.block[col.used++] = v
-  col.length++
 }
 function columnValues(col: Column): number[] {
-  const out = new Array<number>(col.length)
+  const out = new Array<number>(columnLength(col))
   let at = 0
   for (const b of [...col.full, col.block.subarray(0, col.used)]) for (let i = 0; i < b.length; i++) out[at++] = b[i]!
   return out
@@ -119,7 +119,7 @@ export async function parseCsvUpload(stream: Readable, query: QueryMeta): Promis
     }
   }
   if (!header) throw fieldProblem('csv', 'has no header row with units')
-  if (columns[0]!.length === 0) throw fieldProblem('csv', 'has a header but no data rows')
+  if (columnLength(columns[0]!) === 0) throw fieldProblem('csv', 'has a header but no data rows')
   const [swept, ...detectors] = header
   const sweepReading = /volt/i.test(swept!.name) ? 'acceleratingVoltage' : 'field'
   return withMeta(query, meta, {
