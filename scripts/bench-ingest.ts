@@ -18,7 +18,7 @@ import { cpuByProcess, cpuSpent, type CpuSeconds } from './lib/cpu'
 import { demoInstruments, thousandPointAcquisition } from './lib/demo-instruments'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
-import { startServer, startStack, waitForServer } from './lib/services'
+import { benchStoreEnv, startServer, startStack, waitForServer } from './lib/services'
 
 const PORT = 3300
 const base = `http://127.0.0.1:${PORT}`
@@ -31,9 +31,7 @@ export async function benchIngest(opts: { seconds?: number } = {}) {
   const sql = postgres(stack.databaseUrl, { max: 1, onnotice: () => {} })
   await sql`create table if not exists bench_baseline (id bigserial primary key, body jsonb not null)`
   buildIfStale()
-  // BENCH_STORE=off: raw data in PostgreSQL as before the object store (issue 23), to compare.
-  const storeOff: Record<string, string> = process.env.BENCH_STORE === 'off' ? { NUXT_STORE_BUCKET: '' } : {}
-  const server = startServer({ ...stack.serverEnv, ...storeOff, NUXT_BENCH_ROUTES: 'true', NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
+  const server = startServer({ ...stack.serverEnv, ...benchStoreEnv(), NUXT_BENCH_ROUTES: 'true', NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
   try {
     await waitForServer(`${base}/api/health`)
     const keys = JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>

@@ -14,7 +14,7 @@ import { buildIfStale } from './lib/build'
 import { demoInstruments } from './lib/demo-instruments'
 import { log } from './lib/paths'
 import { seedDemo } from './lib/seed'
-import { startServer, startStack, waitForServer } from './lib/services'
+import { benchStoreEnv, startServer, startStack, waitForServer } from './lib/services'
 
 const PORT = 3300
 const base = `http://127.0.0.1:${PORT}`
@@ -74,9 +74,7 @@ export async function benchSequence(opts: { runs?: number } = {}) {
   const keysFile = join(tmpdir(), `arcwise-bench-keys-${process.pid}.json`)
   await seedDemo(stack.databaseUrl, { keysFile, releaseAll: true })
   buildIfStale()
-  // BENCH_STORE=off keeps raw data in PostgreSQL, as bench:ingest's, to see the object store's share.
-  const storeOff: Record<string, string> = process.env.BENCH_STORE === 'off' ? { NUXT_STORE_BUCKET: '' } : {}
-  const server = startServer({ ...stack.serverEnv, ...storeOff, NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
+  const server = startServer({ ...stack.serverEnv, ...benchStoreEnv(), NUXT_RATE_LIMIT_PER_MINUTE: '100000000' }, PORT)
   try {
     await waitForServer(`${base}/api/health`)
     const key = (JSON.parse(readFileSync(keysFile, 'utf8')) as Record<string, string>)['saltmarsh-isotopes']!

@@ -69,6 +69,11 @@ export async function startStack(opts: { database: string, fresh?: boolean, smtp
   }
 }
 
+/** BENCH_STORE=off for a benchmark's server: raw data in PostgreSQL as before the object store (issue 23), to compare. */
+export function benchStoreEnv(): Record<string, string> {
+  return process.env.BENCH_STORE === 'off' ? { NUXT_STORE_BUCKET: '' } : {}
+}
+
 /** The built server; `ARCWISE_SERVER_NODE_ARGS` (e.g. "--cpu-prof") passes flags to its Node.js. */
 export function startServer(env: Record<string, string>, port: number): ChildProcess {
   const nodeArgs = process.env.ARCWISE_SERVER_NODE_ARGS?.split(' ').filter(Boolean) ?? []
