@@ -436,14 +436,16 @@ try {
     if (outcome.leak) fuzz.leaks++
     if (bad && fuzz.examples.length < 20) fuzz.examples.push(`${outcome.status || outcome.error}${outcome.leak ? ' (names a prototype function)' : ''}: ${what}`)
   }
-  /** The process's worst event-loop delay since the last reading (then reset); Infinity if unread. */
+  /** An app process's diagnostics reading (server/utils/diagnostics.ts); infinite figures if it cannot be read. */
+  const diagnosticsOf = async (base: string) => {
+    try { return await (await fetch(`${base}/_bench/diagnostics`, { signal: AbortSignal.timeout(10_000) })).json() as { eventLoopDelayMaxMs: number, peakRssBytes: number, pid: number } }
+    catch (error) { return { error: String(error), eventLoopDelayMaxMs: Number.POSITIVE_INFINITY, peakRssBytes: Number.POSITIVE_INFINITY, pid: 0 } }
+  }
+  /** The process's worst event-loop delay since the last reading, then reset. */
   const readStall = async (base: string) => {
-    try {
-      const { eventLoopDelayMaxMs } = await (await fetch(`${base}/_bench/diagnostics`, { signal: AbortSignal.timeout(10_000) })).json() as { eventLoopDelayMaxMs: number }
-      await fetch(`${base}/_bench/diagnostics`, { method: 'DELETE', signal: AbortSignal.timeout(10_000) })
-      return eventLoopDelayMaxMs
-    }
-    catch { return Number.POSITIVE_INFINITY }
+    const { eventLoopDelayMaxMs } = await diagnosticsOf(base)
+    await fetch(`${base}/_bench/diagnostics`, { method: 'DELETE', signal: AbortSignal.timeout(10_000) }).catch(() => {})
+    return eventLoopDelayMaxMs
   }
   /** Waits, until the fuzz deadline, for a process held up by a request to answer again. */
   const answering = async (base: string) => {
@@ -496,12 +498,8 @@ try {
   const written = rowsWritten(before, await rowCounts(sql))
   const rowsWrittenByRejected = Object.values(written).reduce((s, n) => s + Math.abs(n), 0)
   // Measured inside each app process: the worst event-loop delay since the last reading (the
-  // generated requests') and
-  // the process's peak RSS (A and B started fresh before the fuzz).
-  const diagnostics = await Promise.all(fuzzBases.map(async (base) => {
-    try { return await (await fetch(`${base}/_bench/diagnostics`, { signal: AbortSignal.timeout(10_000) })).json() as { eventLoopDelayMaxMs: number, peakRssBytes: number, pid: number } }
-    catch (error) { return { error: String(error), eventLoopDelayMaxMs: Number.POSITIVE_INFINITY, peakRssBytes: Number.POSITIVE_INFINITY, pid: 0 } }
-  }))
+  // generated requests') and the process's peak RSS (A and B started fresh before the fuzz).
+  const diagnostics = await Promise.all(fuzzBases.map(diagnosticsOf))
   // The generated requests' worst beside the exhaustion requests' (read one by one above).
   const worstStallMs = Math.max(exhaustionStallMs, ...diagnostics.map(d => d.eventLoopDelayMaxMs))
   const peakRssBytes = Math.max(...diagnostics.map(d => d.peakRssBytes))
